@@ -1,0 +1,151 @@
+//! Command-line arguments as plain data. Nothing here validates or reads files: the resolve step
+//! in [`crate::settings`] merges these flags with a scenario file and defaults.
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+
+/// Plan which tree-of-heaven patches to treat this season, and how, to cut spotted lanternfly
+/// establishment risk the most for a fixed budget.
+#[derive(Debug, Parser)]
+#[command(name = "hostcut", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Build the patch graph and risk model, choose treatments under the budget, write the plan
+    Plan(PlanArgs),
+    /// Make the invented demo landscape and plan it end to end
+    Demo(DemoArgs),
+    /// Write the demo landscape's input files into a folder (deterministic)
+    MakeDemoInputs(MakeDemoArgs),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum KernelKind {
+    /// k(d) = exp(-d / alpha)
+    Exp,
+    /// k(d) = 1 / (1 + (d / alpha)^2)
+    Cauchy,
+}
+
+/// Flags of `hostcut plan`. Every flag overrides the same setting in `--scenario`.
+#[derive(Debug, Clone, Default, Args)]
+pub struct PlanArgs {
+    /// Scenario TOML with any of the settings below (flags override it)
+    #[arg(long, value_name = "FILE")]
+    pub scenario: Option<PathBuf>,
+
+    /// Host layer: a raster (band 1 = tree-of-heaven stems per hectare) or polygons with a stems attribute
+    #[arg(long, value_name = "RASTER|VECTOR", conflicts_with = "inventory")]
+    pub host: Option<PathBuf>,
+    /// Name of the stems attribute of host polygons
+    #[arg(long, value_name = "FIELD")]
+    pub stems_field: Option<String>,
+    /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha]
+    #[arg(long, value_name = "CSV")]
+    pub inventory: Option<PathBuf>,
+    /// Projected CRS (metres) of the inventory's x,y, e.g. EPSG:32618
+    #[arg(long, value_name = "CRS")]
+    pub crs: Option<String>,
+    /// CRS to assume for a raster or vector layer that carries none
+    #[arg(long, value_name = "CRS")]
+    pub assume_crs: Option<String>,
+    /// Cells at or above this density (stems/ha) are host
+    #[arg(long, value_name = "STEMS_PER_HA")]
+    pub min_density: Option<f64>,
+    /// Patches smaller than this are dropped as slivers (count reported)
+    #[arg(long, value_name = "HA")]
+    pub min_patch_ha: Option<f64>,
+    /// Split patches into blocks no larger than this, so a work order is crew-sized
+    #[arg(long, value_name = "HA")]
+    pub max_patch_ha: Option<f64>,
+    /// Cell connectivity for raster patches
+    #[arg(long, value_name = "4|8")]
+    pub connectivity: Option<u8>,
+
+    /// Access polygons (e.g. parcels) with access, herbicide, cost_factor and contact fields
+    #[arg(long, value_name = "VECTOR")]
+    pub access: Option<PathBuf>,
+    /// Transport corridor lines (rail, highway); repeat for several
+    #[arg(long, value_name = "VECTOR")]
+    pub corridor: Vec<PathBuf>,
+    /// Introduction weight beta of each `--corridor`, in order (one value applies to all)
+    #[arg(long, value_name = "BETA")]
+    pub corridor_weight: Vec<f64>,
+    /// Buffer in metres of each `--corridor`, in order (one value applies to all)
+    #[arg(long, value_name = "METRES")]
+    pub corridor_buffer_m: Vec<f64>,
+    /// Known lanternfly detections (points)
+    #[arg(long, value_name = "VECTOR")]
+    pub detections: Option<PathBuf>,
+    /// Weight gamma of detections in the introduction pressure
+    #[arg(long, value_name = "GAMMA")]
+    pub detection_weight: Option<f64>,
+
+    /// Treatment catalogue TOML (replaces the built-in models/treatments.toml)
+    #[arg(long, value_name = "FILE")]
+    pub treatments: Option<PathBuf>,
+    /// Dispersal kernel family
+    #[arg(long, value_enum)]
+    pub kernel: Option<KernelKind>,
+    /// Dispersal kernel scale alpha in metres
+    #[arg(long, value_name = "METRES")]
+    pub alpha_m: Option<f64>,
+    /// Patches are linked when the kernel is at least this
+    #[arg(long)]
+    pub epsilon: Option<f64>,
+
+    /// Season budget (currency of the treatment catalogue)
+    #[arg(long)]
+    pub budget: Option<f64>,
+    /// Crew hours available this season
+    #[arg(long, value_name = "HOURS")]
+    pub crew_hours: Option<f64>,
+    /// Patch ids that must be treated (comma-separated or repeated)
+    #[arg(long, value_name = "IDS", value_delimiter = ',')]
+    pub require: Vec<String>,
+    /// Patch ids that must not be treated (comma-separated or repeated)
+    #[arg(long, value_name = "IDS", value_delimiter = ',')]
+    pub exclude: Vec<String>,
+    /// Stop the optimiser after this many seconds and report the best plan with its gap
+    #[arg(long, value_name = "SECONDS")]
+    pub time_limit_s: Option<f64>,
+    /// Stop when (risk_after - bound) / risk_after is at most this
+    #[arg(long)]
+    pub gap: Option<f64>,
+
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Replace the outputs in a non-empty `--out`
+    #[arg(long)]
+    pub force: bool,
+    /// Print only errors and the standing cautions
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct DemoArgs {
+    /// Output folder for the demo's inputs and plan
+    #[arg(long, value_name = "DIR", default_value = "demo-out")]
+    pub out: PathBuf,
+    /// Replace the outputs in a non-empty `--out`
+    #[arg(long)]
+    pub force: bool,
+    /// Print only errors and the standing cautions
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct MakeDemoArgs {
+    /// Folder to write the demo inputs into
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
+}

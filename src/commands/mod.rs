@@ -1,0 +1,4 @@
+//! One file per subcommand.
+
+pub mod demo;
+pub mod plan;

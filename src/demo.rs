@@ -1,0 +1,253 @@
+//! The demo landscape: an invented county ("Hollin County", fictional) with tree-of-heaven
+//! clumps, parcels with access and herbicide rules, a rail line, a highway, a few detections,
+//! a stand inventory and a scenario file. Deterministic: the same files every time
+//! (`hostcut make-demo-inputs DIR`; `demo-inputs/` in the repository was made this way).
+//!
+//! # Units
+//! EPSG:32618 (UTM zone 18N), metres; 20 m cells; densities in stems per hectare.
+
+use std::fmt::Write as _;
+use std::path::Path;
+
+use geo::{LineString, MultiPolygon, Point, Polygon};
+
+use crate::error::{Error, Result};
+use crate::gis::{self, Crs, Property};
+
+/// A small deterministic generator (SplitMix64), so the demo needs no random-number crate.
+pub struct SplitMix(u64);
+
+impl SplitMix {
+    pub fn new(seed: u64) -> Self {
+        SplitMix(seed)
+    }
+    pub fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    pub fn unit(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+    pub fn range(&mut self, lo: f64, hi: f64) -> f64 {
+        lo + (hi - lo) * self.unit()
+    }
+}
+
+const X0: f64 = 500_000.0;
+const Y0: f64 = 4_470_000.0;
+const CELL: f64 = 20.0;
+const WIDTH: usize = 300; // 6 km
+const HEIGHT: usize = 200; // 4 km
+
+/// The rail line and the highway, as (x, y) vertices.
+fn rail() -> Vec<(f64, f64)> {
+    vec![(X0, Y0 + 3_400.0), (X0 + 1_800.0, Y0 + 2_700.0), (X0 + 3_600.0, Y0 + 2_300.0), (X0 + 6_000.0, Y0 + 1_200.0)]
+}
+fn highway() -> Vec<(f64, f64)> {
+    vec![(X0 + 2_200.0, Y0), (X0 + 2_500.0, Y0 + 1_600.0), (X0 + 2_900.0, Y0 + 4_000.0)]
+}
+
+fn distance_to_polyline(p: (f64, f64), line: &[(f64, f64)]) -> f64 {
+    line.windows(2)
+        .map(|w| {
+            let (a, b) = (w[0], w[1]);
+            let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+            let t = (((p.0 - a.0) * dx + (p.1 - a.1) * dy) / (dx * dx + dy * dy)).clamp(0.0, 1.0);
+            ((p.0 - a.0 - t * dx).powi(2) + (p.1 - a.1 - t * dy).powi(2)).sqrt()
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+/// Host density in stems/ha, row-major, -9999 = nodata (a reservoir).
+pub fn host_raster() -> Vec<f32> {
+    let mut rng = SplitMix::new(20_261_202);
+    // Clumps: more of them, and denser, near the rail line and the highway (disturbed edges).
+    let mut clumps = Vec::new();
+    while clumps.len() < 34 {
+        let (x, y) = (rng.range(X0 + 200.0, X0 + 5_800.0), rng.range(Y0 + 200.0, Y0 + 3_800.0));
+        let near = distance_to_polyline((x, y), &rail()).min(distance_to_polyline((x, y), &highway()));
+        if near > 900.0 && rng.unit() < 0.55 {
+            continue;
+        }
+        let radius = rng.range(40.0, 130.0);
+        let peak = rng.range(150.0, 900.0) * if near < 400.0 { 1.6 } else { 1.0 };
+        clumps.push((x, y, radius, peak));
+    }
+    let mut values = vec![0f32; WIDTH * HEIGHT];
+    for row in 0..HEIGHT {
+        for col in 0..WIDTH {
+            let (x, y) = (X0 + (col as f64 + 0.5) * CELL, Y0 + HEIGHT as f64 * CELL - (row as f64 + 0.5) * CELL);
+            // The reservoir (nodata) in the south-east.
+            if ((x - (X0 + 4_700.0)) / 500.0).powi(2) + ((y - (Y0 + 700.0)) / 300.0).powi(2) < 1.0 {
+                values[row * WIDTH + col] = -9999.0;
+                continue;
+            }
+            let mut d = 0.0;
+            for &(cx, cy, r, peak) in &clumps {
+                let q = ((x - cx).powi(2) + (y - cy).powi(2)) / (r * r);
+                if q < 9.0 {
+                    d += peak * (-q).exp();
+                }
+            }
+            values[row * WIDTH + col] = if d >= 1.0 { d.round() as f32 } else { 0.0 };
+        }
+    }
+    values
+}
+
+/// Parcels: a 6 x 4 grid of 1 km squares with invented owners and rules.
+fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
+    let mut out = Vec::new();
+    let owners = [
+        ("Hollin County Parks", "open", "allowed", 1.0, "Parks office 555-0110"),
+        ("Valley & Northern Railroad", "permission", "allowed", 1.2, "Right-of-way desk 555-0141"),
+        ("Private farm", "permission", "allowed", 1.1, "Owner on file, call 555-0123"),
+        ("Millbrook School District", "open", "restricted", 1.3, "Facilities 555-0177"),
+        ("Hollin Water Authority", "open", "prohibited", 1.2, "Watershed office 555-0190"),
+        ("Private woodlot", "denied", "allowed", 1.0, ""),
+        ("State Forest tract", "open", "allowed", 0.9, "District forester 555-0102"),
+    ];
+    let layout = [
+        [0, 2, 6, 1, 2, 0],
+        [2, 1, 1, 0, 5, 2],
+        [1, 0, 3, 2, 6, 4],
+        [6, 2, 0, 5, 4, 4],
+    ];
+    for (r, row) in layout.iter().enumerate() {
+        for (c, &k) in row.iter().enumerate() {
+            let (x, y) = (X0 + c as f64 * 1_000.0, Y0 + (3 - r) as f64 * 1_000.0);
+            let ring = LineString::from(vec![(x, y), (x + 1_000.0, y), (x + 1_000.0, y + 1_000.0), (x, y + 1_000.0), (x, y)]);
+            let (owner, access, herbicide, cost, contact) = owners[k];
+            out.push((
+                MultiPolygon(vec![Polygon::new(ring, vec![])]),
+                vec![
+                    Property::Text(format!("HC-{}{}", (b'A' + r as u8) as char, c + 1)),
+                    Property::Text(owner.into()),
+                    Property::Text(access.into()),
+                    Property::Text(herbicide.into()),
+                    Property::Number(cost),
+                    Property::Text(contact.into()),
+                ],
+            ));
+        }
+    }
+    out
+}
+
+fn detections() -> Vec<(f64, f64)> {
+    vec![(X0 + 900.0, Y0 + 3_050.0), (X0 + 3_300.0, Y0 + 2_450.0), (X0 + 2_450.0, Y0 + 1_300.0), (X0 + 5_100.0, Y0 + 1_700.0)]
+}
+
+/// Stand inventory CSV text (a separate, point-based survey of the same county).
+pub fn inventory_csv() -> String {
+    let mut rng = SplitMix::new(77);
+    let mut t = String::from("id,x,y,stems,access,herbicide,cost_factor\n");
+    for k in 0..40 {
+        let (x, y) = (rng.range(X0 + 100.0, X0 + 5_900.0), rng.range(Y0 + 100.0, Y0 + 3_900.0));
+        let stems = (rng.range(5.0, 400.0)).round();
+        let access = ["open", "open", "open", "permission", "denied"][(rng.unit() * 5.0) as usize];
+        let herbicide = ["allowed", "allowed", "allowed", "restricted", "prohibited"][(rng.unit() * 5.0) as usize];
+        let cost = [1.0, 1.0, 1.1, 1.25][(rng.unit() * 4.0) as usize];
+        let _ = writeln!(t, "HS-{:03},{x:.1},{y:.1},{stems},{access},{herbicide},{cost}", k + 1);
+    }
+    t
+}
+
+/// The demo scenario (paths relative to the scenario file).
+pub const SCENARIO: &str = r#"# Demo scenario for the invented Hollin County. Paths are relative to this file.
+[host]
+path = "host.tif"
+min_density = 20.0
+min_patch_ha = 0.1
+max_patch_ha = 5.0
+connectivity = 8
+
+[access]
+path = "parcels.gpkg"
+parcel_field = "parcel_id"
+access_field = "access"
+herbicide_field = "herbicide"
+cost_factor_field = "cost_factor"
+contact_field = "contact"
+
+[[corridor]]
+path = "rail.gpkg"
+name = "Valley & Northern Railroad"
+weight = 3.0
+buffer_m = 500.0
+
+[[corridor]]
+path = "highway.gpkg"
+name = "Route 17"
+weight = 2.0
+buffer_m = 300.0
+
+[detections]
+path = "detections.gpkg"
+weight = 1.0
+
+[model]
+kernel = "exp"
+alpha_m = 200.0
+epsilon = 0.001
+
+[plan]
+budget = 45000.0
+
+[solver]
+time_limit_s = 25.0
+gap = 0.0001
+"#;
+
+/// Write every demo input into `dir` (created if needed).
+pub fn write_inputs(dir: &Path) -> Result<()> {
+    fs_err::create_dir_all(dir).map_err(|e| Error::io("create", dir, std::io::Error::new(e.kind(), e.to_string())))?;
+    let crs = Crs::parse("EPSG:32618", "demo CRS")?;
+    for name in ["host.tif", "parcels.gpkg", "rail.gpkg", "highway.gpkg", "detections.gpkg"] {
+        let p = dir.join(name);
+        if p.exists() {
+            fs_err::remove_file(&p).map_err(|e| Error::io("replace", &p, std::io::Error::new(e.kind(), e.to_string())))?;
+        }
+    }
+    let transform = [X0, CELL, 0.0, Y0 + HEIGHT as f64 * CELL, 0.0, -CELL];
+    gis::write_geotiff(&dir.join("host.tif"), &crs, WIDTH, HEIGHT, transform, &host_raster())?;
+    let fields = [
+        ("parcel_id", Property::Text(String::new())),
+        ("owner", Property::Text(String::new())),
+        ("access", Property::Text(String::new())),
+        ("herbicide", Property::Text(String::new())),
+        ("cost_factor", Property::Number(0.0)),
+        ("contact", Property::Text(String::new())),
+    ];
+    let parcels: Vec<_> = parcels().into_iter().map(|(g, p)| (geo::Geometry::MultiPolygon(g), p)).collect();
+    gis::write_vector(&dir.join("parcels.gpkg"), "GPKG", "parcels", &crs, &fields, &parcels)?;
+    let name = [("name", Property::Text(String::new()))];
+    let line = |v: Vec<(f64, f64)>| geo::Geometry::LineString(LineString::from(v));
+    gis::write_vector(&dir.join("rail.gpkg"), "GPKG", "rail", &crs, &name, &[(line(rail()), vec![Property::Text("Valley & Northern Railroad".into())])])?;
+    gis::write_vector(&dir.join("highway.gpkg"), "GPKG", "highway", &crs, &name, &[(line(highway()), vec![Property::Text("Route 17".into())])])?;
+    let fields = [("year", Property::Integer(0))];
+    let points: Vec<_> = detections().into_iter().map(|(x, y)| (geo::Geometry::Point(Point::new(x, y)), vec![Property::Integer(2026)])).collect();
+    gis::write_vector(&dir.join("detections.gpkg"), "GPKG", "detections", &crs, &fields, &points)?;
+    let write = |name: &str, text: &str| {
+        let p = dir.join(name);
+        fs_err::write(&p, text).map_err(|e| Error::io("write", &p, std::io::Error::new(e.kind(), e.to_string())))
+    };
+    write("stands.csv", &inventory_csv())?;
+    write("scenario.toml", SCENARIO)?;
+    write(
+        "README.md",
+        "# Demo inputs (invented)\n\nHollin County does not exist. Every value here is made up by `hostcut make-demo-inputs` \
+         (src/demo.rs), deterministically; remake with `cargo run --release -- make-demo-inputs demo-inputs`.\n\n\
+         - host.tif: tree-of-heaven stems per hectare, 20 m cells, EPSG:32618, nodata = -9999 (a reservoir)\n\
+         - parcels.gpkg: 24 parcels with access (open/permission/denied), herbicide (allowed/restricted/prohibited), cost_factor, contact\n\
+         - rail.gpkg, highway.gpkg: transport corridors\n\
+         - detections.gpkg: known lanternfly populations\n\
+         - stands.csv: a point stand inventory of the same county (use with `--inventory stands.csv --crs EPSG:32618`)\n\
+         - scenario.toml: the demo plan's settings\n",
+    )?;
+    Ok(())
+}

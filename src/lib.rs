@@ -1,0 +1,41 @@
+//! hostcut: plan which tree-of-heaven patches to treat this season, and how, to cut spotted
+//! lanternfly establishment risk the most for a fixed budget.
+//!
+//! Data flow (one module per stage): [`settings`] → [`layers`] → [`patches`] → [`graph`] →
+//! [`model`] → [`optimise`] → [`plan`] → [`output`]. GDAL lives in [`gis`]; HiGHS in
+//! [`optimise`].
+
+pub mod cautions;
+pub mod cli;
+pub mod commands;
+pub mod demo;
+pub mod error;
+pub mod gis;
+pub mod graph;
+pub mod layers;
+pub mod model;
+pub mod optimise;
+pub mod output;
+pub mod patches;
+pub mod plan;
+pub mod settings;
+pub mod treatments;
+
+use cli::{Cli, Command};
+pub use error::{Error, Result};
+
+/// Run one command; returns the text for stdout.
+pub fn run(cli: Cli) -> Result<String> {
+    match cli.command {
+        Command::Plan(args) => {
+            let settings = settings::resolve(&args)?;
+            let report = commands::plan::run(&settings)?;
+            Ok(report.text)
+        }
+        Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
+        Command::MakeDemoInputs(args) => {
+            demo::write_inputs(&args.dir)?;
+            Ok(format!("demo inputs written to {}\n", args.dir.display()))
+        }
+    }
+}

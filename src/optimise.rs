@@ -1,0 +1,425 @@
+//! The optimiser: choose at most one method per patch to minimise the connected-host risk R
+//! under the budget and crew hours, exactly, as a mixed-integer program solved by HiGHS through
+//! good_lp; plus the greedy heuristic that warm-starts it and the brute force that tests it.
+//!
+//! # Formulation (docs/model.md has the derivation)
+//! Binary x_io: patch i gets its choice o. t_i = sum_o e_o x_io is the share of host removed, so
+//! r_i = 1 - t_i. Because at most one x_io is 1, r_i^2 = 1 - sum_o (1 - r_o^2) x_io exactly. For a
+//! link (i, j) the product t_i t_j = sum_o e_o (x_io t_j); each x_io t_j (binary times a [0, T_j]
+//! quantity) is replaced by u_ijo >= t_j - T_j (1 - x_io), u_ijo >= 0 (Glover 1975 style; with a
+//! positive objective coefficient the lower bounds are tight at the optimum, so the MIP optimum
+//! equals the true optimum). A fixed column carries the constant so HiGHS's objective is R itself
+//! and its dual bound is a lower bound on R.
+//!
+//! # Units
+//! Costs in catalogue currency, hours in crew hours, R in share-squared units.
+
+use std::time::Instant;
+
+use good_lp::solvers::highs::highs;
+use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
+
+use crate::error::{Error, Result};
+use crate::model::RiskModel;
+use crate::treatments::Choice;
+
+/// What the optimiser is asked: the model, each patch's eligible choices and the limits.
+#[derive(Debug, Clone)]
+pub struct Problem<'a> {
+    pub model: &'a RiskModel,
+    pub choices: Vec<Vec<Choice>>,
+    pub budget: f64,
+    pub crew_hours: Option<f64>,
+    pub required: Vec<bool>,
+    pub excluded: Vec<bool>,
+}
+
+/// For each patch, the index into its `choices` it gets, or None.
+pub type Assignment = Vec<Option<usize>>;
+
+/// How the solve ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// Proven optimal: the bound equals the plan's risk (within 1e-9 relative).
+    Optimal,
+    /// Stopped when the proven gap reached `--gap`.
+    GapLimit,
+    /// Stopped at `--time-limit-s`; the gap says how far from optimal it may be.
+    TimeLimit,
+    /// No plan satisfies the required patches within the budget and hours.
+    Infeasible,
+}
+
+impl Status {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Status::Optimal => "optimal",
+            Status::GapLimit => "gap_limit",
+            Status::TimeLimit => "time_limit",
+            Status::Infeasible => "infeasible",
+        }
+    }
+}
+
+/// The optimiser's answer.
+#[derive(Debug, Clone)]
+pub struct Solved {
+    pub assignment: Assignment,
+    pub risk_after: f64,
+    /// A proven lower bound on the least achievable R.
+    pub bound: f64,
+    /// (risk_after - bound) / risk_after.
+    pub gap: f64,
+    pub status: Status,
+    pub seconds: f64,
+    /// The better of adaptive benefit/cost greedy and the best single item.
+    pub greedy: Option<(Assignment, f64)>,
+}
+
+const FEASIBILITY: f64 = 1e-9;
+
+impl Problem<'_> {
+    pub fn len(&self) -> usize {
+        self.choices.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.choices.is_empty()
+    }
+
+    /// r_i for every patch under `assignment`.
+    pub fn remaining(&self, assignment: &Assignment) -> Vec<f64> {
+        assignment.iter().enumerate().map(|(i, a)| a.map(|o| self.choices[i][o].remaining).unwrap_or(1.0)).collect()
+    }
+
+    pub fn risk(&self, assignment: &Assignment) -> f64 {
+        self.model.risk(&self.remaining(assignment))
+    }
+
+    pub fn cost(&self, assignment: &Assignment) -> f64 {
+        assignment.iter().enumerate().filter_map(|(i, a)| a.map(|o| self.choices[i][o].cost)).sum()
+    }
+
+    pub fn hours(&self, assignment: &Assignment) -> f64 {
+        assignment.iter().enumerate().filter_map(|(i, a)| a.map(|o| self.choices[i][o].hours)).sum()
+    }
+
+    fn within(limit: f64, used: f64) -> bool {
+        used <= limit + FEASIBILITY * limit.abs().max(1.0)
+    }
+
+    /// Budget, hours, required and excluded all respected.
+    pub fn feasible(&self, assignment: &Assignment) -> bool {
+        let rules = assignment.iter().enumerate().all(|(i, a)| match a {
+            Some(o) => !self.excluded[i] && *o < self.choices[i].len(),
+            None => !self.required[i],
+        });
+        rules && Self::within(self.budget, self.cost(assignment)) && self.crew_hours.is_none_or(|h| Self::within(h, self.hours(assignment)))
+    }
+
+    /// R(current) - R(current with patch i given choice o), for an untreated patch i.
+    pub fn gain(&self, remaining: &[f64], i: usize, o: usize) -> f64 {
+        let r = self.choices[i][o].remaining;
+        let mut gain = self.model.own[i] * (1.0 - r * r);
+        for &(j, l) in &self.model.adjacency[i] {
+            gain += self.model.links[l].weight * remaining[j] * (1.0 - r);
+        }
+        gain
+    }
+}
+
+/// The better of (a) adaptive greedy by risk reduction per unit cost and (b) the best single
+/// choice, both after the required patches get their cheapest choice. None if the required
+/// patches do not fit.
+pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
+    let n = problem.len();
+    let mut base: Assignment = vec![None; n];
+    for i in 0..n {
+        if problem.required[i] {
+            let cheapest = (0..problem.choices[i].len()).min_by(|&a, &b| {
+                let (ca, cb) = (&problem.choices[i][a], &problem.choices[i][b]);
+                ca.cost.total_cmp(&cb.cost).then(ca.hours.total_cmp(&cb.hours))
+            })?;
+            base[i] = Some(cheapest);
+        }
+    }
+    if !problem.feasible(&base) {
+        return None;
+    }
+    let fits = |assignment: &Assignment, spent: f64, hours: f64, c: &Choice| {
+        let _ = assignment;
+        Problem::within(problem.budget, spent + c.cost) && problem.crew_hours.is_none_or(|h| Problem::within(h, hours + c.hours))
+    };
+    // (a) adaptive greedy.
+    let mut current = base.clone();
+    let mut remaining = problem.remaining(&current);
+    let (mut spent, mut hours) = (problem.cost(&current), problem.hours(&current));
+    loop {
+        let mut best: Option<(f64, usize, usize)> = None;
+        for i in 0..n {
+            if current[i].is_some() || problem.excluded[i] {
+                continue;
+            }
+            for (o, c) in problem.choices[i].iter().enumerate() {
+                if !fits(&current, spent, hours, c) {
+                    continue;
+                }
+                let gain = problem.gain(&remaining, i, o);
+                if gain <= 0.0 {
+                    continue;
+                }
+                let ratio = if c.cost > 0.0 { gain / c.cost } else { f64::INFINITY };
+                if best.is_none_or(|(b, _, _)| ratio > b) {
+                    best = Some((ratio, i, o));
+                }
+            }
+        }
+        let Some((_, i, o)) = best else { break };
+        current[i] = Some(o);
+        remaining[i] = problem.choices[i][o].remaining;
+        spent += problem.choices[i][o].cost;
+        hours += problem.choices[i][o].hours;
+    }
+    let greedy_risk = problem.risk(&current);
+    // (b) best single choice on top of the required ones.
+    let base_remaining = problem.remaining(&base);
+    let (base_spent, base_hours) = (problem.cost(&base), problem.hours(&base));
+    let mut single: Option<(f64, usize, usize)> = None;
+    for i in 0..n {
+        if base[i].is_some() || problem.excluded[i] {
+            continue;
+        }
+        for (o, c) in problem.choices[i].iter().enumerate() {
+            if fits(&base, base_spent, base_hours, c) {
+                let gain = problem.gain(&base_remaining, i, o);
+                if single.is_none_or(|(g, _, _)| gain > g) {
+                    single = Some((gain, i, o));
+                }
+            }
+        }
+    }
+    if let Some((_, i, o)) = single {
+        let mut one = base;
+        one[i] = Some(o);
+        let risk = problem.risk(&one);
+        if risk < greedy_risk {
+            return Some((one, risk));
+        }
+    }
+    Some((current, greedy_risk))
+}
+
+/// Exact optimum by enumerating every assignment (for tests; small problems only).
+pub fn brute_force(problem: &Problem) -> Option<(Assignment, f64)> {
+    fn walk(problem: &Problem, i: usize, current: &mut Assignment, spent: f64, hours: f64, best: &mut Option<(Assignment, f64)>) {
+        if i == problem.len() {
+            let risk = problem.risk(current);
+            if best.as_ref().is_none_or(|(_, b)| risk < *b) {
+                *best = Some((current.clone(), risk));
+            }
+            return;
+        }
+        if !problem.required[i] {
+            current[i] = None;
+            walk(problem, i + 1, current, spent, hours, best);
+        }
+        if !problem.excluded[i] {
+            for (o, c) in problem.choices[i].iter().enumerate() {
+                if Problem::within(problem.budget, spent + c.cost) && problem.crew_hours.is_none_or(|h| Problem::within(h, hours + c.hours)) {
+                    current[i] = Some(o);
+                    walk(problem, i + 1, current, spent + c.cost, hours + c.hours, best);
+                }
+            }
+        }
+        current[i] = None;
+    }
+    let mut best = None;
+    walk(problem, 0, &mut vec![None; problem.len()], 0.0, 0.0, &mut best);
+    best
+}
+
+/// Solver limits.
+#[derive(Debug, Clone, Copy)]
+pub struct Limits {
+    pub time_limit_s: f64,
+    /// Relative gap on the remaining risk at which to stop.
+    pub gap: f64,
+}
+
+/// Solve the MIP exactly (or to `limits`), warm-started from the greedy plan.
+pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
+    let start = Instant::now();
+    let n = problem.len();
+    let greedy = greedy(problem);
+    let risk_before = problem.model.risk_before();
+    let any_choice = (0..n).any(|i| !problem.excluded[i] && !problem.choices[i].is_empty());
+    let required_without_choice = (0..n).any(|i| problem.required[i] && (problem.excluded[i] || problem.choices[i].is_empty()));
+    if required_without_choice {
+        return Ok(infeasible(n, risk_before, greedy, start));
+    }
+    if !any_choice || risk_before <= 0.0 {
+        let assignment = vec![None; n];
+        let risk = problem.risk(&assignment);
+        return Ok(Solved { assignment, risk_after: risk, bound: risk, gap: 0.0, status: Status::Optimal, seconds: start.elapsed().as_secs_f64(), greedy });
+    }
+    let scale = 1e6 / risk_before;
+
+    // Columns, in the order HiGHS will see them.
+    let mut vars = ProblemVariables::new();
+    let mut columns = 0usize;
+    let mut x: Vec<Vec<(Variable, usize)>> = vec![Vec::new(); n];
+    for i in 0..n {
+        if problem.excluded[i] {
+            continue;
+        }
+        for _ in &problem.choices[i] {
+            x[i].push((vars.add(variable().binary()), columns));
+            columns += 1;
+        }
+    }
+    let t = |i: usize| -> Expression {
+        x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| (1.0 - c.remaining) * v).sum()
+    };
+    let t_max = |i: usize| problem.choices[i].iter().map(|c| 1.0 - c.remaining).fold(0.0, f64::max);
+    // u columns: for each link with choices on both ends, one per choice of the side with fewer.
+    struct Product {
+        side: usize,
+        other: usize,
+        vars: Vec<(Variable, usize)>,
+    }
+    let mut products: Vec<(usize, Product)> = Vec::new();
+    for (l, link) in problem.model.links.iter().enumerate() {
+        let (a, b) = (link.a, link.b);
+        if x[a].is_empty() || x[b].is_empty() {
+            continue;
+        }
+        let (side, other) = if x[a].len() <= x[b].len() { (a, b) } else { (b, a) };
+        let mut us = Vec::new();
+        for _ in &x[side] {
+            us.push((vars.add(variable().min(0.0).max(1.0)), columns));
+            columns += 1;
+        }
+        products.push((l, Product { side, other, vars: us }));
+    }
+    let one = vars.add(variable().min(1.0).max(1.0));
+    let one_column = columns;
+    columns += 1;
+
+    let constant: f64 = problem.model.own.iter().sum::<f64>() + problem.model.links.iter().map(|l| l.weight).sum::<f64>();
+    let mut objective: Expression = constant * one;
+    for i in 0..n {
+        for (&(v, _), c) in x[i].iter().zip(&problem.choices[i]) {
+            objective -= problem.model.own[i] * (1.0 - c.remaining * c.remaining) * v;
+        }
+    }
+    for link in &problem.model.links {
+        objective -= link.weight * (t(link.a) + t(link.b));
+    }
+    for (l, p) in &products {
+        let w = problem.model.links[*l].weight;
+        for (&(u, _), c) in p.vars.iter().zip(&problem.choices[p.side]) {
+            objective += w * (1.0 - c.remaining) * u;
+        }
+    }
+    let mut lp = vars.minimise(scale * objective).using(highs);
+    for i in 0..n {
+        if x[i].is_empty() {
+            continue;
+        }
+        let chosen: Expression = x[i].iter().map(|&(v, _)| v).sum();
+        if problem.required[i] {
+            lp = lp.with(chosen.eq(1.0));
+        } else {
+            lp = lp.with(chosen.leq(1.0));
+        }
+    }
+    let cost: Expression = (0..n).flat_map(|i| x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| c.cost * v).collect::<Vec<_>>()).sum();
+    lp = lp.with(cost.leq(problem.budget));
+    if let Some(h) = problem.crew_hours {
+        let hours: Expression = (0..n).flat_map(|i| x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| c.hours * v).collect::<Vec<_>>()).sum();
+        lp = lp.with(hours.leq(h));
+    }
+    for (_, p) in &products {
+        let tm = t_max(p.other);
+        for (&(u, _), &(xv, _)) in p.vars.iter().zip(&x[p.side]) {
+            // u >= t_other - T (1 - x)  <=>  u - t_other - T x >= -T
+            lp = lp.with((Expression::from(u) - t(p.other) - tm * xv).geq(-tm));
+        }
+    }
+
+    let mut model = lp.into_inner();
+    model.set_option("output_flag", false);
+    model.set_option("time_limit", limits.time_limit_s.max(0.01));
+    model.set_option("mip_rel_gap", limits.gap);
+    model.set_option("mip_abs_gap", 1e-9);
+    if let Some((assignment, _)) = &greedy {
+        let mut start_values = vec![0.0; columns];
+        start_values[one_column] = 1.0;
+        let remaining = problem.remaining(assignment);
+        for i in 0..n {
+            if let Some(o) = assignment[i] {
+                if let Some(&(_, col)) = x[i].get(o) {
+                    start_values[col] = 1.0;
+                }
+            }
+        }
+        for (_, p) in &products {
+            let t_other = 1.0 - remaining[p.other];
+            for (k, &(_, col)) in p.vars.iter().enumerate() {
+                if assignment[p.side] == Some(k) {
+                    start_values[col] = t_other;
+                }
+            }
+        }
+        model.try_set_solution(Some(&start_values), None, None, None).map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
+    }
+    let solved = model.try_solve().map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
+    use highs::HighsModelStatus as S;
+    let highs_status = solved.status();
+    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
+    let mut status = match highs_status {
+        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
+        S::Infeasible | S::UnboundedOrInfeasible => return Ok(infeasible(n, risk_before, greedy, start)),
+        S::ReachedTimeLimit | S::ReachedIterationLimit | S::ReachedSolutionLimit | S::ReachedInterrupt | S::ReachedMemoryLimit => Status::TimeLimit,
+        other => return Err(Error::Internal(format!("HiGHS ended with status {other:?}"))),
+    };
+    let mut assignment: Assignment = vec![None; n];
+    if has_solution {
+        let values = solved.get_solution();
+        let values = values.columns();
+        for i in 0..n {
+            for (o, &(_, col)) in x[i].iter().enumerate() {
+                if values[col] > 0.5 {
+                    assignment[i] = Some(o);
+                }
+            }
+        }
+    }
+    let dual = solved.double_info_value(c"mip_dual_bound").unwrap_or(f64::NEG_INFINITY) / scale;
+    let mut risk_after = problem.risk(&assignment);
+    if !has_solution || !problem.feasible(&assignment) {
+        match &greedy {
+            Some((g, r)) => {
+                assignment = g.clone();
+                risk_after = *r;
+            }
+            None => return Ok(infeasible(n, risk_before, greedy, start)),
+        }
+    }
+    if let Some((g, r)) = &greedy {
+        if *r < risk_after {
+            assignment = g.clone();
+            risk_after = *r;
+        }
+    }
+    let bound = if dual.is_finite() { dual.min(risk_after).max(0.0) } else { 0.0 };
+    let gap = if risk_after > 0.0 { ((risk_after - bound) / risk_after).max(0.0) } else { 0.0 };
+    if status == Status::Optimal && gap > 1e-9 {
+        status = Status::GapLimit;
+    }
+    Ok(Solved { assignment, risk_after, bound, gap, status, seconds: start.elapsed().as_secs_f64(), greedy })
+}
+
+fn infeasible(n: usize, risk_before: f64, greedy: Option<(Assignment, f64)>, start: Instant) -> Solved {
+    Solved { assignment: vec![None; n], risk_after: risk_before, bound: f64::NAN, gap: f64::NAN, status: Status::Infeasible, seconds: start.elapsed().as_secs_f64(), greedy }
+}

@@ -1,0 +1,524 @@
+//! Patches: the units a crew treats. Built from a host raster (connected components of host
+//! cells, split at parcel boundaries and into crew-sized blocks), from host polygons, or from a
+//! stand inventory; each patch takes the access rules of the parcel it lies in.
+//!
+//! # Units
+//! x, y in the working CRS (metres); stems are counts; area in hectares; the stem-weighted
+//! centroid is what distances are measured between.
+
+use std::collections::{BTreeSet, HashMap};
+use std::path::Path;
+
+use geo::{Area, Centroid, Contains, MultiPolygon, Point, Polygon};
+use rstar::primitives::{GeomWithData, Rectangle};
+use rstar::RTree;
+
+use crate::error::{Error, Result};
+use crate::gis::{self, Crs, Grid};
+use crate::layers::{Host, Layers, Parcel, Stand};
+use crate::settings::HostSection;
+
+/// Dense index of a patch, 0..n, shared by every stage after this one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct PatchId(pub u32);
+
+impl PatchId {
+    pub fn index(self) -> usize {
+        self.0 as usize
+    }
+}
+
+/// Whether a crew may enter.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Access {
+    Open,
+    Permission,
+    Denied,
+}
+
+impl Access {
+    pub fn parse(text: &str) -> Option<Access> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "open" => Some(Access::Open),
+            "permission" => Some(Access::Permission),
+            "denied" => Some(Access::Denied),
+            _ => None,
+        }
+    }
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Access::Open => "open",
+            Access::Permission => "permission",
+            Access::Denied => "denied",
+        }
+    }
+}
+
+/// Whether herbicide may be used on the site.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Herbicide {
+    Allowed,
+    Restricted,
+    Prohibited,
+}
+
+impl Herbicide {
+    pub fn parse(text: &str) -> Option<Herbicide> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "allowed" => Some(Herbicide::Allowed),
+            "restricted" => Some(Herbicide::Restricted),
+            "prohibited" => Some(Herbicide::Prohibited),
+            _ => None,
+        }
+    }
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Herbicide::Allowed => "allowed",
+            Herbicide::Restricted => "restricted",
+            Herbicide::Prohibited => "prohibited",
+        }
+    }
+}
+
+/// The rules of the place a patch stands on.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Site {
+    pub parcel: String,
+    pub access: Access,
+    pub herbicide: Herbicide,
+    pub cost_factor: f64,
+    pub contact: String,
+}
+
+impl Default for Site {
+    fn default() -> Self {
+        Site { parcel: String::new(), access: Access::Open, herbicide: Herbicide::Allowed, cost_factor: 1.0, contact: String::new() }
+    }
+}
+
+/// One patch of tree-of-heaven.
+#[derive(Debug, Clone)]
+pub struct Patch {
+    pub id: PatchId,
+    /// The id users see (raster patches: P0001...; inventory and polygons: their own id).
+    pub label: String,
+    /// Stem-weighted centroid in the working CRS.
+    pub x: f64,
+    pub y: f64,
+    pub stems: f64,
+    pub area_ha: Option<f64>,
+    pub outline: Option<MultiPolygon<f64>>,
+    pub site: Site,
+    /// Replaces the computed introduction pressure (inventory `pressure` column).
+    pub pressure_override: Option<f64>,
+}
+
+impl Patch {
+    /// The patch as a geometry: its outline, or its centroid when it has none.
+    pub fn geometry(&self) -> geo::Geometry<f64> {
+        match &self.outline {
+            Some(m) => geo::Geometry::MultiPolygon(m.clone()),
+            None => geo::Geometry::Point(Point::new(self.x, self.y)),
+        }
+    }
+}
+
+/// All patches, in id order.
+#[derive(Debug, Clone)]
+pub struct Patches {
+    pub crs: Crs,
+    pub items: Vec<Patch>,
+    /// Raster components dropped as smaller than `min_patch_ha`.
+    pub dropped_slivers: usize,
+    /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
+    pub source: &'static str,
+}
+
+impl Patches {
+    pub fn len(&self) -> usize {
+        self.items.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.items.is_empty()
+    }
+    /// Find a patch by its user-facing id.
+    pub fn by_label(&self) -> HashMap<&str, PatchId> {
+        self.items.iter().map(|p| (p.label.as_str(), p.id)).collect()
+    }
+}
+
+/// How raster cells become patches.
+#[derive(Debug, Clone, Copy)]
+pub struct LabelOptions {
+    pub min_density: f64,
+    /// 4 or 8.
+    pub connectivity: u8,
+    pub min_patch_ha: f64,
+    pub max_patch_ha: Option<f64>,
+}
+
+/// A connected group of host cells with one parcel and one block.
+#[derive(Debug, Clone)]
+pub struct Component {
+    /// Row-major cell indices, ascending.
+    pub cells: Vec<usize>,
+    /// 1-based parcel index (0 = outside every parcel).
+    pub parcel: u32,
+}
+
+fn find(parent: &mut [u32], mut i: u32) -> u32 {
+    while parent[i as usize] != i {
+        let p = parent[i as usize];
+        parent[i as usize] = parent[p as usize];
+        i = p;
+    }
+    i
+}
+
+/// Label host cells into components. Two host cells join when they touch (4- or 8-connected),
+/// lie in the same parcel and, with `max_patch_ha`, in the same square block. Components are
+/// returned in the row-major order of their first cell; those smaller than `min_patch_ha` are
+/// dropped and counted.
+pub fn label_cells(grid: &Grid, parcel_index: &[u32], options: LabelOptions) -> (Vec<Component>, usize) {
+    let (w, h) = (grid.width, grid.height);
+    let n = w * h;
+    let is_host = |i: usize| grid.values[i].is_finite() && grid.values[i] >= options.min_density;
+    let cell_ha = grid.cell_area_ha();
+    let block_side = options.max_patch_ha.map(|max| ((max / cell_ha).sqrt().floor() as usize).max(1)).unwrap_or(usize::MAX);
+    let key = |i: usize| {
+        let (col, row) = (i % w, i / w);
+        (parcel_index.get(i).copied().unwrap_or(0), col / block_side, row / block_side)
+    };
+    let mut parent: Vec<u32> = (0..n as u32).collect();
+    for row in 0..h {
+        for col in 0..w {
+            let i = row * w + col;
+            if !is_host(i) {
+                continue;
+            }
+            let mut neighbours = Vec::with_capacity(4);
+            if col > 0 {
+                neighbours.push(i - 1);
+            }
+            if row > 0 {
+                neighbours.push(i - w);
+                if options.connectivity == 8 {
+                    if col > 0 {
+                        neighbours.push(i - w - 1);
+                    }
+                    if col + 1 < w {
+                        neighbours.push(i - w + 1);
+                    }
+                }
+            }
+            for j in neighbours {
+                if is_host(j) && key(j) == key(i) {
+                    let (a, b) = (find(&mut parent, i as u32), find(&mut parent, j as u32));
+                    if a != b {
+                        parent[a.max(b) as usize] = a.min(b);
+                    }
+                }
+            }
+        }
+    }
+    let mut by_root: HashMap<u32, usize> = HashMap::new();
+    let mut components: Vec<Component> = Vec::new();
+    for i in 0..n {
+        if !is_host(i) {
+            continue;
+        }
+        let root = find(&mut parent, i as u32);
+        let slot = *by_root.entry(root).or_insert_with(|| {
+            components.push(Component { cells: Vec::new(), parcel: key(i).0 });
+            components.len() - 1
+        });
+        components[slot].cells.push(i);
+    }
+    let before = components.len();
+    components.retain(|c| c.cells.len() as f64 * cell_ha >= options.min_patch_ha);
+    let dropped = before - components.len();
+    (components, dropped)
+}
+
+/// The outline of a set of cells: the union of its row runs.
+pub fn outline(grid: &Grid, cells: &[usize]) -> MultiPolygon<f64> {
+    let w = grid.width;
+    let mut runs: Vec<Polygon<f64>> = Vec::new();
+    let mut k = 0;
+    while k < cells.len() {
+        let start = cells[k];
+        let mut end = start;
+        while k + 1 < cells.len() && cells[k + 1] == end + 1 && (end + 1) % w != 0 {
+            k += 1;
+            end = cells[k];
+        }
+        let row = (start / w) as f64;
+        let (c0, c1) = ((start % w) as f64, (end % w) as f64 + 1.0);
+        let corners = [grid.corner(c0, row), grid.corner(c1, row), grid.corner(c1, row + 1.0), grid.corner(c0, row + 1.0), grid.corner(c0, row)];
+        runs.push(Polygon::new(corners.iter().map(|&(x, y)| geo::coord! { x: x, y: y }).collect::<Vec<_>>().into(), vec![]));
+        k += 1;
+    }
+    if runs.len() == 1 {
+        return MultiPolygon(runs);
+    }
+    geo::unary_union(&runs)
+}
+
+/// Finds the parcel a point lies in.
+pub struct ParcelIndex<'a> {
+    parcels: &'a [Parcel],
+    tree: RTree<GeomWithData<Rectangle<[f64; 2]>, usize>>,
+}
+
+impl<'a> ParcelIndex<'a> {
+    pub fn new(parcels: &'a [Parcel]) -> Self {
+        use geo::BoundingRect;
+        let items = parcels
+            .iter()
+            .enumerate()
+            .filter_map(|(i, p)| p.geometry.bounding_rect().map(|r| GeomWithData::new(Rectangle::from_corners([r.min().x, r.min().y], [r.max().x, r.max().y]), i)))
+            .collect();
+        ParcelIndex { parcels, tree: RTree::bulk_load(items) }
+    }
+
+    /// The last parcel (in layer order) containing (x, y), as rasterising would burn it.
+    pub fn locate(&self, x: f64, y: f64) -> Option<&'a Parcel> {
+        let point = Point::new(x, y);
+        self.tree
+            .locate_all_at_point(&[x, y])
+            .map(|g| g.data)
+            .filter(|&i| self.parcels[i].geometry.contains(&point))
+            .max()
+            .map(|i| &self.parcels[i])
+    }
+}
+
+/// Build patches from the loaded layers.
+pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
+    let parcel_index = ParcelIndex::new(&layers.parcels);
+    let site_at = |x: f64, y: f64| parcel_index.locate(x, y).map(|p| p.site.clone()).unwrap_or_default();
+    let mut items = Vec::new();
+    let mut dropped_slivers = 0;
+    let source;
+    match &layers.host {
+        Host::Raster(grid) => {
+            source = "raster";
+            let polygons: Vec<MultiPolygon<f64>> = layers.parcels.iter().map(|p| p.geometry.clone()).collect();
+            let index = gis::rasterize_index(grid, &polygons)?;
+            let options = LabelOptions { min_density: host.min_density, connectivity: host.connectivity, min_patch_ha: host.min_patch_ha, max_patch_ha: host.max_patch_ha };
+            let (components, dropped) = label_cells(grid, &index, options);
+            dropped_slivers = dropped;
+            if components.is_empty() {
+                let max = grid.values.iter().copied().filter(|v| v.is_finite()).fold(f64::NAN, f64::max);
+                return Err(Error::input_with_hint(
+                    format!(
+                        "host raster: no patch left (cells >= {} stems/ha: none{}; largest value {})",
+                        host.min_density,
+                        if dropped > 0 { format!(" after dropping {dropped} slivers under {} ha", host.min_patch_ha) } else { String::new() },
+                        if max.is_nan() { "none: every cell is nodata".to_string() } else { format!("{max}") }
+                    ),
+                    "check that band 1 holds stems per hectare, or lower `--min-density` / `--min-patch-ha`",
+                ));
+            }
+            let cell_ha = grid.cell_area_ha();
+            let width = components.len().to_string().len().max(4);
+            for (k, c) in components.iter().enumerate() {
+                let (mut stems, mut sx, mut sy) = (0.0, 0.0, 0.0);
+                for &i in &c.cells {
+                    let s = grid.values[i] * cell_ha;
+                    let (x, y) = grid.cell_centre(i % grid.width, i / grid.width);
+                    stems += s;
+                    sx += s * x;
+                    sy += s * y;
+                }
+                let site = if c.parcel == 0 { Site::default() } else { layers.parcels[c.parcel as usize - 1].site.clone() };
+                items.push(Patch {
+                    id: PatchId(k as u32),
+                    label: format!("P{:0width$}", k + 1),
+                    x: sx / stems,
+                    y: sy / stems,
+                    stems,
+                    area_ha: Some(c.cells.len() as f64 * cell_ha),
+                    outline: Some(outline(grid, &c.cells)),
+                    site,
+                    pressure_override: None,
+                });
+            }
+        }
+        Host::Polygons(layer) => {
+            source = "polygons";
+            let mut seen = BTreeSet::new();
+            for f in &layer.features {
+                let at = format!("host layer `{}`, feature {}", layer.path.display(), f.number);
+                let polygon = match &f.geometry {
+                    geo::Geometry::Polygon(p) => MultiPolygon(vec![p.clone()]),
+                    geo::Geometry::MultiPolygon(m) => m.clone(),
+                    _ => return Err(Error::input_with_hint(format!("{at}: expected a polygon"), "give host stands as Polygon features with a stems field")),
+                };
+                let stems = f.fields.get(&host.stems_field).and_then(|v| v.as_number());
+                let stems = match stems {
+                    Some(s) if s.is_finite() && s >= 0.0 => s,
+                    _ => {
+                        return Err(Error::input_with_hint(
+                            format!("{at}, field `{}`: stems must be a number 0 or more, got `{}`", host.stems_field, f.fields.get(&host.stems_field).map(|v| v.as_text()).unwrap_or_default()),
+                            "fix the value or name the right field with `--stems-field`",
+                        ));
+                    }
+                };
+                let label = match &host.id_field {
+                    Some(field) => f.fields.get(field).map(|v| v.as_text()).filter(|t| !t.is_empty()).ok_or_else(|| Error::input(format!("{at}: empty id in field `{field}`")))?,
+                    None => format!("P{:04}", f.number),
+                };
+                if !seen.insert(label.clone()) {
+                    return Err(Error::input_with_hint(format!("{at}: duplicate id `{label}`"), "every patch needs its own id"));
+                }
+                let Some(centre) = polygon.centroid() else { return Err(Error::input(format!("{at}: empty polygon"))) };
+                if stems <= 0.0 {
+                    continue;
+                }
+                items.push(Patch {
+                    id: PatchId(items.len() as u32),
+                    label,
+                    x: centre.x(),
+                    y: centre.y(),
+                    stems,
+                    area_ha: Some(polygon.unsigned_area() / 10_000.0),
+                    site: site_at(centre.x(), centre.y()),
+                    outline: Some(polygon),
+                    pressure_override: None,
+                });
+            }
+            if items.is_empty() {
+                return Err(Error::input(format!("host layer `{}` has no polygon with stems above 0", layer.path.display())));
+            }
+        }
+        Host::Inventory { stands, .. } => {
+            source = "inventory";
+            for s in stands {
+                let mut site = site_at(s.x, s.y);
+                if let Some(a) = s.access {
+                    site.access = a;
+                }
+                if let Some(h) = s.herbicide {
+                    site.herbicide = h;
+                }
+                if let Some(c) = s.cost_factor {
+                    site.cost_factor = c;
+                }
+                items.push(Patch {
+                    id: PatchId(items.len() as u32),
+                    label: s.id.clone(),
+                    x: s.x,
+                    y: s.y,
+                    stems: s.stems,
+                    area_ha: s.area_ha,
+                    outline: None,
+                    site,
+                    pressure_override: s.pressure,
+                });
+            }
+        }
+    }
+    let total: f64 = items.iter().map(|p| p.stems).sum();
+    if total <= 0.0 {
+        return Err(Error::input("the host layer holds no stems (every patch has 0 stems)"));
+    }
+    Ok(Patches { crs: layers.crs.clone(), items, dropped_slivers, source })
+}
+
+/// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
+/// `cost_factor`, `pressure`, `area_ha`. Column names are matched case-insensitively.
+pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
+    let bytes = fs_err::read(path).map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(bytes);
+    let file = path.display();
+    let headers: Vec<String> = reader
+        .headers()
+        .map_err(|e| Error::input(format!("inventory `{file}`: cannot read the header line ({e})")))?
+        .iter()
+        .map(|h| h.to_ascii_lowercase())
+        .collect();
+    let column = |name: &str| headers.iter().position(|h| h == name);
+    let mut missing = Vec::new();
+    for name in ["id", "x", "y", "stems"] {
+        if column(name).is_none() {
+            missing.push(name);
+        }
+    }
+    if !missing.is_empty() {
+        let hint = if headers.len() == 1 && headers[0].contains(';') {
+            "the file looks semicolon-separated; save it as comma-separated CSV"
+        } else {
+            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha)"
+        };
+        return Err(Error::input_with_hint(format!("inventory `{file}`: missing required column(s) {} (found: {})", missing.join(", "), headers.join(", ")), hint));
+    }
+    let (ci, cx, cy, cs) = (column("id").unwrap_or(0), column("x").unwrap_or(0), column("y").unwrap_or(0), column("stems").unwrap_or(0));
+    let (ca, ch, cc, cp, car) = (column("access"), column("herbicide"), column("cost_factor"), column("pressure"), column("area_ha"));
+    let mut stands = Vec::new();
+    let mut seen: HashMap<String, u64> = HashMap::new();
+    for record in reader.records() {
+        let record = record.map_err(|e| {
+            let line = e.position().map(|p| format!(", line {}", p.line())).unwrap_or_default();
+            Error::input_with_hint(format!("inventory `{file}`{line}: malformed CSV ({e})"), "every row needs the same number of fields as the header; quote fields that contain commas")
+        })?;
+        let line = record.position().map(|p| p.line()).unwrap_or(0);
+        let get = |c: usize| record.get(c).unwrap_or("");
+        let number = |c: usize, name: &str, allow_negative: bool| -> Result<f64> {
+            let text = get(c);
+            let value: f64 = text.parse().map_err(|_| {
+                Error::input_with_hint(
+                    format!("inventory `{file}`, line {line}, column `{name}`: `{text}` is not a number"),
+                    "use plain numbers with a dot for decimals and no thousands separators",
+                )
+            })?;
+            if !value.is_finite() || (!allow_negative && value < 0.0) {
+                return Err(Error::input_with_hint(
+                    format!("inventory `{file}`, line {line}, column `{name}`: `{text}` must be a finite number{}", if allow_negative { "" } else { " 0 or more" }),
+                    "fix the value in the inventory",
+                ));
+            }
+            Ok(value)
+        };
+        let id = get(ci).to_string();
+        if id.is_empty() {
+            return Err(Error::input(format!("inventory `{file}`, line {line}: empty id")));
+        }
+        if let Some(first) = seen.insert(id.clone(), line) {
+            return Err(Error::input_with_hint(format!("inventory `{file}`, line {line}: duplicate id `{id}` (first on line {first})"), "every stand needs its own id"));
+        }
+        let optional_text = |c: Option<usize>| c.map(get).filter(|t| !t.is_empty());
+        let access = match optional_text(ca) {
+            None => None,
+            Some(t) => Some(Access::parse(t).ok_or_else(|| Error::input_with_hint(format!("inventory `{file}`, line {line}, column `access`: unknown value `{t}`"), "use open, permission or denied"))?),
+        };
+        let herbicide = match optional_text(ch) {
+            None => None,
+            Some(t) => Some(Herbicide::parse(t).ok_or_else(|| Error::input_with_hint(format!("inventory `{file}`, line {line}, column `herbicide`: unknown value `{t}`"), "use allowed, restricted or prohibited"))?),
+        };
+        let cost_factor = match cc.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => {
+                let v = number(c, "cost_factor", false)?;
+                if v <= 0.0 {
+                    return Err(Error::input(format!("inventory `{file}`, line {line}, column `cost_factor`: must be above 0, got {v}")));
+                }
+                Some(v)
+            }
+        };
+        let pressure = match cp.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => Some(number(c, "pressure", false)?),
+        };
+        let area_ha = match car.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => Some(number(c, "area_ha", false)?),
+        };
+        stands.push(Stand { x: number(cx, "x", true)?, y: number(cy, "y", true)?, stems: number(cs, "stems", false)?, id, area_ha, access, herbicide, cost_factor, pressure });
+    }
+    if stands.is_empty() {
+        return Err(Error::input_with_hint(format!("inventory `{file}` has a header but no stands"), "add one row per stand below the header"));
+    }
+    Ok(stands)
+}

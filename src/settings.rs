@@ -1,0 +1,461 @@
+//! Raw arguments → resolved settings.
+//!
+//! One `Scenario` type is both the scenario file a user writes and the `scenario.resolved.toml`
+//! a run writes back: [`resolve`] reads the file (if any), lays the command-line flags over it,
+//! fills defaults, makes every path absolute and validates every number, before any stage runs.
+//!
+//! # Units
+//! Distances in metres, areas in hectares, densities in stems per hectare, money in the currency
+//! of the treatment catalogue, time in hours (crew) or seconds (solver).
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use crate::cli::{KernelKind, PlanArgs};
+use crate::error::{Error, Result};
+
+/// Default dispersal scale in metres; see docs/model.md for the reasoning.
+pub const DEFAULT_ALPHA_M: f64 = 200.0;
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    #[serde(default)]
+    pub host: HostSection,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub access: Option<AccessSection>,
+    #[serde(default, rename = "corridor", skip_serializing_if = "Vec::is_empty")]
+    pub corridors: Vec<CorridorSection>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub detections: Option<DetectionSection>,
+    #[serde(default)]
+    pub model: ModelSection,
+    #[serde(default)]
+    pub plan: PlanSection,
+    #[serde(default)]
+    pub solver: SolverSection,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct HostSection {
+    /// Host raster or polygon layer.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub path: Option<PathBuf>,
+    /// Layer name inside a multi-layer vector file.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layer: Option<String>,
+    /// Stand inventory CSV (instead of `path`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inventory: Option<PathBuf>,
+    /// CRS of the inventory coordinates.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub crs: Option<String>,
+    /// CRS assumed for layers without one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub assume_crs: Option<String>,
+    pub stems_field: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub id_field: Option<String>,
+    pub min_density: f64,
+    pub min_patch_ha: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_patch_ha: Option<f64>,
+    pub connectivity: u8,
+}
+
+impl Default for HostSection {
+    fn default() -> Self {
+        HostSection {
+            path: None,
+            layer: None,
+            inventory: None,
+            crs: None,
+            assume_crs: None,
+            stems_field: "stems".into(),
+            id_field: None,
+            min_density: 10.0,
+            min_patch_ha: 0.0,
+            max_patch_ha: None,
+            connectivity: 8,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AccessSection {
+    pub path: PathBuf,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layer: Option<String>,
+    #[serde(default = "d_parcel")]
+    pub parcel_field: String,
+    #[serde(default = "d_access")]
+    pub access_field: String,
+    #[serde(default = "d_herbicide")]
+    pub herbicide_field: String,
+    #[serde(default = "d_cost_factor")]
+    pub cost_factor_field: String,
+    #[serde(default = "d_contact")]
+    pub contact_field: String,
+}
+fn d_parcel() -> String {
+    "parcel_id".into()
+}
+fn d_access() -> String {
+    "access".into()
+}
+fn d_herbicide() -> String {
+    "herbicide".into()
+}
+fn d_cost_factor() -> String {
+    "cost_factor".into()
+}
+fn d_contact() -> String {
+    "contact".into()
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CorridorSection {
+    pub path: PathBuf,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layer: Option<String>,
+    /// Name used in outputs; defaults to the file stem.
+    #[serde(default)]
+    pub name: String,
+    /// beta_c: added to the introduction pressure of patches within the buffer.
+    #[serde(default = "d_one")]
+    pub weight: f64,
+    /// b_c in metres.
+    #[serde(default = "d_buffer")]
+    pub buffer_m: f64,
+}
+fn d_one() -> f64 {
+    1.0
+}
+fn d_buffer() -> f64 {
+    500.0
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DetectionSection {
+    pub path: PathBuf,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layer: Option<String>,
+    /// gamma: weight of the kernel-weighted detections in the pressure.
+    #[serde(default = "d_one")]
+    pub weight: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct ModelSection {
+    pub kernel: KernelKind,
+    pub alpha_m: f64,
+    pub epsilon: f64,
+    /// lambda_M before treatment divided by the persistence threshold delta = e/c.
+    pub persistence_ratio: f64,
+    /// Introductions per unit of pressure, in units of landscape host share (iota).
+    pub introduction_weight: f64,
+}
+
+impl Default for ModelSection {
+    fn default() -> Self {
+        ModelSection { kernel: KernelKind::Exp, alpha_m: DEFAULT_ALPHA_M, epsilon: 0.001, persistence_ratio: 2.0, introduction_weight: 0.01 }
+    }
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlanSection {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub budget: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub crew_hours: Option<f64>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub require: Vec<String>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub exclude: Vec<String>,
+    /// Treatment catalogue; the built-in one when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub treatments: Option<PathBuf>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct SolverSection {
+    pub time_limit_s: f64,
+    pub gap: f64,
+}
+
+impl Default for SolverSection {
+    fn default() -> Self {
+        SolverSection { time_limit_s: 120.0, gap: 1e-4 }
+    }
+}
+
+/// Settings for one `plan` run: the resolved scenario plus run-only switches.
+#[derive(Debug, Clone)]
+pub struct Settings {
+    pub scenario: Scenario,
+    pub out: PathBuf,
+    pub force: bool,
+    pub quiet: bool,
+}
+
+/// Read a scenario TOML file; relative paths inside it become relative to its folder.
+pub fn read_scenario(path: &Path) -> Result<Scenario> {
+    let text = fs_err::read_to_string(path).map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    let mut scenario: Scenario = toml::from_str(text).map_err(|e| {
+        let line = e.span().map(|s| text[..s.start].lines().count().max(1));
+        Error::input(format!(
+            "scenario `{}`{}: {}",
+            path.display(),
+            line.map(|l| format!(", line {l}")).unwrap_or_default(),
+            e.message()
+        ))
+    })?;
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    scenario.rebase(&base);
+    Ok(scenario)
+}
+
+fn absolute(base: &Path, p: &Path) -> PathBuf {
+    let joined = if p.is_absolute() { p.to_path_buf() } else { base.join(p) };
+    std::path::absolute(&joined).unwrap_or(joined)
+}
+
+impl Scenario {
+    /// Make every relative path relative to `base` and absolute.
+    fn rebase(&mut self, base: &Path) {
+        let fix = |p: &mut PathBuf| *p = absolute(base, p);
+        if let Some(p) = self.host.path.as_mut() {
+            fix(p)
+        }
+        if let Some(p) = self.host.inventory.as_mut() {
+            fix(p)
+        }
+        if let Some(a) = self.access.as_mut() {
+            fix(&mut a.path)
+        }
+        for c in &mut self.corridors {
+            fix(&mut c.path)
+        }
+        if let Some(d) = self.detections.as_mut() {
+            fix(&mut d.path)
+        }
+        if let Some(p) = self.plan.treatments.as_mut() {
+            fix(p)
+        }
+    }
+
+    /// The TOML text of this scenario, as written to `scenario.resolved.toml`.
+    pub fn to_toml(&self) -> Result<String> {
+        toml::to_string_pretty(self).map_err(|e| Error::Internal(format!("cannot write the resolved scenario: {e}")))
+    }
+}
+
+/// Merge flags over the scenario file over defaults, and validate.
+pub fn resolve(args: &PlanArgs) -> Result<Settings> {
+    let mut s = match &args.scenario {
+        Some(path) => read_scenario(path)?,
+        None => Scenario::default(),
+    };
+    let cwd = std::env::current_dir().map_err(|e| Error::io("read", ".", e))?;
+    let abs = |p: &PathBuf| absolute(&cwd, p);
+    if let Some(p) = &args.host {
+        s.host.path = Some(abs(p));
+        s.host.inventory = None;
+    }
+    if let Some(p) = &args.inventory {
+        s.host.inventory = Some(abs(p));
+        s.host.path = None;
+    }
+    if let Some(v) = &args.stems_field {
+        s.host.stems_field = v.clone();
+    }
+    if let Some(v) = &args.crs {
+        s.host.crs = Some(v.clone());
+    }
+    if let Some(v) = &args.assume_crs {
+        s.host.assume_crs = Some(v.clone());
+    }
+    if let Some(v) = args.min_density {
+        s.host.min_density = v;
+    }
+    if let Some(v) = args.min_patch_ha {
+        s.host.min_patch_ha = v;
+    }
+    if let Some(v) = args.max_patch_ha {
+        s.host.max_patch_ha = Some(v);
+    }
+    if let Some(v) = args.connectivity {
+        s.host.connectivity = v;
+    }
+    if let Some(p) = &args.access {
+        s.access = Some(AccessSection {
+            path: abs(p),
+            layer: None,
+            parcel_field: d_parcel(),
+            access_field: d_access(),
+            herbicide_field: d_herbicide(),
+            cost_factor_field: d_cost_factor(),
+            contact_field: d_contact(),
+        });
+    }
+    if !args.corridor.is_empty() {
+        let n = args.corridor.len();
+        let pick = |values: &[f64], i: usize, default: f64, flag: &str| -> Result<f64> {
+            match values.len() {
+                0 => Ok(default),
+                1 => Ok(values[0]),
+                m if m == n => Ok(values[i]),
+                m => Err(Error::input_with_hint(
+                    format!("{m} values of `{flag}` for {n} `--corridor` layers"),
+                    format!("give one `{flag}` for all corridors or one per `--corridor`, in the same order"),
+                )),
+            }
+        };
+        s.corridors = Vec::new();
+        for (i, p) in args.corridor.iter().enumerate() {
+            s.corridors.push(CorridorSection {
+                path: abs(p),
+                layer: None,
+                name: String::new(),
+                weight: pick(&args.corridor_weight, i, 1.0, "--corridor-weight")?,
+                buffer_m: pick(&args.corridor_buffer_m, i, 500.0, "--corridor-buffer-m")?,
+            });
+        }
+    } else if !args.corridor_weight.is_empty() || !args.corridor_buffer_m.is_empty() {
+        if s.corridors.is_empty() {
+            return Err(Error::input("`--corridor-weight` and `--corridor-buffer-m` need at least one `--corridor`"));
+        }
+        let n = s.corridors.len();
+        for (values, is_weight) in [(&args.corridor_weight, true), (&args.corridor_buffer_m, false)] {
+            if values.is_empty() {
+                continue;
+            }
+            if values.len() != 1 && values.len() != n {
+                return Err(Error::input(format!("{} corridor values for {n} corridors in the scenario", values.len())));
+            }
+            for (i, c) in s.corridors.iter_mut().enumerate() {
+                let v = if values.len() == 1 { values[0] } else { values[i] };
+                if is_weight { c.weight = v } else { c.buffer_m = v }
+            }
+        }
+    }
+    for c in &mut s.corridors {
+        if c.name.is_empty() {
+            c.name = c.path.file_stem().map(|f| f.to_string_lossy().into_owned()).unwrap_or_else(|| "corridor".into());
+        }
+    }
+    if let Some(p) = &args.detections {
+        s.detections = Some(DetectionSection { path: abs(p), layer: None, weight: args.detection_weight.unwrap_or(1.0) });
+    } else if let (Some(w), Some(d)) = (args.detection_weight, s.detections.as_mut()) {
+        d.weight = w;
+    }
+    if let Some(p) = &args.treatments {
+        s.plan.treatments = Some(abs(p));
+    }
+    if let Some(v) = args.kernel {
+        s.model.kernel = v;
+    }
+    if let Some(v) = args.alpha_m {
+        s.model.alpha_m = v;
+    }
+    if let Some(v) = args.epsilon {
+        s.model.epsilon = v;
+    }
+    if let Some(v) = args.budget {
+        s.plan.budget = Some(v);
+    }
+    if let Some(v) = args.crew_hours {
+        s.plan.crew_hours = Some(v);
+    }
+    if !args.require.is_empty() {
+        s.plan.require = args.require.iter().map(|x| x.trim().to_string()).filter(|x| !x.is_empty()).collect();
+    }
+    if !args.exclude.is_empty() {
+        s.plan.exclude = args.exclude.iter().map(|x| x.trim().to_string()).filter(|x| !x.is_empty()).collect();
+    }
+    if let Some(v) = args.time_limit_s {
+        s.solver.time_limit_s = v;
+    }
+    if let Some(v) = args.gap {
+        s.solver.gap = v;
+    }
+    let out = match &args.out {
+        Some(o) => abs(o),
+        None => return Err(Error::input_with_hint("no output folder given", "add `--out DIR`")),
+    };
+    validate(&s)?;
+    Ok(Settings { scenario: s, out, force: args.force, quiet: args.quiet })
+}
+
+fn check(ok: bool, message: impl FnOnce() -> String, hint: &str) -> Result<()> {
+    if ok { Ok(()) } else { Err(Error::input_with_hint(message(), hint)) }
+}
+
+/// Validate every number and the choice of host layer.
+pub fn validate(s: &Scenario) -> Result<()> {
+    match (&s.host.path, &s.host.inventory) {
+        (None, None) => {
+            return Err(Error::input_with_hint(
+                "no host layer given",
+                "give `--host RASTER|VECTOR` or `--inventory stands.csv --crs EPSG:NNNN` (or `host.path` / `host.inventory` in the scenario)",
+            ));
+        }
+        (Some(_), Some(_)) => return Err(Error::input("give either a host layer or a stand inventory, not both")),
+        (None, Some(_)) if s.host.crs.is_none() => {
+            return Err(Error::input_with_hint(
+                "the stand inventory needs the CRS of its x,y coordinates",
+                "add `--crs EPSG:NNNN` naming its projected CRS in metres (e.g. a UTM zone)",
+            ));
+        }
+        (Some(_), None) if s.host.crs.is_some() => {
+            return Err(Error::input_with_hint(
+                "`--crs` names the CRS of a stand inventory; a host layer carries its own",
+                "for a layer with no CRS use `--assume-crs EPSG:NNNN`",
+            ));
+        }
+        _ => {}
+    }
+    let h = &s.host;
+    check(h.min_density.is_finite() && h.min_density > 0.0, || format!("min_density must be a positive number of stems/ha, got {}", h.min_density), "e.g. `--min-density 10`")?;
+    check(h.min_patch_ha.is_finite() && h.min_patch_ha >= 0.0, || format!("min_patch_ha must be 0 or more, got {}", h.min_patch_ha), "e.g. `--min-patch-ha 0.05`")?;
+    if let Some(m) = h.max_patch_ha {
+        check(m.is_finite() && m > 0.0, || format!("max_patch_ha must be positive, got {m}"), "e.g. `--max-patch-ha 4`")?;
+    }
+    check(h.connectivity == 4 || h.connectivity == 8, || format!("connectivity must be 4 or 8, got {}", h.connectivity), "use `--connectivity 8` (diagonal neighbours join) or `4`")?;
+    for c in &s.corridors {
+        check(c.weight.is_finite() && c.weight >= 0.0, || format!("corridor `{}`: weight must be 0 or more, got {}", c.path.display(), c.weight), "e.g. `--corridor-weight 3`")?;
+        check(c.buffer_m.is_finite() && c.buffer_m >= 0.0, || format!("corridor `{}`: buffer must be 0 or more metres, got {}", c.path.display(), c.buffer_m), "e.g. `--corridor-buffer-m 500`")?;
+    }
+    if let Some(d) = &s.detections {
+        check(d.weight.is_finite() && d.weight >= 0.0, || format!("detection weight must be 0 or more, got {}", d.weight), "e.g. `--detection-weight 1`")?;
+    }
+    let m = &s.model;
+    check(m.alpha_m.is_finite() && m.alpha_m > 0.0, || format!("alpha_m must be a positive distance in metres, got {}", m.alpha_m), "e.g. `--alpha-m 200`")?;
+    check(m.epsilon.is_finite() && m.epsilon > 0.0 && m.epsilon < 1.0, || format!("epsilon must be between 0 and 1 (exclusive), got {}", m.epsilon), "e.g. `--epsilon 0.001`")?;
+    check(m.persistence_ratio.is_finite() && m.persistence_ratio > 0.0, || format!("model.persistence_ratio must be positive, got {}", m.persistence_ratio), "e.g. `persistence_ratio = 2.0`")?;
+    check(m.introduction_weight.is_finite() && m.introduction_weight >= 0.0, || format!("model.introduction_weight must be 0 or more, got {}", m.introduction_weight), "e.g. `introduction_weight = 0.01`")?;
+    match s.plan.budget {
+        None => return Err(Error::input_with_hint("no budget given", "add `--budget AMOUNT` (the season's money for treatments)")),
+        Some(b) => check(b.is_finite() && b >= 0.0, || format!("budget must be 0 or more, got {b}"), "e.g. `--budget 60000`")?,
+    }
+    if let Some(hours) = s.plan.crew_hours {
+        check(hours.is_finite() && hours >= 0.0, || format!("crew hours must be 0 or more, got {hours}"), "e.g. `--crew-hours 400`")?;
+    }
+    for id in &s.plan.require {
+        if s.plan.exclude.contains(id) {
+            return Err(Error::input(format!("patch `{id}` is both required and excluded")));
+        }
+    }
+    check(s.solver.time_limit_s.is_finite() && s.solver.time_limit_s > 0.0, || format!("time limit must be positive seconds, got {}", s.solver.time_limit_s), "e.g. `--time-limit-s 60`")?;
+    check(s.solver.gap.is_finite() && (0.0..1.0).contains(&s.solver.gap), || format!("gap must be in [0, 1), got {}", s.solver.gap), "e.g. `--gap 0.0001`")?;
+    Ok(())
+}
