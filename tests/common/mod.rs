@@ -1,0 +1,58 @@
+//! Helpers shared by the integration tests: run the real binary in a temp dir.
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+pub fn bin() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_hostcut"))
+}
+
+/// Run `hostcut` with `args` in `dir`.
+pub fn run(dir: &Path, args: &[&str]) -> Output {
+    Command::new(bin()).args(args).current_dir(dir).output().expect("run hostcut")
+}
+
+pub fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+pub fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
+pub fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// Read summary.json of a plan folder.
+pub fn summary(out: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap()
+}
+
+/// A one-method catalogue (no herbicide) with the given effectiveness and per-patch cost.
+pub fn catalogue(effectiveness: f64, cost_per_patch: f64, cost_per_stem: f64) -> String {
+    format!(
+        "currency = \"USD\"\n[[method]]\nid = \"remove\"\nlabel = \"test removal\"\neffectiveness = {effectiveness}\ncost_per_stem = {cost_per_stem}\ncost_per_patch = {cost_per_patch}\nhours_per_stem = 0.0\nherbicide = false\nmonths = [6]\ncautions = [\"PPE\"]\n"
+    )
+}
+
+/// Write a single-band Float32 GeoTIFF; `crs` None leaves it without a CRS.
+pub fn geotiff(path: &Path, crs: Option<&str>, width: usize, height: usize, origin: (f64, f64), cell: f64, values: &[f32], nodata: Option<f64>) {
+    use gdal::DriverManager;
+    let driver = DriverManager::get_driver_by_name("GTiff").unwrap();
+    let mut ds = driver.create_with_band_type::<f32, _>(path, width, height, 1).unwrap();
+    ds.set_geo_transform(&[origin.0, cell, 0.0, origin.1, 0.0, -cell]).unwrap();
+    if let Some(def) = crs {
+        let srs = gdal::spatial_ref::SpatialRef::from_definition(def).unwrap();
+        ds.set_spatial_ref(&srs).unwrap();
+    }
+    let mut band = ds.rasterband(1).unwrap();
+    if let Some(nd) = nodata {
+        band.set_no_data_value(Some(nd)).unwrap();
+    }
+    let mut buffer = gdal::raster::Buffer::new((width, height), values.to_vec());
+    band.write((0, 0), (width, height), &mut buffer).unwrap();
+}
