@@ -56,13 +56,13 @@ pub struct PlanArgs {
     #[arg(long, value_name = "CRS")]
     pub assume_crs: Option<String>,
     /// Cells at or above this density (stems/ha) are host
-    #[arg(long, value_name = "STEMS_PER_HA")]
+    #[arg(long, allow_negative_numbers = true, value_name = "STEMS_PER_HA")]
     pub min_density: Option<f64>,
     /// Patches smaller than this are dropped as slivers (count reported)
-    #[arg(long, value_name = "HA")]
+    #[arg(long, allow_negative_numbers = true, value_name = "HA")]
     pub min_patch_ha: Option<f64>,
     /// Split patches into blocks no larger than this, so a work order is crew-sized
-    #[arg(long, value_name = "HA")]
+    #[arg(long, allow_negative_numbers = true, value_name = "HA")]
     pub max_patch_ha: Option<f64>,
     /// Cell connectivity for raster patches
     #[arg(long, value_name = "4|8")]
@@ -75,16 +75,16 @@ pub struct PlanArgs {
     #[arg(long, value_name = "VECTOR")]
     pub corridor: Vec<PathBuf>,
     /// Introduction weight beta of each `--corridor`, in order (one value applies to all)
-    #[arg(long, value_name = "BETA")]
+    #[arg(long, allow_negative_numbers = true, value_name = "BETA")]
     pub corridor_weight: Vec<f64>,
     /// Buffer in metres of each `--corridor`, in order (one value applies to all)
-    #[arg(long, value_name = "METRES")]
+    #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
     pub corridor_buffer_m: Vec<f64>,
     /// Known lanternfly detections (points)
     #[arg(long, value_name = "VECTOR")]
     pub detections: Option<PathBuf>,
     /// Weight gamma of detections in the introduction pressure
-    #[arg(long, value_name = "GAMMA")]
+    #[arg(long, allow_negative_numbers = true, value_name = "GAMMA")]
     pub detection_weight: Option<f64>,
 
     /// Treatment catalogue TOML (replaces the built-in models/treatments.toml)
@@ -94,17 +94,17 @@ pub struct PlanArgs {
     #[arg(long, value_enum)]
     pub kernel: Option<KernelKind>,
     /// Dispersal kernel scale alpha in metres
-    #[arg(long, value_name = "METRES")]
+    #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
     pub alpha_m: Option<f64>,
     /// Patches are linked when the kernel is at least this
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub epsilon: Option<f64>,
 
     /// Season budget (currency of the treatment catalogue)
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub budget: Option<f64>,
     /// Crew hours available this season
-    #[arg(long, value_name = "HOURS")]
+    #[arg(long, allow_negative_numbers = true, value_name = "HOURS")]
     pub crew_hours: Option<f64>,
     /// Patch ids that must be treated (comma-separated or repeated)
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
@@ -113,10 +113,10 @@ pub struct PlanArgs {
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
     pub exclude: Vec<String>,
     /// Stop the optimiser after this many seconds and report the best plan with its gap
-    #[arg(long, value_name = "SECONDS")]
+    #[arg(long, allow_negative_numbers = true, value_name = "SECONDS")]
     pub time_limit_s: Option<f64>,
     /// Stop when (risk_after - bound) / risk_after is at most this
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub gap: Option<f64>,
 
     /// Output folder (must be new or empty unless `--force`)
