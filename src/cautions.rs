@@ -12,25 +12,69 @@ pub struct Caution {
 
 /// Every caution the tool knows, standing ones first.
 pub const ALL: &[Caution] = &[
-    Caution { code: "LABEL", text: "The pesticide label is the law: use a product only as its label directs, at the labelled rate, on labelled sites." },
-    Caution { code: "LICENCE", text: "Licensing: restricted-use products, and most work on land you do not own, need a certified or licensed applicator; check your state's rules before hiring or applying." },
-    Caution { code: "PPE", text: "Personal protective equipment as the label requires; tree-of-heaven sap irritates skin, so wear gloves and long sleeves when cutting or pulling." },
-    Caution { code: "WATER", text: "Water and sensitive sites: keep the label's buffers from streams, ponds, wells and wetlands, or use a product labelled for aquatic sites; some basal-bark formulations are not registered near water." },
-    Caution { code: "DRIFT", text: "Drift and non-target plants: do not spray in wind or heat that carries product off target; protect desirable plants, gardens and crops." },
-    Caution { code: "FOLLOWUP", text: "Follow-up: root suckers and survivors usually need treatment for two or three more seasons; plan and budget the return visits." },
-    Caution { code: "FELL30", text: "Do not fell treated stems until 30 days or more after treatment, so the herbicide reaches the roots; cutting a live tree-of-heaven without herbicide makes it sucker." },
-    Caution { code: "QUARANTINE", text: "Quarantine: in a spotted lanternfly quarantine area, logs, stumps, brush and firewood are regulated articles; check the rules (and any permit or compliance agreement) before moving wood or equipment out." },
-    Caution { code: "LOCAL", text: "Defer to local codes and licensed practice: municipal, state and landowner rules override anything in this plan." },
-    Caution { code: "RESTRICTED_SITE", text: "Restricted site (e.g. near a school, water supply or sensitive habitat): herbicide use is allowed only under the site's extra conditions; confirm them with the site manager before work." },
-    Caution { code: "PERMISSION", text: "Landowner permission is needed before entering or treating this site; contact the listed owner or manager first." },
+    Caution {
+        code: "LABEL",
+        text: "The pesticide label is the law: use a product only as its label directs, at the labelled rate, on labelled sites.",
+    },
+    Caution {
+        code: "LICENCE",
+        text: "Licensing: restricted-use products, and most work on land you do not own, need a certified or licensed applicator; check your state's rules before hiring or applying.",
+    },
+    Caution {
+        code: "PPE",
+        text: "Personal protective equipment as the label requires; tree-of-heaven sap irritates skin, so wear gloves and long sleeves when cutting or pulling.",
+    },
+    Caution {
+        code: "WATER",
+        text: "Water and sensitive sites: keep the label's buffers from streams, ponds, wells and wetlands, or use a product labelled for aquatic sites; some basal-bark formulations are not registered near water.",
+    },
+    Caution {
+        code: "DRIFT",
+        text: "Drift and non-target plants: do not spray in wind or heat that carries product off target; protect desirable plants, gardens and crops.",
+    },
+    Caution {
+        code: "FOLLOWUP",
+        text: "Follow-up: root suckers and survivors usually need treatment for two or three more seasons; plan and budget the return visits.",
+    },
+    Caution {
+        code: "FELL30",
+        text: "Do not fell treated stems until 30 days or more after treatment, so the herbicide reaches the roots; cutting a live tree-of-heaven without herbicide makes it sucker.",
+    },
+    Caution {
+        code: "QUARANTINE",
+        text: "Quarantine: in a spotted lanternfly quarantine area, logs, stumps, brush and firewood are regulated articles; check the rules (and any permit or compliance agreement) before moving wood or equipment out.",
+    },
+    Caution {
+        code: "LOCAL",
+        text: "Defer to local codes and licensed practice: municipal, state and landowner rules override anything in this plan.",
+    },
+    Caution {
+        code: "RESTRICTED_SITE",
+        text: "Restricted site (e.g. near a school, water supply or sensitive habitat): herbicide use is allowed only under the site's extra conditions; confirm them with the site manager before work.",
+    },
+    Caution {
+        code: "PERMISSION",
+        text: "Landowner permission is needed before entering or treating this site; contact the listed owner or manager first.",
+    },
 ];
 
 /// The codes every run shows, in order.
-pub const STANDING: &[&str] = &["LABEL", "LICENCE", "PPE", "WATER", "DRIFT", "FOLLOWUP", "FELL30", "QUARANTINE", "LOCAL"];
+pub const STANDING: &[&str] = &[
+    "LABEL",
+    "LICENCE",
+    "PPE",
+    "WATER",
+    "DRIFT",
+    "FOLLOWUP",
+    "FELL30",
+    "QUARANTINE",
+    "LOCAL",
+];
 
 /// Find a caution by code.
 pub fn lookup(code: &str) -> Option<&'static Caution> {
-    ALL.iter().find(|c| c.code.eq_ignore_ascii_case(code.trim()))
+    ALL.iter()
+        .find(|c| c.code.eq_ignore_ascii_case(code.trim()))
 }
 
 /// All known codes.

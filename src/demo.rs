@@ -45,10 +45,19 @@ const HEIGHT: usize = 200; // 4 km
 
 /// The rail line and the highway, as (x, y) vertices.
 fn rail() -> Vec<(f64, f64)> {
-    vec![(X0, Y0 + 3_400.0), (X0 + 1_800.0, Y0 + 2_700.0), (X0 + 3_600.0, Y0 + 2_300.0), (X0 + 6_000.0, Y0 + 1_200.0)]
+    vec![
+        (X0, Y0 + 3_400.0),
+        (X0 + 1_800.0, Y0 + 2_700.0),
+        (X0 + 3_600.0, Y0 + 2_300.0),
+        (X0 + 6_000.0, Y0 + 1_200.0),
+    ]
 }
 fn highway() -> Vec<(f64, f64)> {
-    vec![(X0 + 2_200.0, Y0), (X0 + 2_500.0, Y0 + 1_600.0), (X0 + 2_900.0, Y0 + 4_000.0)]
+    vec![
+        (X0 + 2_200.0, Y0),
+        (X0 + 2_500.0, Y0 + 1_600.0),
+        (X0 + 2_900.0, Y0 + 4_000.0),
+    ]
 }
 
 fn distance_to_polyline(p: (f64, f64), line: &[(f64, f64)]) -> f64 {
@@ -68,8 +77,12 @@ pub fn host_raster() -> Vec<f32> {
     // Clumps: more of them, and denser, near the rail line and the highway (disturbed edges).
     let mut clumps = Vec::new();
     while clumps.len() < 34 {
-        let (x, y) = (rng.range(X0 + 200.0, X0 + 5_800.0), rng.range(Y0 + 200.0, Y0 + 3_800.0));
-        let near = distance_to_polyline((x, y), &rail()).min(distance_to_polyline((x, y), &highway()));
+        let (x, y) = (
+            rng.range(X0 + 200.0, X0 + 5_800.0),
+            rng.range(Y0 + 200.0, Y0 + 3_800.0),
+        );
+        let near =
+            distance_to_polyline((x, y), &rail()).min(distance_to_polyline((x, y), &highway()));
         if near > 900.0 && rng.unit() < 0.55 {
             continue;
         }
@@ -80,7 +93,10 @@ pub fn host_raster() -> Vec<f32> {
     let mut values = vec![0f32; WIDTH * HEIGHT];
     for row in 0..HEIGHT {
         for col in 0..WIDTH {
-            let (x, y) = (X0 + (col as f64 + 0.5) * CELL, Y0 + HEIGHT as f64 * CELL - (row as f64 + 0.5) * CELL);
+            let (x, y) = (
+                X0 + (col as f64 + 0.5) * CELL,
+                Y0 + HEIGHT as f64 * CELL - (row as f64 + 0.5) * CELL,
+            );
             // The reservoir (nodata) in the south-east.
             if ((x - (X0 + 4_700.0)) / 500.0).powi(2) + ((y - (Y0 + 700.0)) / 300.0).powi(2) < 1.0 {
                 values[row * WIDTH + col] = -9999.0;
@@ -103,13 +119,49 @@ pub fn host_raster() -> Vec<f32> {
 fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
     let mut out = Vec::new();
     let owners = [
-        ("Hollin County Parks", "open", "allowed", 1.0, "Parks office 555-0110"),
-        ("Valley & Northern Railroad", "permission", "allowed", 1.2, "Right-of-way desk 555-0141"),
-        ("Private farm", "permission", "allowed", 1.1, "Owner on file, call 555-0123"),
-        ("Millbrook School District", "open", "restricted", 1.3, "Facilities 555-0177"),
-        ("Hollin Water Authority", "open", "prohibited", 1.2, "Watershed office 555-0190"),
+        (
+            "Hollin County Parks",
+            "open",
+            "allowed",
+            1.0,
+            "Parks office 555-0110",
+        ),
+        (
+            "Valley & Northern Railroad",
+            "permission",
+            "allowed",
+            1.2,
+            "Right-of-way desk 555-0141",
+        ),
+        (
+            "Private farm",
+            "permission",
+            "allowed",
+            1.1,
+            "Owner on file, call 555-0123",
+        ),
+        (
+            "Millbrook School District",
+            "open",
+            "restricted",
+            1.3,
+            "Facilities 555-0177",
+        ),
+        (
+            "Hollin Water Authority",
+            "open",
+            "prohibited",
+            1.2,
+            "Watershed office 555-0190",
+        ),
         ("Private woodlot", "denied", "allowed", 1.0, ""),
-        ("State Forest tract", "open", "allowed", 0.9, "District forester 555-0102"),
+        (
+            "State Forest tract",
+            "open",
+            "allowed",
+            0.9,
+            "District forester 555-0102",
+        ),
     ];
     let layout = [
         [0, 2, 6, 1, 2, 0],
@@ -120,7 +172,13 @@ fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
     for (r, row) in layout.iter().enumerate() {
         for (c, &k) in row.iter().enumerate() {
             let (x, y) = (X0 + c as f64 * 1_000.0, Y0 + (3 - r) as f64 * 1_000.0);
-            let ring = LineString::from(vec![(x, y), (x + 1_000.0, y), (x + 1_000.0, y + 1_000.0), (x, y + 1_000.0), (x, y)]);
+            let ring = LineString::from(vec![
+                (x, y),
+                (x + 1_000.0, y),
+                (x + 1_000.0, y + 1_000.0),
+                (x, y + 1_000.0),
+                (x, y),
+            ]);
             let (owner, access, herbicide, cost, contact) = owners[k];
             out.push((
                 MultiPolygon(vec![Polygon::new(ring, vec![])]),
@@ -139,7 +197,12 @@ fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
 }
 
 fn detections() -> Vec<(f64, f64)> {
-    vec![(X0 + 900.0, Y0 + 3_050.0), (X0 + 3_300.0, Y0 + 2_450.0), (X0 + 2_450.0, Y0 + 1_300.0), (X0 + 5_100.0, Y0 + 1_700.0)]
+    vec![
+        (X0 + 900.0, Y0 + 3_050.0),
+        (X0 + 3_300.0, Y0 + 2_450.0),
+        (X0 + 2_450.0, Y0 + 1_300.0),
+        (X0 + 5_100.0, Y0 + 1_700.0),
+    ]
 }
 
 /// Stand inventory CSV text (a separate, point-based survey of the same county).
@@ -147,12 +210,20 @@ pub fn inventory_csv() -> String {
     let mut rng = SplitMix::new(77);
     let mut t = String::from("id,x,y,stems,access,herbicide,cost_factor\n");
     for k in 0..40 {
-        let (x, y) = (rng.range(X0 + 100.0, X0 + 5_900.0), rng.range(Y0 + 100.0, Y0 + 3_900.0));
+        let (x, y) = (
+            rng.range(X0 + 100.0, X0 + 5_900.0),
+            rng.range(Y0 + 100.0, Y0 + 3_900.0),
+        );
         let stems = (rng.range(5.0, 400.0)).round();
         let access = ["open", "open", "open", "permission", "denied"][(rng.unit() * 5.0) as usize];
-        let herbicide = ["allowed", "allowed", "allowed", "restricted", "prohibited"][(rng.unit() * 5.0) as usize];
+        let herbicide = ["allowed", "allowed", "allowed", "restricted", "prohibited"]
+            [(rng.unit() * 5.0) as usize];
         let cost = [1.0, 1.0, 1.1, 1.25][(rng.unit() * 4.0) as usize];
-        let _ = writeln!(t, "HS-{:03},{x:.1},{y:.1},{stems},{access},{herbicide},{cost}", k + 1);
+        let _ = writeln!(
+            t,
+            "HS-{:03},{x:.1},{y:.1},{stems},{access},{herbicide},{cost}",
+            k + 1
+        );
     }
     t
 }
@@ -205,16 +276,32 @@ gap = 0.0001
 
 /// Write every demo input into `dir` (created if needed).
 pub fn write_inputs(dir: &Path) -> Result<()> {
-    fs_err::create_dir_all(dir).map_err(|e| Error::io("create", dir, std::io::Error::new(e.kind(), e.to_string())))?;
+    fs_err::create_dir_all(dir)
+        .map_err(|e| Error::io("create", dir, std::io::Error::new(e.kind(), e.to_string())))?;
     let crs = Crs::parse("EPSG:32618", "demo CRS")?;
-    for name in ["host.tif", "parcels.gpkg", "rail.gpkg", "highway.gpkg", "detections.gpkg"] {
+    for name in [
+        "host.tif",
+        "parcels.gpkg",
+        "rail.gpkg",
+        "highway.gpkg",
+        "detections.gpkg",
+    ] {
         let p = dir.join(name);
         if p.exists() {
-            fs_err::remove_file(&p).map_err(|e| Error::io("replace", &p, std::io::Error::new(e.kind(), e.to_string())))?;
+            fs_err::remove_file(&p).map_err(|e| {
+                Error::io("replace", &p, std::io::Error::new(e.kind(), e.to_string()))
+            })?;
         }
     }
     let transform = [X0, CELL, 0.0, Y0 + HEIGHT as f64 * CELL, 0.0, -CELL];
-    gis::write_geotiff(&dir.join("host.tif"), &crs, WIDTH, HEIGHT, transform, &host_raster())?;
+    gis::write_geotiff(
+        &dir.join("host.tif"),
+        &crs,
+        WIDTH,
+        HEIGHT,
+        transform,
+        &host_raster(),
+    )?;
     let fields = [
         ("parcel_id", Property::Text(String::new())),
         ("owner", Property::Text(String::new())),
@@ -223,18 +310,61 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
         ("cost_factor", Property::Number(0.0)),
         ("contact", Property::Text(String::new())),
     ];
-    let parcels: Vec<_> = parcels().into_iter().map(|(g, p)| (geo::Geometry::MultiPolygon(g), p)).collect();
-    gis::write_vector(&dir.join("parcels.gpkg"), "GPKG", "parcels", &crs, &fields, &parcels)?;
+    let parcels: Vec<_> = parcels()
+        .into_iter()
+        .map(|(g, p)| (geo::Geometry::MultiPolygon(g), p))
+        .collect();
+    gis::write_vector(
+        &dir.join("parcels.gpkg"),
+        "GPKG",
+        "parcels",
+        &crs,
+        &fields,
+        &parcels,
+    )?;
     let name = [("name", Property::Text(String::new()))];
     let line = |v: Vec<(f64, f64)>| geo::Geometry::LineString(LineString::from(v));
-    gis::write_vector(&dir.join("rail.gpkg"), "GPKG", "rail", &crs, &name, &[(line(rail()), vec![Property::Text("Valley & Northern Railroad".into())])])?;
-    gis::write_vector(&dir.join("highway.gpkg"), "GPKG", "highway", &crs, &name, &[(line(highway()), vec![Property::Text("Route 17".into())])])?;
+    gis::write_vector(
+        &dir.join("rail.gpkg"),
+        "GPKG",
+        "rail",
+        &crs,
+        &name,
+        &[(
+            line(rail()),
+            vec![Property::Text("Valley & Northern Railroad".into())],
+        )],
+    )?;
+    gis::write_vector(
+        &dir.join("highway.gpkg"),
+        "GPKG",
+        "highway",
+        &crs,
+        &name,
+        &[(line(highway()), vec![Property::Text("Route 17".into())])],
+    )?;
     let fields = [("year", Property::Integer(0))];
-    let points: Vec<_> = detections().into_iter().map(|(x, y)| (geo::Geometry::Point(Point::new(x, y)), vec![Property::Integer(2026)])).collect();
-    gis::write_vector(&dir.join("detections.gpkg"), "GPKG", "detections", &crs, &fields, &points)?;
+    let points: Vec<_> = detections()
+        .into_iter()
+        .map(|(x, y)| {
+            (
+                geo::Geometry::Point(Point::new(x, y)),
+                vec![Property::Integer(2026)],
+            )
+        })
+        .collect();
+    gis::write_vector(
+        &dir.join("detections.gpkg"),
+        "GPKG",
+        "detections",
+        &crs,
+        &fields,
+        &points,
+    )?;
     let write = |name: &str, text: &str| {
         let p = dir.join(name);
-        fs_err::write(&p, text).map_err(|e| Error::io("write", &p, std::io::Error::new(e.kind(), e.to_string())))
+        fs_err::write(&p, text)
+            .map_err(|e| Error::io("write", &p, std::io::Error::new(e.kind(), e.to_string())))
     };
     write("stands.csv", &inventory_csv())?;
     write("scenario.toml", SCENARIO)?;

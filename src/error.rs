@@ -11,13 +11,24 @@ use std::path::PathBuf;
 pub enum Error {
     /// The input is wrong in a way the user can fix; `hint` says how.
     #[error("{message}")]
-    Input { message: String, hint: Option<String> },
+    Input {
+        message: String,
+        hint: Option<String>,
+    },
     /// Reading or writing a file failed.
     #[error("cannot {action} `{}`: {source}", path.display())]
-    Io { action: &'static str, path: PathBuf, source: std::io::Error },
+    Io {
+        action: &'static str,
+        path: PathBuf,
+        source: std::io::Error,
+    },
     /// GDAL failed on a file (open, read, transform).
     #[error("GDAL could not {action} `{}`: {message}", path.display())]
-    Gdal { action: &'static str, path: PathBuf, message: String },
+    Gdal {
+        action: &'static str,
+        path: PathBuf,
+        message: String,
+    },
     /// Something that should not happen: a solver failure or a broken invariant.
     #[error("internal error: {0}")]
     Internal(String),
@@ -26,22 +37,40 @@ pub enum Error {
 impl Error {
     /// A bad-input error with no fix line.
     pub fn input(message: impl Into<String>) -> Self {
-        Error::Input { message: message.into(), hint: None }
+        Error::Input {
+            message: message.into(),
+            hint: None,
+        }
     }
 
     /// A bad-input error with one hint line saying how to fix it.
     pub fn input_with_hint(message: impl Into<String>, hint: impl Into<String>) -> Self {
-        Error::Input { message: message.into(), hint: Some(hint.into()) }
+        Error::Input {
+            message: message.into(),
+            hint: Some(hint.into()),
+        }
     }
 
     /// A GDAL failure on `path`.
-    pub fn gdal(action: &'static str, path: impl Into<PathBuf>, err: impl std::fmt::Display) -> Self {
-        Error::Gdal { action, path: path.into(), message: err.to_string().trim().to_string() }
+    pub fn gdal(
+        action: &'static str,
+        path: impl Into<PathBuf>,
+        err: impl std::fmt::Display,
+    ) -> Self {
+        Error::Gdal {
+            action,
+            path: path.into(),
+            message: err.to_string().trim().to_string(),
+        }
     }
 
     /// A read or write failure on `path`.
     pub fn io(action: &'static str, path: impl Into<PathBuf>, source: std::io::Error) -> Self {
-        Error::Io { action, path: path.into(), source }
+        Error::Io {
+            action,
+            path: path.into(),
+            source,
+        }
     }
 
     /// The process exit code for this error: 2 for anything the user can fix, 1 otherwise.
@@ -56,7 +85,9 @@ impl Error {
     pub fn hint(&self) -> Option<&str> {
         match self {
             Error::Input { hint, .. } => hint.as_deref(),
-            Error::Gdal { .. } => Some("check that the file exists, is readable and is a format GDAL can open"),
+            Error::Gdal { .. } => {
+                Some("check that the file exists, is readable and is a format GDAL can open")
+            }
             _ => None,
         }
     }

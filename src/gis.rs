@@ -32,7 +32,9 @@ impl Crs {
     pub fn parse(definition: &str, what: &str) -> Result<Crs> {
         let srs = SpatialRef::from_definition(definition).map_err(|e| {
             Error::input_with_hint(
-                format!("{what}: `{definition}` is not a coordinate reference system GDAL knows ({e})"),
+                format!(
+                    "{what}: `{definition}` is not a coordinate reference system GDAL knows ({e})"
+                ),
                 "name it as an EPSG code, e.g. `EPSG:32618`",
             )
         })?;
@@ -44,24 +46,32 @@ impl Crs {
         let name = srs_name(srs);
         if srs.is_geographic() || !srs.is_projected() {
             return Err(Error::input_with_hint(
-                format!("{what} is in {name}, a geographic CRS (degrees); distances and areas need a projected CRS in metres"),
-                "reproject it to a local UTM zone or state-plane CRS in metres, e.g. `gdalwarp -t_srs EPSG:32618 in.tif out.tif` or `ogr2ogr -t_srs EPSG:32618 out.gpkg in.gpkg`",
+                format!(
+                    "{what} is in {name}, a geographic CRS (degrees); distances and areas need a projected CRS in metres"
+                ),
+                "use a projected CRS in metres (a local UTM zone or metric state plane), reprojecting the data first: `gdalwarp -t_srs EPSG:32618 in.tif out.tif` for rasters, `ogr2ogr -t_srs EPSG:32618 out.gpkg in.gpkg` for vectors",
             ));
         }
         let units = srs.linear_units();
         if (units - 1.0).abs() > 1e-9 {
             return Err(Error::input_with_hint(
-                format!("{what} is in {name}, whose units are {} ({units} m), not metres", srs.linear_units_name().unwrap_or_default()),
+                format!(
+                    "{what} is in {name}, whose units are {} ({units} m), not metres",
+                    srs.linear_units_name().unwrap_or_default()
+                ),
                 "reproject it to a projected CRS in metres (a local UTM zone or a metric state-plane CRS)",
             ));
         }
-        let wkt = srs.to_wkt().map_err(|e| Error::Internal(format!("cannot write CRS as WKT: {e}")))?;
+        let wkt = srs
+            .to_wkt()
+            .map_err(|e| Error::Internal(format!("cannot write CRS as WKT: {e}")))?;
         Ok(Crs { wkt, name })
     }
 
     /// The GDAL spatial reference, in traditional GIS axis order.
     pub fn srs(&self) -> Result<SpatialRef> {
-        let mut srs = SpatialRef::from_wkt(&self.wkt).map_err(|e| Error::Internal(format!("cannot read CRS WKT: {e}")))?;
+        let mut srs = SpatialRef::from_wkt(&self.wkt)
+            .map_err(|e| Error::Internal(format!("cannot read CRS WKT: {e}")))?;
         srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
         Ok(srs)
     }
@@ -118,12 +128,20 @@ impl Grid {
     /// Working-CRS corner of cell (col, row) at fractional offsets.
     pub fn corner(&self, col: f64, row: f64) -> (f64, f64) {
         let t = &self.transform;
-        (t[0] + col * t[1] + row * t[2], t[3] + col * t[4] + row * t[5])
+        (
+            t[0] + col * t[1] + row * t[2],
+            t[3] + col * t[4] + row * t[5],
+        )
     }
 
     /// The raster's footprint as a rectangle in the working CRS.
     pub fn extent(&self) -> Rect<f64> {
-        let corners = [(0.0, 0.0), (self.width as f64, 0.0), (0.0, self.height as f64), (self.width as f64, self.height as f64)];
+        let corners = [
+            (0.0, 0.0),
+            (self.width as f64, 0.0),
+            (0.0, self.height as f64),
+            (self.width as f64, self.height as f64),
+        ];
         let pts: Vec<(f64, f64)> = corners.iter().map(|&(c, r)| self.corner(c, r)).collect();
         let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
         for (x, y) in pts {
@@ -140,10 +158,15 @@ impl Grid {
 pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
     let dataset = open(path)?;
     if dataset.raster_count() == 0 {
-        return Err(Error::input(format!("`{}` has no raster band; the host layer needs band 1 = stems per hectare", path.display())));
+        return Err(Error::input(format!(
+            "`{}` has no raster band; the host layer needs band 1 = stems per hectare",
+            path.display()
+        )));
     }
     let crs = match dataset.spatial_ref() {
-        Ok(srs) if !srs.to_wkt().unwrap_or_default().is_empty() => Crs::from_srs(&srs, &format!("host raster `{}`", path.display()))?,
+        Ok(srs) if !srs.to_wkt().unwrap_or_default().is_empty() => {
+            Crs::from_srs(&srs, &format!("host raster `{}`", path.display()))?
+        }
         _ => match assume_crs {
             Some(crs) => crs.clone(),
             None => return Err(missing_crs(path)),
@@ -151,28 +174,44 @@ pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
     };
     let transform = dataset.geo_transform().map_err(|_| {
         Error::input_with_hint(
-            format!("host raster `{}` has no georeferencing (geotransform)", path.display()),
+            format!(
+                "host raster `{}` has no georeferencing (geotransform)",
+                path.display()
+            ),
             "georeference it first, e.g. with `gdal_translate -a_ullr` or `gdalwarp`",
         )
     })?;
-    let band = dataset.rasterband(1).map_err(|e| Error::gdal("read band 1 of", path, e))?;
+    let band = dataset
+        .rasterband(1)
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
     let (width, height) = band.size();
-    let cells = width.checked_mul(height).unwrap_or(usize::MAX);
+    let cells = width.saturating_mul(height);
     if cells > 400_000_000 {
         return Err(Error::input_with_hint(
-            format!("host raster `{}` has {width} x {height} cells, more than this version reads at once (4e8)", path.display()),
+            format!(
+                "host raster `{}` has {width} x {height} cells, more than this version reads at once (4e8)",
+                path.display()
+            ),
             "clip it to the programme area or resample it to a coarser cell size with `gdalwarp -tr`",
         ));
     }
     let nodata = band.no_data_value();
-    let buffer = band.read_band_as::<f64>().map_err(|e| Error::gdal("read band 1 of", path, e))?;
+    let buffer = band
+        .read_band_as::<f64>()
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
     let (_, mut values) = buffer.into_shape_and_vec();
     for v in values.iter_mut() {
         if nodata.is_some_and(|nd| *v == nd || (nd.is_nan() && v.is_nan())) || !v.is_finite() {
             *v = f64::NAN;
         }
     }
-    Ok(Grid { width, height, transform, values, crs })
+    Ok(Grid {
+        width,
+        height,
+        transform,
+        values,
+        crs,
+    })
 }
 
 fn missing_crs(path: &Path) -> Error {
@@ -247,25 +286,44 @@ impl VectorLayer {
             return Ok(());
         }
         Err(Error::input_with_hint(
-            format!("{what} `{}` has no field `{field}` (fields: {})", self.path.display(), self.field_names.join(", ")),
+            format!(
+                "{what} `{}` has no field `{field}` (fields: {})",
+                self.path.display(),
+                self.field_names.join(", ")
+            ),
             "name the right field in the scenario file or rename the field in the layer",
         ))
     }
 }
 
 /// Read the first (or the named) layer of a vector file, reprojected into `target`.
-pub fn read_vector(path: &Path, layer_name: Option<&str>, target: &Crs, assume_crs: Option<&Crs>, what: &str) -> Result<VectorLayer> {
+pub fn read_vector(
+    path: &Path,
+    layer_name: Option<&str>,
+    target: &Crs,
+    assume_crs: Option<&Crs>,
+    what: &str,
+) -> Result<VectorLayer> {
     let dataset = open(path)?;
     let mut layer = match layer_name {
         Some(name) => dataset.layer_by_name(name).map_err(|_| {
             let names: Vec<String> = dataset.layers().map(|l| l.name()).collect();
-            Error::input(format!("{what} `{}` has no layer `{name}` (layers: {})", path.display(), names.join(", ")))
+            Error::input(format!(
+                "{what} `{}` has no layer `{name}` (layers: {})",
+                path.display(),
+                names.join(", ")
+            ))
         })?,
         None => {
             if dataset.layer_count() == 0 {
-                return Err(Error::input(format!("{what} `{}` has no vector layer", path.display())));
+                return Err(Error::input(format!(
+                    "{what} `{}` has no vector layer",
+                    path.display()
+                )));
             }
-            dataset.layer(0).map_err(|e| Error::gdal("read the first layer of", path, e))?
+            dataset
+                .layer(0)
+                .map_err(|e| Error::gdal("read the first layer of", path, e))?
         }
     };
     let source_srs = match layer.spatial_ref() {
@@ -276,22 +334,34 @@ pub fn read_vector(path: &Path, layer_name: Option<&str>, target: &Crs, assume_c
         },
     };
     let target_srs = target.srs()?;
-    let transform = CoordTransform::new(&source_srs, &target_srs).map_err(|e| Error::gdal("set up a reprojection for", path, e))?;
+    let transform = CoordTransform::new(&source_srs, &target_srs)
+        .map_err(|e| Error::gdal("set up a reprojection for", path, e))?;
     let field_names: Vec<String> = layer.defn().fields().map(|f| f.name()).collect();
     let name = layer.name();
     let mut features = Vec::new();
     for (index, feature) in layer.features().enumerate() {
         let number = index + 1;
-        let Some(geometry) = feature.geometry() else { continue };
+        let Some(geometry) = feature.geometry() else {
+            continue;
+        };
         if geometry.is_empty() {
             continue;
         }
         let mut geometry = geometry.clone();
         geometry.flatten_to_2d();
         geometry.transform_inplace(&transform).map_err(|e| {
-            Error::input(format!("{what} `{}`, feature {number}: cannot reproject it into {} ({e})", path.display(), target.name))
+            Error::input(format!(
+                "{what} `{}`, feature {number}: cannot reproject it into {} ({e})",
+                path.display(),
+                target.name
+            ))
         })?;
-        let geometry = geometry.to_geo().map_err(|e| Error::input(format!("{what} `{}`, feature {number}: unreadable geometry ({e})", path.display())))?;
+        let geometry = geometry.to_geo().map_err(|e| {
+            Error::input(format!(
+                "{what} `{}`, feature {number}: unreadable geometry ({e})",
+                path.display()
+            ))
+        })?;
         let mut fields = BTreeMap::new();
         for (field_name, value) in feature.fields() {
             let value = match value {
@@ -307,31 +377,51 @@ pub fn read_vector(path: &Path, layer_name: Option<&str>, target: &Crs, assume_c
             };
             fields.insert(field_name, value);
         }
-        features.push(VectorFeature { geometry, fields, number });
+        features.push(VectorFeature {
+            geometry,
+            fields,
+            number,
+        });
     }
-    Ok(VectorLayer { path: path.to_path_buf(), layer_name: name, field_names, features })
+    Ok(VectorLayer {
+        path: path.to_path_buf(),
+        layer_name: name,
+        field_names,
+        features,
+    })
 }
 
 /// Burn polygon `i` of `polygons` as value i+1 into a grid aligned with `grid`; 0 = no polygon.
 /// Where polygons overlap the later one wins. A cell belongs to a polygon when its centre is inside.
 pub fn rasterize_index(grid: &Grid, polygons: &[MultiPolygon<f64>]) -> Result<Vec<u32>> {
-    let driver = DriverManager::get_driver_by_name("MEM").map_err(|e| Error::Internal(format!("GDAL MEM driver: {e}")))?;
+    let driver = DriverManager::get_driver_by_name("MEM")
+        .map_err(|e| Error::Internal(format!("GDAL MEM driver: {e}")))?;
     let mut dataset = driver
         .create_with_band_type::<u32, _>("", grid.width, grid.height, 1)
         .map_err(|e| Error::Internal(format!("cannot create an in-memory raster: {e}")))?;
-    dataset.set_geo_transform(&grid.transform).map_err(|e| Error::Internal(format!("set geotransform: {e}")))?;
+    dataset
+        .set_geo_transform(&grid.transform)
+        .map_err(|e| Error::Internal(format!("set geotransform: {e}")))?;
     let mut geometries = Vec::with_capacity(polygons.len());
     let mut burn = Vec::with_capacity(polygons.len());
     for (i, polygon) in polygons.iter().enumerate() {
-        geometries.push(polygon.to_gdal().map_err(|e| Error::Internal(format!("convert parcel to GDAL: {e}")))?);
+        geometries.push(
+            polygon
+                .to_gdal()
+                .map_err(|e| Error::Internal(format!("convert parcel to GDAL: {e}")))?,
+        );
         burn.push((i + 1) as f64);
     }
     if !geometries.is_empty() {
         gdal::raster::rasterize(&mut dataset, &[1], &geometries, &burn, None)
             .map_err(|e| Error::Internal(format!("rasterize parcels: {e}")))?;
     }
-    let band = dataset.rasterband(1).map_err(|e| Error::Internal(format!("read parcel raster: {e}")))?;
-    let buffer = band.read_band_as::<u32>().map_err(|e| Error::Internal(format!("read parcel raster: {e}")))?;
+    let band = dataset
+        .rasterband(1)
+        .map_err(|e| Error::Internal(format!("read parcel raster: {e}")))?;
+    let buffer = band
+        .read_band_as::<u32>()
+        .map_err(|e| Error::Internal(format!("read parcel raster: {e}")))?;
     Ok(buffer.into_shape_and_vec().1)
 }
 
@@ -342,8 +432,11 @@ pub struct ToLonLat {
 
 impl ToLonLat {
     pub fn new(crs: &Crs) -> Result<ToLonLat> {
-        let wgs84 = traditional(SpatialRef::from_epsg(4326).map_err(|e| Error::Internal(format!("EPSG:4326: {e}")))?);
-        let transform = CoordTransform::new(&crs.srs()?, &wgs84).map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
+        let wgs84 = traditional(
+            SpatialRef::from_epsg(4326).map_err(|e| Error::Internal(format!("EPSG:4326: {e}")))?,
+        );
+        let transform = CoordTransform::new(&crs.srs()?, &wgs84)
+            .map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
         Ok(ToLonLat { transform })
     }
 
@@ -354,26 +447,39 @@ impl ToLonLat {
         if xs.is_empty() {
             return Ok(Vec::new());
         }
-        self.transform.transform_coords(&mut xs, &mut ys, &mut []).map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
+        self.transform
+            .transform_coords(&mut xs, &mut ys, &mut [])
+            .map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
         Ok(xs.into_iter().zip(ys).collect())
     }
 
     /// A geometry reprojected to WGS 84.
     pub fn geometry(&self, geometry: &geo::Geometry<f64>) -> Result<Geometry> {
-        let mut g = geometry.to_gdal().map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?;
-        g.transform_inplace(&self.transform).map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
+        let mut g = geometry
+            .to_gdal()
+            .map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?;
+        g.transform_inplace(&self.transform)
+            .map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
         Ok(g)
     }
 }
 
 /// Transform points between two CRS given as definitions (used by tests and the demo generator).
 pub fn transform_points(from: &str, to: &str, points: &[(f64, f64)]) -> Result<Vec<(f64, f64)>> {
-    let from = traditional(SpatialRef::from_definition(from).map_err(|e| Error::input(format!("CRS `{from}`: {e}")))?);
-    let to = traditional(SpatialRef::from_definition(to).map_err(|e| Error::input(format!("CRS `{to}`: {e}")))?);
-    let transform = CoordTransform::new(&from, &to).map_err(|e| Error::Internal(format!("reprojection: {e}")))?;
+    let from = traditional(
+        SpatialRef::from_definition(from)
+            .map_err(|e| Error::input(format!("CRS `{from}`: {e}")))?,
+    );
+    let to = traditional(
+        SpatialRef::from_definition(to).map_err(|e| Error::input(format!("CRS `{to}`: {e}")))?,
+    );
+    let transform = CoordTransform::new(&from, &to)
+        .map_err(|e| Error::Internal(format!("reprojection: {e}")))?;
     let mut xs: Vec<f64> = points.iter().map(|p| p.0).collect();
     let mut ys: Vec<f64> = points.iter().map(|p| p.1).collect();
-    transform.transform_coords(&mut xs, &mut ys, &mut []).map_err(|e| Error::Internal(format!("reprojection: {e}")))?;
+    transform
+        .transform_coords(&mut xs, &mut ys, &mut [])
+        .map_err(|e| Error::Internal(format!("reprojection: {e}")))?;
     Ok(xs.into_iter().zip(ys).collect())
 }
 
@@ -386,30 +492,80 @@ pub enum Property {
 }
 
 /// Write features as RFC 7946 GeoJSON (WGS 84 lon/lat, right-hand winding) through GDAL.
-pub fn write_geojson(path: &Path, crs: &Crs, field_names: &[(&str, Property)], features: &[(geo::Geometry<f64>, Vec<Property>)]) -> Result<()> {
-    let wgs84 = traditional(SpatialRef::from_epsg(4326).map_err(|e| Error::Internal(format!("EPSG:4326: {e}")))?);
+pub fn write_geojson(
+    path: &Path,
+    crs: &Crs,
+    field_names: &[(&str, Property)],
+    features: &[(geo::Geometry<f64>, Vec<Property>)],
+) -> Result<()> {
+    let wgs84 = traditional(
+        SpatialRef::from_epsg(4326).map_err(|e| Error::Internal(format!("EPSG:4326: {e}")))?,
+    );
     let to_lonlat = ToLonLat::new(crs)?;
     let mut converted = Vec::with_capacity(features.len());
     for (g, p) in features {
         converted.push((to_lonlat.geometry(g)?, p.clone()));
     }
-    write_layer(path, "GeoJSON", "plan", &wgs84, &["RFC7946=YES", "COORDINATE_PRECISION=7", "WRITE_NAME=NO"], field_names, converted)
+    write_layer(
+        path,
+        "GeoJSON",
+        "plan",
+        &wgs84,
+        &["RFC7946=YES", "COORDINATE_PRECISION=7", "WRITE_NAME=NO"],
+        field_names,
+        converted,
+    )
 }
 
 /// Write features (geo geometries in `crs`) to a new vector file with the named GDAL driver.
-pub fn write_vector(path: &Path, driver: &str, layer: &str, crs: &Crs, field_names: &[(&str, Property)], features: &[(geo::Geometry<f64>, Vec<Property>)]) -> Result<()> {
+pub fn write_vector(
+    path: &Path,
+    driver: &str,
+    layer: &str,
+    crs: &Crs,
+    field_names: &[(&str, Property)],
+    features: &[(geo::Geometry<f64>, Vec<Property>)],
+) -> Result<()> {
     let mut converted = Vec::with_capacity(features.len());
     for (g, p) in features {
-        converted.push((g.to_gdal().map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?, p.clone()));
+        converted.push((
+            g.to_gdal()
+                .map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?,
+            p.clone(),
+        ));
     }
-    write_layer(path, driver, layer, &crs.srs()?, &[], field_names, converted)
+    write_layer(
+        path,
+        driver,
+        layer,
+        &crs.srs()?,
+        &[],
+        field_names,
+        converted,
+    )
 }
 
-fn write_layer(path: &Path, driver: &str, layer_name: &str, srs: &SpatialRef, options: &[&str], field_names: &[(&str, Property)], features: Vec<(Geometry, Vec<Property>)>) -> Result<()> {
-    let driver = DriverManager::get_driver_by_name(driver).map_err(|e| Error::Internal(format!("GDAL driver {driver}: {e}")))?;
-    let mut dataset = driver.create_vector_only(path).map_err(|e| Error::gdal("create", path, e))?;
+fn write_layer(
+    path: &Path,
+    driver: &str,
+    layer_name: &str,
+    srs: &SpatialRef,
+    options: &[&str],
+    field_names: &[(&str, Property)],
+    features: Vec<(Geometry, Vec<Property>)>,
+) -> Result<()> {
+    let driver = DriverManager::get_driver_by_name(driver)
+        .map_err(|e| Error::Internal(format!("GDAL driver {driver}: {e}")))?;
+    let mut dataset = driver
+        .create_vector_only(path)
+        .map_err(|e| Error::gdal("create", path, e))?;
     let layer = dataset
-        .create_layer(gdal::vector::LayerOptions { name: layer_name, srs: Some(srs), ty: gdal::vector::OGRwkbGeometryType::wkbUnknown, options: Some(options) })
+        .create_layer(gdal::vector::LayerOptions {
+            name: layer_name,
+            srs: Some(srs),
+            ty: gdal::vector::OGRwkbGeometryType::wkbUnknown,
+            options: Some(options),
+        })
         .map_err(|e| Error::gdal("create a layer in", path, e))?;
     for (name, kind) in field_names {
         let ty = match kind {
@@ -417,13 +573,18 @@ fn write_layer(path: &Path, driver: &str, layer_name: &str, srs: &SpatialRef, op
             Property::Number(_) => gdal::vector::OGRFieldType::OFTReal,
             Property::Integer(_) => gdal::vector::OGRFieldType::OFTInteger64,
         };
-        let defn = gdal::vector::FieldDefn::new(name, ty).map_err(|e| Error::Internal(format!("field {name}: {e}")))?;
-        defn.add_to_layer(&layer).map_err(|e| Error::Internal(format!("field {name}: {e}")))?;
+        let defn = gdal::vector::FieldDefn::new(name, ty)
+            .map_err(|e| Error::Internal(format!("field {name}: {e}")))?;
+        defn.add_to_layer(&layer)
+            .map_err(|e| Error::Internal(format!("field {name}: {e}")))?;
     }
     let defn = layer.defn();
     for (geometry, properties) in features {
-        let mut feature = gdal::vector::Feature::new(defn).map_err(|e| Error::Internal(format!("feature: {e}")))?;
-        feature.set_geometry(geometry).map_err(|e| Error::Internal(format!("feature geometry: {e}")))?;
+        let mut feature = gdal::vector::Feature::new(defn)
+            .map_err(|e| Error::Internal(format!("feature: {e}")))?;
+        feature
+            .set_geometry(geometry)
+            .map_err(|e| Error::Internal(format!("feature geometry: {e}")))?;
         for (i, value) in properties.iter().enumerate() {
             let result = match value {
                 Property::Text(s) if s.is_empty() => Ok(()),
@@ -434,28 +595,49 @@ fn write_layer(path: &Path, driver: &str, layer_name: &str, srs: &SpatialRef, op
             };
             result.map_err(|e| Error::Internal(format!("feature field: {e}")))?;
         }
-        feature.create(&layer).map_err(|e| Error::gdal("write a feature to", path, e))?;
+        feature
+            .create(&layer)
+            .map_err(|e| Error::gdal("write a feature to", path, e))?;
     }
-    drop(layer);
-    dataset.close().map_err(|e| Error::gdal("finish writing", path, e))?;
+    dataset
+        .close()
+        .map_err(|e| Error::gdal("finish writing", path, e))?;
     Ok(())
 }
 
 /// Write a single-band Float32 GeoTIFF (nodata = -9999) in `crs`.
-pub fn write_geotiff(path: &Path, crs: &Crs, width: usize, height: usize, transform: [f64; 6], values: &[f32]) -> Result<()> {
-    let driver = DriverManager::get_driver_by_name("GTiff").map_err(|e| Error::Internal(format!("GDAL GTiff driver: {e}")))?;
+pub fn write_geotiff(
+    path: &Path,
+    crs: &Crs,
+    width: usize,
+    height: usize,
+    transform: [f64; 6],
+    values: &[f32],
+) -> Result<()> {
+    let driver = DriverManager::get_driver_by_name("GTiff")
+        .map_err(|e| Error::Internal(format!("GDAL GTiff driver: {e}")))?;
     let options = gdal::raster::RasterCreationOptions::from_iter(["COMPRESS=DEFLATE", "TILED=NO"]);
     let mut dataset = driver
         .create_with_band_type_with_options::<f32, _>(path, width, height, 1, &options)
         .map_err(|e| Error::gdal("create", path, e))?;
-    dataset.set_geo_transform(&transform).map_err(|e| Error::gdal("georeference", path, e))?;
-    dataset.set_spatial_ref(&crs.srs()?).map_err(|e| Error::gdal("set the CRS of", path, e))?;
+    dataset
+        .set_geo_transform(&transform)
+        .map_err(|e| Error::gdal("georeference", path, e))?;
+    dataset
+        .set_spatial_ref(&crs.srs()?)
+        .map_err(|e| Error::gdal("set the CRS of", path, e))?;
     {
-        let mut band = dataset.rasterband(1).map_err(|e| Error::gdal("write", path, e))?;
-        band.set_no_data_value(Some(-9999.0)).map_err(|e| Error::gdal("set nodata of", path, e))?;
+        let mut band = dataset
+            .rasterband(1)
+            .map_err(|e| Error::gdal("write", path, e))?;
+        band.set_no_data_value(Some(-9999.0))
+            .map_err(|e| Error::gdal("set nodata of", path, e))?;
         let mut buffer = gdal::raster::Buffer::new((width, height), values.to_vec());
-        band.write((0, 0), (width, height), &mut buffer).map_err(|e| Error::gdal("write", path, e))?;
+        band.write((0, 0), (width, height), &mut buffer)
+            .map_err(|e| Error::gdal("write", path, e))?;
     }
-    dataset.close().map_err(|e| Error::gdal("finish writing", path, e))?;
+    dataset
+        .close()
+        .map_err(|e| Error::gdal("finish writing", path, e))?;
     Ok(())
 }

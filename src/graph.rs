@@ -70,23 +70,41 @@ impl PatchGraph {
 
 /// Link every pair of points whose kernel value is at least `epsilon`.
 pub fn build_graph(points: &[(f64, f64)], kernel: Kernel, epsilon: f64) -> PatchGraph {
-    let tree = RTree::bulk_load(points.iter().enumerate().map(|(i, &(x, y))| GeomWithData::new([x, y], i)).collect());
+    let tree = RTree::bulk_load(
+        points
+            .iter()
+            .enumerate()
+            .map(|(i, &(x, y))| GeomWithData::new([x, y], i))
+            .collect(),
+    );
     // Query slightly past the cutoff and test k itself, so rounding never drops a link.
     let radius = kernel.cutoff(epsilon) * (1.0 + 1e-9) + 1e-9;
     let mut edges = Vec::new();
     for (i, &(x, y)) in points.iter().enumerate() {
-        let mut near: Vec<usize> = tree.locate_within_distance([x, y], radius * radius).map(|g| g.data).filter(|&j| j > i).collect();
+        let mut near: Vec<usize> = tree
+            .locate_within_distance([x, y], radius * radius)
+            .map(|g| g.data)
+            .filter(|&j| j > i)
+            .collect();
         near.sort_unstable();
         for j in near {
             let (xj, yj) = points[j];
             let d = ((x - xj).powi(2) + (y - yj).powi(2)).sqrt();
             let k = kernel.value(d);
             if k >= epsilon {
-                edges.push(Edge { a: PatchId(i as u32), b: PatchId(j as u32), distance: d, kernel: k });
+                edges.push(Edge {
+                    a: PatchId(i as u32),
+                    b: PatchId(j as u32),
+                    distance: d,
+                    kernel: k,
+                });
             }
         }
     }
-    PatchGraph { n: points.len(), edges }
+    PatchGraph {
+        n: points.len(),
+        edges,
+    }
 }
 
 /// Introduction pressure of each patch and the corridors within reach of it.
@@ -99,20 +117,41 @@ pub struct Pressure {
 
 /// pi_i = 1 + sum_c beta_c [dist(patch i, corridor c) <= b_c] + gamma sum_d k(dist(i, d)),
 /// with detections farther than the kernel cutoff ignored; an inventory `pressure` replaces it.
-pub fn pressure(patches: &Patches, corridors: &[Corridor], detections: &[(f64, f64)], gamma: f64, kernel: Kernel, epsilon: f64) -> Pressure {
+pub fn pressure(
+    patches: &Patches,
+    corridors: &[Corridor],
+    detections: &[(f64, f64)],
+    gamma: f64,
+    kernel: Kernel,
+    epsilon: f64,
+) -> Pressure {
     let n = patches.len();
     let mut values = vec![1.0; n];
     let mut near = vec![Vec::new(); n];
     for corridor in corridors {
-        let segments: Vec<RLine<[f64; 2]>> = corridor.lines.0.iter().flat_map(|l| l.lines()).map(|s| RLine::new([s.start.x, s.start.y], [s.end.x, s.end.y])).collect();
+        let segments: Vec<RLine<[f64; 2]>> = corridor
+            .lines
+            .0
+            .iter()
+            .flat_map(|l| l.lines())
+            .map(|s| RLine::new([s.start.x, s.start.y], [s.end.x, s.end.y]))
+            .collect();
         let tree = RTree::bulk_load(segments);
         for (i, patch) in patches.items.iter().enumerate() {
             let geometry = patch.geometry();
-            let Some(rect) = geometry.bounding_rect() else { continue };
+            let Some(rect) = geometry.bounding_rect() else {
+                continue;
+            };
             let b = corridor.buffer_m;
-            let envelope = AABB::from_corners([rect.min().x - b, rect.min().y - b], [rect.max().x + b, rect.max().y + b]);
+            let envelope = AABB::from_corners(
+                [rect.min().x - b, rect.min().y - b],
+                [rect.max().x + b, rect.max().y + b],
+            );
             let within = tree.locate_in_envelope_intersecting(&envelope).any(|s| {
-                let line = geo::Line::new(geo::coord! { x: s.from[0], y: s.from[1] }, geo::coord! { x: s.to[0], y: s.to[1] });
+                let line = geo::Line::new(
+                    geo::coord! { x: s.from[0], y: s.from[1] },
+                    geo::coord! { x: s.to[0], y: s.to[1] },
+                );
                 Euclidean.distance(&geometry, &line) <= b
             });
             if within {
@@ -137,5 +176,8 @@ pub fn pressure(patches: &Patches, corridors: &[Corridor], detections: &[(f64, f
             values[i] = p;
         }
     }
-    Pressure { values, corridors: near }
+    Pressure {
+        values,
+        corridors: near,
+    }
 }

@@ -71,54 +71,111 @@ pub fn load(s: &Scenario) -> Result<Layers> {
     let (crs, host) = if let Some(path) = &s.host.inventory {
         let crs = Crs::parse(s.host.crs.as_deref().unwrap_or_default(), "`--crs`")?;
         let stands = crate::patches::read_inventory(path)?;
-        (crs, Host::Inventory { path: path.clone(), stands })
+        (
+            crs,
+            Host::Inventory {
+                path: path.clone(),
+                stands,
+            },
+        )
     } else {
-        let path = s.host.path.as_ref().ok_or_else(|| Error::input("no host layer given"))?;
-        open_host(path, s.host.layer.as_deref(), assume.as_ref(), &s.host.stems_field)?
+        let path = s
+            .host
+            .path
+            .as_ref()
+            .ok_or_else(|| Error::input("no host layer given"))?;
+        open_host(
+            path,
+            s.host.layer.as_deref(),
+            assume.as_ref(),
+            &s.host.stems_field,
+        )?
     };
     let host_extent = host_extent(&host);
 
     let mut parcels = Vec::new();
     if let Some(a) = &s.access {
-        let layer = gis::read_vector(&a.path, a.layer.as_deref(), &crs, assume.as_ref(), "access layer")?;
+        let layer = gis::read_vector(
+            &a.path,
+            a.layer.as_deref(),
+            &crs,
+            assume.as_ref(),
+            "access layer",
+        )?;
         check_overlap(&layer, host_extent, "access layer")?;
         parcels = read_parcels(&layer, a)?;
     }
     let mut corridors = Vec::new();
     for c in &s.corridors {
-        let layer = gis::read_vector(&c.path, c.layer.as_deref(), &crs, assume.as_ref(), "corridor layer")?;
+        let layer = gis::read_vector(
+            &c.path,
+            c.layer.as_deref(),
+            &crs,
+            assume.as_ref(),
+            "corridor layer",
+        )?;
         let mut lines = Vec::new();
         for f in &layer.features {
             match &f.geometry {
                 geo::Geometry::LineString(l) => lines.push(l.clone()),
                 geo::Geometry::MultiLineString(m) => lines.extend(m.0.iter().cloned()),
                 geo::Geometry::Polygon(p) => lines.push(p.exterior().clone()),
-                geo::Geometry::MultiPolygon(m) => lines.extend(m.0.iter().map(|p| p.exterior().clone())),
+                geo::Geometry::MultiPolygon(m) => {
+                    lines.extend(m.0.iter().map(|p| p.exterior().clone()))
+                }
                 _ => {
                     return Err(Error::input_with_hint(
-                        format!("corridor layer `{}`, feature {}: expected lines, found another geometry type", c.path.display(), f.number),
+                        format!(
+                            "corridor layer `{}`, feature {}: expected lines, found another geometry type",
+                            c.path.display(),
+                            f.number
+                        ),
                         "give rail lines or roads as LineString features",
                     ));
                 }
             }
         }
         if lines.is_empty() {
-            return Err(Error::input(format!("corridor layer `{}` has no line features", c.path.display())));
+            return Err(Error::input(format!(
+                "corridor layer `{}` has no line features",
+                c.path.display()
+            )));
         }
-        check_overlap(&layer, host_extent.map(|r| grow(r, c.buffer_m)), "corridor layer")?;
-        corridors.push(Corridor { name: c.name.clone(), lines: MultiLineString(lines), weight: c.weight, buffer_m: c.buffer_m });
+        check_overlap(
+            &layer,
+            host_extent.map(|r| grow(r, c.buffer_m)),
+            "corridor layer",
+        )?;
+        corridors.push(Corridor {
+            name: c.name.clone(),
+            lines: MultiLineString(lines),
+            weight: c.weight,
+            buffer_m: c.buffer_m,
+        });
     }
     let mut detections = Vec::new();
     let mut detection_weight = 0.0;
     if let Some(d) = &s.detections {
-        let layer = gis::read_vector(&d.path, d.layer.as_deref(), &crs, assume.as_ref(), "detections layer")?;
+        let layer = gis::read_vector(
+            &d.path,
+            d.layer.as_deref(),
+            &crs,
+            assume.as_ref(),
+            "detections layer",
+        )?;
         for f in &layer.features {
             match &f.geometry {
                 geo::Geometry::Point(p) => detections.push((p.x(), p.y())),
-                geo::Geometry::MultiPoint(m) => detections.extend(m.0.iter().map(|p| (p.x(), p.y()))),
+                geo::Geometry::MultiPoint(m) => {
+                    detections.extend(m.0.iter().map(|p| (p.x(), p.y())))
+                }
                 _ => {
                     return Err(Error::input_with_hint(
-                        format!("detections layer `{}`, feature {}: expected points, found another geometry type", d.path.display(), f.number),
+                        format!(
+                            "detections layer `{}`, feature {}: expected points, found another geometry type",
+                            d.path.display(),
+                            f.number
+                        ),
                         "give detections as Point features",
                     ));
                 }
@@ -126,16 +183,34 @@ pub fn load(s: &Scenario) -> Result<Layers> {
         }
         detection_weight = d.weight;
     }
-    Ok(Layers { crs, host, parcels, corridors, detections, detection_weight })
+    Ok(Layers {
+        crs,
+        host,
+        parcels,
+        corridors,
+        detections,
+        detection_weight,
+    })
 }
 
 fn grow(r: Rect<f64>, by: f64) -> Rect<f64> {
-    Rect::new((r.min().x - by, r.min().y - by), (r.max().x + by, r.max().y + by))
+    Rect::new(
+        (r.min().x - by, r.min().y - by),
+        (r.max().x + by, r.max().y + by),
+    )
 }
 
-fn open_host(path: &Path, layer: Option<&str>, assume: Option<&Crs>, stems_field: &str) -> Result<(Crs, Host)> {
+fn open_host(
+    path: &Path,
+    layer: Option<&str>,
+    assume: Option<&Crs>,
+    stems_field: &str,
+) -> Result<(Crs, Host)> {
     if !path.exists() {
-        return Err(Error::input_with_hint(format!("host layer `{}` does not exist", path.display()), "check the path given to `--host`"));
+        return Err(Error::input_with_hint(
+            format!("host layer `{}` does not exist", path.display()),
+            "check the path given to `--host`",
+        ));
     }
     let dataset = gdal::Dataset::open(path).map_err(|e| Error::gdal("open", path, e))?;
     if dataset.raster_count() > 0 {
@@ -144,20 +219,30 @@ fn open_host(path: &Path, layer: Option<&str>, assume: Option<&Crs>, stems_field
         return Ok((grid.crs.clone(), Host::Raster(grid)));
     }
     if dataset.layer_count() == 0 {
-        return Err(Error::input(format!("host layer `{}` has neither a raster band nor a vector layer", path.display())));
+        return Err(Error::input(format!(
+            "host layer `{}` has neither a raster band nor a vector layer",
+            path.display()
+        )));
     }
     let first = match layer {
-        Some(name) => dataset.layer_by_name(name).map_err(|_| Error::input(format!("host layer `{}` has no layer `{name}`", path.display())))?,
+        Some(name) => dataset.layer_by_name(name).map_err(|_| {
+            Error::input(format!(
+                "host layer `{}` has no layer `{name}`",
+                path.display()
+            ))
+        })?,
         None => dataset.layer(0).map_err(|e| Error::gdal("read", path, e))?,
     };
     use gdal::vector::LayerAccess;
     let crs = match first.spatial_ref() {
         Some(srs) => Crs::from_srs(&srs, &format!("host layer `{}`", path.display()))?,
         None => assume.cloned().ok_or_else(|| {
-            Error::input_with_hint(format!("`{}` has no coordinate reference system", path.display()), "name it with `--assume-crs EPSG:NNNN`")
+            Error::input_with_hint(
+                format!("`{}` has no coordinate reference system", path.display()),
+                "name it with `--assume-crs EPSG:NNNN`",
+            )
         })?,
     };
-    drop(first);
     drop(dataset);
     let layer = gis::read_vector(path, layer, &crs, assume, "host layer")?;
     layer.require_field(stems_field, "host layer")?;
@@ -169,14 +254,20 @@ fn host_extent(host: &Host) -> Option<Rect<f64>> {
         Host::Raster(g) => Some(g.extent()),
         Host::Polygons(l) => l.extent(),
         Host::Inventory { stands, .. } => {
-            let pts: Vec<geo::Coord<f64>> = stands.iter().map(|s| geo::coord! { x: s.x, y: s.y }).collect();
-            geo::MultiPoint::from(pts.into_iter().map(Point::from).collect::<Vec<_>>()).bounding_rect()
+            let pts: Vec<geo::Coord<f64>> = stands
+                .iter()
+                .map(|s| geo::coord! { x: s.x, y: s.y })
+                .collect();
+            geo::MultiPoint::from(pts.into_iter().map(Point::from).collect::<Vec<_>>())
+                .bounding_rect()
         }
     }
 }
 
 fn check_overlap(layer: &VectorLayer, host: Option<Rect<f64>>, what: &str) -> Result<()> {
-    let (Some(host), Some(extent)) = (host, layer.extent()) else { return Ok(()) };
+    let (Some(host), Some(extent)) = (host, layer.extent()) else {
+        return Ok(());
+    };
     // A point inventory has a degenerate extent; grow it a little so touching counts.
     let host = grow(host, 1.0);
     if !host.intersects(&extent) {
@@ -207,31 +298,74 @@ fn read_parcels(layer: &VectorLayer, a: &crate::settings::AccessSection) -> Resu
             geo::Geometry::MultiPolygon(m) => m.clone(),
             _ => {
                 return Err(Error::input_with_hint(
-                    format!("access layer `{}`, feature {}: expected polygons, found another geometry type", layer.path.display(), f.number),
+                    format!(
+                        "access layer `{}`, feature {}: expected polygons, found another geometry type",
+                        layer.path.display(),
+                        f.number
+                    ),
                     "give parcels as Polygon or MultiPolygon features",
                 ));
             }
         };
-        let at = |field: &str| format!("access layer `{}`, feature {}, field `{field}`", layer.path.display(), f.number);
-        let text = |field: &str| f.fields.get(field).map(|v| v.as_text()).filter(|t| !t.is_empty());
+        let at = |field: &str| {
+            format!(
+                "access layer `{}`, feature {}, field `{field}`",
+                layer.path.display(),
+                f.number
+            )
+        };
+        let text = |field: &str| {
+            f.fields
+                .get(field)
+                .map(|v| v.as_text())
+                .filter(|t| !t.is_empty())
+        };
         let access = match text(&a.access_field) {
             None => Access::Open,
-            Some(t) => Access::parse(&t).ok_or_else(|| Error::input_with_hint(format!("{}: unknown access `{t}`", at(&a.access_field)), "use open, permission or denied"))?,
+            Some(t) => Access::parse(&t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!("{}: unknown access `{t}`", at(&a.access_field)),
+                    "use open, permission or denied",
+                )
+            })?,
         };
         let herbicide = match text(&a.herbicide_field) {
             None => Herbicide::Allowed,
-            Some(t) => Herbicide::parse(&t).ok_or_else(|| Error::input_with_hint(format!("{}: unknown herbicide rule `{t}`", at(&a.herbicide_field)), "use allowed, restricted or prohibited"))?,
+            Some(t) => Herbicide::parse(&t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!("{}: unknown herbicide rule `{t}`", at(&a.herbicide_field)),
+                    "use allowed, restricted or prohibited",
+                )
+            })?,
         };
         let cost_factor = match f.fields.get(&a.cost_factor_field) {
             None => 1.0,
             Some(v) => match v.as_number() {
                 Some(c) if c.is_finite() && c > 0.0 => c,
-                _ => return Err(Error::input_with_hint(format!("{}: cost factor `{}` is not a positive number", at(&a.cost_factor_field), v.as_text()), "use e.g. 1 or 1.25")),
+                _ => {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "{}: cost factor `{}` is not a positive number",
+                            at(&a.cost_factor_field),
+                            v.as_text()
+                        ),
+                        "use e.g. 1 or 1.25",
+                    ));
+                }
             },
         };
         let parcel = text(&a.parcel_field).unwrap_or_else(|| format!("feature-{}", f.number));
         let contact = text(&a.contact_field).unwrap_or_default();
-        parcels.push(Parcel { geometry, site: Site { parcel, access, herbicide, cost_factor, contact } });
+        parcels.push(Parcel {
+            geometry,
+            site: Site {
+                parcel,
+                access,
+                herbicide,
+                cost_factor,
+                contact,
+            },
+        });
     }
     Ok(parcels)
 }

@@ -55,10 +55,21 @@ impl RiskModel {
             .iter()
             .map(|e| {
                 let (a, b) = (e.a.index(), e.b.index());
-                Link { a, b, kernel: e.kernel, weight: (pressure[a] + pressure[b]) * share[a] * share[b] * e.kernel }
+                Link {
+                    a,
+                    b,
+                    kernel: e.kernel,
+                    weight: (pressure[a] + pressure[b]) * share[a] * share[b] * e.kernel,
+                }
             })
             .collect();
-        RiskModel { share, pressure: pressure.to_vec(), own, links, adjacency: graph.adjacency() }
+        RiskModel {
+            share,
+            pressure: pressure.to_vec(),
+            own,
+            links,
+            adjacency: graph.adjacency(),
+        }
     }
 
     pub fn len(&self) -> usize {
@@ -72,7 +83,11 @@ impl RiskModel {
     /// R = sum_i pi_i a_i^2 r_i^2 + sum_links (pi_i + pi_j) a_i a_j k_ij r_i r_j.
     pub fn risk(&self, remaining: &[f64]) -> f64 {
         let own: f64 = self.own.iter().zip(remaining).map(|(o, r)| o * r * r).sum();
-        let pairs: f64 = self.links.iter().map(|l| l.weight * remaining[l.a] * remaining[l.b]).sum();
+        let pairs: f64 = self
+            .links
+            .iter()
+            .map(|l| l.weight * remaining[l.a] * remaining[l.b])
+            .sum();
         own + pairs
     }
 
@@ -112,7 +127,12 @@ impl RiskModel {
     pub fn capacity(&self, remaining: &[f64]) -> Capacity {
         let n = self.len();
         if n == 0 {
-            return Capacity { lambda: 0.0, vector: Vec::new(), iterations: 0, residual: 0.0 };
+            return Capacity {
+                lambda: 0.0,
+                vector: Vec::new(),
+                iterations: 0,
+                residual: 0.0,
+            };
         }
         // Gershgorin bound on lambda for the shift and the zero test.
         let mut row = vec![0.0; n];
@@ -124,7 +144,12 @@ impl RiskModel {
         let bound = row.iter().cloned().fold(0.0, f64::max);
         let mut x = vec![1.0 / (n as f64).sqrt(); n];
         if bound <= 0.0 {
-            return Capacity { lambda: 0.0, vector: x, iterations: 0, residual: 0.0 };
+            return Capacity {
+                lambda: 0.0,
+                vector: x,
+                iterations: 0,
+                residual: 0.0,
+            };
         }
         let shift = 0.25 * bound;
         let mut y = vec![0.0; n];
@@ -136,7 +161,12 @@ impl RiskModel {
             iterations += 1;
             self.multiply(remaining, &x, &mut y);
             lambda = x.iter().zip(&y).map(|(a, b)| a * b).sum::<f64>();
-            residual = x.iter().zip(&y).map(|(a, b)| (b - lambda * a).powi(2)).sum::<f64>().sqrt();
+            residual = x
+                .iter()
+                .zip(&y)
+                .map(|(a, b)| (b - lambda * a).powi(2))
+                .sum::<f64>()
+                .sqrt();
             if residual <= 1e-11 * bound {
                 break;
             }
@@ -148,7 +178,12 @@ impl RiskModel {
                 *xi = yi / norm;
             }
         }
-        Capacity { lambda, vector: x, iterations, residual }
+        Capacity {
+            lambda,
+            vector: x,
+            iterations,
+            residual,
+        }
     }
 
     /// Equilibrium establishment probabilities including introductions:
@@ -167,7 +202,11 @@ impl RiskModel {
             let mut change: f64 = 0.0;
             for i in 0..n {
                 let u = self.share[i] * remaining[i] * (s[i] + iota * self.pressure[i]);
-                let next = if u + delta > 0.0 { u / (u + delta) } else { 0.0 };
+                let next = if u + delta > 0.0 {
+                    u / (u + delta)
+                } else {
+                    0.0
+                };
                 change = change.max((next - p[i]).abs());
                 p[i] = next;
             }
@@ -181,7 +220,11 @@ impl RiskModel {
     /// The persistence threshold delta = e/c used for p*: lambda_M before / `persistence_ratio`;
     /// with no links at all, sum a_i^2 / `persistence_ratio`.
     pub fn delta(&self, lambda_before: f64, persistence_ratio: f64) -> f64 {
-        let base = if lambda_before > 0.0 { lambda_before } else { self.share.iter().map(|a| a * a).sum() };
+        let base = if lambda_before > 0.0 {
+            lambda_before
+        } else {
+            self.share.iter().map(|a| a * a).sum()
+        };
         base / persistence_ratio
     }
 }

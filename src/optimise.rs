@@ -89,7 +89,11 @@ impl Problem<'_> {
 
     /// r_i for every patch under `assignment`.
     pub fn remaining(&self, assignment: &Assignment) -> Vec<f64> {
-        assignment.iter().enumerate().map(|(i, a)| a.map(|o| self.choices[i][o].remaining).unwrap_or(1.0)).collect()
+        assignment
+            .iter()
+            .enumerate()
+            .map(|(i, a)| a.map(|o| self.choices[i][o].remaining).unwrap_or(1.0))
+            .collect()
     }
 
     pub fn risk(&self, assignment: &Assignment) -> f64 {
@@ -97,11 +101,19 @@ impl Problem<'_> {
     }
 
     pub fn cost(&self, assignment: &Assignment) -> f64 {
-        assignment.iter().enumerate().filter_map(|(i, a)| a.map(|o| self.choices[i][o].cost)).sum()
+        assignment
+            .iter()
+            .enumerate()
+            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].cost))
+            .sum()
     }
 
     pub fn hours(&self, assignment: &Assignment) -> f64 {
-        assignment.iter().enumerate().filter_map(|(i, a)| a.map(|o| self.choices[i][o].hours)).sum()
+        assignment
+            .iter()
+            .enumerate()
+            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].hours))
+            .sum()
     }
 
     fn within(limit: f64, used: f64) -> bool {
@@ -114,7 +126,11 @@ impl Problem<'_> {
             Some(o) => !self.excluded[i] && *o < self.choices[i].len(),
             None => !self.required[i],
         });
-        rules && Self::within(self.budget, self.cost(assignment)) && self.crew_hours.is_none_or(|h| Self::within(h, self.hours(assignment)))
+        rules
+            && Self::within(self.budget, self.cost(assignment))
+            && self
+                .crew_hours
+                .is_none_or(|h| Self::within(h, self.hours(assignment)))
     }
 
     /// R(current) - R(current with patch i given choice o), for an untreated patch i.
@@ -138,7 +154,9 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
         if problem.required[i] {
             let cheapest = (0..problem.choices[i].len()).min_by(|&a, &b| {
                 let (ca, cb) = (&problem.choices[i][a], &problem.choices[i][b]);
-                ca.cost.total_cmp(&cb.cost).then(ca.hours.total_cmp(&cb.hours))
+                ca.cost
+                    .total_cmp(&cb.cost)
+                    .then(ca.hours.total_cmp(&cb.hours))
             })?;
             base[i] = Some(cheapest);
         }
@@ -148,7 +166,10 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
     }
     let fits = |assignment: &Assignment, spent: f64, hours: f64, c: &Choice| {
         let _ = assignment;
-        Problem::within(problem.budget, spent + c.cost) && problem.crew_hours.is_none_or(|h| Problem::within(h, hours + c.hours))
+        Problem::within(problem.budget, spent + c.cost)
+            && problem
+                .crew_hours
+                .is_none_or(|h| Problem::within(h, hours + c.hours))
     };
     // (a) adaptive greedy.
     let mut current = base.clone();
@@ -168,7 +189,11 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
                 if gain <= 0.0 {
                     continue;
                 }
-                let ratio = if c.cost > 0.0 { gain / c.cost } else { f64::INFINITY };
+                let ratio = if c.cost > 0.0 {
+                    gain / c.cost
+                } else {
+                    f64::INFINITY
+                };
                 if best.is_none_or(|(b, _, _)| ratio > b) {
                     best = Some((ratio, i, o));
                 }
@@ -211,7 +236,14 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
 
 /// Exact optimum by enumerating every assignment (for tests; small problems only).
 pub fn brute_force(problem: &Problem) -> Option<(Assignment, f64)> {
-    fn walk(problem: &Problem, i: usize, current: &mut Assignment, spent: f64, hours: f64, best: &mut Option<(Assignment, f64)>) {
+    fn walk(
+        problem: &Problem,
+        i: usize,
+        current: &mut Assignment,
+        spent: f64,
+        hours: f64,
+        best: &mut Option<(Assignment, f64)>,
+    ) {
         if i == problem.len() {
             let risk = problem.risk(current);
             if best.as_ref().is_none_or(|(_, b)| risk < *b) {
@@ -225,16 +257,34 @@ pub fn brute_force(problem: &Problem) -> Option<(Assignment, f64)> {
         }
         if !problem.excluded[i] {
             for (o, c) in problem.choices[i].iter().enumerate() {
-                if Problem::within(problem.budget, spent + c.cost) && problem.crew_hours.is_none_or(|h| Problem::within(h, hours + c.hours)) {
+                if Problem::within(problem.budget, spent + c.cost)
+                    && problem
+                        .crew_hours
+                        .is_none_or(|h| Problem::within(h, hours + c.hours))
+                {
                     current[i] = Some(o);
-                    walk(problem, i + 1, current, spent + c.cost, hours + c.hours, best);
+                    walk(
+                        problem,
+                        i + 1,
+                        current,
+                        spent + c.cost,
+                        hours + c.hours,
+                        best,
+                    );
                 }
             }
         }
         current[i] = None;
     }
     let mut best = None;
-    walk(problem, 0, &mut vec![None; problem.len()], 0.0, 0.0, &mut best);
+    walk(
+        problem,
+        0,
+        &mut vec![None; problem.len()],
+        0.0,
+        0.0,
+        &mut best,
+    );
     best
 }
 
@@ -253,14 +303,23 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     let greedy = greedy(problem);
     let risk_before = problem.model.risk_before();
     let any_choice = (0..n).any(|i| !problem.excluded[i] && !problem.choices[i].is_empty());
-    let required_without_choice = (0..n).any(|i| problem.required[i] && (problem.excluded[i] || problem.choices[i].is_empty()));
+    let required_without_choice = (0..n)
+        .any(|i| problem.required[i] && (problem.excluded[i] || problem.choices[i].is_empty()));
     if required_without_choice {
         return Ok(infeasible(n, risk_before, greedy, start));
     }
     if !any_choice || risk_before <= 0.0 {
         let assignment = vec![None; n];
         let risk = problem.risk(&assignment);
-        return Ok(Solved { assignment, risk_after: risk, bound: risk, gap: 0.0, status: Status::Optimal, seconds: start.elapsed().as_secs_f64(), greedy });
+        return Ok(Solved {
+            assignment,
+            risk_after: risk,
+            bound: risk,
+            gap: 0.0,
+            status: Status::Optimal,
+            seconds: start.elapsed().as_secs_f64(),
+            greedy,
+        });
     }
     let scale = 1e6 / risk_before;
 
@@ -278,9 +337,17 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
         }
     }
     let t = |i: usize| -> Expression {
-        x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| (1.0 - c.remaining) * v).sum()
+        x[i].iter()
+            .zip(&problem.choices[i])
+            .map(|(&(v, _), c)| (1.0 - c.remaining) * v)
+            .sum()
     };
-    let t_max = |i: usize| problem.choices[i].iter().map(|c| 1.0 - c.remaining).fold(0.0, f64::max);
+    let t_max = |i: usize| {
+        problem.choices[i]
+            .iter()
+            .map(|c| 1.0 - c.remaining)
+            .fold(0.0, f64::max)
+    };
     // u columns: for each link with choices on both ends, one per choice of the side with fewer.
     struct Product {
         side: usize,
@@ -293,19 +360,31 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
         if x[a].is_empty() || x[b].is_empty() {
             continue;
         }
-        let (side, other) = if x[a].len() <= x[b].len() { (a, b) } else { (b, a) };
+        let (side, other) = if x[a].len() <= x[b].len() {
+            (a, b)
+        } else {
+            (b, a)
+        };
         let mut us = Vec::new();
         for _ in &x[side] {
             us.push((vars.add(variable().min(0.0).max(1.0)), columns));
             columns += 1;
         }
-        products.push((l, Product { side, other, vars: us }));
+        products.push((
+            l,
+            Product {
+                side,
+                other,
+                vars: us,
+            },
+        ));
     }
     let one = vars.add(variable().min(1.0).max(1.0));
     let one_column = columns;
     columns += 1;
 
-    let constant: f64 = problem.model.own.iter().sum::<f64>() + problem.model.links.iter().map(|l| l.weight).sum::<f64>();
+    let constant: f64 = problem.model.own.iter().sum::<f64>()
+        + problem.model.links.iter().map(|l| l.weight).sum::<f64>();
     let mut objective: Expression = constant * one;
     for i in 0..n {
         for (&(v, _), c) in x[i].iter().zip(&problem.choices[i]) {
@@ -333,10 +412,24 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             lp = lp.with(chosen.leq(1.0));
         }
     }
-    let cost: Expression = (0..n).flat_map(|i| x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| c.cost * v).collect::<Vec<_>>()).sum();
+    let cost: Expression = (0..n)
+        .flat_map(|i| {
+            x[i].iter()
+                .zip(&problem.choices[i])
+                .map(|(&(v, _), c)| c.cost * v)
+                .collect::<Vec<_>>()
+        })
+        .sum();
     lp = lp.with(cost.leq(problem.budget));
     if let Some(h) = problem.crew_hours {
-        let hours: Expression = (0..n).flat_map(|i| x[i].iter().zip(&problem.choices[i]).map(|(&(v, _), c)| c.hours * v).collect::<Vec<_>>()).sum();
+        let hours: Expression = (0..n)
+            .flat_map(|i| {
+                x[i].iter()
+                    .zip(&problem.choices[i])
+                    .map(|(&(v, _), c)| c.hours * v)
+                    .collect::<Vec<_>>()
+            })
+            .sum();
         lp = lp.with(hours.leq(h));
     }
     for (_, p) in &products {
@@ -357,10 +450,8 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
         start_values[one_column] = 1.0;
         let remaining = problem.remaining(assignment);
         for i in 0..n {
-            if let Some(o) = assignment[i] {
-                if let Some(&(_, col)) = x[i].get(o) {
-                    start_values[col] = 1.0;
-                }
+            if let Some(&(_, col)) = assignment[i].and_then(|o| x[i].get(o)) {
+                start_values[col] = 1.0;
             }
         }
         for (_, p) in &products {
@@ -371,17 +462,31 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
                 }
             }
         }
-        model.try_set_solution(Some(&start_values), None, None, None).map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
+        model
+            .try_set_solution(Some(&start_values), None, None, None)
+            .map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
     }
-    let solved = model.try_solve().map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
+    let solved = model
+        .try_solve()
+        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
     use highs::HighsModelStatus as S;
     let highs_status = solved.status();
     let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
     let mut status = match highs_status {
         S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
-        S::Infeasible | S::UnboundedOrInfeasible => return Ok(infeasible(n, risk_before, greedy, start)),
-        S::ReachedTimeLimit | S::ReachedIterationLimit | S::ReachedSolutionLimit | S::ReachedInterrupt | S::ReachedMemoryLimit => Status::TimeLimit,
-        other => return Err(Error::Internal(format!("HiGHS ended with status {other:?}"))),
+        S::Infeasible | S::UnboundedOrInfeasible => {
+            return Ok(infeasible(n, risk_before, greedy, start));
+        }
+        S::ReachedTimeLimit
+        | S::ReachedIterationLimit
+        | S::ReachedSolutionLimit
+        | S::ReachedInterrupt
+        | S::ReachedMemoryLimit => Status::TimeLimit,
+        other => {
+            return Err(Error::Internal(format!(
+                "HiGHS ended with status {other:?}"
+            )));
+        }
     };
     let mut assignment: Assignment = vec![None; n];
     if has_solution {
@@ -395,7 +500,10 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             }
         }
     }
-    let dual = solved.double_info_value(c"mip_dual_bound").unwrap_or(f64::NEG_INFINITY) / scale;
+    let dual = solved
+        .double_info_value(c"mip_dual_bound")
+        .unwrap_or(f64::NEG_INFINITY)
+        / scale;
     let mut risk_after = problem.risk(&assignment);
     if !has_solution || !problem.feasible(&assignment) {
         match &greedy {
@@ -406,20 +514,47 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             None => return Ok(infeasible(n, risk_before, greedy, start)),
         }
     }
-    if let Some((g, r)) = &greedy {
-        if *r < risk_after {
-            assignment = g.clone();
-            risk_after = *r;
-        }
+    if let Some((g, r)) = greedy.as_ref().filter(|(_, r)| *r < risk_after) {
+        assignment = g.clone();
+        risk_after = *r;
     }
-    let bound = if dual.is_finite() { dual.min(risk_after).max(0.0) } else { 0.0 };
-    let gap = if risk_after > 0.0 { ((risk_after - bound) / risk_after).max(0.0) } else { 0.0 };
+    let bound = if dual.is_finite() {
+        dual.min(risk_after).max(0.0)
+    } else {
+        0.0
+    };
+    let gap = if risk_after > 0.0 {
+        ((risk_after - bound) / risk_after).max(0.0)
+    } else {
+        0.0
+    };
     if status == Status::Optimal && gap > 1e-9 {
         status = Status::GapLimit;
     }
-    Ok(Solved { assignment, risk_after, bound, gap, status, seconds: start.elapsed().as_secs_f64(), greedy })
+    Ok(Solved {
+        assignment,
+        risk_after,
+        bound,
+        gap,
+        status,
+        seconds: start.elapsed().as_secs_f64(),
+        greedy,
+    })
 }
 
-fn infeasible(n: usize, risk_before: f64, greedy: Option<(Assignment, f64)>, start: Instant) -> Solved {
-    Solved { assignment: vec![None; n], risk_after: risk_before, bound: f64::NAN, gap: f64::NAN, status: Status::Infeasible, seconds: start.elapsed().as_secs_f64(), greedy }
+fn infeasible(
+    n: usize,
+    risk_before: f64,
+    greedy: Option<(Assignment, f64)>,
+    start: Instant,
+) -> Solved {
+    Solved {
+        assignment: vec![None; n],
+        risk_after: risk_before,
+        bound: f64::NAN,
+        gap: f64::NAN,
+        status: Status::Infeasible,
+        seconds: start.elapsed().as_secs_f64(),
+        greedy,
+    }
 }

@@ -27,22 +27,49 @@ impl Staging {
     pub fn new(out: &Path, force: bool) -> Result<Staging> {
         if out.exists() {
             if !out.is_dir() {
-                return Err(Error::input_with_hint(format!("`{}` exists and is not a folder", out.display()), "give `--out` a new folder name"));
+                return Err(Error::input_with_hint(
+                    format!("`{}` exists and is not a folder", out.display()),
+                    "give `--out` a new folder name",
+                ));
             }
-            let non_empty = fs_err::read_dir(out).map_err(|e| Error::io("read", out, std::io::Error::new(e.kind(), e.to_string())))?.next().is_some();
+            let non_empty = fs_err::read_dir(out)
+                .map_err(|e| Error::io("read", out, std::io::Error::new(e.kind(), e.to_string())))?
+                .next()
+                .is_some();
             if non_empty && !force {
-                return Err(Error::input_with_hint(format!("output folder `{}` is not empty", out.display()), "give a new folder, or add `--force` to replace its outputs"));
+                return Err(Error::input_with_hint(
+                    format!("output folder `{}` is not empty", out.display()),
+                    "give a new folder, or add `--force` to replace its outputs",
+                ));
             }
         }
-        let parent = out.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
-        fs_err::create_dir_all(parent).map_err(|e| Error::io("create", parent, std::io::Error::new(e.kind(), e.to_string())))?;
-        let name = out.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_else(|| "out".into());
+        let parent = out
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        fs_err::create_dir_all(parent).map_err(|e| {
+            Error::io(
+                "create",
+                parent,
+                std::io::Error::new(e.kind(), e.to_string()),
+            )
+        })?;
+        let name = out
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "out".into());
         let dir = parent.join(format!(".{name}.partial-{}", std::process::id()));
         if dir.exists() {
             let _ = std::fs::remove_dir_all(&dir);
         }
-        fs_err::create_dir_all(&dir).map_err(|e| Error::io("create", &dir, std::io::Error::new(e.kind(), e.to_string())))?;
-        Ok(Staging { out: out.to_path_buf(), dir, force, done: false })
+        fs_err::create_dir_all(&dir)
+            .map_err(|e| Error::io("create", &dir, std::io::Error::new(e.kind(), e.to_string())))?;
+        Ok(Staging {
+            out: out.to_path_buf(),
+            dir,
+            force,
+            done: false,
+        })
     }
 
     /// Path of `name` inside the staging folder.
@@ -53,16 +80,26 @@ impl Staging {
     pub fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> Result<()> {
         let path = self.path(name);
         if let Some(parent) = path.parent() {
-            fs_err::create_dir_all(parent).map_err(|e| Error::io("create", parent, std::io::Error::new(e.kind(), e.to_string())))?;
+            fs_err::create_dir_all(parent).map_err(|e| {
+                Error::io(
+                    "create",
+                    parent,
+                    std::io::Error::new(e.kind(), e.to_string()),
+                )
+            })?;
         }
-        fs_err::write(&path, contents).map_err(|e| Error::io("write", &path, std::io::Error::new(e.kind(), e.to_string())))
+        fs_err::write(&path, contents)
+            .map_err(|e| Error::io("write", &path, std::io::Error::new(e.kind(), e.to_string())))
     }
 
     /// Move the staged outputs into `out`.
     pub fn commit(mut self) -> Result<PathBuf> {
         let io = |action, path: &Path, e: std::io::Error| Error::io(action, path, e);
         if self.out.exists() {
-            let empty = std::fs::read_dir(&self.out).map_err(|e| io("read", &self.out, e))?.next().is_none();
+            let empty = std::fs::read_dir(&self.out)
+                .map_err(|e| io("read", &self.out, e))?
+                .next()
+                .is_none();
             if empty {
                 std::fs::remove_dir(&self.out).map_err(|e| io("replace", &self.out, e))?;
             } else if self.force {
@@ -73,7 +110,8 @@ impl Staging {
                     if target.is_dir() {
                         std::fs::remove_dir_all(&target).map_err(|e| io("replace", &target, e))?;
                     }
-                    std::fs::rename(entry.path(), &target).map_err(|e| io("move output to", &target, e))?;
+                    std::fs::rename(entry.path(), &target)
+                        .map_err(|e| io("move output to", &target, e))?;
                 }
                 std::fs::remove_dir(&self.dir).map_err(|e| io("remove", &self.dir, e))?;
                 self.done = true;
@@ -158,11 +196,14 @@ pub struct Outputs<'a> {
 
 fn csv_bytes(header: &[&str], rows: Vec<Vec<String>>) -> Result<Vec<u8>> {
     let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(header).map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.write_record(header)
+        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     for r in rows {
-        w.write_record(&r).map_err(|e| Error::Internal(format!("csv: {e}")))?;
+        w.write_record(&r)
+            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     }
-    w.into_inner().map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_inner()
+        .map_err(|e| Error::Internal(format!("csv: {e}")))
 }
 
 /// Write plan.csv, patches.csv, plan.geojson and cautions.txt into the staging folder.
@@ -171,7 +212,11 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
     let plan = o.plan;
     let to_lonlat = ToLonLat::new(&patches.crs)?;
     let lonlat = to_lonlat.points(&patches.items.iter().map(|p| (p.x, p.y)).collect::<Vec<_>>())?;
-    let method_id = |i: usize| plan.method_of[i].map(|m| o.catalogue.method(m).id.clone()).unwrap_or_default();
+    let method_id = |i: usize| {
+        plan.method_of[i]
+            .map(|m| o.catalogue.method(m).id.clone())
+            .unwrap_or_default()
+    };
 
     let mut rows = Vec::new();
     for (rank, row) in plan.rows.iter().enumerate() {
@@ -200,8 +245,25 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         ]);
     }
     let header = [
-        "priority", "patch_id", "method", "stems", "cost", "crew_hours", "risk_share", "reduction_pct", "value_per_cost", "x", "y", "lon", "lat", "parcel", "access",
-        "herbicide", "contact", "corridors", "cautions",
+        "priority",
+        "patch_id",
+        "method",
+        "stems",
+        "cost",
+        "crew_hours",
+        "risk_share",
+        "reduction_pct",
+        "value_per_cost",
+        "x",
+        "y",
+        "lon",
+        "lat",
+        "parcel",
+        "access",
+        "herbicide",
+        "contact",
+        "corridors",
+        "cautions",
     ];
     staging.write("plan.csv", csv_bytes(&header, rows)?)?;
 
@@ -220,7 +282,11 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             p.site.herbicide.as_str().into(),
             round(p.site.cost_factor, 4),
             p.site.parcel.clone(),
-            if o.eligible[i] { "yes".into() } else { "no".into() },
+            if o.eligible[i] {
+                "yes".into()
+            } else {
+                "no".into()
+            },
             round(plan.risk_shares[i], 6),
             sci(plan.patch_value[i]),
             round(plan.establishment_before[i], 6),
@@ -229,8 +295,24 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         ]);
     }
     let header = [
-        "patch_id", "x", "y", "lon", "lat", "stems", "area_ha", "pressure", "access", "herbicide", "cost_factor", "parcel", "eligible", "risk_share", "patch_value",
-        "establishment_p", "establishment_p_after", "method",
+        "patch_id",
+        "x",
+        "y",
+        "lon",
+        "lat",
+        "stems",
+        "area_ha",
+        "pressure",
+        "access",
+        "herbicide",
+        "cost_factor",
+        "parcel",
+        "eligible",
+        "risk_share",
+        "patch_value",
+        "establishment_p",
+        "establishment_p_after",
+        "method",
     ];
     staging.write("patches.csv", csv_bytes(&header, rows)?)?;
 
@@ -291,16 +373,31 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             )
         })
         .collect();
-    gis::write_geojson(&staging.path("plan.geojson"), &patches.crs, &fields, &features)?;
+    gis::write_geojson(
+        &staging.path("plan.geojson"),
+        &patches.crs,
+        &fields,
+        &features,
+    )?;
     staging.write("cautions.txt", cautions::standing_text())?;
     Ok(())
 }
 
 /// The summary record.
-pub fn summary(o: &Outputs, budget: f64, crew_hours_limit: Option<f64>, n_edges: usize, model: &crate::settings::ModelSection) -> Summary {
+pub fn summary(
+    o: &Outputs,
+    budget: f64,
+    crew_hours_limit: Option<f64>,
+    n_edges: usize,
+    model: &crate::settings::ModelSection,
+) -> Summary {
     let plan = o.plan;
     let finite = |v: f64| if v.is_finite() { Some(v) } else { None };
-    let stems_treated = plan.rows.iter().map(|r| o.patches.items[r.patch.index()].stems).sum();
+    let stems_treated = plan
+        .rows
+        .iter()
+        .map(|r| o.patches.items[r.patch.index()].stems)
+        .sum();
     Summary {
         currency: o.catalogue.currency.clone(),
         budget,
@@ -313,7 +410,13 @@ pub fn summary(o: &Outputs, budget: f64, crew_hours_limit: Option<f64>, n_edges:
         lambda_before: plan.lambda_before,
         lambda_after: plan.lambda_after,
         greedy_risk_after: plan.greedy_risk_after,
-        greedy_reduction_pct: plan.greedy_risk_after.map(|g| if plan.risk_before > 0.0 { 100.0 * (1.0 - g / plan.risk_before) } else { 0.0 }),
+        greedy_reduction_pct: plan.greedy_risk_after.map(|g| {
+            if plan.risk_before > 0.0 {
+                100.0 * (1.0 - g / plan.risk_before)
+            } else {
+                0.0
+            }
+        }),
         status: plan.status.as_str(),
         gap: finite(plan.gap),
         bound: finite(plan.bound),

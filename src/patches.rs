@@ -10,8 +10,8 @@ use std::collections::{BTreeSet, HashMap};
 use std::path::Path;
 
 use geo::{Area, Centroid, Contains, MultiPolygon, Point, Polygon};
-use rstar::primitives::{GeomWithData, Rectangle};
 use rstar::RTree;
+use rstar::primitives::{GeomWithData, Rectangle};
 
 use crate::error::{Error, Result};
 use crate::gis::{self, Crs, Grid};
@@ -92,7 +92,13 @@ pub struct Site {
 
 impl Default for Site {
     fn default() -> Self {
-        Site { parcel: String::new(), access: Access::Open, herbicide: Herbicide::Allowed, cost_factor: 1.0, contact: String::new() }
+        Site {
+            parcel: String::new(),
+            access: Access::Open,
+            herbicide: Herbicide::Allowed,
+            cost_factor: 1.0,
+            contact: String::new(),
+        }
     }
 }
 
@@ -143,7 +149,10 @@ impl Patches {
     }
     /// Find a patch by its user-facing id.
     pub fn by_label(&self) -> HashMap<&str, PatchId> {
-        self.items.iter().map(|p| (p.label.as_str(), p.id)).collect()
+        self.items
+            .iter()
+            .map(|p| (p.label.as_str(), p.id))
+            .collect()
     }
 }
 
@@ -179,15 +188,26 @@ fn find(parent: &mut [u32], mut i: u32) -> u32 {
 /// lie in the same parcel and, with `max_patch_ha`, in the same square block. Components are
 /// returned in the row-major order of their first cell; those smaller than `min_patch_ha` are
 /// dropped and counted.
-pub fn label_cells(grid: &Grid, parcel_index: &[u32], options: LabelOptions) -> (Vec<Component>, usize) {
+pub fn label_cells(
+    grid: &Grid,
+    parcel_index: &[u32],
+    options: LabelOptions,
+) -> (Vec<Component>, usize) {
     let (w, h) = (grid.width, grid.height);
     let n = w * h;
     let is_host = |i: usize| grid.values[i].is_finite() && grid.values[i] >= options.min_density;
     let cell_ha = grid.cell_area_ha();
-    let block_side = options.max_patch_ha.map(|max| ((max / cell_ha).sqrt().floor() as usize).max(1)).unwrap_or(usize::MAX);
+    let block_side = options
+        .max_patch_ha
+        .map(|max| ((max / cell_ha).sqrt().floor() as usize).max(1))
+        .unwrap_or(usize::MAX);
     let key = |i: usize| {
         let (col, row) = (i % w, i / w);
-        (parcel_index.get(i).copied().unwrap_or(0), col / block_side, row / block_side)
+        (
+            parcel_index.get(i).copied().unwrap_or(0),
+            col / block_side,
+            row / block_side,
+        )
     };
     let mut parent: Vec<u32> = (0..n as u32).collect();
     for row in 0..h {
@@ -229,7 +249,10 @@ pub fn label_cells(grid: &Grid, parcel_index: &[u32], options: LabelOptions) -> 
         }
         let root = find(&mut parent, i as u32);
         let slot = *by_root.entry(root).or_insert_with(|| {
-            components.push(Component { cells: Vec::new(), parcel: key(i).0 });
+            components.push(Component {
+                cells: Vec::new(),
+                parcel: key(i).0,
+            });
             components.len() - 1
         });
         components[slot].cells.push(i);
@@ -248,14 +271,27 @@ pub fn outline(grid: &Grid, cells: &[usize]) -> MultiPolygon<f64> {
     while k < cells.len() {
         let start = cells[k];
         let mut end = start;
-        while k + 1 < cells.len() && cells[k + 1] == end + 1 && (end + 1) % w != 0 {
+        while k + 1 < cells.len() && cells[k + 1] == end + 1 && !(end + 1).is_multiple_of(w) {
             k += 1;
             end = cells[k];
         }
         let row = (start / w) as f64;
         let (c0, c1) = ((start % w) as f64, (end % w) as f64 + 1.0);
-        let corners = [grid.corner(c0, row), grid.corner(c1, row), grid.corner(c1, row + 1.0), grid.corner(c0, row + 1.0), grid.corner(c0, row)];
-        runs.push(Polygon::new(corners.iter().map(|&(x, y)| geo::coord! { x: x, y: y }).collect::<Vec<_>>().into(), vec![]));
+        let corners = [
+            grid.corner(c0, row),
+            grid.corner(c1, row),
+            grid.corner(c1, row + 1.0),
+            grid.corner(c0, row + 1.0),
+            grid.corner(c0, row),
+        ];
+        runs.push(Polygon::new(
+            corners
+                .iter()
+                .map(|&(x, y)| geo::coord! { x: x, y: y })
+                .collect::<Vec<_>>()
+                .into(),
+            vec![],
+        ));
         k += 1;
     }
     if runs.len() == 1 {
@@ -276,9 +312,19 @@ impl<'a> ParcelIndex<'a> {
         let items = parcels
             .iter()
             .enumerate()
-            .filter_map(|(i, p)| p.geometry.bounding_rect().map(|r| GeomWithData::new(Rectangle::from_corners([r.min().x, r.min().y], [r.max().x, r.max().y]), i)))
+            .filter_map(|(i, p)| {
+                p.geometry.bounding_rect().map(|r| {
+                    GeomWithData::new(
+                        Rectangle::from_corners([r.min().x, r.min().y], [r.max().x, r.max().y]),
+                        i,
+                    )
+                })
+            })
             .collect();
-        ParcelIndex { parcels, tree: RTree::bulk_load(items) }
+        ParcelIndex {
+            parcels,
+            tree: RTree::bulk_load(items),
+        }
     }
 
     /// The last parcel (in layer order) containing (x, y), as rasterising would burn it.
@@ -296,26 +342,53 @@ impl<'a> ParcelIndex<'a> {
 /// Build patches from the loaded layers.
 pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
     let parcel_index = ParcelIndex::new(&layers.parcels);
-    let site_at = |x: f64, y: f64| parcel_index.locate(x, y).map(|p| p.site.clone()).unwrap_or_default();
+    let site_at = |x: f64, y: f64| {
+        parcel_index
+            .locate(x, y)
+            .map(|p| p.site.clone())
+            .unwrap_or_default()
+    };
     let mut items = Vec::new();
     let mut dropped_slivers = 0;
     let source;
     match &layers.host {
         Host::Raster(grid) => {
             source = "raster";
-            let polygons: Vec<MultiPolygon<f64>> = layers.parcels.iter().map(|p| p.geometry.clone()).collect();
+            let polygons: Vec<MultiPolygon<f64>> =
+                layers.parcels.iter().map(|p| p.geometry.clone()).collect();
             let index = gis::rasterize_index(grid, &polygons)?;
-            let options = LabelOptions { min_density: host.min_density, connectivity: host.connectivity, min_patch_ha: host.min_patch_ha, max_patch_ha: host.max_patch_ha };
+            let options = LabelOptions {
+                min_density: host.min_density,
+                connectivity: host.connectivity,
+                min_patch_ha: host.min_patch_ha,
+                max_patch_ha: host.max_patch_ha,
+            };
             let (components, dropped) = label_cells(grid, &index, options);
             dropped_slivers = dropped;
             if components.is_empty() {
-                let max = grid.values.iter().copied().filter(|v| v.is_finite()).fold(f64::NAN, f64::max);
+                let max = grid
+                    .values
+                    .iter()
+                    .copied()
+                    .filter(|v| v.is_finite())
+                    .fold(f64::NAN, f64::max);
                 return Err(Error::input_with_hint(
                     format!(
                         "host raster: no patch left (cells >= {} stems/ha: none{}; largest value {})",
                         host.min_density,
-                        if dropped > 0 { format!(" after dropping {dropped} slivers under {} ha", host.min_patch_ha) } else { String::new() },
-                        if max.is_nan() { "none: every cell is nodata".to_string() } else { format!("{max}") }
+                        if dropped > 0 {
+                            format!(
+                                " after dropping {dropped} slivers under {} ha",
+                                host.min_patch_ha
+                            )
+                        } else {
+                            String::new()
+                        },
+                        if max.is_nan() {
+                            "none: every cell is nodata".to_string()
+                        } else {
+                            format!("{max}")
+                        }
                     ),
                     "check that band 1 holds stems per hectare, or lower `--min-density` / `--min-patch-ha`",
                 ));
@@ -331,7 +404,11 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     sx += s * x;
                     sy += s * y;
                 }
-                let site = if c.parcel == 0 { Site::default() } else { layers.parcels[c.parcel as usize - 1].site.clone() };
+                let site = if c.parcel == 0 {
+                    Site::default()
+                } else {
+                    layers.parcels[c.parcel as usize - 1].site.clone()
+                };
                 items.push(Patch {
                     id: PatchId(k as u32),
                     label: format!("P{:0width$}", k + 1),
@@ -349,30 +426,58 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
             source = "polygons";
             let mut seen = BTreeSet::new();
             for f in &layer.features {
-                let at = format!("host layer `{}`, feature {}", layer.path.display(), f.number);
+                let at = format!(
+                    "host layer `{}`, feature {}",
+                    layer.path.display(),
+                    f.number
+                );
                 let polygon = match &f.geometry {
                     geo::Geometry::Polygon(p) => MultiPolygon(vec![p.clone()]),
                     geo::Geometry::MultiPolygon(m) => m.clone(),
-                    _ => return Err(Error::input_with_hint(format!("{at}: expected a polygon"), "give host stands as Polygon features with a stems field")),
+                    _ => {
+                        return Err(Error::input_with_hint(
+                            format!("{at}: expected a polygon"),
+                            "give host stands as Polygon features with a stems field",
+                        ));
+                    }
                 };
                 let stems = f.fields.get(&host.stems_field).and_then(|v| v.as_number());
                 let stems = match stems {
                     Some(s) if s.is_finite() && s >= 0.0 => s,
                     _ => {
                         return Err(Error::input_with_hint(
-                            format!("{at}, field `{}`: stems must be a number 0 or more, got `{}`", host.stems_field, f.fields.get(&host.stems_field).map(|v| v.as_text()).unwrap_or_default()),
+                            format!(
+                                "{at}, field `{}`: stems must be a number 0 or more, got `{}`",
+                                host.stems_field,
+                                f.fields
+                                    .get(&host.stems_field)
+                                    .map(|v| v.as_text())
+                                    .unwrap_or_default()
+                            ),
                             "fix the value or name the right field with `--stems-field`",
                         ));
                     }
                 };
                 let label = match &host.id_field {
-                    Some(field) => f.fields.get(field).map(|v| v.as_text()).filter(|t| !t.is_empty()).ok_or_else(|| Error::input(format!("{at}: empty id in field `{field}`")))?,
+                    Some(field) => f
+                        .fields
+                        .get(field)
+                        .map(|v| v.as_text())
+                        .filter(|t| !t.is_empty())
+                        .ok_or_else(|| {
+                            Error::input(format!("{at}: empty id in field `{field}`"))
+                        })?,
                     None => format!("P{:04}", f.number),
                 };
                 if !seen.insert(label.clone()) {
-                    return Err(Error::input_with_hint(format!("{at}: duplicate id `{label}`"), "every patch needs its own id"));
+                    return Err(Error::input_with_hint(
+                        format!("{at}: duplicate id `{label}`"),
+                        "every patch needs its own id",
+                    ));
                 }
-                let Some(centre) = polygon.centroid() else { return Err(Error::input(format!("{at}: empty polygon"))) };
+                let Some(centre) = polygon.centroid() else {
+                    return Err(Error::input(format!("{at}: empty polygon")));
+                };
                 if stems <= 0.0 {
                     continue;
                 }
@@ -389,7 +494,10 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                 });
             }
             if items.is_empty() {
-                return Err(Error::input(format!("host layer `{}` has no polygon with stems above 0", layer.path.display())));
+                return Err(Error::input(format!(
+                    "host layer `{}` has no polygon with stems above 0",
+                    layer.path.display()
+                )));
             }
         }
         Host::Inventory { stands, .. } => {
@@ -421,21 +529,35 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
     }
     let total: f64 = items.iter().map(|p| p.stems).sum();
     if total <= 0.0 {
-        return Err(Error::input("the host layer holds no stems (every patch has 0 stems)"));
+        return Err(Error::input(
+            "the host layer holds no stems (every patch has 0 stems)",
+        ));
     }
-    Ok(Patches { crs: layers.crs.clone(), items, dropped_slivers, source })
+    Ok(Patches {
+        crs: layers.crs.clone(),
+        items,
+        dropped_slivers,
+        source,
+    })
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
 /// `cost_factor`, `pressure`, `area_ha`. Column names are matched case-insensitively.
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
-    let bytes = fs_err::read(path).map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let bytes = fs_err::read(path)
+        .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
-    let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(bytes);
+    let mut reader = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_reader(bytes);
     let file = path.display();
     let headers: Vec<String> = reader
         .headers()
-        .map_err(|e| Error::input(format!("inventory `{file}`: cannot read the header line ({e})")))?
+        .map_err(|e| {
+            Error::input(format!(
+                "inventory `{file}`: cannot read the header line ({e})"
+            ))
+        })?
         .iter()
         .map(|h| h.to_ascii_lowercase())
         .collect();
@@ -452,10 +574,28 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
         } else {
             "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha)"
         };
-        return Err(Error::input_with_hint(format!("inventory `{file}`: missing required column(s) {} (found: {})", missing.join(", "), headers.join(", ")), hint));
+        return Err(Error::input_with_hint(
+            format!(
+                "inventory `{file}`: missing required column(s) {} (found: {})",
+                missing.join(", "),
+                headers.join(", ")
+            ),
+            hint,
+        ));
     }
-    let (ci, cx, cy, cs) = (column("id").unwrap_or(0), column("x").unwrap_or(0), column("y").unwrap_or(0), column("stems").unwrap_or(0));
-    let (ca, ch, cc, cp, car) = (column("access"), column("herbicide"), column("cost_factor"), column("pressure"), column("area_ha"));
+    let (ci, cx, cy, cs) = (
+        column("id").unwrap_or(0),
+        column("x").unwrap_or(0),
+        column("y").unwrap_or(0),
+        column("stems").unwrap_or(0),
+    );
+    let (ca, ch, cc, cp, car) = (
+        column("access"),
+        column("herbicide"),
+        column("cost_factor"),
+        column("pressure"),
+        column("area_ha"),
+    );
     let mut stands = Vec::new();
     let mut seen: HashMap<String, u64> = HashMap::new();
     for record in reader.records() {
@@ -469,13 +609,18 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
             let text = get(c);
             let value: f64 = text.parse().map_err(|_| {
                 Error::input_with_hint(
-                    format!("inventory `{file}`, line {line}, column `{name}`: `{text}` is not a number"),
+                    format!(
+                        "inventory `{file}`, line {line}, column `{name}`: `{text}` is not a number"
+                    ),
                     "use plain numbers with a dot for decimals and no thousands separators",
                 )
             })?;
             if !value.is_finite() || (!allow_negative && value < 0.0) {
                 return Err(Error::input_with_hint(
-                    format!("inventory `{file}`, line {line}, column `{name}`: `{text}` must be a finite number{}", if allow_negative { "" } else { " 0 or more" }),
+                    format!(
+                        "inventory `{file}`, line {line}, column `{name}`: `{text}` must be a finite number{}",
+                        if allow_negative { "" } else { " 0 or more" }
+                    ),
                     "fix the value in the inventory",
                 ));
             }
@@ -483,26 +628,49 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
         };
         let id = get(ci).to_string();
         if id.is_empty() {
-            return Err(Error::input(format!("inventory `{file}`, line {line}: empty id")));
+            return Err(Error::input(format!(
+                "inventory `{file}`, line {line}: empty id"
+            )));
         }
         if let Some(first) = seen.insert(id.clone(), line) {
-            return Err(Error::input_with_hint(format!("inventory `{file}`, line {line}: duplicate id `{id}` (first on line {first})"), "every stand needs its own id"));
+            return Err(Error::input_with_hint(
+                format!(
+                    "inventory `{file}`, line {line}: duplicate id `{id}` (first on line {first})"
+                ),
+                "every stand needs its own id",
+            ));
         }
         let optional_text = |c: Option<usize>| c.map(get).filter(|t| !t.is_empty());
         let access = match optional_text(ca) {
             None => None,
-            Some(t) => Some(Access::parse(t).ok_or_else(|| Error::input_with_hint(format!("inventory `{file}`, line {line}, column `access`: unknown value `{t}`"), "use open, permission or denied"))?),
+            Some(t) => Some(Access::parse(t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `access`: unknown value `{t}`"
+                    ),
+                    "use open, permission or denied",
+                )
+            })?),
         };
         let herbicide = match optional_text(ch) {
             None => None,
-            Some(t) => Some(Herbicide::parse(t).ok_or_else(|| Error::input_with_hint(format!("inventory `{file}`, line {line}, column `herbicide`: unknown value `{t}`"), "use allowed, restricted or prohibited"))?),
+            Some(t) => Some(Herbicide::parse(t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `herbicide`: unknown value `{t}`"
+                    ),
+                    "use allowed, restricted or prohibited",
+                )
+            })?),
         };
         let cost_factor = match cc.filter(|&c| !get(c).is_empty()) {
             None => None,
             Some(c) => {
                 let v = number(c, "cost_factor", false)?;
                 if v <= 0.0 {
-                    return Err(Error::input(format!("inventory `{file}`, line {line}, column `cost_factor`: must be above 0, got {v}")));
+                    return Err(Error::input(format!(
+                        "inventory `{file}`, line {line}, column `cost_factor`: must be above 0, got {v}"
+                    )));
                 }
                 Some(v)
             }
@@ -515,10 +683,23 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
             None => None,
             Some(c) => Some(number(c, "area_ha", false)?),
         };
-        stands.push(Stand { x: number(cx, "x", true)?, y: number(cy, "y", true)?, stems: number(cs, "stems", false)?, id, area_ha, access, herbicide, cost_factor, pressure });
+        stands.push(Stand {
+            x: number(cx, "x", true)?,
+            y: number(cy, "y", true)?,
+            stems: number(cs, "stems", false)?,
+            id,
+            area_ha,
+            access,
+            herbicide,
+            cost_factor,
+            pressure,
+        });
     }
     if stands.is_empty() {
-        return Err(Error::input_with_hint(format!("inventory `{file}` has a header but no stands"), "add one row per stand below the header"));
+        return Err(Error::input_with_hint(
+            format!("inventory `{file}` has a header but no stands"),
+            "add one row per stand below the header",
+        ));
     }
     Ok(stands)
 }

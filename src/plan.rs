@@ -47,14 +47,23 @@ pub struct Plan {
 
 impl Plan {
     pub fn reduction_pct(&self) -> f64 {
-        if self.risk_before > 0.0 { 100.0 * (1.0 - self.risk_after / self.risk_before) } else { 0.0 }
+        if self.risk_before > 0.0 {
+            100.0 * (1.0 - self.risk_after / self.risk_before)
+        } else {
+            0.0
+        }
     }
 }
 
 /// Order the chosen treatments so each prefix buys the most: repeatedly take the chosen patch
 /// with the largest risk reduction per unit cost given those already taken.
 fn priority_order(problem: &Problem, solved: &Solved) -> Vec<(usize, usize, f64)> {
-    let mut left: Vec<(usize, usize)> = solved.assignment.iter().enumerate().filter_map(|(i, a)| a.map(|o| (i, o))).collect();
+    let mut left: Vec<(usize, usize)> = solved
+        .assignment
+        .iter()
+        .enumerate()
+        .filter_map(|(i, a)| a.map(|o| (i, o)))
+        .collect();
     let mut remaining = vec![1.0; problem.len()];
     let mut order = Vec::new();
     while !left.is_empty() {
@@ -64,7 +73,11 @@ fn priority_order(problem: &Problem, solved: &Solved) -> Vec<(usize, usize, f64)
         for (k, &(i, o)) in left.iter().enumerate() {
             let gain = problem.gain(&remaining, i, o);
             let cost = problem.choices[i][o].cost;
-            let ratio = if cost > 0.0 { gain / cost } else { f64::INFINITY };
+            let ratio = if cost > 0.0 {
+                gain / cost
+            } else {
+                f64::INFINITY
+            };
             if ratio > best_ratio {
                 best = k;
                 best_ratio = ratio;
@@ -79,7 +92,14 @@ fn priority_order(problem: &Problem, solved: &Solved) -> Vec<(usize, usize, f64)
 }
 
 /// Assemble the plan from the solve.
-pub fn assemble(patches: &Patches, model: &RiskModel, catalogue: &Catalogue, problem: &Problem, solved: &Solved, settings: &ModelSection) -> Plan {
+pub fn assemble(
+    patches: &Patches,
+    model: &RiskModel,
+    catalogue: &Catalogue,
+    problem: &Problem,
+    solved: &Solved,
+    settings: &ModelSection,
+) -> Plan {
     let n = patches.len();
     let remaining = problem.remaining(&solved.assignment);
     let risk_before = model.risk_before();
@@ -89,18 +109,41 @@ pub fn assemble(patches: &Patches, model: &RiskModel, catalogue: &Catalogue, pro
     let delta = model.delta(before.lambda, settings.persistence_ratio);
     let establishment_before = model.establishment(&ones, delta, settings.introduction_weight);
     let establishment_after = model.establishment(&remaining, delta, settings.introduction_weight);
-    let patch_value = before.vector.iter().map(|x| before.lambda * x * x).collect();
+    let patch_value = before
+        .vector
+        .iter()
+        .map(|x| before.lambda * x * x)
+        .collect();
     let rows = priority_order(problem, solved)
         .into_iter()
         .map(|(i, o, gain)| {
             let choice = problem.choices[i][o];
             let method = catalogue.method(choice.method);
-            let reduction_pct = if risk_before > 0.0 { 100.0 * gain / risk_before } else { 0.0 };
-            let value_per_cost = if choice.cost > 0.0 { reduction_pct / choice.cost * 1000.0 } else { f64::INFINITY };
-            PlanRow { patch: PatchId(i as u32), choice, cautions: treatments::caution_codes(method, &patches.items[i]), reduction_pct, value_per_cost }
+            let reduction_pct = if risk_before > 0.0 {
+                100.0 * gain / risk_before
+            } else {
+                0.0
+            };
+            let value_per_cost = if choice.cost > 0.0 {
+                reduction_pct / choice.cost * 1000.0
+            } else {
+                f64::INFINITY
+            };
+            PlanRow {
+                patch: PatchId(i as u32),
+                choice,
+                cautions: treatments::caution_codes(method, &patches.items[i]),
+                reduction_pct,
+                value_per_cost,
+            }
         })
         .collect();
-    let method_of = solved.assignment.iter().enumerate().map(|(i, a)| a.map(|o| problem.choices[i][o].method)).collect();
+    let method_of = solved
+        .assignment
+        .iter()
+        .enumerate()
+        .map(|(i, a)| a.map(|o| problem.choices[i][o].method))
+        .collect();
     Plan {
         rows,
         method_of,

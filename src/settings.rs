@@ -164,7 +164,13 @@ pub struct ModelSection {
 
 impl Default for ModelSection {
     fn default() -> Self {
-        ModelSection { kernel: KernelKind::Exp, alpha_m: DEFAULT_ALPHA_M, epsilon: 0.001, persistence_ratio: 2.0, introduction_weight: 0.01 }
+        ModelSection {
+            kernel: KernelKind::Exp,
+            alpha_m: DEFAULT_ALPHA_M,
+            epsilon: 0.001,
+            persistence_ratio: 2.0,
+            introduction_weight: 0.01,
+        }
     }
 }
 
@@ -193,7 +199,10 @@ pub struct SolverSection {
 
 impl Default for SolverSection {
     fn default() -> Self {
-        SolverSection { time_limit_s: 120.0, gap: 1e-4 }
+        SolverSection {
+            time_limit_s: 120.0,
+            gap: 1e-4,
+        }
     }
 }
 
@@ -208,7 +217,8 @@ pub struct Settings {
 
 /// Read a scenario TOML file; relative paths inside it become relative to its folder.
 pub fn read_scenario(path: &Path) -> Result<Scenario> {
-    let text = fs_err::read_to_string(path).map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let text = fs_err::read_to_string(path)
+        .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
     let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
     let mut scenario: Scenario = toml::from_str(text).map_err(|e| {
         let line = e.span().map(|s| text[..s.start].lines().count().max(1));
@@ -225,7 +235,11 @@ pub fn read_scenario(path: &Path) -> Result<Scenario> {
 }
 
 fn absolute(base: &Path, p: &Path) -> PathBuf {
-    let joined = if p.is_absolute() { p.to_path_buf() } else { base.join(p) };
+    let joined = if p.is_absolute() {
+        p.to_path_buf()
+    } else {
+        base.join(p)
+    };
     std::path::absolute(&joined).unwrap_or(joined)
 }
 
@@ -255,7 +269,8 @@ impl Scenario {
 
     /// The TOML text of this scenario, as written to `scenario.resolved.toml`.
     pub fn to_toml(&self) -> Result<String> {
-        toml::to_string_pretty(self).map_err(|e| Error::Internal(format!("cannot write the resolved scenario: {e}")))
+        toml::to_string_pretty(self)
+            .map_err(|e| Error::Internal(format!("cannot write the resolved scenario: {e}")))
     }
 }
 
@@ -316,7 +331,9 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
                 m if m == n => Ok(values[i]),
                 m => Err(Error::input_with_hint(
                     format!("{m} values of `{flag}` for {n} `--corridor` layers"),
-                    format!("give one `{flag}` for all corridors or one per `--corridor`, in the same order"),
+                    format!(
+                        "give one `{flag}` for all corridors or one per `--corridor`, in the same order"
+                    ),
                 )),
             }
         };
@@ -332,29 +349,53 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
         }
     } else if !args.corridor_weight.is_empty() || !args.corridor_buffer_m.is_empty() {
         if s.corridors.is_empty() {
-            return Err(Error::input("`--corridor-weight` and `--corridor-buffer-m` need at least one `--corridor`"));
+            return Err(Error::input(
+                "`--corridor-weight` and `--corridor-buffer-m` need at least one `--corridor`",
+            ));
         }
         let n = s.corridors.len();
-        for (values, is_weight) in [(&args.corridor_weight, true), (&args.corridor_buffer_m, false)] {
+        for (values, is_weight) in [
+            (&args.corridor_weight, true),
+            (&args.corridor_buffer_m, false),
+        ] {
             if values.is_empty() {
                 continue;
             }
             if values.len() != 1 && values.len() != n {
-                return Err(Error::input(format!("{} corridor values for {n} corridors in the scenario", values.len())));
+                return Err(Error::input(format!(
+                    "{} corridor values for {n} corridors in the scenario",
+                    values.len()
+                )));
             }
             for (i, c) in s.corridors.iter_mut().enumerate() {
-                let v = if values.len() == 1 { values[0] } else { values[i] };
-                if is_weight { c.weight = v } else { c.buffer_m = v }
+                let v = if values.len() == 1 {
+                    values[0]
+                } else {
+                    values[i]
+                };
+                if is_weight {
+                    c.weight = v
+                } else {
+                    c.buffer_m = v
+                }
             }
         }
     }
     for c in &mut s.corridors {
         if c.name.is_empty() {
-            c.name = c.path.file_stem().map(|f| f.to_string_lossy().into_owned()).unwrap_or_else(|| "corridor".into());
+            c.name = c
+                .path
+                .file_stem()
+                .map(|f| f.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "corridor".into());
         }
     }
     if let Some(p) = &args.detections {
-        s.detections = Some(DetectionSection { path: abs(p), layer: None, weight: args.detection_weight.unwrap_or(1.0) });
+        s.detections = Some(DetectionSection {
+            path: abs(p),
+            layer: None,
+            weight: args.detection_weight.unwrap_or(1.0),
+        });
     } else if let (Some(w), Some(d)) = (args.detection_weight, s.detections.as_mut()) {
         d.weight = w;
     }
@@ -377,10 +418,20 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
         s.plan.crew_hours = Some(v);
     }
     if !args.require.is_empty() {
-        s.plan.require = args.require.iter().map(|x| x.trim().to_string()).filter(|x| !x.is_empty()).collect();
+        s.plan.require = args
+            .require
+            .iter()
+            .map(|x| x.trim().to_string())
+            .filter(|x| !x.is_empty())
+            .collect();
     }
     if !args.exclude.is_empty() {
-        s.plan.exclude = args.exclude.iter().map(|x| x.trim().to_string()).filter(|x| !x.is_empty()).collect();
+        s.plan.exclude = args
+            .exclude
+            .iter()
+            .map(|x| x.trim().to_string())
+            .filter(|x| !x.is_empty())
+            .collect();
     }
     if let Some(v) = args.time_limit_s {
         s.solver.time_limit_s = v;
@@ -390,14 +441,28 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
     }
     let out = match &args.out {
         Some(o) => abs(o),
-        None => return Err(Error::input_with_hint("no output folder given", "add `--out DIR`")),
+        None => {
+            return Err(Error::input_with_hint(
+                "no output folder given",
+                "add `--out DIR`",
+            ));
+        }
     };
     validate(&s)?;
-    Ok(Settings { scenario: s, out, force: args.force, quiet: args.quiet })
+    Ok(Settings {
+        scenario: s,
+        out,
+        force: args.force,
+        quiet: args.quiet,
+    })
 }
 
 fn check(ok: bool, message: impl FnOnce() -> String, hint: &str) -> Result<()> {
-    if ok { Ok(()) } else { Err(Error::input_with_hint(message(), hint)) }
+    if ok {
+        Ok(())
+    } else {
+        Err(Error::input_with_hint(message(), hint))
+    }
 }
 
 /// Validate every number and the choice of host layer.
@@ -409,7 +474,11 @@ pub fn validate(s: &Scenario) -> Result<()> {
                 "give `--host RASTER|VECTOR` or `--inventory stands.csv --crs EPSG:NNNN` (or `host.path` / `host.inventory` in the scenario)",
             ));
         }
-        (Some(_), Some(_)) => return Err(Error::input("give either a host layer or a stand inventory, not both")),
+        (Some(_), Some(_)) => {
+            return Err(Error::input(
+                "give either a host layer or a stand inventory, not both",
+            ));
+        }
         (None, Some(_)) if s.host.crs.is_none() => {
             return Err(Error::input_with_hint(
                 "the stand inventory needs the CRS of its x,y coordinates",
@@ -425,37 +494,146 @@ pub fn validate(s: &Scenario) -> Result<()> {
         _ => {}
     }
     let h = &s.host;
-    check(h.min_density.is_finite() && h.min_density > 0.0, || format!("min_density must be a positive number of stems/ha, got {}", h.min_density), "e.g. `--min-density 10`")?;
-    check(h.min_patch_ha.is_finite() && h.min_patch_ha >= 0.0, || format!("min_patch_ha must be 0 or more, got {}", h.min_patch_ha), "e.g. `--min-patch-ha 0.05`")?;
+    check(
+        h.min_density.is_finite() && h.min_density > 0.0,
+        || {
+            format!(
+                "min_density must be a positive number of stems/ha, got {}",
+                h.min_density
+            )
+        },
+        "e.g. `--min-density 10`",
+    )?;
+    check(
+        h.min_patch_ha.is_finite() && h.min_patch_ha >= 0.0,
+        || format!("min_patch_ha must be 0 or more, got {}", h.min_patch_ha),
+        "e.g. `--min-patch-ha 0.05`",
+    )?;
     if let Some(m) = h.max_patch_ha {
-        check(m.is_finite() && m > 0.0, || format!("max_patch_ha must be positive, got {m}"), "e.g. `--max-patch-ha 4`")?;
+        check(
+            m.is_finite() && m > 0.0,
+            || format!("max_patch_ha must be positive, got {m}"),
+            "e.g. `--max-patch-ha 4`",
+        )?;
     }
-    check(h.connectivity == 4 || h.connectivity == 8, || format!("connectivity must be 4 or 8, got {}", h.connectivity), "use `--connectivity 8` (diagonal neighbours join) or `4`")?;
+    check(
+        h.connectivity == 4 || h.connectivity == 8,
+        || format!("connectivity must be 4 or 8, got {}", h.connectivity),
+        "use `--connectivity 8` (diagonal neighbours join) or `4`",
+    )?;
     for c in &s.corridors {
-        check(c.weight.is_finite() && c.weight >= 0.0, || format!("corridor `{}`: weight must be 0 or more, got {}", c.path.display(), c.weight), "e.g. `--corridor-weight 3`")?;
-        check(c.buffer_m.is_finite() && c.buffer_m >= 0.0, || format!("corridor `{}`: buffer must be 0 or more metres, got {}", c.path.display(), c.buffer_m), "e.g. `--corridor-buffer-m 500`")?;
+        check(
+            c.weight.is_finite() && c.weight >= 0.0,
+            || {
+                format!(
+                    "corridor `{}`: weight must be 0 or more, got {}",
+                    c.path.display(),
+                    c.weight
+                )
+            },
+            "e.g. `--corridor-weight 3`",
+        )?;
+        check(
+            c.buffer_m.is_finite() && c.buffer_m >= 0.0,
+            || {
+                format!(
+                    "corridor `{}`: buffer must be 0 or more metres, got {}",
+                    c.path.display(),
+                    c.buffer_m
+                )
+            },
+            "e.g. `--corridor-buffer-m 500`",
+        )?;
     }
     if let Some(d) = &s.detections {
-        check(d.weight.is_finite() && d.weight >= 0.0, || format!("detection weight must be 0 or more, got {}", d.weight), "e.g. `--detection-weight 1`")?;
+        check(
+            d.weight.is_finite() && d.weight >= 0.0,
+            || format!("detection weight must be 0 or more, got {}", d.weight),
+            "e.g. `--detection-weight 1`",
+        )?;
     }
     let m = &s.model;
-    check(m.alpha_m.is_finite() && m.alpha_m > 0.0, || format!("alpha_m must be a positive distance in metres, got {}", m.alpha_m), "e.g. `--alpha-m 200`")?;
-    check(m.epsilon.is_finite() && m.epsilon > 0.0 && m.epsilon < 1.0, || format!("epsilon must be between 0 and 1 (exclusive), got {}", m.epsilon), "e.g. `--epsilon 0.001`")?;
-    check(m.persistence_ratio.is_finite() && m.persistence_ratio > 0.0, || format!("model.persistence_ratio must be positive, got {}", m.persistence_ratio), "e.g. `persistence_ratio = 2.0`")?;
-    check(m.introduction_weight.is_finite() && m.introduction_weight >= 0.0, || format!("model.introduction_weight must be 0 or more, got {}", m.introduction_weight), "e.g. `introduction_weight = 0.01`")?;
+    check(
+        m.alpha_m.is_finite() && m.alpha_m > 0.0,
+        || {
+            format!(
+                "alpha_m must be a positive distance in metres, got {}",
+                m.alpha_m
+            )
+        },
+        "e.g. `--alpha-m 200`",
+    )?;
+    check(
+        m.epsilon.is_finite() && m.epsilon > 0.0 && m.epsilon < 1.0,
+        || {
+            format!(
+                "epsilon must be between 0 and 1 (exclusive), got {}",
+                m.epsilon
+            )
+        },
+        "e.g. `--epsilon 0.001`",
+    )?;
+    check(
+        m.persistence_ratio.is_finite() && m.persistence_ratio > 0.0,
+        || {
+            format!(
+                "model.persistence_ratio must be positive, got {}",
+                m.persistence_ratio
+            )
+        },
+        "e.g. `persistence_ratio = 2.0`",
+    )?;
+    check(
+        m.introduction_weight.is_finite() && m.introduction_weight >= 0.0,
+        || {
+            format!(
+                "model.introduction_weight must be 0 or more, got {}",
+                m.introduction_weight
+            )
+        },
+        "e.g. `introduction_weight = 0.01`",
+    )?;
     match s.plan.budget {
-        None => return Err(Error::input_with_hint("no budget given", "add `--budget AMOUNT` (the season's money for treatments)")),
-        Some(b) => check(b.is_finite() && b >= 0.0, || format!("budget must be 0 or more, got {b}"), "e.g. `--budget 60000`")?,
+        None => {
+            return Err(Error::input_with_hint(
+                "no budget given",
+                "add `--budget AMOUNT` (the season's money for treatments)",
+            ));
+        }
+        Some(b) => check(
+            b.is_finite() && b >= 0.0,
+            || format!("budget must be 0 or more, got {b}"),
+            "e.g. `--budget 60000`",
+        )?,
     }
     if let Some(hours) = s.plan.crew_hours {
-        check(hours.is_finite() && hours >= 0.0, || format!("crew hours must be 0 or more, got {hours}"), "e.g. `--crew-hours 400`")?;
+        check(
+            hours.is_finite() && hours >= 0.0,
+            || format!("crew hours must be 0 or more, got {hours}"),
+            "e.g. `--crew-hours 400`",
+        )?;
     }
     for id in &s.plan.require {
         if s.plan.exclude.contains(id) {
-            return Err(Error::input(format!("patch `{id}` is both required and excluded")));
+            return Err(Error::input(format!(
+                "patch `{id}` is both required and excluded"
+            )));
         }
     }
-    check(s.solver.time_limit_s.is_finite() && s.solver.time_limit_s > 0.0, || format!("time limit must be positive seconds, got {}", s.solver.time_limit_s), "e.g. `--time-limit-s 60`")?;
-    check(s.solver.gap.is_finite() && (0.0..1.0).contains(&s.solver.gap), || format!("gap must be in [0, 1), got {}", s.solver.gap), "e.g. `--gap 0.0001`")?;
+    check(
+        s.solver.time_limit_s.is_finite() && s.solver.time_limit_s > 0.0,
+        || {
+            format!(
+                "time limit must be positive seconds, got {}",
+                s.solver.time_limit_s
+            )
+        },
+        "e.g. `--time-limit-s 60`",
+    )?;
+    check(
+        s.solver.gap.is_finite() && (0.0..1.0).contains(&s.solver.gap),
+        || format!("gap must be in [0, 1), got {}", s.solver.gap),
+        "e.g. `--gap 0.0001`",
+    )?;
     Ok(())
 }

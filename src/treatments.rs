@@ -57,7 +57,11 @@ impl Catalogue {
         let text = text.strip_prefix('\u{feff}').unwrap_or(text);
         let catalogue: Catalogue = toml::from_str(text).map_err(|e| {
             let line = e.span().map(|s| text[..s.start].lines().count().max(1));
-            Error::input(format!("treatment catalogue `{origin}`{}: {}", line.map(|l| format!(", line {l}")).unwrap_or_default(), e.message()))
+            Error::input(format!(
+                "treatment catalogue `{origin}`{}: {}",
+                line.map(|l| format!(", line {l}")).unwrap_or_default(),
+                e.message()
+            ))
         })?;
         catalogue.validate(origin)?;
         Ok(catalogue)
@@ -66,9 +70,14 @@ impl Catalogue {
     /// The built-in catalogue or the file at `path`.
     pub fn load(path: Option<&Path>) -> Result<(Catalogue, String)> {
         match path {
-            None => Ok((Catalogue::parse(BUILTIN, "built-in models/treatments.toml")?, BUILTIN.to_string())),
+            None => Ok((
+                Catalogue::parse(BUILTIN, "built-in models/treatments.toml")?,
+                BUILTIN.to_string(),
+            )),
             Some(p) => {
-                let text = fs_err::read_to_string(p).map_err(|e| Error::io("read", p, std::io::Error::new(e.kind(), e.to_string())))?;
+                let text = fs_err::read_to_string(p).map_err(|e| {
+                    Error::io("read", p, std::io::Error::new(e.kind(), e.to_string()))
+                })?;
                 Ok((Catalogue::parse(&text, &p.display().to_string())?, text))
             }
         }
@@ -76,11 +85,18 @@ impl Catalogue {
 
     fn validate(&self, origin: &str) -> Result<()> {
         if self.methods.is_empty() {
-            return Err(Error::input(format!("treatment catalogue `{origin}` has no [[method]]")));
+            return Err(Error::input(format!(
+                "treatment catalogue `{origin}` has no [[method]]"
+            )));
         }
         let mut seen = BTreeSet::new();
         for m in &self.methods {
-            let bad = |what: String| Error::input_with_hint(format!("treatment catalogue `{origin}`, method `{}`: {what}", m.id), "fix the value in the catalogue");
+            let bad = |what: String| {
+                Error::input_with_hint(
+                    format!("treatment catalogue `{origin}`, method `{}`: {what}", m.id),
+                    "fix the value in the catalogue",
+                )
+            };
             if m.id.trim().is_empty() {
                 return Err(bad("empty id".into()));
             }
@@ -88,19 +104,32 @@ impl Catalogue {
                 return Err(bad("duplicate id".into()));
             }
             if !(m.effectiveness.is_finite() && (0.0..=1.0).contains(&m.effectiveness)) {
-                return Err(bad(format!("effectiveness must be between 0 and 1, got {}", m.effectiveness)));
+                return Err(bad(format!(
+                    "effectiveness must be between 0 and 1, got {}",
+                    m.effectiveness
+                )));
             }
-            for (name, v) in [("cost_per_stem", m.cost_per_stem), ("cost_per_patch", m.cost_per_patch), ("hours_per_stem", m.hours_per_stem)] {
+            for (name, v) in [
+                ("cost_per_stem", m.cost_per_stem),
+                ("cost_per_patch", m.cost_per_patch),
+                ("hours_per_stem", m.hours_per_stem),
+            ] {
                 if !(v.is_finite() && v >= 0.0) {
                     return Err(bad(format!("{name} must be 0 or more, got {v}")));
                 }
             }
             if m.months.is_empty() || m.months.iter().any(|&mo| !(1..=12).contains(&mo)) {
-                return Err(bad(format!("months must list months 1-12, got {:?}", m.months)));
+                return Err(bad(format!(
+                    "months must list months 1-12, got {:?}",
+                    m.months
+                )));
             }
             for code in &m.cautions {
                 if cautions::lookup(code).is_none() {
-                    return Err(bad(format!("unknown caution code `{code}` (known: {})", cautions::codes().join(", "))));
+                    return Err(bad(format!(
+                        "unknown caution code `{code}` (known: {})",
+                        cautions::codes().join(", ")
+                    )));
                 }
             }
         }
@@ -145,7 +174,11 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch) -> Vec<Choice> {
 
 /// Caution codes for one treated patch: the method's own plus the site's.
 pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
-    let mut codes: Vec<&'static str> = method.cautions.iter().filter_map(|c| cautions::lookup(c).map(|c| c.code)).collect();
+    let mut codes: Vec<&'static str> = method
+        .cautions
+        .iter()
+        .filter_map(|c| cautions::lookup(c).map(|c| c.code))
+        .collect();
     if method.herbicide && patch.site.herbicide == Herbicide::Restricted {
         codes.push("RESTRICTED_SITE");
     }

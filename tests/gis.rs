@@ -7,11 +7,22 @@ use hostcut::gis::{Crs, Grid, transform_points};
 use hostcut::patches::{LabelOptions, label_cells};
 
 fn grid(width: usize, height: usize, values: Vec<f64>, cell: f64) -> Grid {
-    Grid { width, height, transform: [0.0, cell, 0.0, height as f64 * cell, 0.0, -cell], values, crs: Crs::parse("EPSG:32618", "test").unwrap() }
+    Grid {
+        width,
+        height,
+        transform: [0.0, cell, 0.0, height as f64 * cell, 0.0, -cell],
+        values,
+        crs: Crs::parse("EPSG:32618", "test").unwrap(),
+    }
 }
 
 fn options(connectivity: u8) -> LabelOptions {
-    LabelOptions { min_density: 1.0, connectivity, min_patch_ha: 0.0, max_patch_ha: None }
+    LabelOptions {
+        min_density: 1.0,
+        connectivity,
+        min_patch_ha: 0.0,
+        max_patch_ha: None,
+    }
 }
 
 #[test]
@@ -33,7 +44,10 @@ fn diagonal_contact_joins_only_with_8_connectivity() {
         0.0, 5.0, 0.0,
         5.0, 0.0, 0.0,
     ];
-    assert_eq!(label_cells(&grid(3, 3, v, 10.0), &none, options(8)).0.len(), 1);
+    assert_eq!(
+        label_cells(&grid(3, 3, v, 10.0), &none, options(8)).0.len(),
+        1
+    );
 }
 
 #[test]
@@ -48,7 +62,11 @@ fn nodata_holes_and_threshold_split_patches() {
     let g = grid(5, 3, v, 10.0);
     let (components, _) = label_cells(&g, &[0; 15], options(8));
     assert_eq!(components.len(), 2);
-    assert_eq!(components[0].cells, vec![0, 1, 5, 6, 10], "the 0.5 cell is below min_density");
+    assert_eq!(
+        components[0].cells,
+        vec![0, 1, 5, 6, 10],
+        "the 0.5 cell is below min_density"
+    );
     assert_eq!(components[1].cells.len(), 6);
 }
 
@@ -66,15 +84,32 @@ fn parcel_boundaries_split_patches_and_slivers_are_dropped() {
     assert_eq!(dropped, 0);
     let sizes: Vec<usize> = components.iter().map(|c| c.cells.len()).collect();
     assert_eq!(sizes, vec![4, 3, 1]);
-    let (kept, dropped) = label_cells(&g, &parcels, LabelOptions { min_patch_ha: 2.0, ..options(8) });
+    let (kept, dropped) = label_cells(
+        &g,
+        &parcels,
+        LabelOptions {
+            min_patch_ha: 2.0,
+            ..options(8)
+        },
+    );
     assert_eq!((kept.len(), dropped), (2, 1));
 }
 
 #[test]
 fn max_patch_size_splits_into_blocks() {
     let g = grid(10, 10, vec![50.0; 100], 100.0); // 1 ha cells, one 100 ha blob
-    let (components, _) = label_cells(&g, &[0; 100], LabelOptions { max_patch_ha: Some(9.0), ..options(8) });
-    assert!(components.iter().all(|c| c.cells.len() <= 9), "every block at most 9 ha");
+    let (components, _) = label_cells(
+        &g,
+        &[0; 100],
+        LabelOptions {
+            max_patch_ha: Some(9.0),
+            ..options(8)
+        },
+    );
+    assert!(
+        components.iter().all(|c| c.cells.len() <= 9),
+        "every block at most 9 ha"
+    );
     assert_eq!(components.iter().map(|c| c.cells.len()).sum::<usize>(), 100);
     assert_eq!(components.len(), 16); // 3x3-cell blocks over 10x10: 4 x 4
 }
@@ -91,16 +126,51 @@ fn stems_from_a_geotiff_equal_the_raster_sum() {
         0.0,   0.0,   0.0,   400.0, 50.0, 0.0,
         0.0,   0.0,   0.0,   0.0,   500.0, 5.0,
     ];
-    geotiff(&dir.path().join("h.tif"), Some("EPSG:32618"), 6, 4, (500_000.0, 4_480_000.0), 20.0, &v, Some(-9999.0));
+    geotiff(
+        &dir.path().join("h.tif"),
+        Some("EPSG:32618"),
+        6,
+        4,
+        (500_000.0, 4_480_000.0),
+        20.0,
+        &v,
+        Some(-9999.0),
+    );
     write(dir.path(), "m.toml", &catalogue(0.9, 10.0, 1.0));
-    let o = run(dir.path(), &["plan", "--host", "h.tif", "--min-density", "10", "--treatments", "m.toml", "--budget", "100", "--out", "out", "--quiet"]);
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--host",
+            "h.tif",
+            "--min-density",
+            "10",
+            "--treatments",
+            "m.toml",
+            "--budget",
+            "100",
+            "--out",
+            "out",
+            "--quiet",
+        ],
+    );
     assert!(o.status.success(), "{}", stderr(&o));
     let text = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
     let mut rdr = csv::Reader::from_reader(text.as_bytes());
-    let stems: Vec<f64> = rdr.records().map(|r| r.unwrap()[5].parse().unwrap()).collect();
+    let stems: Vec<f64> = rdr
+        .records()
+        .map(|r| r.unwrap()[5].parse().unwrap())
+        .collect();
     assert_eq!(stems.len(), 2);
-    let expected_total: f64 = v.iter().filter(|x| **x >= 10.0).map(|x| *x as f64 * 0.04).sum();
-    assert!((stems.iter().sum::<f64>() - expected_total).abs() < 0.2, "{stems:?} vs {expected_total}");
+    let expected_total: f64 = v
+        .iter()
+        .filter(|x| **x >= 10.0)
+        .map(|x| *x as f64 * 0.04)
+        .sum();
+    assert!(
+        (stems.iter().sum::<f64>() - expected_total).abs() < 0.2,
+        "{stems:?} vs {expected_total}"
+    );
     assert!((stems[0] - (100.0 + 250.0 + 300.0) * 0.04).abs() < 0.06);
 }
 
@@ -114,9 +184,15 @@ fn known_points_reproject_to_published_values() {
     // By the definition of UTM: the central meridian of zone 18N (75°W) on the equator maps to
     // the false easting 500000 m, northing 0.
     let out = transform_points("EPSG:4326", "EPSG:32618", &[(-75.0, 0.0)]).unwrap();
-    assert!((out[0].0 - 500_000.0).abs() < 1e-6 && out[0].1.abs() < 1e-6, "{out:?}");
+    assert!(
+        (out[0].0 - 500_000.0).abs() < 1e-6 && out[0].1.abs() < 1e-6,
+        "{out:?}"
+    );
     // And back: the tool's lon/lat conversion inverts it.
     let crs = Crs::parse("EPSG:32618", "test").unwrap();
-    let back = hostcut::gis::ToLonLat::new(&crs).unwrap().points(&[(500_000.0, 0.0)]).unwrap();
+    let back = hostcut::gis::ToLonLat::new(&crs)
+        .unwrap()
+        .points(&[(500_000.0, 0.0)])
+        .unwrap();
     assert!((back[0].0 + 75.0).abs() < 1e-9 && back[0].1.abs() < 1e-9);
 }

@@ -11,7 +11,10 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
 fn exp_kernel(alpha: f64) -> Kernel {
-    Kernel { kind: KernelKind::Exp, alpha_m: alpha }
+    Kernel {
+        kind: KernelKind::Exp,
+        alpha_m: alpha,
+    }
 }
 
 #[test]
@@ -21,7 +24,11 @@ fn two_patch_capacity_matches_the_analytic_value() {
     let graph = build_graph(&[(0.0, 0.0), (300.0, 0.0)], exp_kernel(300.0), 0.001);
     let model = RiskModel::new(&[1.0, 4.0], &[1.0, 1.0], &graph);
     let cap = model.capacity(&[1.0, 1.0]);
-    assert!((cap.lambda * 25.0 - 1.4715177647).abs() < 1e-9, "lambda x 25 = {}", cap.lambda * 25.0);
+    assert!(
+        (cap.lambda * 25.0 - 1.4715177647).abs() < 1e-9,
+        "lambda x 25 = {}",
+        cap.lambda * 25.0
+    );
     // x = (1, 1)/sqrt 2 for the 2x2 symmetric matrix with zero diagonal.
     assert!((cap.vector[0] - 0.5f64.sqrt()).abs() < 1e-9);
 }
@@ -39,7 +46,11 @@ fn equal_patches_at_equal_distance() {
     let cap = model.capacity(&[1.0; 3]);
     let a = 1.0 / 3.0;
     let expected = 2.0 * a * a * kernel.value(d);
-    assert!((cap.lambda - expected).abs() < 1e-12 * expected.max(1.0), "{} vs {expected}", cap.lambda);
+    assert!(
+        (cap.lambda - expected).abs() < 1e-12 * expected.max(1.0),
+        "{} vs {expected}",
+        cap.lambda
+    );
     for x in &cap.vector {
         assert!((x - 1.0 / 3f64.sqrt()).abs() < 1e-8);
     }
@@ -64,11 +75,24 @@ fn dense_m(model: &RiskModel, remaining: &[f64]) -> DMatrix<f64> {
 
 fn random_landscape(seed: u64, n: usize) -> (RiskModel, PatchGraph) {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let pts: Vec<(f64, f64)> = (0..n).map(|_| (rng.gen_range(0.0..3000.0), rng.gen_range(0.0..3000.0))).collect();
+    let pts: Vec<(f64, f64)> = (0..n)
+        .map(|_| (rng.gen_range(0.0..3000.0), rng.gen_range(0.0..3000.0)))
+        .collect();
     let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..1000.0)).collect();
     let pressure: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..5.0)).collect();
-    let kind = if seed % 2 == 0 { KernelKind::Exp } else { KernelKind::Cauchy };
-    let graph = build_graph(&pts, Kernel { kind, alpha_m: rng.gen_range(150.0..400.0) }, 0.001);
+    let kind = if seed.is_multiple_of(2) {
+        KernelKind::Exp
+    } else {
+        KernelKind::Cauchy
+    };
+    let graph = build_graph(
+        &pts,
+        Kernel {
+            kind,
+            alpha_m: rng.gen_range(150.0..400.0),
+        },
+        0.001,
+    );
     (RiskModel::new(&stems, &pressure, &graph), graph)
 }
 
@@ -78,11 +102,23 @@ fn capacity_agrees_with_a_dense_symmetric_eigen_solver() {
         let n = 10 + (seed as usize) * 7;
         let (model, _) = random_landscape(seed, n);
         let mut rng = ChaCha8Rng::seed_from_u64(seed + 100);
-        let remaining: Vec<f64> = (0..n).map(|_| if rng.gen_bool(0.3) { rng.gen_range(0.0..1.0) } else { 1.0 }).collect();
+        let remaining: Vec<f64> = (0..n)
+            .map(|_| {
+                if rng.gen_bool(0.3) {
+                    rng.gen_range(0.0..1.0)
+                } else {
+                    1.0
+                }
+            })
+            .collect();
         let eig = nalgebra::SymmetricEigen::new(dense_m(&model, &remaining));
         let reference = eig.eigenvalues.iter().cloned().fold(f64::MIN, f64::max);
         let cap = model.capacity(&remaining);
-        assert!((cap.lambda - reference).abs() <= 1e-8 * reference.abs().max(1e-30), "seed {seed}: {} vs nalgebra {reference}", cap.lambda);
+        assert!(
+            (cap.lambda - reference).abs() <= 1e-8 * reference.abs().max(1e-30),
+            "seed {seed}: {} vs nalgebra {reference}",
+            cap.lambda
+        );
     }
 }
 
@@ -92,7 +128,9 @@ fn risk_matches_its_definition_and_shares_sum_to_one() {
     // here by a plain double loop over all pairs with the kernel cut at epsilon.
     let mut rng = ChaCha8Rng::seed_from_u64(7);
     let n = 40;
-    let pts: Vec<(f64, f64)> = (0..n).map(|_| (rng.gen_range(0.0..2000.0), rng.gen_range(0.0..2000.0))).collect();
+    let pts: Vec<(f64, f64)> = (0..n)
+        .map(|_| (rng.gen_range(0.0..2000.0), rng.gen_range(0.0..2000.0)))
+        .collect();
     let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..100.0)).collect();
     let pressure: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..4.0)).collect();
     let kernel = exp_kernel(250.0);
@@ -110,11 +148,16 @@ fn risk_matches_its_definition_and_shares_sum_to_one() {
             let k = kernel.value(d);
             if k >= 0.001 {
                 links += 1;
-                direct += (pressure[i] + pressure[j]) * a[i] * a[j] * k * remaining[i] * remaining[j];
+                direct +=
+                    (pressure[i] + pressure[j]) * a[i] * a[j] * k * remaining[i] * remaining[j];
             }
         }
     }
-    assert_eq!(graph.edges.len(), links, "the R-tree must find exactly the pairs within the cutoff");
+    assert_eq!(
+        graph.edges.len(),
+        links,
+        "the R-tree must find exactly the pairs within the cutoff"
+    );
     assert!((model.risk(&remaining) - direct).abs() < 1e-14);
     let shares: f64 = model.risk_shares().iter().sum();
     assert!((shares - 1.0).abs() < 1e-12);
@@ -140,7 +183,9 @@ fn establishment_is_a_fixed_point_of_its_equation() {
         assert!((0.0..=1.0).contains(&p[i]));
     }
     // Treatment can only lower establishment.
-    let treated: Vec<f64> = (0..30).map(|i| if i % 3 == 0 { 0.1 } else { 1.0 }).collect();
+    let treated: Vec<f64> = (0..30)
+        .map(|i| if i % 3 == 0 { 0.1 } else { 1.0 })
+        .collect();
     let q = model.establishment(&treated, delta, iota);
     assert!(q.iter().zip(&p).all(|(a, b)| *a <= *b + 1e-12));
 }
@@ -150,7 +195,10 @@ fn kernel_values_and_cutoffs() {
     let e = exp_kernel(200.0);
     assert!((e.value(200.0) - (-1.0f64).exp()).abs() < 1e-15);
     assert!((e.value(e.cutoff(0.001)) - 0.001).abs() < 1e-12);
-    let c = Kernel { kind: KernelKind::Cauchy, alpha_m: 200.0 };
+    let c = Kernel {
+        kind: KernelKind::Cauchy,
+        alpha_m: 200.0,
+    };
     assert!((c.value(200.0) - 0.5).abs() < 1e-15);
     assert!((c.value(c.cutoff(0.001)) - 0.001).abs() < 1e-12);
 }

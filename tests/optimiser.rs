@@ -22,14 +22,44 @@ struct Instance {
 fn instance(seed: u64) -> Instance {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     let n = rng.gen_range(5..=8);
-    let points: Vec<(f64, f64)> = (0..n).map(|_| (rng.gen_range(0.0..1500.0), rng.gen_range(0.0..1500.0))).collect();
+    let points: Vec<(f64, f64)> = (0..n)
+        .map(|_| (rng.gen_range(0.0..1500.0), rng.gen_range(0.0..1500.0)))
+        .collect();
     let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..500.0)).collect();
-    let pressure: Vec<f64> = (0..n).map(|_| 1.0 + if rng.gen_bool(0.4) { rng.gen_range(0.0..4.0) } else { 0.0 }).collect();
-    let kind = if seed % 2 == 0 { KernelKind::Exp } else { KernelKind::Cauchy };
-    let graph = build_graph(&points, Kernel { kind, alpha_m: rng.gen_range(100.0..600.0) }, 0.001);
+    let pressure: Vec<f64> = (0..n)
+        .map(|_| {
+            1.0 + if rng.gen_bool(0.4) {
+                rng.gen_range(0.0..4.0)
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let kind = if seed.is_multiple_of(2) {
+        KernelKind::Exp
+    } else {
+        KernelKind::Cauchy
+    };
+    let graph = build_graph(
+        &points,
+        Kernel {
+            kind,
+            alpha_m: rng.gen_range(100.0..600.0),
+        },
+        0.001,
+    );
     let model = RiskModel::new(&stems, &pressure, &graph);
     // Three methods; the third stands for a non-herbicide method.
-    let methods: Vec<(f64, f64, f64, f64)> = (0..3).map(|_| (rng.gen_range(0.3..1.0), rng.gen_range(50.0..300.0), rng.gen_range(0.5..5.0), rng.gen_range(0.005..0.05))).collect();
+    let methods: Vec<(f64, f64, f64, f64)> = (0..3)
+        .map(|_| {
+            (
+                rng.gen_range(0.3..1.0),
+                rng.gen_range(50.0..300.0),
+                rng.gen_range(0.5..5.0),
+                rng.gen_range(0.005..0.05),
+            )
+        })
+        .collect();
     let mut choices: Vec<Vec<Choice>> = Vec::new();
     for i in 0..n {
         let roll: f64 = rng.r#gen();
@@ -46,14 +76,26 @@ fn instance(seed: u64) -> Instance {
                 .into_iter()
                 .map(|m| {
                     let (e, per_patch, per_stem, hours) = methods[m];
-                    Choice { method: MethodId(m as u16), cost: (per_patch + per_stem * stems[i]) * factor, hours: hours * stems[i], remaining: 1.0 - e }
+                    Choice {
+                        method: MethodId(m as u16),
+                        cost: (per_patch + per_stem * stems[i]) * factor,
+                        hours: hours * stems[i],
+                        remaining: 1.0 - e,
+                    }
                 })
                 .collect(),
         );
     }
-    let total: f64 = choices.iter().map(|c| c.iter().map(|c| c.cost).fold(0.0, f64::max)).sum();
+    let total: f64 = choices
+        .iter()
+        .map(|c| c.iter().map(|c| c.cost).fold(0.0, f64::max))
+        .sum();
     let budget = total * rng.gen_range(0.2..0.7);
-    let crew_hours = if rng.gen_bool(0.5) { Some(stems.iter().sum::<f64>() * rng.gen_range(0.005..0.03)) } else { None };
+    let crew_hours = if rng.gen_bool(0.5) {
+        Some(stems.iter().sum::<f64>() * rng.gen_range(0.005..0.03))
+    } else {
+        None
+    };
     let mut required = vec![false; n];
     let mut excluded = vec![false; n];
     for i in 0..n {
@@ -63,7 +105,14 @@ fn instance(seed: u64) -> Instance {
             excluded[i] = true;
         }
     }
-    Instance { model, choices, budget, crew_hours, required, excluded }
+    Instance {
+        model,
+        choices,
+        budget,
+        crew_hours,
+        required,
+        excluded,
+    }
 }
 
 #[test]
@@ -82,22 +131,49 @@ fn mip_equals_brute_force_on_random_instances() {
             excluded: inst.excluded.clone(),
         };
         let exact = brute_force(&problem);
-        let solved = solve(&problem, Limits { time_limit_s: 60.0, gap: 0.0 }).unwrap();
+        let solved = solve(
+            &problem,
+            Limits {
+                time_limit_s: 60.0,
+                gap: 0.0,
+            },
+        )
+        .unwrap();
         match exact {
             None => {
-                assert_eq!(solved.status, Status::Infeasible, "seed {seed}: brute force finds no feasible plan");
+                assert_eq!(
+                    solved.status,
+                    Status::Infeasible,
+                    "seed {seed}: brute force finds no feasible plan"
+                );
                 infeasible += 1;
             }
             Some((_, best)) => {
                 assert_eq!(solved.status, Status::Optimal, "seed {seed}");
-                assert!(problem.feasible(&solved.assignment), "seed {seed}: MIP plan breaks a constraint");
+                assert!(
+                    problem.feasible(&solved.assignment),
+                    "seed {seed}: MIP plan breaks a constraint"
+                );
                 let r = problem.risk(&solved.assignment);
-                assert!((r - best).abs() <= 1e-9 * best.max(1e-12), "seed {seed}: MIP risk {r} vs brute force {best}");
-                assert!((solved.risk_after - r).abs() <= 1e-12, "seed {seed}: reported risk differs from evaluated risk");
-                assert!(solved.bound <= best * (1.0 + 1e-9), "seed {seed}: bound {} above the optimum {best}", solved.bound);
+                assert!(
+                    (r - best).abs() <= 1e-9 * best.max(1e-12),
+                    "seed {seed}: MIP risk {r} vs brute force {best}"
+                );
+                assert!(
+                    (solved.risk_after - r).abs() <= 1e-12,
+                    "seed {seed}: reported risk differs from evaluated risk"
+                );
+                assert!(
+                    solved.bound <= best * (1.0 + 1e-9),
+                    "seed {seed}: bound {} above the optimum {best}",
+                    solved.bound
+                );
                 if let Some((g, gr)) = greedy(&problem) {
                     assert!(problem.feasible(&g), "seed {seed}: greedy plan infeasible");
-                    assert!(gr >= best * (1.0 - 1e-12), "seed {seed}: greedy beat the optimum");
+                    assert!(
+                        gr >= best * (1.0 - 1e-12),
+                        "seed {seed}: greedy beat the optimum"
+                    );
                 }
                 compared += 1;
                 if !inst.model.links.is_empty() {
@@ -106,16 +182,35 @@ fn mip_equals_brute_force_on_random_instances() {
             }
         }
     }
-    assert!(compared >= 20, "only {compared} feasible instances compared");
+    assert!(
+        compared >= 20,
+        "only {compared} feasible instances compared"
+    );
     assert!(linked >= 15, "only {linked} instances had links");
-    eprintln!("compared {compared} instances ({linked} with links), {infeasible} infeasible agreed");
+    eprintln!(
+        "compared {compared} instances ({linked} with links), {infeasible} infeasible agreed"
+    );
 }
 
 #[test]
 fn zero_budget_gives_the_empty_plan() {
     let inst = instance(3);
-    let problem = Problem { model: &inst.model, choices: inst.choices.clone(), budget: 0.0, crew_hours: None, required: vec![false; inst.model.len()], excluded: vec![false; inst.model.len()] };
-    let solved = solve(&problem, Limits { time_limit_s: 10.0, gap: 0.0 }).unwrap();
+    let problem = Problem {
+        model: &inst.model,
+        choices: inst.choices.clone(),
+        budget: 0.0,
+        crew_hours: None,
+        required: vec![false; inst.model.len()],
+        excluded: vec![false; inst.model.len()],
+    };
+    let solved = solve(
+        &problem,
+        Limits {
+            time_limit_s: 10.0,
+            gap: 0.0,
+        },
+    )
+    .unwrap();
     assert!(solved.assignment.iter().all(Option::is_none));
     assert!((solved.risk_after - inst.model.risk_before()).abs() < 1e-15);
 }

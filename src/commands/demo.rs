@@ -10,15 +10,35 @@ use super::plan::RunReport;
 
 pub fn run(args: &DemoArgs) -> Result<RunReport> {
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    if out.exists() && fs_err::read_dir(&out).map(|mut d| d.next().is_some()).unwrap_or(false) && !args.force {
-        return Err(Error::input_with_hint(format!("output folder `{}` is not empty", out.display()), "give a new folder, or add `--force` to replace it"));
+    if out.exists()
+        && fs_err::read_dir(&out)
+            .map(|mut d| d.next().is_some())
+            .unwrap_or(false)
+        && !args.force
+    {
+        return Err(Error::input_with_hint(
+            format!("output folder `{}` is not empty", out.display()),
+            "give a new folder, or add `--force` to replace it",
+        ));
     }
     if args.force && out.exists() {
-        fs_err::remove_dir_all(&out).map_err(|e| Error::io("replace", &out, std::io::Error::new(e.kind(), e.to_string())))?;
+        fs_err::remove_dir_all(&out).map_err(|e| {
+            Error::io(
+                "replace",
+                &out,
+                std::io::Error::new(e.kind(), e.to_string()),
+            )
+        })?;
     }
     let inputs = out.join("inputs");
     demo::write_inputs(&inputs)?;
-    let plan_args = PlanArgs { scenario: Some(inputs.join("scenario.toml")), out: Some(out.clone()), force: true, quiet: args.quiet, ..Default::default() };
+    let plan_args = PlanArgs {
+        scenario: Some(inputs.join("scenario.toml")),
+        out: Some(out.clone()),
+        force: true,
+        quiet: args.quiet,
+        ..Default::default()
+    };
     let settings = settings::resolve(&plan_args)?;
     let mut report = super::plan::run(&settings)?;
     report.text.push_str(&format!(

@@ -10,7 +10,11 @@ pub fn bin() -> PathBuf {
 
 /// Run `hostcut` with `args` in `dir`.
 pub fn run(dir: &Path, args: &[&str]) -> Output {
-    Command::new(bin()).args(args).current_dir(dir).output().expect("run hostcut")
+    Command::new(bin())
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .expect("run hostcut")
 }
 
 pub fn stderr(o: &Output) -> String {
@@ -40,11 +44,23 @@ pub fn catalogue(effectiveness: f64, cost_per_patch: f64, cost_per_stem: f64) ->
 }
 
 /// Write a single-band Float32 GeoTIFF; `crs` None leaves it without a CRS.
-pub fn geotiff(path: &Path, crs: Option<&str>, width: usize, height: usize, origin: (f64, f64), cell: f64, values: &[f32], nodata: Option<f64>) {
+pub fn geotiff(
+    path: &Path,
+    crs: Option<&str>,
+    width: usize,
+    height: usize,
+    origin: (f64, f64),
+    cell: f64,
+    values: &[f32],
+    nodata: Option<f64>,
+) {
     use gdal::DriverManager;
     let driver = DriverManager::get_driver_by_name("GTiff").unwrap();
-    let mut ds = driver.create_with_band_type::<f32, _>(path, width, height, 1).unwrap();
-    ds.set_geo_transform(&[origin.0, cell, 0.0, origin.1, 0.0, -cell]).unwrap();
+    let mut ds = driver
+        .create_with_band_type::<f32, _>(path, width, height, 1)
+        .unwrap();
+    ds.set_geo_transform(&[origin.0, cell, 0.0, origin.1, 0.0, -cell])
+        .unwrap();
     if let Some(def) = crs {
         let srs = gdal::spatial_ref::SpatialRef::from_definition(def).unwrap();
         ds.set_spatial_ref(&srs).unwrap();
