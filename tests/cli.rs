@@ -526,3 +526,184 @@ fn bad_options_are_refused() {
         &["typo.toml", "budjet"],
     );
 }
+
+fn utm_geojson(features: &[(&str, &str)]) -> String {
+    let body: Vec<String> = features
+        .iter()
+        .map(|(props, geom)| {
+            format!(r#"{{"type":"Feature","properties":{props},"geometry":{geom}}}"#)
+        })
+        .collect();
+    format!(
+        r#"{{"type":"FeatureCollection","crs":{{"type":"name","properties":{{"name":"urn:ogc:def:crs:EPSG::32618"}}}},"features":[{}]}}"#,
+        body.join(",")
+    )
+}
+
+fn square(x: f64, y: f64, side: f64) -> String {
+    format!(
+        r#"{{"type":"Polygon","coordinates":[[[{x},{y}],[{},{y}],[{},{}],[{x},{}],[{x},{y}]]]}}"#,
+        x + side,
+        x + side,
+        y + side,
+        y + side
+    )
+}
+
+#[test]
+fn host_polygons_with_a_stems_field() {
+    let dir = tempfile::tempdir().unwrap();
+    let layer = utm_geojson(&[
+        (
+            r#"{"name":"north","count":300}"#,
+            &square(500_000.0, 4_480_000.0, 100.0),
+        ),
+        (
+            r#"{"name":"south","count":120}"#,
+            &square(500_150.0, 4_480_000.0, 50.0),
+        ),
+    ]);
+    write(dir.path(), "stands.geojson", &layer);
+    let o = plan(
+        dir.path(),
+        &[
+            "--host",
+            "stands.geojson",
+            "--stems-field",
+            "count",
+            "--budget",
+            "5000",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
+    let rows: Vec<Vec<String>> = csv::Reader::from_reader(patches.as_bytes())
+        .records()
+        .map(|r| r.unwrap().iter().map(String::from).collect())
+        .collect();
+    assert_eq!(rows.len(), 2);
+    assert_eq!(rows[0][5], "300");
+    assert_eq!(rows[0][6], "1", "area of a 100 m square is 1 ha");
+    assert_eq!(
+        (rows[0][1].as_str(), rows[0][2].as_str()),
+        ("500050", "4480050"),
+        "centroid of the square"
+    );
+    // A missing stems field is named.
+    std::fs::remove_dir_all(dir.path().join("out")).unwrap();
+    let o = plan(
+        dir.path(),
+        &["--host", "stands.geojson", "--budget", "5000"],
+    );
+    refused(dir.path(), &o, &["stands.geojson", "stems", "count"]);
+}
+
+#[test]
+fn raster_patches_split_at_parcels_and_take_their_rules() {
+    let dir = tempfile::tempdir().unwrap();
+    // One 8 x 2 block of host at 20 m cells; two parcels split it in the middle (x = 500080).
+    geotiff(
+        &dir.path().join("host.tif"),
+        Some("EPSG:32618"),
+        8,
+        2,
+        (500_000.0, 4_480_040.0),
+        20.0,
+        &[100.0; 16],
+        None,
+    );
+    let parcels = utm_geojson(&[
+        (
+            r#"{"parcel_id":"W","access":"open","herbicide":"prohibited","cost_factor":1.0,"contact":"west office"}"#,
+            &square(500_000.0, 4_479_980.0, 80.0),
+        ),
+        (
+            r#"{"parcel_id":"E","access":"denied","herbicide":"allowed","cost_factor":2.0,"contact":""}"#,
+            &square(500_080.0, 4_479_980.0, 80.0),
+        ),
+    ]);
+    write(dir.path(), "parcels.geojson", &parcels);
+    let o = plan(
+        dir.path(),
+        &[
+            "--host",
+            "host.tif",
+            "--access",
+            "parcels.geojson",
+            "--budget",
+            "100000",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
+    let rows: Vec<Vec<String>> = csv::Reader::from_reader(patches.as_bytes())
+        .records()
+        .map(|r| r.unwrap().iter().map(String::from).collect())
+        .collect();
+    assert_eq!(rows.len(), 2, "{patches}");
+    let west = rows.iter().find(|r| r[11] == "W").unwrap();
+    let east = rows.iter().find(|r| r[11] == "E").unwrap();
+    assert_eq!((west[8].as_str(), west[9].as_str()), ("open", "prohibited"));
+    assert_eq!(
+        (east[8].as_str(), east[12].as_str(), east[17].as_str()),
+        ("denied", "no", "")
+    );
+    assert_eq!(
+        west[17], "pull_seedlings",
+        "only the non-herbicide method on a prohibited site"
+    );
+    // 8 cells x 0.04 ha x 100 stems/ha each side.
+    assert_eq!(west[5], "32");
+    let plan = std::fs::read_to_string(dir.path().join("out/plan.csv")).unwrap();
+    assert!(plan.contains("west office"));
+}
+
+#[test]
+fn crew_hours_exclusions_and_infeasible_requirements() {
+    let dir = fixture();
+    let base = [
+        "--inventory",
+        "stands.csv",
+        "--crs",
+        "EPSG:32618",
+        "--budget",
+        "100000",
+    ];
+    let mut args = base.to_vec();
+    args.extend(["--crew-hours", "5"]);
+    let o = plan(dir.path(), &args);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&dir.path().join("out"));
+    assert!(s["crew_hours"].as_f64().unwrap() <= 5.0 + 1e-9, "{s}");
+    let dir = fixture();
+    let mut args = base.to_vec();
+    args.extend(["--exclude", "A,B"]);
+    let o = plan(dir.path(), &args);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let plan_csv = std::fs::read_to_string(dir.path().join("out/plan.csv")).unwrap();
+    assert!(
+        plan_csv
+            .lines()
+            .skip(1)
+            .all(|l| !matches!(l.split(',').nth(1), Some("A") | Some("B"))),
+        "{plan_csv}"
+    );
+    // Requiring A, B and C on a budget that cannot pay for them is a result, not a crash.
+    let dir = fixture();
+    let o = plan(
+        dir.path(),
+        &[
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "300",
+            "--require",
+            "A,B,C",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert_eq!(summary(&dir.path().join("out"))["status"], "infeasible");
+    assert!(stdout(&o).contains("no plan fits"));
+}
