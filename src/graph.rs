@@ -23,6 +23,15 @@ pub struct Kernel {
 
 impl Kernel {
     /// k(d): `exp` = exp(-d/alpha), `cauchy` = 1/(1+(d/alpha)^2).
+    ///
+    /// ```
+    /// use hostcut::cli::KernelKind;
+    /// use hostcut::graph::Kernel;
+    /// let k = Kernel { kind: KernelKind::Cauchy, alpha_m: 200.0 };
+    /// assert_eq!(k.value(0.0), 1.0);
+    /// assert!((k.value(200.0) - 0.5).abs() < 1e-15);
+    /// assert!((k.value(k.cutoff(0.001)) - 0.001).abs() < 1e-12);
+    /// ```
     pub fn value(&self, d: f64) -> f64 {
         let u = d / self.alpha_m;
         match self.kind {

@@ -637,3 +637,61 @@ pub fn validate(s: &Scenario) -> Result<()> {
     )?;
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn args(corridors: usize, weights: &[f64], buffers: &[f64]) -> PlanArgs {
+        PlanArgs {
+            inventory: Some("s.csv".into()),
+            crs: Some("EPSG:32618".into()),
+            budget: Some(10.0),
+            out: Some("o".into()),
+            corridor: (0..corridors)
+                .map(|i| PathBuf::from(format!("c{i}.gpkg")))
+                .collect(),
+            corridor_weight: weights.to_vec(),
+            corridor_buffer_m: buffers.to_vec(),
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn corridor_weights_pair_with_corridors_in_order() {
+        let s = resolve(&args(2, &[3.0, 2.0], &[500.0])).unwrap().scenario;
+        assert_eq!((s.corridors[0].weight, s.corridors[1].weight), (3.0, 2.0));
+        assert_eq!(
+            (s.corridors[0].buffer_m, s.corridors[1].buffer_m),
+            (500.0, 500.0)
+        );
+        assert_eq!(s.corridors[1].name, "c1");
+        assert!(resolve(&args(2, &[1.0, 2.0, 3.0], &[])).is_err());
+        assert!(resolve(&args(0, &[1.0], &[])).is_err());
+    }
+
+    #[test]
+    fn resolved_scenario_round_trips_through_toml() {
+        let s = resolve(&args(1, &[3.0], &[250.0])).unwrap().scenario;
+        let text = s.to_toml().unwrap();
+        let back: Scenario = toml::from_str(&text).unwrap();
+        assert_eq!(back.corridors[0].buffer_m, 250.0);
+        assert_eq!(back.plan.budget, Some(10.0));
+        assert_eq!(back.model.alpha_m, DEFAULT_ALPHA_M);
+        validate(&back).unwrap();
+    }
+
+    #[test]
+    fn host_choice_is_checked() {
+        let mut a = args(0, &[], &[]);
+        a.crs = None;
+        assert!(resolve(&a).unwrap_err().to_string().contains("CRS"));
+        a.inventory = None;
+        assert!(
+            resolve(&a)
+                .unwrap_err()
+                .to_string()
+                .contains("no host layer")
+        );
+    }
+}

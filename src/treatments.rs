@@ -189,3 +189,95 @@ pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
     codes.dedup();
     codes
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::patches::{PatchId, Site};
+
+    fn patch(access: Access, herbicide: Herbicide, cost_factor: f64) -> Patch {
+        Patch {
+            id: PatchId(0),
+            label: "T".into(),
+            x: 0.0,
+            y: 0.0,
+            stems: 100.0,
+            area_ha: None,
+            outline: None,
+            site: Site {
+                parcel: String::new(),
+                access,
+                herbicide,
+                cost_factor,
+                contact: String::new(),
+            },
+            pressure_override: None,
+        }
+    }
+
+    #[test]
+    fn builtin_catalogue_is_valid_and_offers_no_cut_only_method() {
+        let (c, _) = Catalogue::load(None).unwrap();
+        assert!(c.methods.len() >= 4);
+        assert!(
+            c.methods.iter().all(|m| !m.id.contains("cut")),
+            "cutting alone must not be offered"
+        );
+        assert!(
+            c.methods.iter().any(|m| !m.herbicide),
+            "a non-herbicide method for prohibited sites"
+        );
+    }
+
+    #[test]
+    fn cost_and_hours_follow_the_formula() {
+        let (c, _) = Catalogue::load(None).unwrap();
+        let choices = choices_for(&c, &patch(Access::Open, Herbicide::Allowed, 1.5));
+        assert_eq!(choices.len(), c.methods.len());
+        for ch in &choices {
+            let m = c.method(ch.method);
+            assert!((ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs() < 1e-9);
+            assert!((ch.hours - m.hours_per_stem * 100.0).abs() < 1e-9);
+            assert!((ch.remaining - (1.0 - m.effectiveness)).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn eligibility_and_site_cautions() {
+        let (c, _) = Catalogue::load(None).unwrap();
+        assert!(choices_for(&c, &patch(Access::Denied, Herbicide::Allowed, 1.0)).is_empty());
+        let prohibited = choices_for(&c, &patch(Access::Open, Herbicide::Prohibited, 1.0));
+        assert!(
+            !prohibited.is_empty() && prohibited.iter().all(|ch| !c.method(ch.method).herbicide)
+        );
+        let restricted = patch(Access::Permission, Herbicide::Restricted, 1.0);
+        let herbicide_method = c.methods.iter().find(|m| m.herbicide).unwrap();
+        let codes = caution_codes(herbicide_method, &restricted);
+        assert!(
+            codes.contains(&"RESTRICTED_SITE")
+                && codes.contains(&"PERMISSION")
+                && codes.contains(&"LABEL")
+        );
+    }
+
+    #[test]
+    fn invalid_catalogues_are_refused() {
+        let base = "[[method]]\nid = \"a\"\nlabel = \"a\"\neffectiveness = 0.5\ncost_per_stem = 1\ncost_per_patch = 1\nhours_per_stem = 0\nherbicide = false\nmonths = [7]\n";
+        assert!(Catalogue::parse(base, "t").is_ok());
+        assert!(Catalogue::parse(&base.replace("0.5", "-0.1"), "t").is_err());
+        assert!(Catalogue::parse(&base.replace("[7]", "[13]"), "t").is_err());
+        assert!(
+            Catalogue::parse(&format!("{base}{base}"), "t")
+                .unwrap_err()
+                .to_string()
+                .contains("duplicate")
+        );
+        assert!(
+            Catalogue::parse(
+                &base.replace("months = [7]", "months = [7]\ncautions = [\"NOPE\"]"),
+                "t"
+            )
+            .is_err()
+        );
+    }
+}
