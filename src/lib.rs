@@ -26,6 +26,9 @@ pub use error::{Error, Result};
 
 /// Run one command; returns the text for stdout.
 pub fn run(cli: Cli) -> Result<String> {
+    // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
+    // default handler from printing them a second time.
+    gdal::config::set_error_handler(|_, _, _| {});
     match cli.command {
         Command::Plan(args) => {
             let settings = settings::resolve(&args)?;

@@ -707,3 +707,37 @@ fn crew_hours_exclusions_and_infeasible_requirements() {
     assert_eq!(summary(&dir.path().join("out"))["status"], "infeasible");
     assert!(stdout(&o).contains("no plan fits"));
 }
+
+#[test]
+fn unreadable_and_truncated_files_are_named_once() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "fake.tif", "not a raster");
+    let o = plan(dir.path(), &["--host", "fake.tif", "--budget", "10"]);
+    refused(dir.path(), &o, &["fake.tif", "damaged"]);
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-inputs/host.tif");
+    let bytes = std::fs::read(demo).unwrap();
+    std::fs::write(dir.path().join("cut.tif"), &bytes[..bytes.len() / 3]).unwrap();
+    let o = plan(dir.path(), &["--host", "cut.tif", "--budget", "10"]);
+    refused(dir.path(), &o, &["cut.tif"]);
+    assert!(
+        !stderr(&o).contains("ERROR 1"),
+        "GDAL's own handler printed: {}",
+        stderr(&o)
+    );
+    write(dir.path(), "stands.csv", STANDS);
+    write(dir.path(), "broken.geojson", "{\"type\": broken");
+    let o = plan(
+        dir.path(),
+        &[
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--access",
+            "broken.geojson",
+            "--budget",
+            "10",
+        ],
+    );
+    refused(dir.path(), &o, &["broken.geojson"]);
+}
