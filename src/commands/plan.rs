@@ -210,7 +210,7 @@ fn human_summary(
             );
             let _ = writeln!(
                 t,
-                "connected-host risk {:.6} -> {:.6}: {:.1}% less",
+                "connected-host risk index R {:.6} -> {:.6}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
                 summary.risk_before, summary.risk_after, summary.risk_reduction_pct
             );
             if let (Some(g), Some(gr)) = (summary.greedy_reduction_pct, summary.greedy_risk_after) {
