@@ -112,6 +112,10 @@ pub struct PlanArgs {
     /// Patch ids that must not be treated (comma-separated or repeated)
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
     pub exclude: Vec<String>,
+    /// Depot or yard as `X,Y` in the working CRS (for the nearest-first baseline); default: the
+    /// centroid of the eligible patches
+    #[arg(long, value_name = "X,Y", allow_negative_numbers = true)]
+    pub depot: Option<String>,
     /// Stop the optimiser after this many seconds and report the best plan with its gap
     #[arg(long, allow_negative_numbers = true, value_name = "SECONDS")]
     pub time_limit_s: Option<f64>,

@@ -5,6 +5,7 @@
 //! [`model`] → [`optimise`] → [`plan`] → [`output`]. GDAL lives in [`gis`]; HiGHS in
 //! [`optimise`].
 
+pub mod baselines;
 pub mod cautions;
 pub mod cli;
 pub mod commands;
@@ -17,6 +18,7 @@ pub mod model;
 pub mod optimise;
 pub mod output;
 pub mod patches;
+pub mod pipeline;
 pub mod plan;
 pub mod settings;
 pub mod treatments;

@@ -321,7 +321,9 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             greedy,
         });
     }
-    let scale = 1e6 / risk_before;
+    // HiGHS sees R scaled so that R before treatment = 1000: coefficients stay in a range it
+    // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
+    let scale = 1e3 / risk_before;
 
     // Columns, in the order HiGHS will see them.
     let mut vars = ProblemVariables::new();
@@ -441,7 +443,10 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     }
 
     let mut model = lp.into_inner();
-    model.set_option("output_flag", false);
+    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
+    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
+    model.set_option("output_flag", log);
+    model.set_option("log_to_console", log);
     model.set_option("time_limit", limits.time_limit_s.max(0.01));
     model.set_option("mip_rel_gap", limits.gap);
     model.set_option("mip_abs_gap", 1e-9);

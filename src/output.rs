@@ -164,6 +164,10 @@ pub struct Summary {
     pub alpha_m: f64,
     pub epsilon: f64,
     pub tool_version: &'static str,
+    /// Today's-practice plans under the same budget, hours and eligibility.
+    pub baselines: serde_json::Map<String, serde_json::Value>,
+    /// Depot used by the nearest-first baseline, working CRS.
+    pub depot: [f64; 2],
 }
 
 /// Scientific notation for values that span many orders of magnitude.
@@ -434,5 +438,7 @@ pub fn summary(
         alpha_m: model.alpha_m,
         epsilon: model.epsilon,
         tool_version: env!("CARGO_PKG_VERSION"),
+        baselines: serde_json::Map::new(),
+        depot: [f64::NAN, f64::NAN],
     }
 }

@@ -185,6 +185,9 @@ pub struct PlanSection {
     pub require: Vec<String>,
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub exclude: Vec<String>,
+    /// Depot `[x, y]` in the working CRS for the nearest-first baseline.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub depot: Option<[f64; 2]>,
     /// Treatment catalogue; the built-in one when absent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub treatments: Option<PathBuf>,
@@ -432,6 +435,20 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
             .map(|x| x.trim().to_string())
             .filter(|x| !x.is_empty())
             .collect();
+    }
+    if let Some(text) = &args.depot {
+        let parts: Vec<f64> = text
+            .split(',')
+            .filter_map(|p| p.trim().parse().ok())
+            .filter(|v: &f64| v.is_finite())
+            .collect();
+        if parts.len() != 2 || text.split(',').count() != 2 {
+            return Err(Error::input_with_hint(
+                format!("`--depot {text}` is not two numbers X,Y"),
+                "give the depot in the working CRS, e.g. `--depot 502500,4471800`",
+            ));
+        }
+        s.plan.depot = Some([parts[0], parts[1]]);
     }
     if let Some(v) = args.time_limit_s {
         s.solver.time_limit_s = v;

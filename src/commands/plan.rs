@@ -3,17 +3,16 @@
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
+use crate::baselines;
 use crate::cautions;
 use crate::error::{Error, Result};
-use crate::graph::{self, Kernel};
-use crate::layers;
-use crate::model::RiskModel;
 use crate::optimise::{self, Limits, Problem, Status};
 use crate::output::{self, Outputs, Staging};
 use crate::patches;
+use crate::pipeline;
 use crate::plan;
 use crate::settings::Settings;
-use crate::treatments::{self, Catalogue};
+use crate::treatments::Catalogue;
 
 /// What a finished run reports back to the caller.
 #[derive(Debug)]
@@ -33,93 +32,19 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         }
     };
 
-    let (catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
-    progress("reading layers");
-    let layers = layers::load(s)?;
-    let patches = patches::build(&layers, &s.host)?;
-    progress(&format!(
-        "{} patches from the {} host layer",
-        patches.len(),
-        patches.source
-    ));
-
-    let by_label = patches.by_label();
-    let mut required = vec![false; patches.len()];
-    let mut excluded = vec![false; patches.len()];
-    for (ids, flags, flag) in [
-        (&s.plan.require, &mut required, "--require"),
-        (&s.plan.exclude, &mut excluded, "--exclude"),
-    ] {
-        for id in ids.iter() {
-            match by_label.get(id.as_str()) {
-                Some(p) => flags[p.index()] = true,
-                None => {
-                    let mut known: Vec<&str> = by_label.keys().copied().collect();
-                    known.sort_unstable();
-                    let sample = known.iter().take(5).copied().collect::<Vec<_>>().join(", ");
-                    return Err(Error::input_with_hint(
-                        format!("`{flag}`: no patch has id `{id}`"),
-                        format!("use ids from patches.csv of a previous run (e.g. {sample})"),
-                    ));
-                }
-            }
-        }
-    }
-
-    let kernel = Kernel {
-        kind: s.model.kernel,
-        alpha_m: s.model.alpha_m,
-    };
-    let points: Vec<(f64, f64)> = patches.items.iter().map(|p| (p.x, p.y)).collect();
-    let graph = graph::build_graph(&points, kernel, s.model.epsilon);
-    let pressure = graph::pressure(
-        &patches,
-        &layers.corridors,
-        &layers.detections,
-        layers.detection_weight,
-        kernel,
-        s.model.epsilon,
-    );
-    let stems: Vec<f64> = patches.items.iter().map(|p| p.stems).collect();
-    let model = RiskModel::new(&stems, &pressure.values, &graph);
-    progress(&format!(
-        "{} links within the kernel cutoff ({:.0} m)",
-        graph.edges.len(),
-        kernel.cutoff(s.model.epsilon)
-    ));
-
-    let choices: Vec<_> = patches
-        .items
-        .iter()
-        .map(|p| treatments::choices_for(&catalogue, p))
-        .collect();
-    let eligible: Vec<bool> = choices
-        .iter()
-        .zip(&excluded)
-        .map(|(c, x)| !c.is_empty() && !x)
-        .collect();
-    for (i, p) in patches.items.iter().enumerate() {
-        if required[i] && choices[i].is_empty() {
-            return Err(Error::input_with_hint(
-                format!(
-                    "`--require`: patch `{}` cannot be treated (access {}, herbicide {})",
-                    p.label,
-                    p.site.access.as_str(),
-                    p.site.herbicide.as_str()
-                ),
-                "drop it from `--require`, or change its access rules",
-            ));
-        }
-    }
+    let prepared = pipeline::prepare(s, &progress)?;
+    let pipeline::Prepared {
+        catalogue,
+        catalogue_text,
+        patches,
+        graph,
+        pressure,
+        model,
+        eligible,
+        ..
+    } = &prepared;
     let budget = s.plan.budget.unwrap_or(0.0);
-    let problem = Problem {
-        model: &model,
-        choices,
-        budget,
-        crew_hours: s.plan.crew_hours,
-        required,
-        excluded,
-    };
+    let problem = prepared.problem(budget, s.plan.crew_hours);
     progress("optimising");
     let solved = optimise::solve(
         &problem,
@@ -138,12 +63,32 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         eligible: &eligible,
     };
     output::write_tables(&staging, &outputs)?;
-    let summary = output::summary(
+    let mut summary = output::summary(
         &outputs,
         budget,
         s.plan.crew_hours,
         graph.edges.len(),
         &s.model,
+    );
+    let depot = s
+        .plan
+        .depot
+        .map(|[x, y]| (x, y))
+        .unwrap_or_else(|| baselines::default_depot(patches, eligible));
+    let baselines = baselines::all(
+        &problem,
+        patches,
+        &pressure.corridors,
+        depot,
+        Some(solved.greedy.clone()),
+    );
+    summary.depot = [depot.0, depot.1];
+    summary.baselines = baseline_summaries(
+        &problem,
+        patches,
+        &baselines,
+        plan.risk_before,
+        plan.risk_after,
     );
     let json = serde_json::to_string_pretty(&summary)
         .map_err(|e| Error::Internal(format!("summary: {e}")))?;
@@ -159,8 +104,85 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     )?;
     let out = staging.commit()?;
 
-    let text = human_summary(&summary, &plan, &patches, &catalogue, &out);
+    let mut text = human_summary(&summary, &plan, patches, catalogue, &out);
+    if plan.status != Status::Infeasible {
+        if let Some(line) = comparison_line(&baselines, plan.risk_after) {
+            text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
+        }
+    }
     Ok(RunReport { out, text })
+}
+
+/// summary.json's `baselines`.
+pub fn baseline_summaries(
+    problem: &Problem,
+    patches: &patches::Patches,
+    baselines: &[baselines::Baseline],
+    risk_before: f64,
+    plan_risk: f64,
+) -> serde_json::Map<String, serde_json::Value> {
+    let mut map = serde_json::Map::new();
+    for b in baselines {
+        let value = match &b.assignment {
+            None => serde_json::json!({ "feasible": false }),
+            Some(a) => {
+                let n_treated = a.iter().filter(|x| x.is_some()).count();
+                let stems: f64 = a
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, x)| x.is_some())
+                    .map(|(i, _)| patches.items[i].stems)
+                    .sum();
+                serde_json::json!({
+                    "feasible": true,
+                    "risk_after": b.risk_after,
+                    "reduction_pct": if risk_before > 0.0 { 100.0 * (1.0 - b.risk_after / risk_before) } else { 0.0 },
+                    "spent": problem.cost(a),
+                    "crew_hours": problem.hours(a),
+                    "n_treated": n_treated,
+                    "stems_treated": stems,
+                    "risk_ratio_to_plan": if plan_risk > 0.0 { b.risk_after / plan_risk } else { f64::NAN },
+                })
+            }
+        };
+        map.insert(b.name.to_string(), value);
+    }
+    map
+}
+
+/// "this plan leaves N× less risk than treating the biggest stands first", against the best
+/// of the rule-of-thumb baselines a person would otherwise follow, or a plain statement that a
+/// baseline is as good.
+pub fn comparison_line(baselines: &[baselines::Baseline], plan_risk: f64) -> Option<String> {
+    let biggest = baselines.iter().find(|b| b.name == "biggest_first")?;
+    let mut lines = Vec::new();
+    for b in baselines.iter().filter(|b| b.assignment.is_some()) {
+        let ratio = if plan_risk > 0.0 {
+            b.risk_after / plan_risk
+        } else {
+            f64::INFINITY
+        };
+        if ratio <= 1.0005 {
+            lines.push(format!(
+                "  {} does as well as this plan here (same remaining risk within 0.05%)",
+                b.phrase
+            ));
+        } else if b.name == biggest.name {
+            lines.insert(
+                0,
+                format!("this plan leaves {ratio:.2}× less risk than {}", b.phrase),
+            );
+        } else {
+            lines.push(format!("  and {ratio:.2}× less than {}", b.phrase));
+        }
+    }
+    if biggest.assignment.is_none() {
+        lines.insert(
+            0,
+            "the biggest-first rule cannot fit the required patches".to_string(),
+        );
+    }
+    Some(lines.join("\n"))
 }
 
 fn human_summary(

@@ -1,0 +1,156 @@
+//! The stages from resolved settings to the optimiser's input, shared by every command that
+//! plans: layers in → patches → graph and pressure → risk model → eligible choices.
+
+use crate::error::{Error, Result};
+use crate::graph::{self, Kernel, PatchGraph, Pressure};
+use crate::layers;
+use crate::model::RiskModel;
+use crate::optimise::Problem;
+use crate::patches::{self, Patches};
+use crate::settings::Scenario;
+use crate::treatments::{self, Catalogue, Choice};
+
+/// Everything a planning command needs, built once.
+pub struct Prepared {
+    pub catalogue: Catalogue,
+    /// The catalogue's text, kept in the plan folder.
+    pub catalogue_text: String,
+    pub patches: Patches,
+    pub graph: PatchGraph,
+    pub pressure: Pressure,
+    pub model: RiskModel,
+    pub kernel: Kernel,
+    /// Eligible choices per patch (empty for untreatable patches).
+    pub choices: Vec<Vec<Choice>>,
+    /// Eligible and not excluded.
+    pub eligible: Vec<bool>,
+    pub required: Vec<bool>,
+    pub excluded: Vec<bool>,
+}
+
+/// Run the stages for `s`; `progress` receives one line per stage.
+pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
+    let (catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
+    progress("reading layers");
+    let layers = layers::load(s)?;
+    let patches = patches::build(&layers, &s.host)?;
+    progress(&format!(
+        "{} patches from the {} host layer",
+        patches.len(),
+        patches.source
+    ));
+
+    let by_label = patches.by_label();
+    let mut required = vec![false; patches.len()];
+    let mut excluded = vec![false; patches.len()];
+    for (ids, flags, flag) in [
+        (&s.plan.require, &mut required, "--require"),
+        (&s.plan.exclude, &mut excluded, "--exclude"),
+    ] {
+        for id in ids.iter() {
+            match by_label.get(id.as_str()) {
+                Some(p) => flags[p.index()] = true,
+                None => {
+                    let mut known: Vec<&str> = by_label.keys().copied().collect();
+                    known.sort_unstable();
+                    let sample = known.iter().take(5).copied().collect::<Vec<_>>().join(", ");
+                    return Err(Error::input_with_hint(
+                        format!("`{flag}`: no patch has id `{id}`"),
+                        format!("use ids from patches.csv of a previous run (e.g. {sample})"),
+                    ));
+                }
+            }
+        }
+    }
+
+    let kernel = Kernel {
+        kind: s.model.kernel,
+        alpha_m: s.model.alpha_m,
+    };
+    let points: Vec<(f64, f64)> = patches.items.iter().map(|p| (p.x, p.y)).collect();
+    let graph = graph::build_graph(&points, kernel, s.model.epsilon);
+    let pressure = graph::pressure(
+        &patches,
+        &layers.corridors,
+        &layers.detections,
+        layers.detection_weight,
+        kernel,
+        s.model.epsilon,
+    );
+    let stems: Vec<f64> = patches.items.iter().map(|p| p.stems).collect();
+    let model = RiskModel::new(&stems, &pressure.values, &graph);
+    progress(&format!(
+        "{} links within the kernel cutoff ({:.0} m)",
+        graph.edges.len(),
+        kernel.cutoff(s.model.epsilon)
+    ));
+
+    let choices: Vec<_> = patches
+        .items
+        .iter()
+        .map(|p| treatments::choices_for(&catalogue, p))
+        .collect();
+    let eligible: Vec<bool> = choices
+        .iter()
+        .zip(&excluded)
+        .map(|(c, x)| !c.is_empty() && !x)
+        .collect();
+    for (i, p) in patches.items.iter().enumerate() {
+        if required[i] && choices[i].is_empty() {
+            return Err(Error::input_with_hint(
+                format!(
+                    "`--require`: patch `{}` cannot be treated (access {}, herbicide {})",
+                    p.label,
+                    p.site.access.as_str(),
+                    p.site.herbicide.as_str()
+                ),
+                "drop it from `--require`, or change its access rules",
+            ));
+        }
+    }
+    Ok(Prepared {
+        catalogue,
+        catalogue_text,
+        patches,
+        graph,
+        pressure,
+        model,
+        kernel,
+        choices,
+        eligible,
+        required,
+        excluded,
+    })
+}
+
+impl Prepared {
+    /// The optimiser's problem at `budget` and `crew_hours`.
+    pub fn problem(&self, budget: f64, crew_hours: Option<f64>) -> Problem<'_> {
+        Problem {
+            model: &self.model,
+            choices: self.choices.clone(),
+            budget,
+            crew_hours,
+            required: self.required.clone(),
+            excluded: self.excluded.clone(),
+        }
+    }
+
+    /// What treating every eligible patch with its most effective method would cost.
+    pub fn cost_of_everything(&self) -> f64 {
+        self.choices
+            .iter()
+            .zip(&self.eligible)
+            .filter(|(_, e)| **e)
+            .filter_map(|(c, _)| {
+                c.iter()
+                    .min_by(|a, b| {
+                        a.remaining
+                            .total_cmp(&b.remaining)
+                            .then(a.cost.total_cmp(&b.cost))
+                    })
+                    .map(|c| c.cost)
+            })
+            .sum()
+    }
+}
