@@ -18,6 +18,8 @@ pub struct Cli {
 pub enum Command {
     /// Build the patch graph and risk model, choose treatments under the budget, write the plan
     Plan(PlanArgs),
+    /// Plan at many budgets: what each extra thousand buys, with a chart and a justification page
+    Curve(CurveArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -132,6 +134,29 @@ pub struct PlanArgs {
     /// Print only errors and the standing cautions
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// Flags of `hostcut curve`: the inputs of `plan` (or `--plan DIR`) and the budgets to try.
+#[derive(Debug, Clone, Args)]
+pub struct CurveArgs {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Reuse the inputs and settings of an earlier plan folder (its scenario.resolved.toml)
+    #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
+    pub plan_dir: Option<PathBuf>,
+    /// Budgets to plan at, comma-separated
+    #[arg(long, value_name = "B1,B2,...", value_delimiter = ',', allow_negative_numbers = true, conflicts_with = "budget_range")]
+    pub budgets: Vec<f64>,
+    /// Evenly spaced budgets MIN:MAX:STEPS (default: 0 to the cost of treating every eligible
+    /// patch with its most effective method, 20 budgets)
+    #[arg(long, value_name = "MIN:MAX:STEPS")]
+    pub budget_range: Option<String>,
+    /// Currency code shown in the outputs (default: the treatment catalogue's)
+    #[arg(long, value_name = "CODE")]
+    pub currency: Option<String>,
+    /// Budget points solved at once (each worker solves a run of neighbouring budgets)
+    #[arg(long, default_value_t = 2)]
+    pub jobs: usize,
 }
 
 #[derive(Debug, Clone, Args)]

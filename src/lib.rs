@@ -7,8 +7,10 @@
 
 pub mod baselines;
 pub mod cautions;
+pub mod chart;
 pub mod cli;
 pub mod commands;
+pub mod curve;
 pub mod demo;
 pub mod error;
 pub mod gis;
@@ -37,6 +39,7 @@ pub fn run(cli: Cli) -> Result<String> {
             let report = commands::plan::run(&settings)?;
             Ok(report.text)
         }
+        Command::Curve(args) => Ok(commands::curve::run(&args)?.text),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

@@ -40,7 +40,8 @@ pub type Assignment = Vec<Option<usize>>;
 /// How the solve ended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Status {
-    /// Proven optimal: the bound equals the plan's risk (within 1e-9 relative).
+    /// Proven optimal: the bound equals the plan's risk to within [`OPTIMAL_GAP`] (the
+    /// solver's numerical tolerance).
     Optimal,
     /// Stopped when the proven gap reached `--gap`.
     GapLimit,
@@ -77,6 +78,9 @@ pub struct Solved {
 }
 
 const FEASIBILITY: f64 = 1e-9;
+
+/// A gap this small is numerical noise of the LP tolerances: the plan is optimal.
+pub const OPTIMAL_GAP: f64 = 1e-7;
 
 impl Problem<'_> {
     pub fn len(&self) -> usize {
@@ -133,20 +137,40 @@ impl Problem<'_> {
                 .is_none_or(|h| Self::within(h, self.hours(assignment)))
     }
 
-    /// R(current) - R(current with patch i given choice o), for an untreated patch i.
+    /// R(current) - R(current with patch i switched to choice o), where `remaining[i]` is the
+    /// patch's current r (1 when untreated).
     pub fn gain(&self, remaining: &[f64], i: usize, o: usize) -> f64 {
-        let r = self.choices[i][o].remaining;
-        let mut gain = self.model.own[i] * (1.0 - r * r);
+        let (now, r) = (remaining[i], self.choices[i][o].remaining);
+        let mut gain = self.model.own[i] * (now * now - r * r);
         for &(j, l) in &self.model.adjacency[i] {
-            gain += self.model.links[l].weight * remaining[j] * (1.0 - r);
+            gain += self.model.links[l].weight * remaining[j] * (now - r);
         }
         gain
+    }
+
+    /// The assignment that treats every eligible patch with its most effective choice, and
+    /// its risk: a lower bound on R at any budget (R only grows with each r_i).
+    pub fn everything(&self) -> (Assignment, f64) {
+        let assignment: Assignment = (0..self.len())
+            .map(|i| {
+                if self.excluded[i] {
+                    return None;
+                }
+                (0..self.choices[i].len()).min_by(|&a, &b| {
+                    let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
+                    ca.remaining.total_cmp(&cb.remaining).then(ca.cost.total_cmp(&cb.cost))
+                })
+            })
+            .collect();
+        let risk = self.risk(&assignment);
+        (assignment, risk)
     }
 }
 
 /// The better of (a) adaptive greedy by risk reduction per unit cost and (b) the best single
-/// choice, both after the required patches get their cheapest choice. None if the required
-/// patches do not fit.
+/// choice, both after the required patches get their cheapest choice. A greedy move treats an
+/// untreated patch or upgrades a treated one to a more effective method, paying the cost
+/// difference. None if the required patches do not fit.
 pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
     let n = problem.len();
     let mut base: Assignment = vec![None; n];
@@ -178,19 +202,26 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
     loop {
         let mut best: Option<(f64, usize, usize)> = None;
         for i in 0..n {
-            if current[i].is_some() || problem.excluded[i] {
+            if problem.excluded[i] {
                 continue;
             }
+            let (now_cost, now_hours) = current[i]
+                .map(|k| (problem.choices[i][k].cost, problem.choices[i][k].hours))
+                .unwrap_or((0.0, 0.0));
             for (o, c) in problem.choices[i].iter().enumerate() {
-                if !fits(&current, spent, hours, c) {
+                if c.remaining >= remaining[i] {
+                    continue;
+                }
+                let step = Choice { cost: c.cost - now_cost, hours: c.hours - now_hours, ..*c };
+                if !fits(&current, spent, hours, &step) {
                     continue;
                 }
                 let gain = problem.gain(&remaining, i, o);
                 if gain <= 0.0 {
                     continue;
                 }
-                let ratio = if c.cost > 0.0 {
-                    gain / c.cost
+                let ratio = if step.cost > 0.0 {
+                    gain / step.cost
                 } else {
                     f64::INFINITY
                 };
@@ -200,6 +231,10 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
             }
         }
         let Some((_, i, o)) = best else { break };
+        if let Some(k) = current[i] {
+            spent -= problem.choices[i][k].cost;
+            hours -= problem.choices[i][k].hours;
+        }
         current[i] = Some(o);
         remaining[i] = problem.choices[i][o].remaining;
         spent += problem.choices[i][o].cost;
@@ -294,19 +329,38 @@ pub struct Limits {
     pub time_limit_s: f64,
     /// Relative gap on the remaining risk at which to stop.
     pub gap: f64,
+    /// HiGHS threads (None: its default, all cores).
+    pub threads: Option<u32>,
+}
+
+impl Limits {
+    pub fn new(time_limit_s: f64, gap: f64) -> Limits {
+        Limits { time_limit_s, gap, threads: None }
+    }
 }
 
 /// Solve the MIP exactly (or to `limits`), warm-started from the greedy plan.
 pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
-    let start = Instant::now();
+    solve_from(problem, limits, None)
+}
+
+/// As [`solve`], warm-started from the better of the greedy plan and `start` (e.g. the
+/// neighbouring point of a budget curve) when `start` is feasible here.
+pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>) -> Result<Solved> {
+    let start_time = Instant::now();
     let n = problem.len();
     let greedy = greedy(problem);
+    let warm: Option<(Assignment, f64)> = match (start.filter(|a| a.len() == n && problem.feasible(a)), &greedy) {
+        (Some(a), Some((_, g))) if problem.risk(a) < *g => Some((a.clone(), problem.risk(a))),
+        (Some(a), None) => Some((a.clone(), problem.risk(a))),
+        _ => greedy.clone(),
+    };
     let risk_before = problem.model.risk_before();
     let any_choice = (0..n).any(|i| !problem.excluded[i] && !problem.choices[i].is_empty());
     let required_without_choice = (0..n)
         .any(|i| problem.required[i] && (problem.excluded[i] || problem.choices[i].is_empty()));
     if required_without_choice {
-        return Ok(infeasible(n, risk_before, greedy, start));
+        return Ok(infeasible(n, risk_before, greedy, start_time));
     }
     if !any_choice || risk_before <= 0.0 {
         let assignment = vec![None; n];
@@ -317,7 +371,21 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             bound: risk,
             gap: 0.0,
             status: Status::Optimal,
-            seconds: start.elapsed().as_secs_f64(),
+            seconds: start_time.elapsed().as_secs_f64(),
+            greedy,
+        });
+    }
+    // Treating everything with its most effective method is optimal when it fits, and its risk
+    // bounds R from below at any budget.
+    let (everything, floor) = problem.everything();
+    if problem.feasible(&everything) {
+        return Ok(Solved {
+            assignment: everything,
+            risk_after: floor,
+            bound: floor,
+            gap: 0.0,
+            status: Status::Optimal,
+            seconds: start_time.elapsed().as_secs_f64(),
             greedy,
         });
     }
@@ -440,6 +508,13 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
             // u >= t_other - T (1 - x)  <=>  u - t_other - T x >= -T
             lp = lp.with((Expression::from(u) - t(p.other) - tm * xv).geq(-tm));
         }
+        // McCormick's lower envelope of t_side t_other on [0, T_side] x [0, T_other]:
+        // P >= T_other t_side + T_side t_other - T_side T_other, with P = sum_o e_o u_o. Valid
+        // for every integer plan ((T_s - t_s)(T_o - t_o) >= 0) and it keeps the relaxation from
+        // treating a link as more than removed when both ends are split across methods.
+        let ts = t_max(p.side);
+        let product: Expression = p.vars.iter().zip(&problem.choices[p.side]).map(|(&(u, _), c)| (1.0 - c.remaining) * u).sum();
+        lp = lp.with((product - tm * t(p.side) - ts * t(p.other)).geq(-ts * tm));
     }
 
     let mut model = lp.into_inner();
@@ -450,7 +525,10 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     model.set_option("time_limit", limits.time_limit_s.max(0.01));
     model.set_option("mip_rel_gap", limits.gap);
     model.set_option("mip_abs_gap", 1e-9);
-    if let Some((assignment, _)) = &greedy {
+    if let Some(threads) = limits.threads {
+        model.set_option("threads", threads as i32);
+    }
+    if let Some((assignment, _)) = &warm {
         let mut start_values = vec![0.0; columns];
         start_values[one_column] = 1.0;
         let remaining = problem.remaining(assignment);
@@ -480,7 +558,7 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     let mut status = match highs_status {
         S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
         S::Infeasible | S::UnboundedOrInfeasible => {
-            return Ok(infeasible(n, risk_before, greedy, start));
+            return Ok(infeasible(n, risk_before, greedy, start_time));
         }
         S::ReachedTimeLimit
         | S::ReachedIterationLimit
@@ -511,18 +589,19 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
         / scale;
     let mut risk_after = problem.risk(&assignment);
     if !has_solution || !problem.feasible(&assignment) {
-        match &greedy {
+        match &warm {
             Some((g, r)) => {
                 assignment = g.clone();
                 risk_after = *r;
             }
-            None => return Ok(infeasible(n, risk_before, greedy, start)),
+            None => return Ok(infeasible(n, risk_before, greedy, start_time)),
         }
     }
-    if let Some((g, r)) = greedy.as_ref().filter(|(_, r)| *r < risk_after) {
+    if let Some((g, r)) = warm.as_ref().filter(|(_, r)| *r < risk_after) {
         assignment = g.clone();
         risk_after = *r;
     }
+    let dual = dual.max(floor);
     let bound = if dual.is_finite() {
         dual.min(risk_after).max(0.0)
     } else {
@@ -533,7 +612,7 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     } else {
         0.0
     };
-    if status == Status::Optimal && gap > 1e-9 {
+    if status == Status::Optimal && gap > OPTIMAL_GAP {
         status = Status::GapLimit;
     }
     Ok(Solved {
@@ -542,7 +621,7 @@ pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
         bound,
         gap,
         status,
-        seconds: start.elapsed().as_secs_f64(),
+        seconds: start_time.elapsed().as_secs_f64(),
         greedy,
     })
 }

@@ -277,8 +277,25 @@ impl Scenario {
     }
 }
 
-/// Merge flags over the scenario file over defaults, and validate.
+/// Merge flags over the scenario file over defaults, and validate (a budget is required).
 pub fn resolve(args: &PlanArgs) -> Result<Settings> {
+    resolve_with(args, true)
+}
+
+/// The scenario of an earlier plan folder: `DIR/scenario.resolved.toml`.
+pub fn plan_folder_scenario(dir: &Path) -> Result<PathBuf> {
+    let path = dir.join("scenario.resolved.toml");
+    if !path.is_file() {
+        return Err(Error::input_with_hint(
+            format!("`{}` is not a plan folder (it has no scenario.resolved.toml)", dir.display()),
+            "give the `--out` folder of an earlier `hostcut plan` or `hostcut demo` run",
+        ));
+    }
+    Ok(path)
+}
+
+/// As [`resolve`]; `need_budget` false for commands that choose their own budgets.
+pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     let mut s = match &args.scenario {
         Some(path) => read_scenario(path)?,
         None => Scenario::default(),
@@ -465,7 +482,7 @@ pub fn resolve(args: &PlanArgs) -> Result<Settings> {
             ));
         }
     };
-    validate(&s)?;
+    validate_with(&s, need_budget)?;
     Ok(Settings {
         scenario: s,
         out,
@@ -484,6 +501,10 @@ fn check(ok: bool, message: impl FnOnce() -> String, hint: &str) -> Result<()> {
 
 /// Validate every number and the choice of host layer.
 pub fn validate(s: &Scenario) -> Result<()> {
+    validate_with(s, true)
+}
+
+fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
     match (&s.host.path, &s.host.inventory) {
         (None, None) => {
             return Err(Error::input_with_hint(
@@ -611,6 +632,7 @@ pub fn validate(s: &Scenario) -> Result<()> {
         "e.g. `introduction_weight = 0.01`",
     )?;
     match s.plan.budget {
+        None if !need_budget => {}
         None => {
             return Err(Error::input_with_hint(
                 "no budget given",

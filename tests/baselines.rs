@@ -185,10 +185,7 @@ fn the_optimum_is_never_worse_than_any_baseline() {
         let (_, best) = brute_force(&problem).unwrap();
         let solved = solve(
             &problem,
-            Limits {
-                time_limit_s: 30.0,
-                gap: 0.0,
-            },
+            Limits::new(30.0, 0.0),
         )
         .unwrap();
         assert!((solved.risk_after - best).abs() <= 1e-9 * best);

@@ -1,4 +1,5 @@
 //! One file per subcommand.
 
+pub mod curve;
 pub mod demo;
 pub mod plan;

@@ -48,10 +48,7 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     progress("optimising");
     let solved = optimise::solve(
         &problem,
-        Limits {
-            time_limit_s: s.solver.time_limit_s,
-            gap: s.solver.gap,
-        },
+        Limits::new(s.solver.time_limit_s, s.solver.gap),
     )?;
     let plan = plan::assemble(&patches, &model, &catalogue, &problem, &solved, &s.model);
 
