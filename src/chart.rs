@@ -42,10 +42,42 @@ impl Style {
         let (colour, _, _) = self.stroke();
         match self {
             Style::Main => format!(r#"<circle cx="{x:.1}" cy="{y:.1}" r="3.6" fill="{colour}"/>"#),
-            Style::Dashed => format!(r#"<rect x="{:.1}" y="{:.1}" width="7" height="7" fill="white" stroke="{colour}" stroke-width="1.4"/>"#, x - 3.5, y - 3.5),
-            Style::Dotted => format!(r#"<polygon points="{:.1},{:.1} {:.1},{:.1} {:.1},{:.1}" fill="white" stroke="{colour}" stroke-width="1.4"/>"#, x, y - 4.5, x - 4.2, y + 3.2, x + 4.2, y + 3.2),
-            Style::DashDot => format!(r#"<polygon points="{:.1},{:.1} {:.1},{:.1} {:.1},{:.1} {:.1},{:.1}" fill="white" stroke="{colour}" stroke-width="1.4"/>"#, x, y - 4.5, x + 4.5, y, x, y + 4.5, x - 4.5, y),
-            Style::LongDash => format!(r#"<path d="M{:.1},{:.1} L{:.1},{:.1} M{:.1},{:.1} L{:.1},{:.1}" stroke="{colour}" stroke-width="1.6"/>"#, x - 3.5, y - 3.5, x + 3.5, y + 3.5, x - 3.5, y + 3.5, x + 3.5, y - 3.5),
+            Style::Dashed => format!(
+                r#"<rect x="{:.1}" y="{:.1}" width="7" height="7" fill="white" stroke="{colour}" stroke-width="1.4"/>"#,
+                x - 3.5,
+                y - 3.5
+            ),
+            Style::Dotted => format!(
+                r#"<polygon points="{:.1},{:.1} {:.1},{:.1} {:.1},{:.1}" fill="white" stroke="{colour}" stroke-width="1.4"/>"#,
+                x,
+                y - 4.5,
+                x - 4.2,
+                y + 3.2,
+                x + 4.2,
+                y + 3.2
+            ),
+            Style::DashDot => format!(
+                r#"<polygon points="{:.1},{:.1} {:.1},{:.1} {:.1},{:.1} {:.1},{:.1}" fill="white" stroke="{colour}" stroke-width="1.4"/>"#,
+                x,
+                y - 4.5,
+                x + 4.5,
+                y,
+                x,
+                y + 4.5,
+                x - 4.5,
+                y
+            ),
+            Style::LongDash => format!(
+                r#"<path d="M{:.1},{:.1} L{:.1},{:.1} M{:.1},{:.1} L{:.1},{:.1}" stroke="{colour}" stroke-width="1.6"/>"#,
+                x - 3.5,
+                y - 3.5,
+                x + 3.5,
+                y + 3.5,
+                x - 3.5,
+                y + 3.5,
+                x + 3.5,
+                y - 3.5
+            ),
         }
     }
 }
@@ -60,7 +92,10 @@ pub struct Marker {
 
 /// Escape text for XML.
 pub fn escape(text: &str) -> String {
-    text.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+    text.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 /// A "nice" tick step for a range, 1, 2 or 5 times a power of ten.
@@ -71,7 +106,16 @@ fn tick_step(range: f64, target: usize) -> f64 {
     let raw = range / target as f64;
     let power = 10f64.powf(raw.log10().floor());
     let m = raw / power;
-    power * if m <= 1.0 { 1.0 } else if m <= 2.0 { 2.0 } else if m <= 5.0 { 5.0 } else { 10.0 }
+    power
+        * if m <= 1.0 {
+            1.0
+        } else if m <= 2.0 {
+            2.0
+        } else if m <= 5.0 {
+            5.0
+        } else {
+            10.0
+        }
 }
 
 /// Format a number with thousands separators.
@@ -80,7 +124,7 @@ pub fn thousands(v: f64) -> String {
     let digits = rounded.abs().to_string();
     let mut out = String::new();
     for (k, c) in digits.chars().enumerate() {
-        if k > 0 && (digits.len() - k) % 3 == 0 {
+        if k > 0 && (digits.len() - k).is_multiple_of(3) {
             out.push(',');
         }
         out.push(c);
@@ -89,7 +133,15 @@ pub fn thousands(v: f64) -> String {
 }
 
 /// A line chart: title, axis labels, series, vertical markers; y from 0 to `y_max`.
-pub fn line_chart(title: &str, x_label: &str, y_label: &str, x_format: &dyn Fn(f64) -> String, y_max: f64, series: &[Series], markers: &[Marker]) -> String {
+pub fn line_chart(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    x_format: &dyn Fn(f64) -> String,
+    y_max: f64,
+    series: &[Series],
+    markers: &[Marker],
+) -> String {
     let (width, height) = (860.0, 540.0);
     let (left, right, top, bottom) = (86.0, 28.0, 58.0, 150.0);
     let (pw, ph) = (width - left - right, height - top - bottom);
@@ -107,44 +159,112 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, x_format: &dyn Fn(f
     let sx = |x: f64| left + (x - x0) / (x1 - x0) * pw;
     let sy = |y: f64| top + ph - (y / y1) * ph;
     let mut svg = String::new();
-    let _ = writeln!(svg, r#"<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" viewBox="0 0 {width} {height}" font-family="Helvetica, Arial, sans-serif" font-size="13">"#);
+    let _ = writeln!(
+        svg,
+        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" viewBox="0 0 {width} {height}" font-family="Helvetica, Arial, sans-serif" font-size="13">"#
+    );
     let _ = writeln!(svg, r#"<title>{}</title>"#, escape(title));
-    let _ = writeln!(svg, r#"<rect width="{width}" height="{height}" fill="white"/>"#);
-    let _ = writeln!(svg, r#"<text x="{}" y="30" text-anchor="middle" font-size="17" font-weight="bold">{}</text>"#, width / 2.0, escape(title));
+    let _ = writeln!(
+        svg,
+        r#"<rect width="{width}" height="{height}" fill="white"/>"#
+    );
+    let _ = writeln!(
+        svg,
+        r#"<text x="{}" y="30" text-anchor="middle" font-size="17" font-weight="bold">{}</text>"#,
+        width / 2.0,
+        escape(title)
+    );
     // Grid and ticks.
     let ystep = tick_step(y1, 5);
     let mut y = 0.0;
     while y <= y1 + 1e-9 {
         let py = sy(y);
-        let _ = writeln!(svg, r##"<line x1="{left}" y1="{py:.1}" x2="{:.1}" y2="{py:.1}" stroke="#dddddd"/>"##, left + pw);
-        let _ = writeln!(svg, r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#, left - 8.0, py + 4.0, y.round());
+        let _ = writeln!(
+            svg,
+            r##"<line x1="{left}" y1="{py:.1}" x2="{:.1}" y2="{py:.1}" stroke="#dddddd"/>"##,
+            left + pw
+        );
+        let _ = writeln!(
+            svg,
+            r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#,
+            left - 8.0,
+            py + 4.0,
+            y.round()
+        );
         y += ystep;
     }
     let xstep = tick_step(x1 - x0, 6);
     let mut x = (x0 / xstep).ceil() * xstep;
     while x <= x1 + 1e-9 {
         let px = sx(x);
-        let _ = writeln!(svg, r##"<line x1="{px:.1}" y1="{top}" x2="{px:.1}" y2="{:.1}" stroke="#eeeeee"/>"##, top + ph);
-        let _ = writeln!(svg, r#"<text x="{px:.1}" y="{:.1}" text-anchor="middle">{}</text>"#, top + ph + 18.0, escape(&x_format(x)));
+        let _ = writeln!(
+            svg,
+            r##"<line x1="{px:.1}" y1="{top}" x2="{px:.1}" y2="{:.1}" stroke="#eeeeee"/>"##,
+            top + ph
+        );
+        let _ = writeln!(
+            svg,
+            r#"<text x="{px:.1}" y="{:.1}" text-anchor="middle">{}</text>"#,
+            top + ph + 18.0,
+            escape(&x_format(x))
+        );
         x += xstep;
     }
-    let _ = writeln!(svg, r#"<rect x="{left}" y="{top}" width="{pw}" height="{ph}" fill="none" stroke="black"/>"#);
-    let _ = writeln!(svg, r#"<text x="{:.1}" y="{:.1}" text-anchor="middle">{}</text>"#, left + pw / 2.0, top + ph + 40.0, escape(x_label));
-    let _ = writeln!(svg, r#"<text transform="translate(24 {:.1}) rotate(-90)" text-anchor="middle">{}</text>"#, top + ph / 2.0, escape(y_label));
+    let _ = writeln!(
+        svg,
+        r#"<rect x="{left}" y="{top}" width="{pw}" height="{ph}" fill="none" stroke="black"/>"#
+    );
+    let _ = writeln!(
+        svg,
+        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle">{}</text>"#,
+        left + pw / 2.0,
+        top + ph + 40.0,
+        escape(x_label)
+    );
+    let _ = writeln!(
+        svg,
+        r#"<text transform="translate(24 {:.1}) rotate(-90)" text-anchor="middle">{}</text>"#,
+        top + ph / 2.0,
+        escape(y_label)
+    );
     // Markers.
     for (k, m) in markers.iter().enumerate() {
         let px = sx(m.x);
         let (dash, w) = if m.strong { ("6 3", 1.6) } else { ("1 3", 1.2) };
-        let _ = writeln!(svg, r#"<line class="marker" x1="{px:.1}" y1="{top}" x2="{px:.1}" y2="{:.1}" stroke="black" stroke-width="{w}" stroke-dasharray="{dash}"/>"#, top + ph);
+        let _ = writeln!(
+            svg,
+            r#"<line class="marker" x1="{px:.1}" y1="{top}" x2="{px:.1}" y2="{:.1}" stroke="black" stroke-width="{w}" stroke-dasharray="{dash}"/>"#,
+            top + ph
+        );
         let ly = top + 16.0 + 15.0 * (k % 4) as f64;
-        let _ = writeln!(svg, r#"<text x="{:.1}" y="{ly:.1}" font-size="12" font-weight="{}">{}</text>"#, px + 4.0, if m.strong { "bold" } else { "normal" }, escape(&m.label));
+        let _ = writeln!(
+            svg,
+            r#"<text x="{:.1}" y="{ly:.1}" font-size="12" font-weight="{}">{}</text>"#,
+            px + 4.0,
+            if m.strong { "bold" } else { "normal" },
+            escape(&m.label)
+        );
     }
     // Series.
     for s in series {
         let (colour, w, dash) = s.style.stroke();
-        let path: Vec<String> = s.points.iter().filter(|p| p.1.is_finite()).map(|&(x, y)| format!("{:.1},{:.1}", sx(x), sy(y))).collect();
-        let dash_attr = if dash.is_empty() { String::new() } else { format!(r#" stroke-dasharray="{dash}""#) };
-        let _ = writeln!(svg, r#"<g id="{}"><polyline points="{}" fill="none" stroke="{colour}" stroke-width="{w}"{dash_attr}/>"#, escape(&s.id), path.join(" "));
+        let path: Vec<String> = s
+            .points
+            .iter()
+            .filter(|p| p.1.is_finite())
+            .map(|&(x, y)| format!("{:.1},{:.1}", sx(x), sy(y)))
+            .collect();
+        let dash_attr = if dash.is_empty() {
+            String::new()
+        } else {
+            format!(r#" stroke-dasharray="{dash}""#)
+        };
+        let _ = writeln!(
+            svg,
+            r#"<g id="{}"><polyline points="{}" fill="none" stroke="{colour}" stroke-width="{w}"{dash_attr}/>"#,
+            escape(&s.id),
+            path.join(" ")
+        );
         for &(x, y) in s.points.iter().filter(|p| p.1.is_finite()) {
             svg.push_str(&s.style.marker(sx(x), sy(y)));
         }
@@ -155,10 +275,24 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, x_format: &dyn Fn(f
         let (colour, w, dash) = s.style.stroke();
         let lx = left + (k % 2) as f64 * (pw / 2.0);
         let ly = top + ph + 66.0 + 20.0 * (k / 2) as f64;
-        let dash_attr = if dash.is_empty() { String::new() } else { format!(r#" stroke-dasharray="{dash}""#) };
-        let _ = writeln!(svg, r#"<line x1="{lx:.1}" y1="{ly:.1}" x2="{:.1}" y2="{ly:.1}" stroke="{colour}" stroke-width="{w}"{dash_attr}/>"#, lx + 40.0);
+        let dash_attr = if dash.is_empty() {
+            String::new()
+        } else {
+            format!(r#" stroke-dasharray="{dash}""#)
+        };
+        let _ = writeln!(
+            svg,
+            r#"<line x1="{lx:.1}" y1="{ly:.1}" x2="{:.1}" y2="{ly:.1}" stroke="{colour}" stroke-width="{w}"{dash_attr}/>"#,
+            lx + 40.0
+        );
         svg.push_str(&s.style.marker(lx + 20.0, ly));
-        let _ = writeln!(svg, r#"<text x="{:.1}" y="{:.1}">{}</text>"#, lx + 50.0, ly + 4.0, escape(&s.label));
+        let _ = writeln!(
+            svg,
+            r#"<text x="{:.1}" y="{:.1}">{}</text>"#,
+            lx + 50.0,
+            ly + 4.0,
+            escape(&s.label)
+        );
     }
     svg.push_str("</svg>\n");
     svg

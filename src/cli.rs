@@ -145,7 +145,13 @@ pub struct CurveArgs {
     #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
     pub plan_dir: Option<PathBuf>,
     /// Budgets to plan at, comma-separated
-    #[arg(long, value_name = "B1,B2,...", value_delimiter = ',', allow_negative_numbers = true, conflicts_with = "budget_range")]
+    #[arg(
+        long,
+        value_name = "B1,B2,...",
+        value_delimiter = ',',
+        allow_negative_numbers = true,
+        conflicts_with = "budget_range"
+    )]
     pub budgets: Vec<f64>,
     /// Evenly spaced budgets MIN:MAX:STEPS (default: 0 to the cost of treating every eligible
     /// patch with its most effective method, 20 budgets)

@@ -37,12 +37,19 @@ pub fn budget_range(min: f64, max: f64, steps: usize) -> Vec<f64> {
     if steps <= 1 || max <= min {
         return vec![max.max(min)];
     }
-    (0..steps).map(|k| min + (max - min) * k as f64 / (steps - 1) as f64).collect()
+    (0..steps)
+        .map(|k| min + (max - min) * k as f64 / (steps - 1) as f64)
+        .collect()
 }
 
 /// Parse `MIN:MAX:STEPS`.
 pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
-    let bad = || Error::input_with_hint(format!("`--budget-range {text}` is not MIN:MAX:STEPS"), "e.g. `--budget-range 0:60000:20` (20 budgets from 0 to 60,000)");
+    let bad = || {
+        Error::input_with_hint(
+            format!("`--budget-range {text}` is not MIN:MAX:STEPS"),
+            "e.g. `--budget-range 0:60000:20` (20 budgets from 0 to 60,000)",
+        )
+    };
     let parts: Vec<&str> = text.split(':').collect();
     if parts.len() != 3 {
         return Err(bad());
@@ -50,25 +57,56 @@ pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
     let min: f64 = parts[0].trim().parse().map_err(|_| bad())?;
     let max: f64 = parts[1].trim().parse().map_err(|_| bad())?;
     let steps: usize = parts[2].trim().parse().map_err(|_| bad())?;
-    if !(min.is_finite() && max.is_finite() && min >= 0.0 && max >= min && (1..=500).contains(&steps)) {
-        return Err(Error::input_with_hint(format!("`--budget-range {text}`: need 0 <= MIN <= MAX and 1 <= STEPS <= 500"), "e.g. `--budget-range 0:60000:20`"));
+    if !(min.is_finite()
+        && max.is_finite()
+        && min >= 0.0
+        && max >= min
+        && (1..=500).contains(&steps))
+    {
+        return Err(Error::input_with_hint(
+            format!("`--budget-range {text}`: need 0 <= MIN <= MAX and 1 <= STEPS <= 500"),
+            "e.g. `--budget-range 0:60000:20`",
+        ));
     }
     Ok((min, max, steps))
 }
 
 /// Solve every budget in ascending order with `jobs` contiguous chunks in parallel (each chunk
 /// warm-starts from its previous point), then repair monotonicity across the whole curve.
-pub fn trace(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limits: Limits, depot: (f64, f64), jobs: usize) -> Result<Vec<Point>> {
+pub fn trace(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+    jobs: usize,
+) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
     budgets.sort_by(f64::total_cmp);
     budgets.dedup();
     let jobs = jobs.clamp(1, budgets.len().max(1));
     let chunk = budgets.len().div_ceil(jobs);
-    let limits = if jobs > 1 { Limits { threads: Some(1), ..limits } } else { limits };
+    let limits = if jobs > 1 {
+        Limits {
+            threads: Some(1),
+            ..limits
+        }
+    } else {
+        limits
+    };
     let chunks: Vec<&[f64]> = budgets.chunks(chunk.max(1)).collect();
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = chunks.iter().map(|part| scope.spawn(move || solve_chain(prepared, part, crew_hours, limits, depot))).collect();
-        handles.into_iter().map(|h| h.join().unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))).collect()
+        let handles: Vec<_> = chunks
+            .iter()
+            .map(|part| scope.spawn(move || solve_chain(prepared, part, crew_hours, limits, depot)))
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| {
+                h.join()
+                    .unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))
+            })
+            .collect()
     });
     let mut points = Vec::new();
     for r in results {
@@ -78,13 +116,25 @@ pub fn trace(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limi
     Ok(points)
 }
 
-fn solve_chain(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limits: Limits, depot: (f64, f64)) -> Result<Vec<Point>> {
+fn solve_chain(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+) -> Result<Vec<Point>> {
     let mut out: Vec<Point> = Vec::new();
     for &budget in budgets {
         let problem = prepared.problem(budget, crew_hours);
         let previous = out.last().map(|p: &Point| p.assignment.clone());
         let solved = solve_from(&problem, limits, previous.as_ref())?;
-        let rules = baselines::all(&problem, &prepared.patches, &prepared.pressure.corridors, depot, Some(solved.greedy.clone()));
+        let rules = baselines::all(
+            &problem,
+            &prepared.patches,
+            &prepared.pressure.corridors,
+            depot,
+            Some(solved.greedy.clone()),
+        );
         let greedy_risk_after = solved.greedy.as_ref().map(|g| g.1).unwrap_or(f64::NAN);
         let mut point = Point {
             budget,
@@ -100,7 +150,11 @@ fn solve_chain(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, li
             stems_treated: 0.0,
             area_ha_treated: 0.0,
             greedy_risk_after,
-            baselines: rules.iter().filter(|b| b.name != "greedy").map(|b| (b.name, b.risk_after)).collect(),
+            baselines: rules
+                .iter()
+                .filter(|b| b.name != "greedy")
+                .map(|b| (b.name, b.risk_after))
+                .collect(),
             seconds: solved.seconds,
         };
         fill_totals(prepared, &mut point, crew_hours);
@@ -113,10 +167,18 @@ fn fill_totals(prepared: &Prepared, point: &mut Point, crew_hours: Option<f64>) 
     let problem = prepared.problem(point.budget, crew_hours);
     point.spent = problem.cost(&point.assignment);
     point.crew_hours = problem.hours(&point.assignment);
-    let treated: Vec<usize> = (0..point.assignment.len()).filter(|&i| point.assignment[i].is_some()).collect();
+    let treated: Vec<usize> = (0..point.assignment.len())
+        .filter(|&i| point.assignment[i].is_some())
+        .collect();
     point.n_treated = treated.len();
-    point.stems_treated = treated.iter().map(|&i| prepared.patches.items[i].stems).sum();
-    point.area_ha_treated = treated.iter().filter_map(|&i| prepared.patches.items[i].area_ha).sum();
+    point.stems_treated = treated
+        .iter()
+        .map(|&i| prepared.patches.items[i].stems)
+        .sum();
+    point.area_ha_treated = treated
+        .iter()
+        .filter_map(|&i| prepared.patches.items[i].area_ha)
+        .sum();
 }
 
 /// Risk after never rises with the budget: a point whose plan is worse than a smaller
@@ -126,12 +188,19 @@ pub fn make_monotone(prepared: &Prepared, points: &mut [Point], crew_hours: Opti
         let (before, rest) = points.split_at_mut(k);
         let previous = &before[k - 1];
         let point = &mut rest[0];
-        if point.status != Status::Infeasible && previous.status != Status::Infeasible && point.risk_after > previous.risk_after {
+        if point.status != Status::Infeasible
+            && previous.status != Status::Infeasible
+            && point.risk_after > previous.risk_after
+        {
             point.assignment = previous.assignment.clone();
             point.risk_after = previous.risk_after;
             point.from_neighbour = true;
             let bound = point.bound.min(point.risk_after);
-            point.gap = if point.risk_after > 0.0 { ((point.risk_after - bound) / point.risk_after).max(0.0) } else { 0.0 };
+            point.gap = if point.risk_after > 0.0 {
+                ((point.risk_after - bound) / point.risk_after).max(0.0)
+            } else {
+                0.0
+            };
             if point.gap <= crate::optimise::OPTIMAL_GAP {
                 point.status = Status::Optimal;
             }
@@ -147,8 +216,14 @@ pub fn kneedle(xs: &[f64], ys: &[f64]) -> Option<usize> {
     if xs.len() < 3 || xs.len() != ys.len() {
         return None;
     }
-    let (x0, x1) = (xs.iter().cloned().fold(f64::INFINITY, f64::min), xs.iter().cloned().fold(f64::NEG_INFINITY, f64::max));
-    let (y0, y1) = (ys.iter().cloned().fold(f64::INFINITY, f64::min), ys.iter().cloned().fold(f64::NEG_INFINITY, f64::max));
+    let (x0, x1) = (
+        xs.iter().cloned().fold(f64::INFINITY, f64::min),
+        xs.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
+    );
+    let (y0, y1) = (
+        ys.iter().cloned().fold(f64::INFINITY, f64::min),
+        ys.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
+    );
     if x1 <= x0 || y1 <= y0 {
         return None;
     }
@@ -177,7 +252,10 @@ mod tests {
 
     #[test]
     fn ranges_include_both_ends() {
-        assert_eq!(budget_range(0.0, 100.0, 5), vec![0.0, 25.0, 50.0, 75.0, 100.0]);
+        assert_eq!(
+            budget_range(0.0, 100.0, 5),
+            vec![0.0, 25.0, 50.0, 75.0, 100.0]
+        );
         assert_eq!(parse_range("0:60000:20").unwrap(), (0.0, 60000.0, 20));
         assert!(parse_range("5:1:3").is_err());
         assert!(parse_range("0:10").is_err());

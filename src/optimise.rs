@@ -2,14 +2,14 @@
 //! under the budget and crew hours, exactly, as a mixed-integer program solved by HiGHS through
 //! good_lp; plus the greedy heuristic that warm-starts it and the brute force that tests it.
 //!
-//! # Formulation (docs/model.md has the derivation)
-//! Binary x_io: patch i gets its choice o. t_i = sum_o e_o x_io is the share of host removed, so
-//! r_i = 1 - t_i. Because at most one x_io is 1, r_i^2 = 1 - sum_o (1 - r_o^2) x_io exactly. For a
-//! link (i, j) the product t_i t_j = sum_o e_o (x_io t_j); each x_io t_j (binary times a [0, T_j]
-//! quantity) is replaced by u_ijo >= t_j - T_j (1 - x_io), u_ijo >= 0 (Glover 1975 style; with a
-//! positive objective coefficient the lower bounds are tight at the optimum, so the MIP optimum
-//! equals the true optimum). A fixed column carries the constant so HiGHS's objective is R itself
-//! and its dual bound is a lower bound on R.
+//! # Formulations (docs/model.md has the derivations)
+//! Default, [`Formulation::Transport`]: one binary per option of each patch ("untreated"
+//! included) and, per link, one z per pair of options tied to both ends by transportation
+//! marginals, so z is the product at integer points and R is linear in (v, z) exactly.
+//! [`Formulation::Compact`]: binary x_io, t_i = sum_o e_o x_io, and per link and choice of one end
+//! u >= t_j - T_j (1 - x_io), u >= 0 (Glover-Woolsey), plus McCormick's envelope row. In both, a
+//! fixed column carries the constant so HiGHS's objective is R itself and its dual bound is a
+//! lower bound on R.
 //!
 //! # Units
 //! Costs in catalogue currency, hours in crew hours, R in share-squared units.
@@ -158,7 +158,9 @@ impl Problem<'_> {
                 }
                 (0..self.choices[i].len()).min_by(|&a, &b| {
                     let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
-                    ca.remaining.total_cmp(&cb.remaining).then(ca.cost.total_cmp(&cb.cost))
+                    ca.remaining
+                        .total_cmp(&cb.remaining)
+                        .then(ca.cost.total_cmp(&cb.cost))
                 })
             })
             .collect();
@@ -212,7 +214,11 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
                 if c.remaining >= remaining[i] {
                     continue;
                 }
-                let step = Choice { cost: c.cost - now_cost, hours: c.hours - now_hours, ..*c };
+                let step = Choice {
+                    cost: c.cost - now_cost,
+                    hours: c.hours - now_hours,
+                    ..*c
+                };
                 if !fits(&current, spent, hours, &step) {
                     continue;
                 }
@@ -331,11 +337,32 @@ pub struct Limits {
     pub gap: f64,
     /// HiGHS threads (None: its default, all cores).
     pub threads: Option<u32>,
+    pub formulation: Formulation,
+}
+
+/// Which exact linearisation of the link products to build (docs/model.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Formulation {
+    /// One z per pair of options at each link, with transportation marginals (default).
+    Transport,
+    /// One u per link and choice of one end, plus McCormick's envelope row.
+    Compact,
 }
 
 impl Limits {
+    /// Limits with the default formulation; `HOSTCUT_FORMULATION=compact` picks the compact
+    /// one (for developers comparing the two).
     pub fn new(time_limit_s: f64, gap: f64) -> Limits {
-        Limits { time_limit_s, gap, threads: None }
+        let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
+            Ok("compact") => Formulation::Compact,
+            _ => Formulation::Transport,
+        };
+        Limits {
+            time_limit_s,
+            gap,
+            threads: None,
+            formulation,
+        }
     }
 }
 
@@ -350,7 +377,10 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     let start_time = Instant::now();
     let n = problem.len();
     let greedy = greedy(problem);
-    let warm: Option<(Assignment, f64)> = match (start.filter(|a| a.len() == n && problem.feasible(a)), &greedy) {
+    let warm: Option<(Assignment, f64)> = match (
+        start.filter(|a| a.len() == n && problem.feasible(a)),
+        &greedy,
+    ) {
         (Some(a), Some((_, g))) if problem.risk(a) < *g => Some((a.clone(), problem.risk(a))),
         (Some(a), None) => Some((a.clone(), problem.risk(a))),
         _ => greedy.clone(),
@@ -393,6 +423,129 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
     let scale = 1e3 / risk_before;
 
+    let built = match limits.formulation {
+        Formulation::Compact => build_compact(problem, scale, warm.as_ref().map(|w| &w.0))?,
+        Formulation::Transport => build_transport(problem, scale, warm.as_ref().map(|w| &w.0))?,
+    };
+    let Built {
+        mut model,
+        x_columns,
+    } = built;
+    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
+    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
+    model.set_option("output_flag", log);
+    model.set_option("log_to_console", log);
+    model.set_option("time_limit", limits.time_limit_s.max(0.01));
+    model.set_option("mip_rel_gap", limits.gap);
+    model.set_option("mip_abs_gap", 1e-9);
+    if let Some(threads) = limits.threads {
+        model.set_option("threads", threads as i32);
+    }
+    let solved = model
+        .try_solve()
+        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
+    use highs::HighsModelStatus as S;
+    let highs_status = solved.status();
+    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
+    let mut status = match highs_status {
+        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
+        S::Infeasible | S::UnboundedOrInfeasible => {
+            return Ok(infeasible(n, risk_before, greedy, start_time));
+        }
+        S::ReachedTimeLimit
+        | S::ReachedIterationLimit
+        | S::ReachedSolutionLimit
+        | S::ReachedInterrupt
+        | S::ReachedMemoryLimit => Status::TimeLimit,
+        other => {
+            return Err(Error::Internal(format!(
+                "HiGHS ended with status {other:?}"
+            )));
+        }
+    };
+    let mut assignment: Assignment = vec![None; n];
+    if has_solution {
+        let values = solved.get_solution();
+        let values = values.columns();
+        for i in 0..n {
+            for &(o, col) in &x_columns[i] {
+                if values[col] > 0.5 {
+                    assignment[i] = Some(o);
+                }
+            }
+        }
+    }
+    let dual = solved
+        .double_info_value(c"mip_dual_bound")
+        .unwrap_or(f64::NEG_INFINITY)
+        / scale;
+    let mut risk_after = problem.risk(&assignment);
+    if !has_solution || !problem.feasible(&assignment) {
+        match &warm {
+            Some((g, r)) => {
+                assignment = g.clone();
+                risk_after = *r;
+            }
+            None => return Ok(infeasible(n, risk_before, greedy, start_time)),
+        }
+    }
+    if let Some((g, r)) = warm.as_ref().filter(|(_, r)| *r < risk_after) {
+        assignment = g.clone();
+        risk_after = *r;
+    }
+    let dual = dual.max(floor);
+    let bound = if dual.is_finite() {
+        dual.min(risk_after).max(0.0)
+    } else {
+        0.0
+    };
+    let gap = if risk_after > 0.0 {
+        ((risk_after - bound) / risk_after).max(0.0)
+    } else {
+        0.0
+    };
+    if status == Status::Optimal && gap > OPTIMAL_GAP {
+        status = Status::GapLimit;
+    }
+    Ok(Solved {
+        assignment,
+        risk_after,
+        bound,
+        gap,
+        status,
+        seconds: start_time.elapsed().as_secs_f64(),
+        greedy,
+    })
+}
+
+/// A built HiGHS model and, per patch, (choice index, column) of each x_io.
+struct Built {
+    model: highs::Model,
+    x_columns: Vec<Vec<(usize, usize)>>,
+}
+
+/// Choice `o` of patch `i` is dominated when another choice costs no more, takes no more crew
+/// hours (when hours are limited) and leaves no more host, and is strictly better in one of
+/// them (ties: the earlier choice is kept). Dropping dominated choices never changes the
+/// optimum, since R only grows with r_i.
+fn dominated(problem: &Problem, i: usize, o: usize) -> bool {
+    let c = &problem.choices[i][o];
+    let hours_matter = problem.crew_hours.is_some();
+    problem.choices[i].iter().enumerate().any(|(k, d)| {
+        if k == o {
+            return false;
+        }
+        let no_worse =
+            d.cost <= c.cost && d.remaining <= c.remaining && (!hours_matter || d.hours <= c.hours);
+        let better =
+            d.cost < c.cost || d.remaining < c.remaining || (hours_matter && d.hours < c.hours);
+        no_worse && (better || k < o)
+    })
+}
+
+/// The compact formulation: one u per link and choice of one end (see the module docs).
+fn build_compact(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> Result<Built> {
+    let n = problem.len();
     // Columns, in the order HiGHS will see them.
     let mut vars = ProblemVariables::new();
     let mut columns = 0usize;
@@ -513,22 +666,17 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         // for every integer plan ((T_s - t_s)(T_o - t_o) >= 0) and it keeps the relaxation from
         // treating a link as more than removed when both ends are split across methods.
         let ts = t_max(p.side);
-        let product: Expression = p.vars.iter().zip(&problem.choices[p.side]).map(|(&(u, _), c)| (1.0 - c.remaining) * u).sum();
+        let product: Expression = p
+            .vars
+            .iter()
+            .zip(&problem.choices[p.side])
+            .map(|(&(u, _), c)| (1.0 - c.remaining) * u)
+            .sum();
         lp = lp.with((product - tm * t(p.side) - ts * t(p.other)).geq(-ts * tm));
     }
 
     let mut model = lp.into_inner();
-    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
-    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
-    model.set_option("output_flag", log);
-    model.set_option("log_to_console", log);
-    model.set_option("time_limit", limits.time_limit_s.max(0.01));
-    model.set_option("mip_rel_gap", limits.gap);
-    model.set_option("mip_abs_gap", 1e-9);
-    if let Some(threads) = limits.threads {
-        model.set_option("threads", threads as i32);
-    }
-    if let Some((assignment, _)) = &warm {
+    if let Some(assignment) = warm {
         let mut start_values = vec![0.0; columns];
         start_values[one_column] = 1.0;
         let remaining = problem.remaining(assignment);
@@ -549,81 +697,158 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             .try_set_solution(Some(&start_values), None, None, None)
             .map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
     }
-    let solved = model
-        .try_solve()
-        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
-    use highs::HighsModelStatus as S;
-    let highs_status = solved.status();
-    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
-    let mut status = match highs_status {
-        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
-        S::Infeasible | S::UnboundedOrInfeasible => {
-            return Ok(infeasible(n, risk_before, greedy, start_time));
+    let x_columns = x
+        .iter()
+        .map(|v| v.iter().enumerate().map(|(o, &(_, c))| (o, c)).collect())
+        .collect();
+    Ok(Built { model, x_columns })
+}
+
+/// The transportation (RLT) formulation: per patch one binary per option, "untreated"
+/// included (v_i0 + sum_o x_io = 1); per link one continuous z_kl per pair of options with
+/// sum_l z_kl = v_ik and sum_k z_kl = v_jl. At integer points z is the product v_ik v_jl, so
+/// R = sum_i own_i sum_k r_k^2 v_ik + sum_links w_ij sum_kl r_k r_l z_kl exactly, and its LP
+/// relaxation is the local-consistency bound, much tighter than the compact one.
+fn build_transport(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> Result<Built> {
+    let n = problem.len();
+    let mut vars = ProblemVariables::new();
+    let mut columns = 0usize;
+    // options[i]: (variable, column, r) with the untreated option first; empty when fixed.
+    // kept[i]: the choice index behind each later option (dominated choices get none).
+    let mut options: Vec<Vec<(Variable, usize, f64)>> = vec![Vec::new(); n];
+    let mut kept: Vec<Vec<usize>> = vec![Vec::new(); n];
+    let mut x_columns: Vec<Vec<(usize, usize)>> = vec![Vec::new(); n];
+    for i in 0..n {
+        if problem.excluded[i] || problem.choices[i].is_empty() {
+            continue;
         }
-        S::ReachedTimeLimit
-        | S::ReachedIterationLimit
-        | S::ReachedSolutionLimit
-        | S::ReachedInterrupt
-        | S::ReachedMemoryLimit => Status::TimeLimit,
-        other => {
-            return Err(Error::Internal(format!(
-                "HiGHS ended with status {other:?}"
-            )));
+        let untreated = if problem.required[i] {
+            variable().binary().max(0.0)
+        } else {
+            variable().binary()
+        };
+        options[i].push((vars.add(untreated), columns, 1.0));
+        columns += 1;
+        for (o, c) in problem.choices[i].iter().enumerate() {
+            if dominated(problem, i, o) {
+                continue;
+            }
+            options[i].push((vars.add(variable().binary()), columns, c.remaining));
+            x_columns[i].push((o, columns));
+            kept[i].push(o);
+            columns += 1;
         }
-    };
-    let mut assignment: Assignment = vec![None; n];
-    if has_solution {
-        let values = solved.get_solution();
-        let values = values.columns();
-        for i in 0..n {
-            for (o, &(_, col)) in x[i].iter().enumerate() {
-                if values[col] > 0.5 {
-                    assignment[i] = Some(o);
+    }
+    let mut constant = 0.0;
+    let mut objective = Expression::from(0.0);
+    for i in 0..n {
+        if options[i].is_empty() {
+            constant += problem.model.own[i];
+        } else {
+            for &(v, _, r) in &options[i] {
+                objective += problem.model.own[i] * r * r * v;
+            }
+        }
+    }
+    struct Pair {
+        a: usize,
+        b: usize,
+        z: Vec<Vec<(Variable, usize)>>,
+    }
+    let mut pairs: Vec<Pair> = Vec::new();
+    for link in &problem.model.links {
+        let (a, b, w) = (link.a, link.b, link.weight);
+        match (options[a].is_empty(), options[b].is_empty()) {
+            (true, true) => constant += w,
+            (false, true) => {
+                for &(v, _, r) in &options[a] {
+                    objective += w * r * v;
                 }
             }
-        }
-    }
-    let dual = solved
-        .double_info_value(c"mip_dual_bound")
-        .unwrap_or(f64::NEG_INFINITY)
-        / scale;
-    let mut risk_after = problem.risk(&assignment);
-    if !has_solution || !problem.feasible(&assignment) {
-        match &warm {
-            Some((g, r)) => {
-                assignment = g.clone();
-                risk_after = *r;
+            (true, false) => {
+                for &(v, _, r) in &options[b] {
+                    objective += w * r * v;
+                }
             }
-            None => return Ok(infeasible(n, risk_before, greedy, start_time)),
+            (false, false) => {
+                let mut z = Vec::with_capacity(options[a].len());
+                for &(_, _, ra) in &options[a] {
+                    let mut row = Vec::with_capacity(options[b].len());
+                    for &(_, _, rb) in &options[b] {
+                        let var = vars.add(variable().min(0.0).max(1.0));
+                        objective += w * ra * rb * var;
+                        row.push((var, columns));
+                        columns += 1;
+                    }
+                    z.push(row);
+                }
+                pairs.push(Pair { a, b, z });
+            }
         }
     }
-    if let Some((g, r)) = warm.as_ref().filter(|(_, r)| *r < risk_after) {
-        assignment = g.clone();
-        risk_after = *r;
+    let one = vars.add(variable().min(1.0).max(1.0));
+    let one_column = columns;
+    columns += 1;
+    objective += constant * one;
+    let mut lp = vars.minimise(scale * objective).using(highs);
+    for i in 0..n {
+        if options[i].is_empty() {
+            continue;
+        }
+        let sum: Expression = options[i].iter().map(|&(v, _, _)| v).sum();
+        lp = lp.with(sum.eq(1.0));
     }
-    let dual = dual.max(floor);
-    let bound = if dual.is_finite() {
-        dual.min(risk_after).max(0.0)
-    } else {
-        0.0
+    let chosen = |f: &dyn Fn(&Choice) -> f64| -> Expression {
+        (0..n)
+            .flat_map(|i| {
+                options[i]
+                    .iter()
+                    .skip(1)
+                    .zip(&kept[i])
+                    .map(|(&(v, _, _), &o)| f(&problem.choices[i][o]) * v)
+                    .collect::<Vec<_>>()
+            })
+            .sum()
     };
-    let gap = if risk_after > 0.0 {
-        ((risk_after - bound) / risk_after).max(0.0)
-    } else {
-        0.0
-    };
-    if status == Status::Optimal && gap > OPTIMAL_GAP {
-        status = Status::GapLimit;
+    lp = lp.with(chosen(&|c| c.cost).leq(problem.budget));
+    if let Some(h) = problem.crew_hours {
+        lp = lp.with(chosen(&|c| c.hours).leq(h));
     }
-    Ok(Solved {
-        assignment,
-        risk_after,
-        bound,
-        gap,
-        status,
-        seconds: start_time.elapsed().as_secs_f64(),
-        greedy,
-    })
+    for p in &pairs {
+        for (k, row) in p.z.iter().enumerate() {
+            let sum: Expression = row.iter().map(|&(v, _)| v).sum();
+            lp = lp.with((sum - options[p.a][k].0).eq(0.0));
+        }
+        for l in 0..options[p.b].len() {
+            let sum: Expression = p.z.iter().map(|row| row[l].0).sum();
+            lp = lp.with((sum - options[p.b][l].0).eq(0.0));
+        }
+    }
+    let mut model = lp.into_inner();
+    // A warm start that uses a dominated choice is skipped (HiGHS finds its own incumbent).
+    let usable = warm.filter(|a| (0..n).all(|i| a[i].is_none_or(|o| kept[i].contains(&o))));
+    if let Some(assignment) = usable {
+        let mut values = vec![0.0; columns];
+        values[one_column] = 1.0;
+        let option_of = |i: usize| {
+            assignment[i]
+                .and_then(|o| kept[i].iter().position(|&k| k == o))
+                .map(|p| p + 1)
+                .unwrap_or(0)
+        };
+        for i in 0..n {
+            if let Some(&(_, col, _)) = options[i].get(option_of(i)) {
+                values[col] = 1.0;
+            }
+        }
+        for p in &pairs {
+            values[p.z[option_of(p.a)][option_of(p.b)].1] = 1.0;
+        }
+        model
+            .try_set_solution(Some(&values), None, None, None)
+            .map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
+    }
+    Ok(Built { model, x_columns })
 }
 
 fn infeasible(

@@ -287,7 +287,10 @@ pub fn plan_folder_scenario(dir: &Path) -> Result<PathBuf> {
     let path = dir.join("scenario.resolved.toml");
     if !path.is_file() {
         return Err(Error::input_with_hint(
-            format!("`{}` is not a plan folder (it has no scenario.resolved.toml)", dir.display()),
+            format!(
+                "`{}` is not a plan folder (it has no scenario.resolved.toml)",
+                dir.display()
+            ),
             "give the `--out` folder of an earlier `hostcut plan` or `hostcut demo` run",
         ));
     }

@@ -183,11 +183,7 @@ fn the_optimum_is_never_worse_than_any_baseline() {
             })
             .collect();
         let (_, best) = brute_force(&problem).unwrap();
-        let solved = solve(
-            &problem,
-            Limits::new(30.0, 0.0),
-        )
-        .unwrap();
+        let solved = solve(&problem, Limits::new(30.0, 0.0)).unwrap();
         assert!((solved.risk_after - best).abs() <= 1e-9 * best);
         for b in baselines::all(&problem, &p, &near, (600.0, 600.0), None) {
             let a = b.assignment.as_ref().unwrap();

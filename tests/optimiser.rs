@@ -5,7 +5,7 @@
 use hostcut::cli::KernelKind;
 use hostcut::graph::{Kernel, build_graph};
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, Status, brute_force, greedy, solve};
+use hostcut::optimise::{Formulation, Limits, Problem, Status, brute_force, greedy, solve};
 use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -117,6 +117,15 @@ fn instance(seed: u64) -> Instance {
 
 #[test]
 fn mip_equals_brute_force_on_random_instances() {
+    check_against_brute_force(Formulation::Transport);
+}
+
+#[test]
+fn compact_mip_equals_brute_force_on_random_instances() {
+    check_against_brute_force(Formulation::Compact);
+}
+
+fn check_against_brute_force(formulation: Formulation) {
     let mut compared = 0;
     let mut infeasible = 0;
     let mut linked = 0;
@@ -131,11 +140,11 @@ fn mip_equals_brute_force_on_random_instances() {
             excluded: inst.excluded.clone(),
         };
         let exact = brute_force(&problem);
-        let solved = solve(
-            &problem,
-            Limits::new(60.0, 0.0),
-        )
-        .unwrap();
+        let limits = Limits {
+            formulation,
+            ..Limits::new(60.0, 0.0)
+        };
+        let solved = solve(&problem, limits).unwrap();
         match exact {
             None => {
                 assert_eq!(
@@ -146,7 +155,14 @@ fn mip_equals_brute_force_on_random_instances() {
                 infeasible += 1;
             }
             Some((_, best)) => {
-                assert_eq!(solved.status, Status::Optimal, "seed {seed}: gap {} bound {} risk {}", solved.gap, solved.bound, solved.risk_after);
+                assert_eq!(
+                    solved.status,
+                    Status::Optimal,
+                    "seed {seed}: gap {} bound {} risk {}",
+                    solved.gap,
+                    solved.bound,
+                    solved.risk_after
+                );
                 assert!(
                     problem.feasible(&solved.assignment),
                     "seed {seed}: MIP plan breaks a constraint"
@@ -200,11 +216,7 @@ fn zero_budget_gives_the_empty_plan() {
         required: vec![false; inst.model.len()],
         excluded: vec![false; inst.model.len()],
     };
-    let solved = solve(
-        &problem,
-        Limits::new(10.0, 0.0),
-    )
-    .unwrap();
+    let solved = solve(&problem, Limits::new(10.0, 0.0)).unwrap();
     assert!(solved.assignment.iter().all(Option::is_none));
     assert!((solved.risk_after - inst.model.risk_before()).abs() < 1e-15);
 }

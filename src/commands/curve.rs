@@ -35,7 +35,11 @@ impl Money {
             "JPY" => "¥",
             _ => "",
         };
-        let symbol = if symbol.is_empty() { format!("{code} ") } else { symbol.to_string() };
+        let symbol = if symbol.is_empty() {
+            format!("{code} ")
+        } else {
+            symbol.to_string()
+        };
         Money { code, symbol }
     }
 
@@ -47,26 +51,40 @@ impl Money {
 const RULES: [(&str, &str, Style); 3] = [
     ("biggest_first", "biggest stands first", Style::Dotted),
     ("nearest_first", "nearest the depot first", Style::DashDot),
-    ("corridor_first", "along the corridors first", Style::LongDash),
+    (
+        "corridor_first",
+        "along the corridors first",
+        Style::LongDash,
+    ),
 ];
 
 pub fn run(args: &CurveArgs) -> Result<RunReport> {
     let mut inputs = args.inputs.clone();
     if inputs.budget.is_some() {
-        return Err(Error::input_with_hint("`hostcut curve` plans at many budgets, not one `--budget`", "use `--budgets 5000,10000,20000` or `--budget-range 0:60000:20`"));
+        return Err(Error::input_with_hint(
+            "`hostcut curve` plans at many budgets, not one `--budget`",
+            "use `--budgets 5000,10000,20000` or `--budget-range 0:60000:20`",
+        ));
     }
     if let Some(dir) = &args.plan_dir {
         inputs.scenario = Some(settings::plan_folder_scenario(dir)?);
     }
     for b in &args.budgets {
         if !(b.is_finite() && *b >= 0.0) {
-            return Err(Error::input_with_hint(format!("`--budgets`: {b} is not a budget of 0 or more"), "e.g. `--budgets 5000,10000,20000`"));
+            return Err(Error::input_with_hint(
+                format!("`--budgets`: {b} is not a budget of 0 or more"),
+                "e.g. `--budgets 5000,10000,20000`",
+            ));
         }
     }
     if args.jobs == 0 {
         return Err(Error::input("`--jobs` must be at least 1"));
     }
-    let range = args.budget_range.as_deref().map(curve::parse_range).transpose()?;
+    let range = args
+        .budget_range
+        .as_deref()
+        .map(curve::parse_range)
+        .transpose()?;
     let settings = settings::resolve_with(&inputs, false)?;
     let s = &settings.scenario;
     let staging = Staging::new(&settings.out, settings.force)?;
@@ -76,17 +94,32 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
         }
     };
     let prepared = pipeline::prepare(s, &progress)?;
-    let money = Money::new(args.currency.as_deref().unwrap_or(&prepared.catalogue.currency));
+    let money = Money::new(
+        args.currency
+            .as_deref()
+            .unwrap_or(&prepared.catalogue.currency),
+    );
     let budgets = if !args.budgets.is_empty() {
         args.budgets.clone()
     } else {
         let (min, max, steps) = range.unwrap_or((0.0, prepared.cost_of_everything(), 20));
         curve::budget_range(min, max, steps)
     };
-    let depot = s.plan.depot.map(|[x, y]| (x, y)).unwrap_or_else(|| baselines::default_depot(&prepared.patches, &prepared.eligible));
+    let depot = s
+        .plan
+        .depot
+        .map(|[x, y]| (x, y))
+        .unwrap_or_else(|| baselines::default_depot(&prepared.patches, &prepared.eligible));
     progress(&format!("solving {} budget levels", budgets.len()));
     let limits = Limits::new(s.solver.time_limit_s, s.solver.gap);
-    let points = curve::trace(&prepared, &budgets, s.plan.crew_hours, limits, depot, args.jobs)?;
+    let points = curve::trace(
+        &prepared,
+        &budgets,
+        s.plan.crew_hours,
+        limits,
+        depot,
+        args.jobs,
+    )?;
     let risk_before = prepared.model.risk_before();
     let analysis = Analysis::new(&points, risk_before);
 
@@ -101,30 +134,74 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     let mut resolved = s.clone();
     resolved.plan.treatments = Some(settings.out.join("treatments.used.toml"));
     resolved.plan.budget = None;
-    staging.write("scenario.resolved.toml", format!("# Inputs and settings of this curve; budgets are in curve.csv.\n{}", resolved.to_toml()?))?;
+    staging.write(
+        "scenario.resolved.toml",
+        format!(
+            "# Inputs and settings of this curve; budgets are in curve.csv.\n{}",
+            resolved.to_toml()?
+        ),
+    )?;
     let out = staging.commit()?;
 
     let mut text = String::new();
-    let _ = writeln!(text, "hostcut curve: {} budget levels from {} to {} on {} patches", points.len(), money.fmt(points.first().map(|p| p.budget).unwrap_or(0.0)), money.fmt(points.last().map(|p| p.budget).unwrap_or(0.0)), prepared.patches.len());
+    let _ = writeln!(
+        text,
+        "hostcut curve: {} budget levels from {} to {} on {} patches",
+        points.len(),
+        money.fmt(points.first().map(|p| p.budget).unwrap_or(0.0)),
+        money.fmt(points.last().map(|p| p.budget).unwrap_or(0.0)),
+        prepared.patches.len()
+    );
     for p in &points {
-        let _ = writeln!(text, "  {:>12}  {:>5.1}% less risk  {:>3} patches  {} (gap {:.1e}){}", money.fmt(p.budget), reduction(p.risk_after, risk_before), p.n_treated, p.status.as_str(), p.gap, if p.from_neighbour { ", smaller budget's plan" } else { "" });
+        let _ = writeln!(
+            text,
+            "  {:>12}  {:>5.1}% less risk  {:>3} patches  {} (gap {:.1e}){}",
+            money.fmt(p.budget),
+            reduction(p.risk_after, risk_before),
+            p.n_treated,
+            p.status.as_str(),
+            p.gap,
+            if p.from_neighbour {
+                ", smaller budget's plan"
+            } else {
+                ""
+            }
+        );
     }
     if let Some(k) = analysis.knee {
-        let _ = writeln!(text, "knee (Kneedle): about {} buys {:.1}% less risk; past it each extra 1,000 buys less", money.fmt(points[k].budget), analysis.reductions[k]);
+        let _ = writeln!(
+            text,
+            "knee (Kneedle): about {} buys {:.1}% less risk; past it each extra 1,000 buys less",
+            money.fmt(points[k].budget),
+            analysis.reductions[k]
+        );
     }
     for (fraction, at) in &analysis.thresholds {
         if let Some(k) = at {
-            let _ = writeln!(text, "{:.0}% of the attainable reduction by {}", fraction * 100.0, money.fmt(points[*k].budget));
+            let _ = writeln!(
+                text,
+                "{:.0}% of the attainable reduction by {}",
+                fraction * 100.0,
+                money.fmt(points[*k].budget)
+            );
         }
     }
-    let _ = writeln!(text, "outputs in {}: curve.csv, curve.svg, justification.md, justification.html", out.display());
+    let _ = writeln!(
+        text,
+        "outputs in {}: curve.csv, curve.svg, justification.md, justification.html",
+        out.display()
+    );
     text.push('\n');
     text.push_str(&cautions::standing_text());
     Ok(RunReport { out, text })
 }
 
 fn reduction(risk_after: f64, risk_before: f64) -> f64 {
-    if risk_before > 0.0 { 100.0 * (1.0 - risk_after / risk_before) } else { 0.0 }
+    if risk_before > 0.0 {
+        100.0 * (1.0 - risk_after / risk_before)
+    } else {
+        0.0
+    }
 }
 
 /// Knee, thresholds and slopes of a curve.
@@ -140,23 +217,60 @@ pub struct Analysis {
 
 impl Analysis {
     pub fn new(points: &[Point], risk_before: f64) -> Analysis {
-        let reductions: Vec<f64> = points.iter().map(|p| reduction(p.risk_after, risk_before)).collect();
-        let greedy = points.iter().map(|p| reduction(p.greedy_risk_after, risk_before)).collect();
+        let reductions: Vec<f64> = points
+            .iter()
+            .map(|p| reduction(p.risk_after, risk_before))
+            .collect();
+        let greedy = points
+            .iter()
+            .map(|p| reduction(p.greedy_risk_after, risk_before))
+            .collect();
         let budgets: Vec<f64> = points.iter().map(|p| p.budget).collect();
         let knee = curve::kneedle(&budgets, &reductions);
-        let thresholds = [0.5, 0.8, 0.9].iter().map(|&f| (f, curve::first_reaching(&reductions, f))).collect();
-        let marginal = (0..points.len())
-            .map(|k| if k == 0 || points[k].budget <= points[k - 1].budget { None } else { Some((reductions[k] - reductions[k - 1]) / (points[k].budget - points[k - 1].budget) * 1000.0) })
+        let thresholds = [0.5, 0.8, 0.9]
+            .iter()
+            .map(|&f| (f, curve::first_reaching(&reductions, f)))
             .collect();
-        Analysis { reductions, greedy, knee, thresholds, marginal }
+        let marginal = (0..points.len())
+            .map(|k| {
+                if k == 0 || points[k].budget <= points[k - 1].budget {
+                    None
+                } else {
+                    Some(
+                        (reductions[k] - reductions[k - 1])
+                            / (points[k].budget - points[k - 1].budget)
+                            * 1000.0,
+                    )
+                }
+            })
+            .collect();
+        Analysis {
+            reductions,
+            greedy,
+            knee,
+            thresholds,
+            marginal,
+        }
     }
 }
 
 fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut header = vec![
-        "budget", "spent", "risk_after", "reduction_pct", "marginal_reduction_per_1000", "n_treated", "stems_treated", "crew_hours", "status", "gap", "bound", "from_smaller_budget",
-        "greedy_risk_after", "greedy_reduction_pct",
+        "budget",
+        "spent",
+        "risk_after",
+        "reduction_pct",
+        "marginal_reduction_per_1000",
+        "n_treated",
+        "stems_treated",
+        "crew_hours",
+        "status",
+        "gap",
+        "bound",
+        "from_smaller_budget",
+        "greedy_risk_after",
+        "greedy_reduction_pct",
     ];
     for (name, _, _) in RULES {
         header.push(match name {
@@ -165,55 +279,133 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
             _ => "corridor_first_risk_after",
         });
     }
-    w.write_record(&header).map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.write_record(&header)
+        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     let analysis = Analysis::new(points, risk_before);
-    let f = |v: f64| if v.is_finite() { format!("{v}") } else { String::new() };
+    let f = |v: f64| {
+        if v.is_finite() {
+            format!("{v}")
+        } else {
+            String::new()
+        }
+    };
     for (k, p) in points.iter().enumerate() {
         let mut row = vec![
             f(p.budget),
             format!("{:.2}", p.spent),
             f(p.risk_after),
             format!("{:.4}", analysis.reductions[k]),
-            analysis.marginal[k].map(|m| format!("{m:.4}")).unwrap_or_default(),
+            analysis.marginal[k]
+                .map(|m| format!("{m:.4}"))
+                .unwrap_or_default(),
             p.n_treated.to_string(),
             format!("{:.1}", p.stems_treated),
             format!("{:.2}", p.crew_hours),
             p.status.as_str().to_string(),
             f(p.gap),
             f(p.bound),
-            if p.from_neighbour { "yes".into() } else { "no".into() },
+            if p.from_neighbour {
+                "yes".into()
+            } else {
+                "no".into()
+            },
             f(p.greedy_risk_after),
             format!("{:.4}", analysis.greedy[k]),
         ];
         for (name, _, _) in RULES {
-            row.push(p.baselines.iter().find(|b| b.0 == name).map(|b| f(b.1)).unwrap_or_default());
+            row.push(
+                p.baselines
+                    .iter()
+                    .find(|b| b.0 == name)
+                    .map(|b| f(b.1))
+                    .unwrap_or_default(),
+            );
         }
-        w.write_record(&row).map_err(|e| Error::Internal(format!("csv: {e}")))?;
+        w.write_record(&row)
+            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     }
-    w.into_inner().map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_inner()
+        .map_err(|e| Error::Internal(format!("csv: {e}")))
 }
 
 fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
-    let risk_before = if let Some(p) = points.first() { p.risk_after / (1.0 - analysis.reductions[0] / 100.0).max(1e-300) } else { 1.0 };
+    let risk_before = if let Some(p) = points.first() {
+        p.risk_after / (1.0 - analysis.reductions[0] / 100.0).max(1e-300)
+    } else {
+        1.0
+    };
     let budget: Vec<f64> = points.iter().map(|p| p.budget).collect();
     let mut series = vec![
-        Series { id: "optimal".into(), label: "optimal plan (exact MIP)".into(), points: budget.iter().cloned().zip(analysis.reductions.iter().cloned()).collect(), style: Style::Main },
-        Series { id: "greedy".into(), label: "greedy benefit-per-cost".into(), points: budget.iter().cloned().zip(analysis.greedy.iter().cloned()).collect(), style: Style::Dashed },
+        Series {
+            id: "optimal".into(),
+            label: "optimal plan (exact MIP)".into(),
+            points: budget
+                .iter()
+                .cloned()
+                .zip(analysis.reductions.iter().cloned())
+                .collect(),
+            style: Style::Main,
+        },
+        Series {
+            id: "greedy".into(),
+            label: "greedy benefit-per-cost".into(),
+            points: budget
+                .iter()
+                .cloned()
+                .zip(analysis.greedy.iter().cloned())
+                .collect(),
+            style: Style::Dashed,
+        },
     ];
     for (name, label, style) in RULES {
-        let pts = points.iter().map(|p| (p.budget, p.baselines.iter().find(|b| b.0 == name).map(|b| reduction(b.1, risk_before)).unwrap_or(f64::NAN))).collect();
-        series.push(Series { id: name.into(), label: label.into(), points: pts, style });
+        let pts = points
+            .iter()
+            .map(|p| {
+                (
+                    p.budget,
+                    p.baselines
+                        .iter()
+                        .find(|b| b.0 == name)
+                        .map(|b| reduction(b.1, risk_before))
+                        .unwrap_or(f64::NAN),
+                )
+            })
+            .collect();
+        series.push(Series {
+            id: name.into(),
+            label: label.into(),
+            points: pts,
+            style,
+        });
     }
     let mut markers = Vec::new();
     if let Some(k) = analysis.knee {
-        markers.push(Marker { x: points[k].budget, label: format!("knee {}", money.fmt(points[k].budget)), strong: true });
+        markers.push(Marker {
+            x: points[k].budget,
+            label: format!("knee {}", money.fmt(points[k].budget)),
+            strong: true,
+        });
     }
     for (fraction, at) in &analysis.thresholds {
         if let Some(k) = at {
-            markers.push(Marker { x: points[*k].budget, label: format!("{:.0}% of attainable: {}", fraction * 100.0, money.fmt(points[*k].budget)), strong: false });
+            markers.push(Marker {
+                x: points[*k].budget,
+                label: format!(
+                    "{:.0}% of attainable: {}",
+                    fraction * 100.0,
+                    money.fmt(points[*k].budget)
+                ),
+                strong: false,
+            });
         }
     }
-    let top = analysis.reductions.iter().chain(&analysis.greedy).cloned().filter(|v| v.is_finite()).fold(0.0, f64::max);
+    let top = analysis
+        .reductions
+        .iter()
+        .chain(&analysis.greedy)
+        .cloned()
+        .filter(|v| v.is_finite())
+        .fold(0.0, f64::max);
     let y_max = ((top / 10.0).ceil() * 10.0).clamp(10.0, 100.0);
     let symbol = money.symbol.clone();
     chart::line_chart(
@@ -242,7 +434,13 @@ struct Page {
 }
 
 impl Page {
-    fn new(prepared: &Prepared, points: &[Point], a: &Analysis, money: &Money, s: &settings::Scenario) -> Page {
+    fn new(
+        prepared: &Prepared,
+        points: &[Point],
+        a: &Analysis,
+        money: &Money,
+        s: &settings::Scenario,
+    ) -> Page {
         let patches = &prepared.patches;
         let total_stems: f64 = patches.items.iter().map(|p| p.stems).sum();
         let intro = vec![
@@ -255,7 +453,20 @@ impl Page {
             "Every budget level below is an optimal plan found by an exact optimiser for that budget (or, where the optimiser stopped early, the best plan found with its proven distance from optimal), not an extrapolation from one plan.".to_string(),
             "What the numbers are: a ranking of relative risk under the stated assumptions, the share of connected tree-of-heaven host that treatment removes, weighted by how close patches are to each other and to the rail lines, roads and known populations that bring the insect in. It is not a forecast of where the insect will be or when.".to_string(),
         ];
-        let table_header = ["Budget", "Spent", "Patches", "Stems", "Hectares", "Risk reduction", "Cost per % point", "Extra % per 1,000", "Solver"].iter().map(|s| s.to_string()).collect();
+        let table_header = [
+            "Budget",
+            "Spent",
+            "Patches",
+            "Stems",
+            "Hectares",
+            "Risk reduction",
+            "Cost per % point",
+            "Extra % per 1,000",
+            "Solver",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
         let table = points
             .iter()
             .enumerate()
@@ -265,10 +476,20 @@ impl Page {
                     money.fmt(p.spent),
                     p.n_treated.to_string(),
                     thousands(p.stems_treated),
-                    if p.area_ha_treated > 0.0 { format!("{:.1}", p.area_ha_treated) } else { "n/a".into() },
+                    if p.area_ha_treated > 0.0 {
+                        format!("{:.1}", p.area_ha_treated)
+                    } else {
+                        "n/a".into()
+                    },
                     format!("{:.1}%", a.reductions[k]),
-                    if a.reductions[k] > 0.0 { money.fmt(p.spent / a.reductions[k]) } else { "-".into() },
-                    a.marginal[k].map(|m| format!("{m:.2}")).unwrap_or_else(|| "-".into()),
+                    if a.reductions[k] > 0.0 {
+                        money.fmt(p.spent / a.reductions[k])
+                    } else {
+                        "-".into()
+                    },
+                    a.marginal[k]
+                        .map(|m| format!("{m:.2}"))
+                        .unwrap_or_else(|| "-".into()),
                     match p.status {
                         crate::optimise::Status::Optimal => "optimal".to_string(),
                         other => format!("{} (within {:.2}%)", other.as_str(), 100.0 * p.gap),
@@ -286,32 +507,69 @@ impl Page {
         }
         for (fraction, at) in &a.thresholds {
             if let Some(k) = at {
-                findings.push(format!("{:.0}% of the attainable reduction ({:.1}% of all risk) is reached by {}.", fraction * 100.0, a.reductions[*k], money.fmt(points[*k].budget)));
+                findings.push(format!(
+                    "{:.0}% of the attainable reduction ({:.1}% of all risk) is reached by {}.",
+                    fraction * 100.0,
+                    a.reductions[*k],
+                    money.fmt(points[*k].budget)
+                ));
             }
         }
         if let (Some(last), Some(&top)) = (points.last(), a.reductions.last()) {
-            findings.push(format!("The largest budget studied, {}, buys {:.1}% less risk.", money.fmt(last.budget), top));
+            findings.push(format!(
+                "The largest budget studied, {}, buys {:.1}% less risk.",
+                money.fmt(last.budget),
+                top
+            ));
         }
-        let compare_header = ["Budget", "Optimal plan", "Greedy rule", "Biggest first", "Nearest first", "Corridors first"].iter().map(|s| s.to_string()).collect();
+        let compare_header = [
+            "Budget",
+            "Optimal plan",
+            "Greedy rule",
+            "Biggest first",
+            "Nearest first",
+            "Corridors first",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
         let risk_before = prepared.model.risk_before();
         let compare = points
             .iter()
             .enumerate()
             .map(|(k, p)| {
-                let mut row = vec![money.fmt(p.budget), format!("{:.1}%", a.reductions[k]), format!("{:.1}%", a.greedy[k])];
+                let mut row = vec![
+                    money.fmt(p.budget),
+                    format!("{:.1}%", a.reductions[k]),
+                    format!("{:.1}%", a.greedy[k]),
+                ];
                 for (name, _, _) in RULES {
-                    row.push(p.baselines.iter().find(|b| b.0 == name).filter(|b| b.1.is_finite()).map(|b| format!("{:.1}%", reduction(b.1, risk_before))).unwrap_or_else(|| "-".into()));
+                    row.push(
+                        p.baselines
+                            .iter()
+                            .find(|b| b.0 == name)
+                            .filter(|b| b.1.is_finite())
+                            .map(|b| format!("{:.1}%", reduction(b.1, risk_before)))
+                            .unwrap_or_else(|| "-".into()),
+                    );
                 }
                 row
             })
             .collect();
         // Core list: patches every plan at or above a level keeps.
         let mut core = Vec::new();
-        let mut levels: Vec<usize> = a.knee.into_iter().chain(a.thresholds.iter().filter_map(|t| t.1)).collect();
+        let mut levels: Vec<usize> = a
+            .knee
+            .into_iter()
+            .chain(a.thresholds.iter().filter_map(|t| t.1))
+            .collect();
         levels.sort_unstable();
         levels.dedup();
         for k in levels {
-            let kept: Vec<&str> = (0..patches.len()).filter(|&i| points[k..].iter().all(|p| p.assignment[i].is_some())).map(|i| patches.items[i].label.as_str()).collect();
+            let kept: Vec<&str> = (0..patches.len())
+                .filter(|&i| points[k..].iter().all(|p| p.assignment[i].is_some()))
+                .map(|i| patches.items[i].label.as_str())
+                .collect();
             let list = if kept.is_empty() {
                 "none in common".to_string()
             } else if kept.len() > 40 {
@@ -319,7 +577,14 @@ impl Page {
             } else {
                 kept.join(", ")
             };
-            core.push((format!("{} and above ({} patches)", money.fmt(points[k].budget), kept.len()), list));
+            core.push((
+                format!(
+                    "{} and above ({} patches)",
+                    money.fmt(points[k].budget),
+                    kept.len()
+                ),
+                list,
+            ));
         }
         let assumptions = vec![
             format!("Dispersal kernel: {:?}, scale {} m, links kept where the kernel is at least {}.", s.model.kernel, s.model.alpha_m, s.model.epsilon).to_lowercase().replacen("dispersal", "Dispersal", 1),
@@ -328,8 +593,24 @@ impl Page {
             "Treatment costs and effectiveness come from the treatment catalogue used (treatments.used.toml); prices marked illustrative there must be replaced by local contract prices before a budget is requested.".to_string(),
             "Treated patches need follow-up visits for root suckers in the next two or three seasons; those costs are not in these figures.".to_string(),
         ];
-        let cautions = cautions::STANDING.iter().filter_map(|c| cautions::lookup(c)).map(|c| c.text.to_string()).collect();
-        Page { title: "What each budget buys: tree-of-heaven treatment against spotted lanternfly".into(), intro, table_header, table, findings, compare_header, compare, core, assumptions, cautions }
+        let cautions = cautions::STANDING
+            .iter()
+            .filter_map(|c| cautions::lookup(c))
+            .map(|c| c.text.to_string())
+            .collect();
+        Page {
+            title: "What each budget buys: tree-of-heaven treatment against spotted lanternfly"
+                .into(),
+            intro,
+            table_header,
+            table,
+            findings,
+            compare_header,
+            compare,
+            core,
+            assumptions,
+            cautions,
+        }
     }
 
     fn markdown(&self) -> String {
@@ -339,7 +620,11 @@ impl Page {
         }
         let table = |t: &mut String, header: &[String], rows: &[Vec<String>]| {
             let _ = writeln!(t, "| {} |", header.join(" | "));
-            let _ = writeln!(t, "|{}|", header.iter().map(|_| "---").collect::<Vec<_>>().join("|"));
+            let _ = writeln!(
+                t,
+                "|{}|",
+                header.iter().map(|_| "---").collect::<Vec<_>>().join("|")
+            );
             for r in rows {
                 let _ = writeln!(t, "| {} |", r.join(" | "));
             }
@@ -369,7 +654,8 @@ impl Page {
     }
 
     fn html(&self, svg: &str) -> String {
-        let mut t = String::from("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n");
+        let mut t =
+            String::from("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n");
         let _ = writeln!(t, "<title>{}</title>", escape(&self.title));
         t.push_str(
             "<style>body{font-family:Helvetica,Arial,sans-serif;max-width:60em;margin:2em auto;padding:0 1em;color:#111;line-height:1.4}\
@@ -403,11 +689,18 @@ impl Page {
         for f in &self.findings {
             let _ = writeln!(t, "<li>{}</li>", escape(f));
         }
-        t.push_str("</ul><h2>Against the usual rules of thumb (risk reduction at the same budget)</h2>\n");
+        t.push_str(
+            "</ul><h2>Against the usual rules of thumb (risk reduction at the same budget)</h2>\n",
+        );
         table(&mut t, &self.compare_header, &self.compare);
         t.push_str("<h2>Core list: patches every larger plan keeps</h2><ul>\n");
         for (level, list) in &self.core {
-            let _ = writeln!(t, "<li><strong>{}</strong>: {}</li>", escape(level), escape(list));
+            let _ = writeln!(
+                t,
+                "<li><strong>{}</strong>: {}</li>",
+                escape(level),
+                escape(list)
+            );
         }
         t.push_str("</ul><h2>Assumptions</h2><ul>\n");
         for a in &self.assumptions {

@@ -46,18 +46,15 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let budget = s.plan.budget.unwrap_or(0.0);
     let problem = prepared.problem(budget, s.plan.crew_hours);
     progress("optimising");
-    let solved = optimise::solve(
-        &problem,
-        Limits::new(s.solver.time_limit_s, s.solver.gap),
-    )?;
-    let plan = plan::assemble(&patches, &model, &catalogue, &problem, &solved, &s.model);
+    let solved = optimise::solve(&problem, Limits::new(s.solver.time_limit_s, s.solver.gap))?;
+    let plan = plan::assemble(patches, model, catalogue, &problem, &solved, &s.model);
 
     let outputs = Outputs {
-        patches: &patches,
-        pressure: &pressure,
-        catalogue: &catalogue,
+        patches,
+        pressure,
+        catalogue,
         plan: &plan,
-        eligible: &eligible,
+        eligible,
     };
     output::write_tables(&staging, &outputs)?;
     let mut summary = output::summary(
@@ -91,7 +88,7 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         .map_err(|e| Error::Internal(format!("summary: {e}")))?;
     staging.write("summary.json", json + "\n")?;
     // The plan folder is self-contained: it keeps the catalogue it used.
-    staging.write("treatments.used.toml", &catalogue_text)?;
+    staging.write("treatments.used.toml", catalogue_text)?;
     let mut resolved = s.clone();
     resolved.plan.treatments = Some(settings.out.join("treatments.used.toml"));
     let header = "# Every input and parameter this plan used; repeat it with `hostcut plan --scenario scenario.resolved.toml --out NEW`.\n";
@@ -102,10 +99,10 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let out = staging.commit()?;
 
     let mut text = human_summary(&summary, &plan, patches, catalogue, &out);
-    if plan.status != Status::Infeasible {
-        if let Some(line) = comparison_line(&baselines, plan.risk_after) {
-            text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
-        }
+    if plan.status != Status::Infeasible
+        && let Some(line) = comparison_line(&baselines, plan.risk_after)
+    {
+        text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
     }
     Ok(RunReport { out, text })
 }
