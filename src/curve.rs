@@ -71,8 +71,9 @@ pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
     Ok((min, max, steps))
 }
 
-/// Solve every budget in ascending order with `jobs` contiguous chunks in parallel (each chunk
-/// warm-starts from its previous point), then repair monotonicity across the whole curve.
+/// Solve every budget with `jobs` workers: worker w takes budgets w, w + jobs, w + 2 jobs, ...
+/// in ascending order (so the hard and easy levels are shared out), each warm-started from its
+/// own previous, smaller budget; then repair monotonicity across the whole curve.
 pub fn trace(
     prepared: &Prepared,
     budgets: &[f64],
@@ -85,7 +86,6 @@ pub fn trace(
     budgets.sort_by(f64::total_cmp);
     budgets.dedup();
     let jobs = jobs.clamp(1, budgets.len().max(1));
-    let chunk = budgets.len().div_ceil(jobs);
     let limits = if jobs > 1 {
         Limits {
             threads: Some(1),
@@ -94,9 +94,11 @@ pub fn trace(
     } else {
         limits
     };
-    let chunks: Vec<&[f64]> = budgets.chunks(chunk.max(1)).collect();
+    let shares: Vec<Vec<f64>> = (0..jobs)
+        .map(|w| budgets.iter().skip(w).step_by(jobs).cloned().collect())
+        .collect();
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = chunks
+        let handles: Vec<_> = shares
             .iter()
             .map(|part| scope.spawn(move || solve_chain(prepared, part, crew_hours, limits, depot)))
             .collect();
@@ -112,6 +114,7 @@ pub fn trace(
     for r in results {
         points.extend(r?);
     }
+    points.sort_by(|a, b| a.budget.total_cmp(&b.budget));
     make_monotone(prepared, &mut points, crew_hours);
     Ok(points)
 }

@@ -76,7 +76,7 @@ pub fn host_raster() -> Vec<f32> {
     let mut rng = SplitMix::new(20_261_202);
     // Clumps: more of them, and denser, near the rail line and the highway (disturbed edges).
     let mut clumps = Vec::new();
-    while clumps.len() < 34 {
+    while clumps.len() < 24 {
         let (x, y) = (
             rng.range(X0 + 200.0, X0 + 5_800.0),
             rng.range(Y0 + 200.0, Y0 + 3_800.0),
@@ -233,8 +233,8 @@ pub const SCENARIO: &str = r#"# Demo scenario for the invented Hollin County. Pa
 [host]
 path = "host.tif"
 min_density = 20.0
-min_patch_ha = 0.1
-max_patch_ha = 5.0
+min_patch_ha = 0.2
+max_patch_ha = 6.0
 connectivity = 8
 
 [access]
@@ -267,7 +267,7 @@ alpha_m = 200.0
 epsilon = 0.001
 
 [plan]
-budget = 45000.0
+budget = 30000.0
 
 [solver]
 time_limit_s = 25.0

@@ -161,13 +161,18 @@ pub fn comparison_line(baselines: &[baselines::Baseline], plan_risk: f64) -> Opt
                 "  {} does as well as this plan here (same remaining risk within 0.05%)",
                 b.phrase
             ));
-        } else if b.name == biggest.name {
-            lines.insert(
-                0,
-                format!("this plan leaves {ratio:.2}× less risk than {}", b.phrase),
-            );
         } else {
-            lines.push(format!("  and {ratio:.2}× less than {}", b.phrase));
+            // Small differences read better as a percentage than as "1.00×".
+            let amount = if ratio < 1.1 {
+                format!("{:.1}% less risk", 100.0 * (1.0 - 1.0 / ratio))
+            } else {
+                format!("{ratio:.2}× less risk")
+            };
+            if b.name == biggest.name {
+                lines.insert(0, format!("this plan leaves {amount} than {}", b.phrase));
+            } else {
+                lines.push(format!("  and {amount} than {}", b.phrase));
+            }
         }
     }
     if biggest.assignment.is_none() {
