@@ -378,25 +378,28 @@ fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
             style,
         });
     }
-    let mut markers = Vec::new();
-    if let Some(k) = analysis.knee {
-        markers.push(Marker {
+    // One marker per budget: the knee and any thresholds that fall on the same level share it.
+    let mut markers: Vec<Marker> = Vec::new();
+    let mut mark = |k: usize, what: String, strong: bool| match markers
+        .iter_mut()
+        .find(|m| m.x == points[k].budget)
+    {
+        Some(m) => {
+            m.label = format!("{what}, {}", m.label);
+            m.strong |= strong;
+        }
+        None => markers.push(Marker {
             x: points[k].budget,
-            label: format!("knee {}", money.fmt(points[k].budget)),
-            strong: true,
-        });
+            label: format!("{what}: {}", money.fmt(points[k].budget)),
+            strong,
+        }),
+    };
+    if let Some(k) = analysis.knee {
+        mark(k, "knee".to_string(), true);
     }
     for (fraction, at) in &analysis.thresholds {
         if let Some(k) = at {
-            markers.push(Marker {
-                x: points[*k].budget,
-                label: format!(
-                    "{:.0}% of attainable: {}",
-                    fraction * 100.0,
-                    money.fmt(points[*k].budget)
-                ),
-                strong: false,
-            });
+            mark(*k, format!("{:.0}% of attainable", fraction * 100.0), false);
         }
     }
     let top = analysis
@@ -492,7 +495,7 @@ impl Page {
                         .unwrap_or_else(|| "-".into()),
                     match p.status {
                         crate::optimise::Status::Optimal => "optimal".to_string(),
-                        other => format!("{} (within {:.2}%)", other.as_str(), 100.0 * p.gap),
+                        other => format!("{} (within {:.3}%)", other.as_str(), 100.0 * p.gap),
                     },
                 ]
             })
