@@ -57,6 +57,9 @@ pub struct PlanArgs {
     /// CRS to assume for a raster or vector layer that carries none
     #[arg(long, value_name = "CRS")]
     pub assume_crs: Option<String>,
+    /// Establishment suitability raster, 0 (cannot establish) to 1 (fully suitable), any CRS
+    #[arg(long, value_name = "RASTER")]
+    pub suitability: Option<PathBuf>,
     /// Cells at or above this density (stems/ha) are host
     #[arg(long, allow_negative_numbers = true, value_name = "STEMS_PER_HA")]
     pub min_density: Option<f64>,

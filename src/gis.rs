@@ -641,3 +641,96 @@ pub fn write_geotiff(
         .map_err(|e| Error::gdal("finish writing", path, e))?;
     Ok(())
 }
+
+/// Sample band 1 of any GDAL raster, in any CRS, at working-CRS points (nearest cell). NaN where
+/// a point falls outside the raster or on nodata. `assume_crs` is used when the file has none.
+pub fn sample_raster(
+    path: &Path,
+    working: &Crs,
+    assume_crs: Option<&Crs>,
+    points: &[(f64, f64)],
+) -> Result<Vec<f64>> {
+    let dataset = open(path)?;
+    if dataset.raster_count() == 0 {
+        return Err(Error::input(format!(
+            "`{}` has no raster band",
+            path.display()
+        )));
+    }
+    let source = match dataset.spatial_ref() {
+        Ok(srs) if !srs.to_wkt().unwrap_or_default().is_empty() => traditional(srs),
+        _ => match assume_crs {
+            Some(c) => c.srs()?,
+            None => return Err(missing_crs(path)),
+        },
+    };
+    let t = dataset.geo_transform().map_err(|_| {
+        Error::input(format!(
+            "`{}` has no georeferencing (geotransform)",
+            path.display()
+        ))
+    })?;
+    let band = dataset
+        .rasterband(1)
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
+    let (width, height) = band.size();
+    if width.saturating_mul(height) > 400_000_000 {
+        return Err(Error::input_with_hint(
+            format!(
+                "`{}` has {width} x {height} cells, more than this version reads at once",
+                path.display()
+            ),
+            "clip it to the programme area first",
+        ));
+    }
+    let nodata = band.no_data_value();
+    let (_, values) = band
+        .read_band_as::<f64>()
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?
+        .into_shape_and_vec();
+    let transform = CoordTransform::new(&working.srs()?, &source)
+        .map_err(|e| Error::gdal("set up a reprojection for", path, e))?;
+    let mut xs: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let mut ys: Vec<f64> = points.iter().map(|p| p.1).collect();
+    if !xs.is_empty() {
+        transform
+            .transform_coords(&mut xs, &mut ys, &mut [])
+            .map_err(|e| {
+                Error::input(format!(
+                    "cannot reproject patch positions into the CRS of `{}` ({e})",
+                    path.display()
+                ))
+            })?;
+    }
+    // Invert the geotransform: [x - t0, y - t3] = [[t1, t2], [t4, t5]] [col, row].
+    let det = t[1] * t[5] - t[2] * t[4];
+    if det == 0.0 {
+        return Err(Error::input(format!(
+            "`{}` has a degenerate geotransform",
+            path.display()
+        )));
+    }
+    Ok(xs
+        .iter()
+        .zip(&ys)
+        .map(|(&x, &y)| {
+            let (dx, dy) = (x - t[0], y - t[3]);
+            let col = (t[5] * dx - t[2] * dy) / det;
+            let row = (-t[4] * dx + t[1] * dy) / det;
+            if !(col.is_finite() && row.is_finite())
+                || col < 0.0
+                || row < 0.0
+                || col >= width as f64
+                || row >= height as f64
+            {
+                return f64::NAN;
+            }
+            let v = values[row as usize * width + col as usize];
+            if nodata.is_some_and(|nd| v == nd) || !v.is_finite() {
+                f64::NAN
+            } else {
+                v
+            }
+        })
+        .collect())
+}

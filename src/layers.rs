@@ -41,6 +41,7 @@ pub struct Stand {
     pub herbicide: Option<Herbicide>,
     pub cost_factor: Option<f64>,
     pub pressure: Option<f64>,
+    pub suitability: Option<f64>,
 }
 
 /// The host layer in whichever form it came.

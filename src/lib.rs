@@ -23,6 +23,7 @@ pub mod patches;
 pub mod pipeline;
 pub mod plan;
 pub mod settings;
+pub mod suitability;
 pub mod treatments;
 
 use cli::{Cli, Command};

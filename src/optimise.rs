@@ -407,8 +407,9 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     }
     // Treating everything with its most effective method is optimal when it fits, and its risk
     // bounds R from below at any budget.
-    let (everything, floor) = problem.everything();
+    let (mut everything, floor) = problem.everything();
     if problem.feasible(&everything) {
+        prune_worthless(problem, &mut everything);
         return Ok(Solved {
             assignment: everything,
             risk_after: floor,
@@ -493,6 +494,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         assignment = g.clone();
         risk_after = *r;
     }
+    prune_worthless(problem, &mut assignment);
     let dual = dual.max(floor);
     let bound = if dual.is_finite() {
         dual.min(risk_after).max(0.0)
@@ -516,6 +518,23 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         seconds: start_time.elapsed().as_secs_f64(),
         greedy,
     })
+}
+
+/// Drop treatments that buy exactly nothing (a patch with no effective host, e.g. suitability
+/// 0, and no link weight): the solver is indifferent to them, a land manager is not.
+fn prune_worthless(problem: &Problem, assignment: &mut Assignment) {
+    for i in 0..problem.len() {
+        if problem.required[i] || assignment[i].is_none() {
+            continue;
+        }
+        let worthless = problem.model.own[i] == 0.0
+            && problem.model.adjacency[i]
+                .iter()
+                .all(|&(_, l)| problem.model.links[l].weight == 0.0);
+        if worthless {
+            assignment[i] = None;
+        }
+    }
 }
 
 /// A built HiGHS model and, per patch, (choice index, column) of each x_io.

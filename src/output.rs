@@ -168,6 +168,8 @@ pub struct Summary {
     pub baselines: serde_json::Map<String, serde_json::Value>,
     /// Depot used by the nearest-first baseline, working CRS.
     pub depot: [f64; 2],
+    /// The suitability layer used, if any (effective host = stems x suitability).
+    pub suitability_layer: Option<String>,
 }
 
 /// Scientific notation for values that span many orders of magnitude.
@@ -196,6 +198,8 @@ pub struct Outputs<'a> {
     pub catalogue: &'a Catalogue,
     pub plan: &'a Plan,
     pub eligible: &'a [bool],
+    /// Establishment suitability per patch (1 without a layer).
+    pub suitability: &'a [f64],
 }
 
 fn csv_bytes(header: &[&str], rows: Vec<Vec<String>>) -> Result<Vec<u8>> {
@@ -296,6 +300,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(plan.establishment_before[i], 6),
             round(plan.establishment_after[i], 6),
             method_id(i),
+            round(o.suitability[i], 6),
         ]);
     }
     let header = [
@@ -317,6 +322,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "establishment_p",
         "establishment_p_after",
         "method",
+        "suitability",
     ];
     staging.write("patches.csv", csv_bytes(&header, rows)?)?;
 
@@ -440,5 +446,6 @@ pub fn summary(
         tool_version: env!("CARGO_PKG_VERSION"),
         baselines: serde_json::Map::new(),
         depot: [f64::NAN, f64::NAN],
+        suitability_layer: None,
     }
 }

@@ -117,6 +117,8 @@ pub struct Patch {
     pub site: Site,
     /// Replaces the computed introduction pressure (inventory `pressure` column).
     pub pressure_override: Option<f64>,
+    /// Establishment suitability from the inventory's `suitability` column (0 to 1).
+    pub suitability: Option<f64>,
 }
 
 impl Patch {
@@ -138,6 +140,8 @@ pub struct Patches {
     pub dropped_slivers: usize,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
     pub source: &'static str,
+    /// For raster input, each patch's cells (row-major indices into the host grid); else empty.
+    pub cells: Vec<Vec<usize>>,
 }
 
 impl Patches {
@@ -350,6 +354,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
     };
     let mut items = Vec::new();
     let mut dropped_slivers = 0;
+    let mut cells = Vec::new();
     let source;
     match &layers.host {
         Host::Raster(grid) => {
@@ -419,8 +424,10 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     outline: Some(outline(grid, &c.cells)),
                     site,
                     pressure_override: None,
+                    suitability: None,
                 });
             }
+            cells = components.into_iter().map(|c| c.cells).collect();
         }
         Host::Polygons(layer) => {
             source = "polygons";
@@ -491,6 +498,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     site: site_at(centre.x(), centre.y()),
                     outline: Some(polygon),
                     pressure_override: None,
+                    suitability: None,
                 });
             }
             if items.is_empty() {
@@ -523,6 +531,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     outline: None,
                     site,
                     pressure_override: s.pressure,
+                    suitability: s.suitability,
                 });
             }
         }
@@ -538,11 +547,12 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
         items,
         dropped_slivers,
         source,
+        cells,
     })
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
-/// `cost_factor`, `pressure`, `area_ha`. Column names are matched case-insensitively.
+/// `cost_factor`, `pressure`, `area_ha`, `suitability`. Column names are matched case-insensitively.
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
     let bytes = fs_err::read(path)
         .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
@@ -589,6 +599,7 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
         column("y").unwrap_or(0),
         column("stems").unwrap_or(0),
     );
+    let csuit = column("suitability");
     let (ca, ch, cc, cp, car) = (
         column("access"),
         column("herbicide"),
@@ -683,6 +694,21 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
             None => None,
             Some(c) => Some(number(c, "area_ha", false)?),
         };
+        let suitability = match csuit.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => {
+                let v = number(c, "suitability", false)?;
+                if v > 1.0 {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "inventory `{file}`, line {line}, column `suitability`: {v} is above 1"
+                        ),
+                        "suitability runs from 0 (the insect cannot establish) to 1 (fully suitable)",
+                    ));
+                }
+                Some(v)
+            }
+        };
         stands.push(Stand {
             x: number(cx, "x", true)?,
             y: number(cy, "y", true)?,
@@ -693,6 +719,7 @@ pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
             herbicide,
             cost_factor,
             pressure,
+            suitability,
         });
     }
     if stands.is_empty() {

@@ -8,6 +8,7 @@ use crate::model::RiskModel;
 use crate::optimise::Problem;
 use crate::patches::{self, Patches};
 use crate::settings::Scenario;
+use crate::suitability;
 use crate::treatments::{self, Catalogue, Choice};
 
 /// Everything a planning command needs, built once.
@@ -26,6 +27,8 @@ pub struct Prepared {
     pub eligible: Vec<bool>,
     pub required: Vec<bool>,
     pub excluded: Vec<bool>,
+    /// Establishment suitability s_i (1 without a layer or column).
+    pub suitability: Vec<f64>,
 }
 
 /// Run the stages for `s`; `progress` receives one line per stage.
@@ -77,8 +80,34 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         kernel,
         s.model.epsilon,
     );
-    let stems: Vec<f64> = patches.items.iter().map(|p| p.stems).collect();
-    let model = RiskModel::new(&stems, &pressure.values, &graph);
+    let assume = match &s.host.assume_crs {
+        Some(def) => Some(crate::gis::Crs::parse(def, "`--assume-crs`")?),
+        None => None,
+    };
+    let host_grid = match &layers.host {
+        layers::Host::Raster(grid) => Some(grid),
+        _ => None,
+    };
+    let suitability = suitability::per_patch(
+        &patches,
+        s.host.suitability.as_deref(),
+        host_grid,
+        assume.as_ref(),
+    )?;
+    // Effective host h_i = stems_i x s_i; a_i = h_i / sum h.
+    let host: Vec<f64> = patches
+        .items
+        .iter()
+        .zip(&suitability)
+        .map(|(p, s)| p.stems * s)
+        .collect();
+    if host.iter().sum::<f64>() <= 0.0 {
+        return Err(Error::input_with_hint(
+            "suitability is 0 over every patch: no host can carry the insect",
+            "check the suitability layer covers the programme area with values above 0",
+        ));
+    }
+    let model = RiskModel::new(&host, &pressure.values, &graph);
     progress(&format!(
         "{} links within the kernel cutoff ({:.0} m)",
         graph.edges.len(),
@@ -120,6 +149,7 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         eligible,
         required,
         excluded,
+        suitability,
     })
 }
 

@@ -55,6 +55,9 @@ pub struct HostSection {
     /// CRS assumed for layers without one.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub assume_crs: Option<String>,
+    /// Establishment suitability raster (0..1); effective host = stems x suitability.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub suitability: Option<PathBuf>,
     pub stems_field: String,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub id_field: Option<String>,
@@ -73,6 +76,7 @@ impl Default for HostSection {
             inventory: None,
             crs: None,
             assume_crs: None,
+            suitability: None,
             stems_field: "stems".into(),
             id_field: None,
             min_density: 10.0,
@@ -256,6 +260,9 @@ impl Scenario {
         if let Some(p) = self.host.inventory.as_mut() {
             fix(p)
         }
+        if let Some(p) = self.host.suitability.as_mut() {
+            fix(p)
+        }
         if let Some(a) = self.access.as_mut() {
             fix(&mut a.path)
         }
@@ -312,6 +319,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(p) = &args.inventory {
         s.host.inventory = Some(abs(p));
         s.host.path = None;
+    }
+    if let Some(p) = &args.suitability {
+        s.host.suitability = Some(abs(p));
     }
     if let Some(v) = &args.stems_field {
         s.host.stems_field = v.clone();

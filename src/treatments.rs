@@ -212,6 +212,7 @@ mod tests {
                 contact: String::new(),
             },
             pressure_override: None,
+            suitability: None,
         }
     }
 

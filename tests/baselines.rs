@@ -28,6 +28,7 @@ fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
             outline: None,
             site: Site::default(),
             pressure_override: None,
+            suitability: None,
         })
         .collect();
     Patches {
@@ -35,6 +36,7 @@ fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
         items,
         dropped_slivers: 0,
         source: "inventory",
+        cells: Vec::new(),
     }
 }
 

@@ -594,6 +594,10 @@ impl Page {
             format!("Corridors: {}.", if s.corridors.is_empty() { "none".to_string() } else { s.corridors.iter().map(|c| format!("{} (weight {}, within {} m)", c.name, c.weight, c.buffer_m)).collect::<Vec<_>>().join("; ") }),
             format!("Crew hours: {}.", s.plan.crew_hours.map(|h| format!("at most {h} per season")).unwrap_or_else(|| "not limited".into())),
             "Treatment costs and effectiveness come from the treatment catalogue used (treatments.used.toml); prices marked illustrative there must be replaced by local contract prices before a budget is requested.".to_string(),
+            match &s.host.suitability {
+                Some(p) => format!("Host is weighted by the establishment suitability layer {} (effective host = stems x suitability).", p.display()),
+                None => "No establishment suitability layer: all host counts fully.".to_string(),
+            },
             "Treated patches need follow-up visits for root suckers in the next two or three seasons; those costs are not in these figures.".to_string(),
         ];
         let cautions = cautions::STANDING

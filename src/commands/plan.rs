@@ -50,6 +50,7 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let plan = plan::assemble(patches, model, catalogue, &problem, &solved, &s.model);
 
     let outputs = Outputs {
+        suitability: &prepared.suitability,
         patches,
         pressure,
         catalogue,
@@ -77,6 +78,7 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         Some(solved.greedy.clone()),
     );
     summary.depot = [depot.0, depot.1];
+    summary.suitability_layer = s.host.suitability.as_ref().map(|p| p.display().to_string());
     summary.baselines = baseline_summaries(
         &problem,
         patches,
@@ -198,6 +200,12 @@ fn human_summary(
         "hostcut plan: {} patches, {} links, {} eligible for treatment",
         summary.n_patches, summary.n_edges, summary.n_eligible
     );
+    if let Some(layer) = &summary.suitability_layer {
+        let _ = writeln!(
+            t,
+            "  host weighted by the establishment suitability layer {layer}"
+        );
+    }
     if patches.dropped_slivers > 0 {
         let _ = writeln!(
             t,
