@@ -128,6 +128,9 @@ pub struct PlanArgs {
     #[arg(long, allow_negative_numbers = true)]
     pub gap: Option<f64>,
 
+    /// Refuse inputs and models estimated to need more memory than this (GB; default 16)
+    #[arg(long, value_name = "GB", allow_negative_numbers = true)]
+    pub max_memory_gb: Option<f64>,
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,

@@ -156,6 +156,16 @@ impl Grid {
 
 /// Read band 1 of a raster. `assume_crs` is used only when the file has no CRS.
 pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
+    read_raster_within(path, assume_crs, f64::INFINITY)
+}
+
+/// Bytes the planner needs per host cell: the values as f64, the parcel index and the
+/// union-find parent (u32 each), and GDAL's read buffer.
+pub const BYTES_PER_CELL: f64 = 24.0;
+
+/// As [`read_raster`], refusing from the header alone a raster whose cells would need more than
+/// `max_gb` gigabytes (see [`BYTES_PER_CELL`]).
+pub fn read_raster_within(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) -> Result<Grid> {
     let dataset = open(path)?;
     if dataset.raster_count() == 0 {
         return Err(Error::input(format!(
@@ -186,6 +196,16 @@ pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
         .map_err(|e| Error::gdal("read band 1 of", path, e))?;
     let (width, height) = band.size();
     let cells = width.saturating_mul(height);
+    let need_gb = cells as f64 * BYTES_PER_CELL / 1e9;
+    if need_gb > max_gb {
+        return Err(Error::input_with_hint(
+            format!(
+                "host raster `{}` has {width} x {height} cells: reading it needs about {need_gb:.3} GB, more than `--max-memory-gb {max_gb}`",
+                path.display()
+            ),
+            "clip it to the programme area, resample it coarser with `gdalwarp -tr`, or raise `--max-memory-gb` if the machine has the memory",
+        ));
+    }
     if cells > 400_000_000 {
         return Err(Error::input_with_hint(
             format!(
@@ -349,6 +369,20 @@ pub fn read_vector(
         }
         let mut geometry = geometry.clone();
         geometry.flatten_to_2d();
+        // Self-intersecting or otherwise invalid polygons make areas and point-in-polygon tests
+        // wrong: refuse them with the fix rather than guess.
+        let flat = gdal::vector::geometry_type_flatten(geometry.geometry_type());
+        let polygonal = flat == gdal::vector::OGRwkbGeometryType::wkbPolygon
+            || flat == gdal::vector::OGRwkbGeometryType::wkbMultiPolygon;
+        if polygonal && !geometry.is_valid() {
+            return Err(Error::input_with_hint(
+                format!(
+                    "{what} `{}`, feature {number}: invalid polygon (self-intersecting, or with overlapping rings)",
+                    path.display()
+                ),
+                "repair it, e.g. `ogr2ogr -makevalid fixed.gpkg input.gpkg`, or fix the shape in your GIS",
+            ));
+        }
         geometry.transform_inplace(&transform).map_err(|e| {
             Error::input(format!(
                 "{what} `{}`, feature {number}: cannot reproject it into {} ({e})",

@@ -90,6 +90,7 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             s.host.layer.as_deref(),
             assume.as_ref(),
             &s.host.stems_field,
+            s.solver.max_memory_gb,
         )?
     };
     let host_extent = host_extent(&host);
@@ -103,6 +104,12 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             assume.as_ref(),
             "access layer",
         )?;
+        if layer.features.is_empty() {
+            return Err(Error::input_with_hint(
+                format!("access layer `{}` has no features", a.path.display()),
+                "give a layer with the parcels (or leave out `--access`: every patch is then open, herbicide allowed)",
+            ));
+        }
         check_overlap(&layer, host_extent, "access layer")?;
         parcels = read_parcels(&layer, a)?;
     }
@@ -182,6 +189,12 @@ pub fn load(s: &Scenario) -> Result<Layers> {
                 }
             }
         }
+        if detections.is_empty() {
+            return Err(Error::input_with_hint(
+                format!("detections layer `{}` has no points", d.path.display()),
+                "give a layer of detection points, or leave out `--detections`",
+            ));
+        }
         detection_weight = d.weight;
     }
     Ok(Layers {
@@ -206,6 +219,7 @@ fn open_host(
     layer: Option<&str>,
     assume: Option<&Crs>,
     stems_field: &str,
+    max_gb: f64,
 ) -> Result<(Crs, Host)> {
     if !path.exists() {
         return Err(Error::input_with_hint(
@@ -216,7 +230,7 @@ fn open_host(
     let dataset = gdal::Dataset::open(path).map_err(|e| Error::gdal("open", path, e))?;
     if dataset.raster_count() > 0 {
         drop(dataset);
-        let grid = gis::read_raster(path, assume)?;
+        let grid = gis::read_raster_within(path, assume, max_gb)?;
         return Ok((grid.crs.clone(), Host::Raster(grid)));
     }
     if dataset.layer_count() == 0 {

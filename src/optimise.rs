@@ -338,6 +338,8 @@ pub struct Limits {
     /// HiGHS threads (None: its default, all cores).
     pub threads: Option<u32>,
     pub formulation: Formulation,
+    /// Refuse to build a model estimated to need more than this many GB.
+    pub max_memory_gb: f64,
 }
 
 /// Which exact linearisation of the link products to build (docs/model.md).
@@ -362,6 +364,7 @@ impl Limits {
             gap,
             threads: None,
             formulation,
+            max_memory_gb: f64::INFINITY,
         }
     }
 }
@@ -419,6 +422,18 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             seconds: start_time.elapsed().as_secs_f64(),
             greedy,
         });
+    }
+    let need_gb = estimated_gb(problem);
+    if need_gb > limits.max_memory_gb {
+        return Err(Error::input_with_hint(
+            format!(
+                "the exact model for {} patches and {} links needs about {need_gb:.2} GB, more than `--max-memory-gb {}`",
+                n,
+                problem.model.links.len(),
+                limits.max_memory_gb
+            ),
+            "raise `--epsilon` or lower `--alpha-m` to keep fewer links, split the area, or raise `--max-memory-gb` if the machine has the memory",
+        ));
     }
     // HiGHS sees R scaled so that R before treatment = 1000: coefficients stay in a range it
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
@@ -518,6 +533,25 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         seconds: start_time.elapsed().as_secs_f64(),
         greedy,
     })
+}
+
+/// Memory the transportation model is estimated to need, in GB: about 1 kB per pair-of-options
+/// column (HiGHS's matrix and good_lp's expressions, measured on the demo) plus 50 MB.
+pub fn estimated_gb(problem: &Problem) -> f64 {
+    let options = |i: usize| {
+        if problem.excluded[i] {
+            0
+        } else {
+            problem.choices[i].len()
+        }
+    };
+    let z: f64 = problem
+        .model
+        .links
+        .iter()
+        .map(|l| ((options(l.a) + 1) * (options(l.b) + 1)) as f64)
+        .sum();
+    (z * 1000.0 + 50e6) / 1e9
 }
 
 /// Drop treatments that buy exactly nothing (a patch with no effective host, e.g. suitability

@@ -58,7 +58,22 @@ impl Staging {
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_else(|| "out".into());
-        let dir = parent.join(format!(".{name}.partial-{}", std::process::id()));
+        // Staging folders left by runs that were killed (their process is gone) are removed.
+        let prefix = format!(".{name}.partial-");
+        if let Ok(entries) = std::fs::read_dir(parent) {
+            for entry in entries.flatten() {
+                let file_name = entry.file_name().to_string_lossy().into_owned();
+                if let Some(pid) = file_name
+                    .strip_prefix(&prefix)
+                    .and_then(|p| p.parse::<u32>().ok())
+                {
+                    if !Path::new(&format!("/proc/{pid}")).exists() {
+                        let _ = std::fs::remove_dir_all(entry.path());
+                    }
+                }
+            }
+        }
+        let dir = parent.join(format!("{prefix}{}", std::process::id()));
         if dir.exists() {
             let _ = std::fs::remove_dir_all(&dir);
         }

@@ -72,6 +72,17 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     };
     let points: Vec<(f64, f64)> = patches.items.iter().map(|p| (p.x, p.y)).collect();
     let graph = graph::build_graph(&points, kernel, s.model.epsilon);
+    const MAX_LINKS: usize = 5_000_000;
+    if graph.edges.len() > MAX_LINKS {
+        return Err(Error::input_with_hint(
+            format!(
+                "{} links between {} patches: more than this version plans ({MAX_LINKS})",
+                graph.edges.len(),
+                patches.len()
+            ),
+            "raise `--epsilon` or lower `--alpha-m` (fewer, stronger links), raise `--min-patch-ha`, or plan the area in parts",
+        ));
+    }
     let pressure = graph::pressure(
         &patches,
         &layers.corridors,

@@ -202,6 +202,8 @@ pub struct PlanSection {
 pub struct SolverSection {
     pub time_limit_s: f64,
     pub gap: f64,
+    /// Refuse inputs or models whose estimated memory exceeds this (GB).
+    pub max_memory_gb: f64,
 }
 
 impl Default for SolverSection {
@@ -209,6 +211,7 @@ impl Default for SolverSection {
         SolverSection {
             time_limit_s: 120.0,
             gap: 1e-4,
+            max_memory_gb: 16.0,
         }
     }
 }
@@ -486,6 +489,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(v) = args.gap {
         s.solver.gap = v;
     }
+    if let Some(v) = args.max_memory_gb {
+        s.solver.max_memory_gb = v;
+    }
     let out = match &args.out {
         Some(o) => abs(o),
         None => {
@@ -665,6 +671,16 @@ fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
             "e.g. `--crew-hours 400`",
         )?;
     }
+    check(
+        s.solver.max_memory_gb.is_finite() && s.solver.max_memory_gb > 0.0,
+        || {
+            format!(
+                "max_memory_gb must be positive, got {}",
+                s.solver.max_memory_gb
+            )
+        },
+        "e.g. `--max-memory-gb 8`",
+    )?;
     for id in &s.plan.require {
         if s.plan.exclude.contains(id) {
             return Err(Error::input(format!(

@@ -688,7 +688,7 @@ fn crew_hours_exclusions_and_infeasible_requirements() {
             .all(|l| !matches!(l.split(',').nth(1), Some("A") | Some("B"))),
         "{plan_csv}"
     );
-    // Requiring A, B and C on a budget that cannot pay for them is a result, not a crash.
+    // Requiring A, B and C on a budget that cannot pay for them: a clear refusal, no output.
     let dir = fixture();
     let o = plan(
         dir.path(),
@@ -703,9 +703,7 @@ fn crew_hours_exclusions_and_infeasible_requirements() {
             "A,B,C",
         ],
     );
-    assert!(o.status.success(), "{}", stderr(&o));
-    assert_eq!(summary(&dir.path().join("out"))["status"], "infeasible");
-    assert!(stdout(&o).contains("no plan fits"));
+    refused(dir.path(), &o, &["no plan fits", "A, B, C", "budget"]);
 }
 
 #[test]

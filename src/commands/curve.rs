@@ -111,7 +111,10 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
         .map(|[x, y]| (x, y))
         .unwrap_or_else(|| baselines::default_depot(&prepared.patches, &prepared.eligible));
     progress(&format!("solving {} budget levels", budgets.len()));
-    let limits = Limits::new(s.solver.time_limit_s, s.solver.gap);
+    let limits = Limits {
+        max_memory_gb: s.solver.max_memory_gb,
+        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+    };
     let points = curve::trace(
         &prepared,
         &budgets,

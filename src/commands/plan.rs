@@ -46,7 +46,23 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let budget = s.plan.budget.unwrap_or(0.0);
     let problem = prepared.problem(budget, s.plan.crew_hours);
     progress("optimising");
-    let solved = optimise::solve(&problem, Limits::new(s.solver.time_limit_s, s.solver.gap))?;
+    let solved = optimise::solve(
+        &problem,
+        Limits {
+            max_memory_gb: s.solver.max_memory_gb,
+            ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+        },
+    )?;
+    if solved.status == Status::Infeasible {
+        return Err(infeasible_requirements(&problem, patches, budget));
+    }
+    if solved.status == Status::TimeLimit {
+        eprintln!(
+            "warning: the optimiser stopped at the time limit ({} s); the plan is the best found, within {:.3}% of optimal (proven)",
+            s.solver.time_limit_s,
+            100.0 * solved.gap
+        );
+    }
     let plan = plan::assemble(patches, model, catalogue, &problem, &solved, &s.model);
 
     let outputs = Outputs {
@@ -107,6 +123,41 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
     }
     Ok(RunReport { out, text })
+}
+
+/// Why the required patches cannot all be treated: their cheapest methods against the limits.
+fn infeasible_requirements(problem: &Problem, patches: &patches::Patches, budget: f64) -> Error {
+    let required: Vec<usize> = (0..problem.len())
+        .filter(|&i| problem.required[i])
+        .collect();
+    let cheapest = |i: usize, f: &dyn Fn(&crate::treatments::Choice) -> f64| {
+        problem.choices[i]
+            .iter()
+            .map(f)
+            .fold(f64::INFINITY, f64::min)
+    };
+    let cost: f64 = required.iter().map(|&i| cheapest(i, &|c| c.cost)).sum();
+    let hours: f64 = required.iter().map(|&i| cheapest(i, &|c| c.hours)).sum();
+    let ids: Vec<&str> = required
+        .iter()
+        .map(|&i| patches.items[i].label.as_str())
+        .collect();
+    let what = match problem.crew_hours {
+        Some(h) if hours > h => {
+            format!("need at least {hours:.1} crew hours, more than the {h} available")
+        }
+        _ if cost > budget => format!(
+            "cost at least {cost:.2} with their cheapest methods, more than the budget of {budget:.2}"
+        ),
+        _ => "cannot all be treated within the budget and crew hours together".to_string(),
+    };
+    Error::input_with_hint(
+        format!(
+            "no plan fits: the required patches ({}) {what}",
+            ids.join(", ")
+        ),
+        "raise `--budget` / `--crew-hours`, or require fewer patches",
+    )
 }
 
 /// summary.json's `baselines`.

@@ -1,0 +1,93 @@
+//! No lost work and no surprises: the same inputs give byte-identical outputs, and a run killed
+//! part-way leaves no output folder behind.
+
+mod common;
+
+use std::path::Path;
+
+use common::*;
+
+fn demo_scenario() -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("demo-inputs/scenario.toml")
+        .display()
+        .to_string()
+}
+
+#[test]
+fn the_same_run_twice_gives_byte_identical_outputs() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = demo_scenario();
+    for out in ["a", "b"] {
+        let o = run(
+            dir.path(),
+            &["plan", "--scenario", &scenario, "--out", out, "--quiet"],
+        );
+        assert!(o.status.success(), "{}", stderr(&o));
+    }
+    for f in ["plan.csv", "patches.csv", "plan.geojson", "cautions.txt"] {
+        assert_eq!(
+            std::fs::read(dir.path().join("a").join(f)).unwrap(),
+            std::fs::read(dir.path().join("b").join(f)).unwrap(),
+            "{f} differs between runs"
+        );
+    }
+    // summary.json differs only in the measured solve time.
+    let strip = |p: &Path| {
+        std::fs::read_to_string(p)
+            .unwrap()
+            .lines()
+            .filter(|l| !l.contains("\"solve_seconds\""))
+            .collect::<Vec<_>>()
+            .join("\n")
+    };
+    assert_eq!(
+        strip(&dir.path().join("a/summary.json")),
+        strip(&dir.path().join("b/summary.json"))
+    );
+}
+
+#[test]
+fn a_killed_run_leaves_no_partial_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = demo_scenario();
+    for delay_ms in [50u64, 300, 900] {
+        let out = format!("killed{delay_ms}");
+        let mut child = std::process::Command::new(bin())
+            .args(["plan", "--scenario", &scenario, "--out", &out, "--quiet"])
+            .current_dir(dir.path())
+            .spawn()
+            .unwrap();
+        std::thread::sleep(std::time::Duration::from_millis(delay_ms));
+        let _ = child.kill(); // SIGKILL on Unix
+        let status = child.wait().unwrap();
+        let target = dir.path().join(&out);
+        if status.success() {
+            // It finished before the kill: then every output is there.
+            assert!(target.join("summary.json").exists() && target.join("plan.csv").exists());
+        } else {
+            assert!(!target.exists(), "a killed run left {}", target.display());
+        }
+    }
+    // The next run into the same folder works and clears the dead runs' staging folders.
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--scenario",
+            &scenario,
+            "--out",
+            "killed50",
+            "--quiet",
+            "--force",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let leftovers: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(".killed50.partial-"))
+        .collect();
+    assert!(leftovers.is_empty(), "{leftovers:?}");
+}
