@@ -66,10 +66,9 @@ impl Staging {
                 if let Some(pid) = file_name
                     .strip_prefix(&prefix)
                     .and_then(|p| p.parse::<u32>().ok())
+                    && !Path::new(&format!("/proc/{pid}")).exists()
                 {
-                    if !Path::new(&format!("/proc/{pid}")).exists() {
-                        let _ = std::fs::remove_dir_all(entry.path());
-                    }
+                    let _ = std::fs::remove_dir_all(entry.path());
                 }
             }
         }
