@@ -146,6 +146,24 @@ impl Drop for Staging {
     }
 }
 
+/// Make a run repeatable: keep the catalogue it used as `treatments.used.toml` and write
+/// `scenario.resolved.toml` pointing at it, under a one-line `header` comment.
+pub fn write_provenance(
+    staging: &Staging,
+    scenario: &crate::settings::Scenario,
+    out: &Path,
+    catalogue_text: &str,
+    header: &str,
+) -> Result<()> {
+    staging.write("treatments.used.toml", catalogue_text)?;
+    let mut resolved = scenario.clone();
+    resolved.plan.treatments = Some(out.join("treatments.used.toml"));
+    staging.write(
+        "scenario.resolved.toml",
+        format!("# {header}\n{}", resolved.to_toml()?),
+    )
+}
+
 /// `summary.json`.
 #[derive(Debug, Serialize)]
 pub struct Summary {

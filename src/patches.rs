@@ -556,11 +556,16 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
     let bytes = fs_err::read(path)
         .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
-    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    parse_inventory(&bytes, &path.display().to_string())
+}
+
+/// Parse and check inventory CSV bytes; `origin` names the file in messages.
+pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
         .from_reader(bytes);
-    let file = path.display();
+    let file = origin;
     let headers: Vec<String> = reader
         .headers()
         .map_err(|e| {

@@ -225,22 +225,38 @@ pub struct Settings {
     pub quiet: bool,
 }
 
+impl Settings {
+    /// A progress line on stderr, unless `--quiet`.
+    pub fn progress(&self, message: &str) {
+        if !self.quiet {
+            eprintln!("{message}");
+        }
+    }
+}
+
 /// Read a scenario TOML file; relative paths inside it become relative to its folder.
 pub fn read_scenario(path: &Path) -> Result<Scenario> {
     let text = fs_err::read_to_string(path)
         .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
-    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    parse_scenario(&text, &path.display().to_string(), &base)
+}
+
+/// Parse scenario text; `origin` names it in messages, relative paths are taken from `base`.
+pub fn parse_scenario(text: &str, origin: &str, base: &Path) -> Result<Scenario> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let mut scenario: Scenario = toml::from_str(text).map_err(|e| {
-        let line = e.span().map(|s| text[..s.start].lines().count().max(1));
+        let line = e
+            .span()
+            .and_then(|s| text.get(..s.start))
+            .map(|before| before.lines().count().max(1));
         Error::input(format!(
-            "scenario `{}`{}: {}",
-            path.display(),
+            "scenario `{origin}`{}: {}",
             line.map(|l| format!(", line {l}")).unwrap_or_default(),
             e.message()
         ))
     })?;
-    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
-    scenario.rebase(&base);
+    scenario.rebase(base);
     Ok(scenario)
 }
 

@@ -56,7 +56,10 @@ impl Catalogue {
     pub fn parse(text: &str, origin: &str) -> Result<Catalogue> {
         let text = text.strip_prefix('\u{feff}').unwrap_or(text);
         let catalogue: Catalogue = toml::from_str(text).map_err(|e| {
-            let line = e.span().map(|s| text[..s.start].lines().count().max(1));
+            let line = e
+                .span()
+                .and_then(|s| text.get(..s.start))
+                .map(|before| before.lines().count().max(1));
             Error::input(format!(
                 "treatment catalogue `{origin}`{}: {}",
                 line.map(|l| format!(", line {l}")).unwrap_or_default(),

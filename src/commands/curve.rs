@@ -11,7 +11,7 @@ use crate::cli::CurveArgs;
 use crate::curve::{self, Point};
 use crate::error::{Error, Result};
 use crate::optimise::Limits;
-use crate::output::Staging;
+use crate::output::{self, Staging};
 use crate::pipeline::{self, Prepared};
 use crate::settings;
 
@@ -88,11 +88,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     let settings = settings::resolve_with(&inputs, false)?;
     let s = &settings.scenario;
     let staging = Staging::new(&settings.out, settings.force)?;
-    let progress = |msg: &str| {
-        if !settings.quiet {
-            eprintln!("{msg}");
-        }
-    };
+    let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;
     let money = Money::new(
         args.currency
@@ -133,16 +129,14 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     staging.write("justification.md", page.markdown())?;
     staging.write("justification.html", page.html(&svg))?;
     staging.write("cautions.txt", cautions::standing_text())?;
-    staging.write("treatments.used.toml", &prepared.catalogue_text)?;
-    let mut resolved = s.clone();
-    resolved.plan.treatments = Some(settings.out.join("treatments.used.toml"));
-    resolved.plan.budget = None;
-    staging.write(
-        "scenario.resolved.toml",
-        format!(
-            "# Inputs and settings of this curve; budgets are in curve.csv.\n{}",
-            resolved.to_toml()?
-        ),
+    let mut inputs_only = s.clone();
+    inputs_only.plan.budget = None;
+    output::write_provenance(
+        &staging,
+        &inputs_only,
+        &settings.out,
+        &prepared.catalogue_text,
+        "Inputs and settings of this curve; its budgets are in curve.csv.",
     )?;
     let out = staging.commit()?;
 

@@ -26,12 +26,7 @@ pub struct RunReport {
 pub fn run(settings: &Settings) -> Result<RunReport> {
     let s = &settings.scenario;
     let staging = Staging::new(&settings.out, settings.force)?;
-    let progress = |msg: &str| {
-        if !settings.quiet {
-            eprintln!("{msg}");
-        }
-    };
-
+    let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;
     let pipeline::Prepared {
         catalogue,
@@ -106,13 +101,12 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         .map_err(|e| Error::Internal(format!("summary: {e}")))?;
     staging.write("summary.json", json + "\n")?;
     // The plan folder is self-contained: it keeps the catalogue it used.
-    staging.write("treatments.used.toml", catalogue_text)?;
-    let mut resolved = s.clone();
-    resolved.plan.treatments = Some(settings.out.join("treatments.used.toml"));
-    let header = "# Every input and parameter this plan used; repeat it with `hostcut plan --scenario scenario.resolved.toml --out NEW`.\n";
-    staging.write(
-        "scenario.resolved.toml",
-        format!("{header}{}", resolved.to_toml()?),
+    output::write_provenance(
+        &staging,
+        s,
+        &settings.out,
+        catalogue_text,
+        "Every input and parameter this plan used; repeat it with `hostcut plan --scenario scenario.resolved.toml --out NEW`.",
     )?;
     let out = staging.commit()?;
 
