@@ -335,7 +335,7 @@ pub struct Limits {
     pub time_limit_s: f64,
     /// Relative gap on the remaining risk at which to stop.
     pub gap: f64,
-    /// HiGHS threads (None: its default, all cores).
+    /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
     pub threads: Option<u32>,
     pub formulation: Formulation,
     /// Refuse to build a model estimated to need more than this many GB.
@@ -454,9 +454,10 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     model.set_option("time_limit", limits.time_limit_s.max(0.01));
     model.set_option("mip_rel_gap", limits.gap);
     model.set_option("mip_abs_gap", 1e-9);
-    if let Some(threads) = limits.threads {
-        model.set_option("threads", threads as i32);
-    }
+    // Fixed seed and thread count, so the same problem gives the same plan on any machine
+    // (HiGHS's MIP is deterministic for a given thread count).
+    model.set_option("random_seed", 0);
+    model.set_option("threads", limits.threads.unwrap_or(2) as i32);
     let solved = model
         .try_solve()
         .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
