@@ -7,7 +7,7 @@
 
 use crate::baselines;
 use crate::error::{Error, Result};
-use crate::optimise::{Assignment, Limits, Status, solve_from};
+use crate::optimise::{Assignment, Limits, Status, greedy, solve_from};
 use crate::pipeline::Prepared;
 
 /// One budget level.
@@ -72,43 +72,23 @@ pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
 }
 
 /// Solve every budget with `jobs` workers: worker w takes budgets w, w + jobs, w + 2 jobs, ...
-/// in ascending order (so the hard and easy levels are shared out), each warm-started from its
-/// own previous, smaller budget; then repair monotonicity across the whole curve.
-pub fn trace(
-    prepared: &Prepared,
-    budgets: &[f64],
-    crew_hours: Option<f64>,
-    limits: Limits,
-    depot: (f64, f64),
-    jobs: usize,
-) -> Result<Vec<Point>> {
+/// (so the hard and easy levels are shared out). Each point is solved with one HiGHS thread and
+/// warm-started from the better of the greedy plans at its own budget and at its lower
+/// neighbour's, so a point's result does not depend on `jobs` or on which worker solved it:
+/// the curve is byte-identical for any `--jobs`. Then monotonicity is repaired across the whole
+/// curve with the neighbours' solved plans.
+pub fn trace(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limits: Limits, depot: (f64, f64), jobs: usize) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
     budgets.sort_by(f64::total_cmp);
     budgets.dedup();
     let jobs = jobs.clamp(1, budgets.len().max(1));
-    let limits = if jobs > 1 {
-        Limits {
-            threads: Some(1),
-            ..limits
-        }
-    } else {
-        limits
-    };
-    let shares: Vec<Vec<f64>> = (0..jobs)
-        .map(|w| budgets.iter().skip(w).step_by(jobs).cloned().collect())
-        .collect();
+    let limits = Limits { threads: Some(1), ..limits };
+    let budgets = &budgets;
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = shares
-            .iter()
-            .map(|part| scope.spawn(move || solve_chain(prepared, part, crew_hours, limits, depot)))
+        let handles: Vec<_> = (0..jobs)
+            .map(|w| scope.spawn(move || (w..budgets.len()).step_by(jobs).map(|k| solve_point(prepared, budgets, k, crew_hours, limits, depot)).collect()))
             .collect();
-        handles
-            .into_iter()
-            .map(|h| {
-                h.join()
-                    .unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))
-            })
-            .collect()
+        handles.into_iter().map(|h| h.join().unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))).collect()
     });
     let mut points = Vec::new();
     for r in results {
@@ -119,51 +99,33 @@ pub fn trace(
     Ok(points)
 }
 
-fn solve_chain(
-    prepared: &Prepared,
-    budgets: &[f64],
-    crew_hours: Option<f64>,
-    limits: Limits,
-    depot: (f64, f64),
-) -> Result<Vec<Point>> {
-    let mut out: Vec<Point> = Vec::new();
-    for &budget in budgets {
-        let problem = prepared.problem(budget, crew_hours);
-        let previous = out.last().map(|p: &Point| p.assignment.clone());
-        let solved = solve_from(&problem, limits, previous.as_ref())?;
-        let rules = baselines::all(
-            &problem,
-            &prepared.patches,
-            &prepared.pressure.corridors,
-            depot,
-            Some(solved.greedy.clone()),
-        );
-        let greedy_risk_after = solved.greedy.as_ref().map(|g| g.1).unwrap_or(f64::NAN);
-        let mut point = Point {
-            budget,
-            assignment: solved.assignment.clone(),
-            risk_after: solved.risk_after,
-            bound: solved.bound,
-            gap: solved.gap,
-            status: solved.status,
-            from_neighbour: false,
-            spent: 0.0,
-            crew_hours: 0.0,
-            n_treated: 0,
-            stems_treated: 0.0,
-            area_ha_treated: 0.0,
-            greedy_risk_after,
-            baselines: rules
-                .iter()
-                .filter(|b| b.name != "greedy")
-                .map(|b| (b.name, b.risk_after))
-                .collect(),
-            seconds: solved.seconds,
-        };
-        fill_totals(prepared, &mut point, crew_hours);
-        out.push(point);
-    }
-    Ok(out)
+fn solve_point(prepared: &Prepared, budgets: &[f64], k: usize, crew_hours: Option<f64>, limits: Limits, depot: (f64, f64)) -> Result<Point> {
+    let budget = budgets[k];
+    let problem = prepared.problem(budget, crew_hours);
+    // The lower neighbour's greedy plan is affordable here; solve_from keeps the better start.
+    let neighbour = (k > 0).then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours))).flatten().map(|g| g.0);
+    let solved = solve_from(&problem, limits, neighbour.as_ref())?;
+    let rules = baselines::all(&problem, &prepared.patches, &prepared.pressure.corridors, depot, Some(solved.greedy.clone()));
+    let greedy_risk_after = solved.greedy.as_ref().map(|g| g.1).unwrap_or(f64::NAN);
+    let mut point = Point {
+        budget,
+        assignment: solved.assignment.clone(),
+        risk_after: solved.risk_after,
+        bound: solved.bound,
+        gap: solved.gap,
+        status: solved.status,
+        from_neighbour: false,
+        spent: 0.0,
+        crew_hours: 0.0,
+        n_treated: 0,
+        stems_treated: 0.0,
+        area_ha_treated: 0.0,
+        greedy_risk_after,
+        baselines: rules.iter().filter(|b| b.name != "greedy").map(|b| (b.name, b.risk_after)).collect(),
+        seconds: solved.seconds,
+    };
+    fill_totals(prepared, &mut point, crew_hours);
+    Ok(point)
 }
 
 fn fill_totals(prepared: &Prepared, point: &mut Point, crew_hours: Option<f64>) {
