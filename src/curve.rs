@@ -77,18 +77,41 @@ pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
 /// neighbour's, so a point's result does not depend on `jobs` or on which worker solved it:
 /// the curve is byte-identical for any `--jobs`. Then monotonicity is repaired across the whole
 /// curve with the neighbours' solved plans.
-pub fn trace(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limits: Limits, depot: (f64, f64), jobs: usize) -> Result<Vec<Point>> {
+pub fn trace(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+    jobs: usize,
+) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
     budgets.sort_by(f64::total_cmp);
     budgets.dedup();
     let jobs = jobs.clamp(1, budgets.len().max(1));
-    let limits = Limits { threads: Some(1), ..limits };
+    let limits = Limits {
+        threads: Some(1),
+        ..limits
+    };
     let budgets = &budgets;
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
         let handles: Vec<_> = (0..jobs)
-            .map(|w| scope.spawn(move || (w..budgets.len()).step_by(jobs).map(|k| solve_point(prepared, budgets, k, crew_hours, limits, depot)).collect()))
+            .map(|w| {
+                scope.spawn(move || {
+                    (w..budgets.len())
+                        .step_by(jobs)
+                        .map(|k| solve_point(prepared, budgets, k, crew_hours, limits, depot))
+                        .collect()
+                })
+            })
             .collect();
-        handles.into_iter().map(|h| h.join().unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))).collect()
+        handles
+            .into_iter()
+            .map(|h| {
+                h.join()
+                    .unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))
+            })
+            .collect()
     });
     let mut points = Vec::new();
     for r in results {
@@ -99,13 +122,29 @@ pub fn trace(prepared: &Prepared, budgets: &[f64], crew_hours: Option<f64>, limi
     Ok(points)
 }
 
-fn solve_point(prepared: &Prepared, budgets: &[f64], k: usize, crew_hours: Option<f64>, limits: Limits, depot: (f64, f64)) -> Result<Point> {
+fn solve_point(
+    prepared: &Prepared,
+    budgets: &[f64],
+    k: usize,
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+) -> Result<Point> {
     let budget = budgets[k];
     let problem = prepared.problem(budget, crew_hours);
     // The lower neighbour's greedy plan is affordable here; solve_from keeps the better start.
-    let neighbour = (k > 0).then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours))).flatten().map(|g| g.0);
+    let neighbour = (k > 0)
+        .then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours)))
+        .flatten()
+        .map(|g| g.0);
     let solved = solve_from(&problem, limits, neighbour.as_ref())?;
-    let rules = baselines::all(&problem, &prepared.patches, &prepared.pressure.corridors, depot, Some(solved.greedy.clone()));
+    let rules = baselines::all(
+        &problem,
+        &prepared.patches,
+        &prepared.pressure.corridors,
+        depot,
+        Some(solved.greedy.clone()),
+    );
     let greedy_risk_after = solved.greedy.as_ref().map(|g| g.1).unwrap_or(f64::NAN);
     let mut point = Point {
         budget,
@@ -121,7 +160,11 @@ fn solve_point(prepared: &Prepared, budgets: &[f64], k: usize, crew_hours: Optio
         stems_treated: 0.0,
         area_ha_treated: 0.0,
         greedy_risk_after,
-        baselines: rules.iter().filter(|b| b.name != "greedy").map(|b| (b.name, b.risk_after)).collect(),
+        baselines: rules
+            .iter()
+            .filter(|b| b.name != "greedy")
+            .map(|b| (b.name, b.risk_after))
+            .collect(),
         seconds: solved.seconds,
     };
     fill_totals(prepared, &mut point, crew_hours);

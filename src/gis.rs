@@ -215,6 +215,26 @@ pub fn read_raster_within(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) ->
             "clip it to the programme area or resample it to a coarser cell size with `gdalwarp -tr`",
         ));
     }
+    // Band 1 must hold numbers: a complex band, or a palette (a classified map such as land
+    // cover), is not stems per hectare.
+    if band.band_type() == gdal::raster::GdalDataType::Unknown {
+        return Err(Error::input_with_hint(
+            format!(
+                "host raster `{}`: band 1 is of complex or unknown type, not stems per hectare",
+                path.display()
+            ),
+            "give a single-band raster of tree-of-heaven density (stems/ha), e.g. Float32",
+        ));
+    }
+    if band.color_table().is_some() {
+        return Err(Error::input_with_hint(
+            format!(
+                "host raster `{}`: band 1 has a colour palette, so it looks like a classified map (e.g. land cover), not stems per hectare",
+                path.display()
+            ),
+            "give a density raster (stems/ha); a class map must first be turned into densities, e.g. with gdal_calc.py",
+        ));
+    }
     let nodata = band.no_data_value();
     let buffer = band
         .read_band_as::<f64>()
@@ -400,6 +420,15 @@ pub fn read_vector(
         for (field_name, value) in feature.fields() {
             let value = match value {
                 None => continue,
+                Some(gdal::vector::FieldValue::StringValue(s)) if s.contains('\u{FFFD}') => {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "{what} `{}`, feature {number}, field `{field_name}`: text that is not valid UTF-8 (`{s}`)",
+                            path.display()
+                        ),
+                        "save the layer as UTF-8 (e.g. `ogr2ogr -lco ENCODING=UTF-8`), or give a Shapefile a .cpg file naming its encoding",
+                    ));
+                }
                 Some(gdal::vector::FieldValue::StringValue(s)) => Value::Text(s),
                 Some(gdal::vector::FieldValue::RealValue(r)) => Value::Number(r),
                 Some(gdal::vector::FieldValue::IntegerValue(i)) => Value::Number(i as f64),

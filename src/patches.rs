@@ -617,6 +617,12 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
     for record in reader.records() {
         let record = record.map_err(|e| {
             let line = e.position().map(|p| format!(", line {}", p.line())).unwrap_or_default();
+            if matches!(e.kind(), csv::ErrorKind::Utf8 { .. }) {
+                return Error::input_with_hint(
+                    format!("inventory `{file}`{line}: text that is not UTF-8 (an export in a legacy encoding such as Windows-1252)"),
+                    "save the file as UTF-8 (in a spreadsheet: Save As, CSV UTF-8) and run again",
+                );
+            }
             Error::input_with_hint(format!("inventory `{file}`{line}: malformed CSV ({e})"), "every row needs the same number of fields as the header; quote fields that contain commas")
         })?;
         let line = record.position().map(|p| p.line()).unwrap_or(0);

@@ -369,3 +369,74 @@ fn bad_flag_combinations() {
     );
     refused(dir.path(), &["--budget", "10"], &["no host layer"]);
 }
+
+#[test]
+fn wrong_band_types_and_encodings() {
+    let dir = tempfile::tempdir().unwrap();
+    let gt = "<SRS>EPSG:32618</SRS><GeoTransform>500000, 20, 0, 4480080, 0, -20</GeoTransform>";
+    write(
+        dir.path(),
+        "complex.vrt",
+        &format!(
+            r#"<VRTDataset rasterXSize="4" rasterYSize="4">{gt}<VRTRasterBand dataType="CFloat32" band="1"/></VRTDataset>"#
+        ),
+    );
+    refused(
+        dir.path(),
+        &["--host", "complex.vrt", "--budget", "10"],
+        &["complex.vrt", "complex or unknown type"],
+    );
+    write(
+        dir.path(),
+        "palette.vrt",
+        &format!(
+            r#"<VRTDataset rasterXSize="4" rasterYSize="4">{gt}<VRTRasterBand dataType="Byte" band="1"><ColorInterp>Palette</ColorInterp><ColorTable><Entry c1="0" c2="0" c3="0" c4="255"/><Entry c1="0" c2="128" c3="0" c4="255"/></ColorTable></VRTRasterBand></VRTDataset>"#
+        ),
+    );
+    refused(
+        dir.path(),
+        &["--host", "palette.vrt", "--budget", "10"],
+        &["palette.vrt", "colour palette"],
+    );
+    // A Windows-1252 export of an inventory, and a parcel layer with Latin-1 text.
+    std::fs::write(
+        dir.path().join("latin.csv"),
+        b"id,x,y,stems\nCaf\xe9,500000,4480000,12\n",
+    )
+    .unwrap();
+    refused(
+        dir.path(),
+        &[
+            "--inventory",
+            "latin.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "10",
+        ],
+        &["latin.csv", "line 2", "UTF-8"],
+    );
+    let text = utm(
+        r#"{"type":"Feature","properties":{"contact":"Jos@"},"geometry":{"type":"Polygon","coordinates":[[[499900,4479900],[500300,4479900],[500300,4480300],[499900,4480300],[499900,4479900]]]}}"#,
+    );
+    let bytes: Vec<u8> = text
+        .bytes()
+        .map(|b| if b == b'@' { 0xe9 } else { b })
+        .collect();
+    std::fs::write(dir.path().join("latin.geojson"), bytes).unwrap();
+    write(dir.path(), "ok.csv", "id,x,y,stems\nA,500000,4480000,12\n");
+    refused(
+        dir.path(),
+        &[
+            "--inventory",
+            "ok.csv",
+            "--crs",
+            "EPSG:32618",
+            "--access",
+            "latin.geojson",
+            "--budget",
+            "10",
+        ],
+        &["latin.geojson", "field `contact`", "UTF-8"],
+    );
+}

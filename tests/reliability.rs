@@ -97,18 +97,48 @@ fn curves_are_byte_identical_for_any_number_of_workers() {
     let dir = tempfile::tempdir().unwrap();
     let mut csv = String::from("id,x,y,stems\n");
     for k in 0..14 {
-        csv.push_str(&format!("S{k},{},{},{}\n", 500_000 + (k * 373) % 2000, 4_480_000 + (k * 911) % 1800, 40 + (k * 53) % 400));
+        csv.push_str(&format!(
+            "S{k},{},{},{}\n",
+            500_000 + (k * 373) % 2000,
+            4_480_000 + (k * 911) % 1800,
+            40 + (k * 53) % 400
+        ));
     }
     write(dir.path(), "stands.csv", &csv);
     for jobs in ["1", "2", "3"] {
         let out = format!("c{jobs}");
-        let o = run(dir.path(), &["curve", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget-range", "0:9000:7", "--jobs", jobs, "--out", &out, "--quiet"]);
+        let o = run(
+            dir.path(),
+            &[
+                "curve",
+                "--inventory",
+                "stands.csv",
+                "--crs",
+                "EPSG:32618",
+                "--budget-range",
+                "0:9000:7",
+                "--jobs",
+                jobs,
+                "--out",
+                &out,
+                "--quiet",
+            ],
+        );
         assert!(o.status.success(), "{}", stderr(&o));
     }
-    for f in ["curve.csv", "curve.svg", "justification.md", "justification.html"] {
+    for f in [
+        "curve.csv",
+        "curve.svg",
+        "justification.md",
+        "justification.html",
+    ] {
         let first = std::fs::read(dir.path().join("c1").join(f)).unwrap();
         for jobs in ["2", "3"] {
-            assert_eq!(first, std::fs::read(dir.path().join(format!("c{jobs}")).join(f)).unwrap(), "{f} differs with --jobs {jobs}");
+            assert_eq!(
+                first,
+                std::fs::read(dir.path().join(format!("c{jobs}")).join(f)).unwrap(),
+                "{f} differs with --jobs {jobs}"
+            );
         }
     }
 }
