@@ -72,6 +72,16 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     };
     let points: Vec<(f64, f64)> = patches.items.iter().map(|p| (p.x, p.y)).collect();
     let graph = graph::build_graph(&points, kernel, s.model.epsilon);
+    const MAX_PATCHES: usize = 500_000;
+    if patches.len() > MAX_PATCHES {
+        return Err(Error::input_with_hint(
+            format!(
+                "{} patches: more than this version plans ({MAX_PATCHES})",
+                patches.len()
+            ),
+            "raise `--min-density` or `--min-patch-ha`, lower the resolution, or plan the area in parts",
+        ));
+    }
     const MAX_LINKS: usize = 5_000_000;
     if graph.edges.len() > MAX_LINKS {
         return Err(Error::input_with_hint(

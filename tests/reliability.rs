@@ -142,3 +142,81 @@ fn curves_are_byte_identical_for_any_number_of_workers() {
         }
     }
 }
+
+#[test]
+fn ids_never_become_paths_and_time_limits_are_results() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::create_dir(dir.path().join("work")).unwrap();
+    write(
+        &dir.path().join("work"),
+        "stands.csv",
+        "id,x,y,stems\n../escape,500000,4480000,120\n/etc/passwd,500100,4480000,80\n",
+    );
+    let o = run(
+        &dir.path().join("work"),
+        &[
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "5000",
+            "--out",
+            "out",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(!dir.path().join("escape").exists() && !dir.path().join("work/escape").exists());
+    let mut names: Vec<String> = std::fs::read_dir(dir.path().join("work/out"))
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(
+        names,
+        [
+            "cautions.txt",
+            "patches.csv",
+            "plan.csv",
+            "plan.geojson",
+            "scenario.resolved.toml",
+            "summary.json",
+            "treatments.used.toml"
+        ]
+    );
+    assert!(
+        std::fs::read_to_string(dir.path().join("work/out/plan.csv"))
+            .unwrap()
+            .contains("../escape"),
+        "the id is kept as data"
+    );
+    // A time limit too short to prove anything: exit 0, a warning, the status and gap.
+    let scenario = demo_scenario();
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--scenario",
+            &scenario,
+            "--time-limit-s",
+            "0.05",
+            "--out",
+            "quick",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&dir.path().join("quick"));
+    if s["status"] == "time_limit" {
+        assert!(
+            stderr(&o).contains("warning: the optimiser stopped at the time limit"),
+            "{}",
+            stderr(&o)
+        );
+        assert!(s["gap"].as_f64().unwrap() >= 0.0);
+    }
+    assert!(s["risk_after"].as_f64().unwrap() <= s["greedy_risk_after"].as_f64().unwrap());
+}

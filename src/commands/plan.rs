@@ -53,7 +53,7 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     }
     if solved.status == Status::TimeLimit {
         eprintln!(
-            "warning: the optimiser stopped at the time limit ({} s); the plan is the best found, within {:.3}% of optimal (proven)",
+            "warning: the optimiser stopped at the time limit ({} s); the plan is the best found; proven gap on the remaining risk {:.3}%",
             s.solver.time_limit_s,
             100.0 * solved.gap
         );
@@ -317,7 +317,7 @@ fn human_summary(
                     100.0 * plan.gap
                 ),
                 Status::TimeLimit => format!(
-                    "stopped at the time limit: within {:.4}% of optimal (proven bound)",
+                    "stopped at the time limit: best plan found, proven gap on the remaining risk {:.4}%",
                     100.0 * plan.gap
                 ),
                 Status::Infeasible => unreachable!(),
