@@ -577,10 +577,7 @@ fn host_polygons_with_a_stems_field() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
-    let rows: Vec<Vec<String>> = csv::Reader::from_reader(patches.as_bytes())
-        .records()
-        .map(|r| r.unwrap().iter().map(String::from).collect())
-        .collect();
+    let rows = csv_rows_of(&patches);
     assert_eq!(rows.len(), 2);
     assert_eq!(rows[0][5], "300");
     assert_eq!(rows[0][6], "1", "area of a 100 m square is 1 ha");
@@ -636,10 +633,7 @@ fn raster_patches_split_at_parcels_and_take_their_rules() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
-    let rows: Vec<Vec<String>> = csv::Reader::from_reader(patches.as_bytes())
-        .records()
-        .map(|r| r.unwrap().iter().map(String::from).collect())
-        .collect();
+    let rows = csv_rows_of(&patches);
     assert_eq!(rows.len(), 2, "{patches}");
     let west = rows.iter().find(|r| r[11] == "W").unwrap();
     let east = rows.iter().find(|r| r[11] == "E").unwrap();

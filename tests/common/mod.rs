@@ -72,3 +72,11 @@ pub fn geotiff(
     let mut buffer = gdal::raster::Buffer::new((width, height), values.to_vec());
     band.write((0, 0), (width, height), &mut buffer).unwrap();
 }
+
+/// The data rows of CSV text, as strings.
+pub fn csv_rows_of(text: &str) -> Vec<Vec<String>> {
+    csv::Reader::from_reader(text.as_bytes())
+        .records()
+        .map(|r| r.unwrap().iter().map(String::from).collect())
+        .collect()
+}
