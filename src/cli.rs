@@ -20,6 +20,10 @@ pub enum Command {
     Plan(PlanArgs),
     /// Plan at many budgets: what each extra thousand buys, with a chart and a justification page
     Curve(CurveArgs),
+    /// Turn a plan into a bid schedule, a scope of work and a completion template
+    Contract(ContractArgs),
+    /// Check a filled completion file and write next season's inventory
+    Record(RecordArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -169,6 +173,37 @@ pub struct CurveArgs {
     /// Budget points solved at once (each worker solves a run of neighbouring budgets)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+}
+
+/// Flags of `hostcut contract`.
+#[derive(Debug, Clone, Args)]
+pub struct ContractArgs {
+    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
+    #[arg(long = "plan", value_name = "DIR")]
+    pub plan_dir: PathBuf,
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace the outputs in a non-empty `--out`
+    #[arg(long)]
+    pub force: bool,
+}
+
+/// Flags of `hostcut record`.
+#[derive(Debug, Clone, Args)]
+pub struct RecordArgs {
+    /// The plan folder the work was done from
+    #[arg(long = "plan", value_name = "DIR")]
+    pub plan_dir: PathBuf,
+    /// The filled completion file (from `hostcut contract`'s completion_template.csv)
+    #[arg(long, value_name = "CSV")]
+    pub completed: PathBuf,
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace the outputs in a non-empty `--out`
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Clone, Args)]

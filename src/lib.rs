@@ -10,6 +10,7 @@ pub mod cautions;
 pub mod chart;
 pub mod cli;
 pub mod commands;
+pub mod contract;
 pub mod curve;
 pub mod demo;
 pub mod error;
@@ -41,6 +42,8 @@ pub fn run(cli: Cli) -> Result<String> {
             Ok(report.text)
         }
         Command::Curve(args) => Ok(commands::curve::run(&args)?.text),
+        Command::Contract(args) => Ok(commands::contract::run_contract(&args)?),
+        Command::Record(args) => Ok(commands::contract::run_record(&args)?),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

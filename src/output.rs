@@ -443,7 +443,8 @@ pub fn summary(
     Summary {
         currency: o.catalogue.currency.clone(),
         budget,
-        spent: plan.spent,
+        // Costs are whole cents per patch; the sum is shown to the cent.
+        spent: (plan.spent * 100.0).round() / 100.0,
         crew_hours_limit,
         crew_hours: plan.crew_hours,
         risk_before: plan.risk_before,

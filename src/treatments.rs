@@ -168,7 +168,12 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch) -> Vec<Choice> {
         .filter(|(_, m)| m.effectiveness > 0.0)
         .map(|(k, m)| Choice {
             method: MethodId(k as u16),
-            cost: (m.cost_per_patch + m.cost_per_stem * patch.stems) * patch.site.cost_factor,
+            // Money is priced to the cent per patch, as a contract line would be.
+            cost: ((m.cost_per_patch + m.cost_per_stem * patch.stems)
+                * patch.site.cost_factor
+                * 100.0)
+                .round()
+                / 100.0,
             hours: m.hours_per_stem * patch.stems,
             remaining: 1.0 - m.effectiveness,
         })
@@ -240,7 +245,10 @@ mod tests {
         assert_eq!(choices.len(), c.methods.len());
         for ch in &choices {
             let m = c.method(ch.method);
-            assert!((ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs() < 1e-9);
+            assert!(
+                (ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs()
+                    <= 0.005 + 1e-9
+            );
             assert!((ch.hours - m.hours_per_stem * 100.0).abs() < 1e-9);
             assert!((ch.remaining - (1.0 - m.effectiveness)).abs() < 1e-12);
         }

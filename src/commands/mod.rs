@@ -1,5 +1,6 @@
 //! One file per subcommand.
 
+pub mod contract;
 pub mod curve;
 pub mod demo;
 pub mod plan;

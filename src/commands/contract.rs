@@ -1,0 +1,353 @@
+//! `hostcut contract` (bid_schedule.csv, scope_of_work.md/.html, completion_template.csv) and
+//! `hostcut record` (checks a filled completion file; writes inventory.next.csv and a planned-
+//! versus-done report).
+
+use std::fmt::Write as _;
+
+use crate::cautions;
+use crate::chart::{escape, thousands};
+use crate::cli::{ContractArgs, RecordArgs};
+use crate::contract::{self, PlanFolder};
+use crate::error::{Error, Result};
+use crate::output::Staging;
+
+fn money(code: &str, cents: i64) -> String {
+    let symbol = if code == "USD" {
+        "$".to_string()
+    } else {
+        format!("{code} ")
+    };
+    format!(
+        "{symbol}{}.{:02}",
+        thousands((cents / 100) as f64),
+        (cents % 100).abs()
+    )
+}
+
+fn csv_text(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(header)
+        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    for r in rows {
+        w.write_record(r)
+            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    }
+    w.into_inner()
+        .map_err(|e| Error::Internal(format!("csv: {e}")))
+}
+
+pub fn run_contract(args: &ContractArgs) -> Result<String> {
+    let folder = PlanFolder::read(&args.plan_dir)?;
+    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
+    let staging = Staging::new(&out, args.force)?;
+    let currency = folder.catalogue.currency.clone();
+    let items = contract::line_items(&folder);
+    let total: i64 = items.iter().map(|i| i.cents).sum();
+
+    // Bid schedule.
+    let mut rows = Vec::new();
+    for item in &items {
+        let method = folder
+            .method(&item.method)
+            .expect("line items come from catalogue methods");
+        rows.push(vec![
+            item.number.to_string(),
+            item.method.clone(),
+            method.label.clone(),
+            item.site_class.to_string(),
+            item.patch_ids.len().to_string(),
+            format!("{:.1}", item.stems),
+            item.hectares.map(|h| format!("{h:.2}")).unwrap_or_default(),
+            "stem".into(),
+            format!("{:.4}", item.cents as f64 / 100.0 / item.stems.max(1e-9)),
+            format!("{:.2}", item.cents as f64 / 100.0),
+            String::new(),
+            String::new(),
+        ]);
+    }
+    rows.push(vec![
+        "TOTAL".into(),
+        String::new(),
+        String::new(),
+        String::new(),
+        folder.planned.len().to_string(),
+        format!("{:.1}", items.iter().map(|i| i.stems).sum::<f64>()),
+        String::new(),
+        String::new(),
+        String::new(),
+        format!("{:.2}", total as f64 / 100.0),
+        String::new(),
+        String::new(),
+    ]);
+    let header = [
+        "item",
+        "method",
+        "description",
+        "site_class",
+        "patches",
+        "stems",
+        "hectares",
+        "unit",
+        "estimated_unit_price",
+        "estimated_extended",
+        "bid_unit_price",
+        "bid_extended",
+    ];
+    staging.write("bid_schedule.csv", csv_text(&header, &rows)?)?;
+
+    // Completion template, in priority order.
+    let mut rows = Vec::new();
+    for p in &folder.planned {
+        rows.push(vec![
+            p.patch_id.clone(),
+            p.method.clone(),
+            format!("{}", p.stems),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+        ]);
+    }
+    let header = [
+        "patch_id",
+        "method",
+        "planned_stems",
+        "treated_stems",
+        "date",
+        "applicator_licence",
+        "product_active_ingredient",
+        "notes",
+    ];
+    staging.write("completion_template.csv", csv_text(&header, &rows)?)?;
+
+    // Scope of work.
+    let (md, html) = scope_of_work(&folder, &items, total);
+    staging.write("scope_of_work.md", md)?;
+    staging.write("scope_of_work.html", html)?;
+    staging.write("cautions.txt", cautions::standing_text())?;
+    let out = staging.commit()?;
+    let mut text = format!(
+        "hostcut contract: {} line items for {} patches, estimated {} (the plan's cost)\noutputs in {}: bid_schedule.csv, scope_of_work.md, scope_of_work.html, completion_template.csv\n\n",
+        items.len(),
+        folder.planned.len(),
+        money(&currency, total),
+        out.display()
+    );
+    text.push_str(&cautions::standing_text());
+    Ok(text)
+}
+
+/// The scope of work as Markdown and HTML: the same sections.
+fn scope_of_work(
+    folder: &PlanFolder,
+    items: &[contract::LineItem],
+    total: i64,
+) -> (String, String) {
+    let currency = &folder.catalogue.currency;
+    let mut sections: Vec<(String, Vec<String>)> = Vec::new();
+    sections.push((
+        "The work".into(),
+        vec![
+            format!("Treat tree-of-heaven (Ailanthus altissima) on {} patches, in the line items below, by the methods named. The estimated total is {}; bidders price each line in bid_schedule.csv.", folder.planned.len(), money(currency, total)),
+            "Cutting a live tree-of-heaven without a systemic treatment first is not acceptable work: it makes the tree sprout from the stump and sucker from the roots. Treated stems may be felled only 30 days or more after treatment.".into(),
+        ],
+    ));
+    for item in items {
+        let method = folder
+            .method(&item.method)
+            .expect("line items come from catalogue methods");
+        let mut lines = vec![
+            format!(
+                "Work: {} on {} patches ({} stems{}), site class: {}.",
+                method.label,
+                item.patch_ids.len(),
+                thousands(item.stems),
+                item.hectares
+                    .map(|h| format!(", {h:.1} ha"))
+                    .unwrap_or_default(),
+                item.site_class
+            ),
+            format!("Patches: {}.", item.patch_ids.join(", ")),
+            format!("Season window: {}.", contract::window(&method.months)),
+            format!(
+                "Performance standard, verified at the follow-up visit next season: at least {:.0}% of treated stems dead or leafless (the effectiveness the plan assumed for this method; source: {}).",
+                method.effectiveness * 100.0,
+                if method.source.is_empty() {
+                    "the treatment catalogue"
+                } else {
+                    &method.source
+                }
+            ),
+        ];
+        match item.site_class {
+            "restricted site" => lines.push("Restricted site: herbicide use only under the site's extra conditions (e.g. near a school, water supply or sensitive habitat); confirm them in writing with the site manager before work.".into()),
+            "permission" => lines.push("Landowner permission: obtain written permission from the owner or manager listed in the plan before entering; carry it on site.".into()),
+            _ => {}
+        }
+        let codes: std::collections::BTreeSet<&str> = folder
+            .planned
+            .iter()
+            .filter(|p| item.patch_ids.contains(&p.patch_id))
+            .flat_map(|p| p.cautions.split(';'))
+            .filter(|c| !c.is_empty())
+            .collect();
+        for code in codes {
+            if let Some(c) = cautions::lookup(code) {
+                lines.push(format!("Caution [{}]: {}", c.code, c.text));
+            }
+        }
+        sections.push((
+            format!(
+                "Line item {}: {} ({})",
+                item.number, item.method, item.site_class
+            ),
+            lines,
+        ));
+    }
+    sections.push((
+        "Access, permission and quarantine duties".into(),
+        vec![
+            "Enter only the patches listed, by the access the plan gives; where a patch needs landowner permission, work starts only when it is in hand.".into(),
+            "In a spotted lanternfly quarantine area, logs, stumps, brush and firewood are regulated articles: check the rules (and any permit or compliance agreement) before moving wood, brush or equipment out, and inspect vehicles before leaving a site.".into(),
+            "Follow the product label, licensing rules, water buffers and drift precautions on every site; local codes and licensed practice override this scope.".into(),
+        ],
+    ));
+    sections.push((
+        "What the contractor reports back".into(),
+        vec![
+            "completion_template.csv filled in, one row per planned patch: treated_stems (blank if the patch was not done), date (YYYY-MM-DD), applicator_licence and product_active_ingredient for every herbicide treatment, and notes. `hostcut record` checks it against the plan.".into(),
+        ],
+    ));
+    let title = "Scope of work: tree-of-heaven treatment";
+    let mut md = format!("# {title}\n\n");
+    let mut html = format!(
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>body{{font-family:Helvetica,Arial,sans-serif;max-width:60em;margin:2em auto;padding:0 1em;line-height:1.4}}</style></head><body>\n<h1>{}</h1>\n",
+        escape(title),
+        escape(title)
+    );
+    for (heading, lines) in &sections {
+        let _ = writeln!(md, "## {heading}\n");
+        let _ = writeln!(html, "<h2>{}</h2><ul>", escape(heading));
+        for l in lines {
+            let _ = writeln!(md, "- {l}");
+            let _ = writeln!(html, "<li>{}</li>", escape(l));
+        }
+        md.push('\n');
+        html.push_str("</ul>\n");
+    }
+    html.push_str("</body></html>\n");
+    (md, html)
+}
+
+pub fn run_record(args: &RecordArgs) -> Result<String> {
+    let folder = PlanFolder::read(&args.plan_dir)?;
+    let done = contract::check_completion(&folder, &args.completed)?;
+    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
+    let staging = Staging::new(&out, args.force)?;
+    let by_patch: std::collections::HashMap<&str, &contract::Done> =
+        done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
+    let mut rows = Vec::new();
+    let (mut treated_stems, mut removed_stems) = (0.0, 0.0);
+    for p in &folder.patches {
+        let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
+            Some(d) => {
+                let method = folder.method(&d.method).expect("checked");
+                let removed = d.treated_stems * method.effectiveness;
+                treated_stems += d.treated_stems;
+                removed_stems += removed;
+                (
+                    (p.stems - removed).max(0.0),
+                    contract::follow_up_due(method, d.date),
+                )
+            }
+            None => (p.stems, String::new()),
+        };
+        rows.push(vec![
+            p.patch_id.clone(),
+            format!("{}", p.x),
+            format!("{}", p.y),
+            format!("{:.1}", stems),
+            p.access.clone(),
+            p.herbicide.clone(),
+            format!("{}", p.cost_factor),
+            format!("{}", p.pressure),
+            p.area_ha.map(|a| format!("{a}")).unwrap_or_default(),
+            p.suitability.map(|s| format!("{s}")).unwrap_or_default(),
+            due,
+        ]);
+    }
+    let header = [
+        "id",
+        "x",
+        "y",
+        "stems",
+        "access",
+        "herbicide",
+        "cost_factor",
+        "pressure",
+        "area_ha",
+        "suitability",
+        "follow_up_due",
+    ];
+    staging.write("inventory.next.csv", csv_text(&header, &rows)?)?;
+    let planned_stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
+    let planned_cents: i64 = folder
+        .planned
+        .iter()
+        .map(|p| (p.cost * 100.0).round() as i64)
+        .sum();
+    let done_cents: i64 = folder
+        .planned
+        .iter()
+        .filter_map(|p| {
+            by_patch
+                .get(p.patch_id.as_str())
+                .map(|d| ((p.cost * d.treated_stems / p.stems.max(1e-9)) * 100.0).round() as i64)
+        })
+        .sum();
+    let currency = &folder.catalogue.currency;
+    let mut report = String::from("# Planned and done\n\n| | planned | done |\n|---|---|---|\n");
+    let _ = writeln!(
+        report,
+        "| patches | {} | {} |",
+        folder.planned.len(),
+        done.len()
+    );
+    let _ = writeln!(
+        report,
+        "| stems treated | {} | {} |",
+        thousands(planned_stems),
+        thousands(treated_stems)
+    );
+    let _ = writeln!(
+        report,
+        "| cost (estimate; done is pro rata by stems) | {} | {} |",
+        money(currency, planned_cents),
+        money(currency, done_cents)
+    );
+    let _ = writeln!(
+        report,
+        "\nAbout {} stems removed at the effectiveness the plan assumed; {} patches were not treated. Follow-up visits are due at the start of each method's window next season (inventory.next.csv, `follow_up_due`).",
+        thousands(removed_stems),
+        folder.planned.len() - done.len()
+    );
+    let _ = writeln!(
+        report,
+        "\nPlan next season from it: `hostcut plan --inventory inventory.next.csv --crs {} --budget AMOUNT --out NEXT` (the `pressure` column keeps this season's corridor and detection pressure; delete it to recompute from layers).",
+        if folder.crs.is_empty() {
+            "EPSG:NNNN"
+        } else {
+            &folder.crs
+        }
+    );
+    staging.write("record_report.md", &report)?;
+    let out = staging.commit()?;
+    Ok(format!(
+        "hostcut record: {} of {} planned patches done, {} stems treated\noutputs in {}: inventory.next.csv, record_report.md\n",
+        done.len(),
+        folder.planned.len(),
+        thousands(treated_stems),
+        out.display()
+    ))
+}

@@ -1,0 +1,293 @@
+//! Plan → contract → completion → record → next season's plan.
+
+mod common;
+
+use std::path::Path;
+
+use common::*;
+
+const STANDS: &str = "id,x,y,stems,access,herbicide\nA,500000,4480000,300,open,allowed\nB,500150,4480050,180,permission,allowed\nC,500400,4480000,220,open,restricted\nD,500600,4480200,90,open,prohibited\nE,503000,4483000,60,denied,allowed\n";
+
+fn planned(dir: &Path) -> serde_json::Value {
+    write(dir, "stands.csv", STANDS);
+    let o = run(
+        dir,
+        &[
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "3000",
+            "--out",
+            "plan",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    summary(&dir.join("plan"))
+}
+
+fn rows(path: &Path) -> Vec<csv::StringRecord> {
+    csv::Reader::from_path(path)
+        .unwrap()
+        .records()
+        .map(|r| r.unwrap())
+        .collect()
+}
+
+#[test]
+fn bid_schedule_totals_equal_the_plans_cost() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = planned(dir.path());
+    let o = run(dir.path(), &["contract", "--plan", "plan", "--out", "con"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("label is the law"));
+    let bid = rows(&dir.path().join("con/bid_schedule.csv"));
+    let (items, total) = bid.split_at(bid.len() - 1);
+    let cents = |r: &csv::StringRecord| (r[9].parse::<f64>().unwrap() * 100.0).round() as i64;
+    let spent = (s["spent"].as_f64().unwrap() * 100.0).round() as i64;
+    assert_eq!(&total[0][0], "TOTAL");
+    assert_eq!(
+        cents(&total[0]),
+        spent,
+        "bid total must equal the plan's cost"
+    );
+    assert_eq!(
+        items.iter().map(cents).sum::<i64>(),
+        spent,
+        "line items must add up to the total"
+    );
+    assert_eq!(
+        items
+            .iter()
+            .map(|r| r[4].parse::<usize>().unwrap())
+            .sum::<usize>(),
+        s["n_treated"].as_u64().unwrap() as usize
+    );
+    assert!(
+        items.iter().all(|r| r[10].is_empty() && r[11].is_empty()),
+        "bidders' columns are blank"
+    );
+    let template = rows(&dir.path().join("con/completion_template.csv"));
+    assert_eq!(template.len(), s["n_treated"].as_u64().unwrap() as usize);
+    let scope = std::fs::read_to_string(dir.path().join("con/scope_of_work.md")).unwrap();
+    for needle in [
+        "Season window",
+        "Performance standard",
+        "quarantine",
+        "completion_template.csv",
+        "30 days",
+    ] {
+        assert!(scope.contains(needle), "scope lacks {needle}");
+    }
+}
+
+#[test]
+fn a_bad_completion_file_is_refused_row_by_row() {
+    let dir = tempfile::tempdir().unwrap();
+    planned(dir.path());
+    assert!(
+        run(dir.path(), &["contract", "--plan", "plan", "--out", "con"])
+            .status
+            .success()
+    );
+    let template = rows(&dir.path().join("con/completion_template.csv"));
+    let herbicide = template
+        .iter()
+        .find(|r| &r[1] != "pull_seedlings")
+        .expect("a herbicide row")
+        .clone();
+    let (id, method, stems) = (
+        &herbicide[0],
+        &herbicide[1],
+        herbicide[2].parse::<f64>().unwrap(),
+    );
+    let mut csv = String::from(
+        "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n",
+    );
+    csv.push_str("ZZ,foliar,10,10,2027-08-01,L1,triclopyr,\n"); // line 2: unknown patch
+    csv.push_str(&format!(
+        "{id},{method},{stems},{},2027-08-01,L1,triclopyr,\n",
+        stems * 2.0
+    )); // 3: over-treated
+    csv.push_str(&format!(
+        "{id},{method},{stems},{stems},2027-08-01,L1,triclopyr,\n"
+    )); // 4: duplicate
+    let others: Vec<_> = template.iter().filter(|r| &r[0] != id).collect();
+    let other = others.first().expect("a second planned patch");
+    csv.push_str(&format!(
+        "{},{},{},{},2027-01-15,,,\n",
+        &other[0], &other[1], &other[2], &other[2]
+    )); // 5: outside window (+ licence)
+    if let Some(third) = others.get(1) {
+        csv.push_str(&format!(
+            "{},wrong_method,{},{},2027-08-01,L1,x,\n",
+            &third[0], &third[2], &third[2]
+        )); // 6: method mismatch
+    }
+    write(dir.path(), "done.csv", &csv);
+    let o = run(
+        dir.path(),
+        &[
+            "record",
+            "--plan",
+            "plan",
+            "--completed",
+            "done.csv",
+            "--out",
+            "rec",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    for needle in [
+        "done.csv",
+        "line 2: patch `ZZ` is not in the plan",
+        "line 3:",
+        "more than the",
+        "line 4:",
+        "twice",
+        "line 5:",
+        "outside the",
+        "window",
+    ] {
+        assert!(err.contains(needle), "message lacks `{needle}`: {err}");
+    }
+    if others.len() > 1 {
+        assert!(
+            err.contains("line 6:") && err.contains("wrong_method"),
+            "{err}"
+        );
+    }
+    assert!(!dir.path().join("rec").exists());
+    // A herbicide row without licence or active ingredient, and a malformed date.
+    let csv = format!(
+        "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n{id},{method},{stems},{stems},2027-08-01,,,\n{},{},{},{},08/01/2027,L,x,\n",
+        &other[0], &other[1], &other[2], &other[2]
+    );
+    write(dir.path(), "done2.csv", &csv);
+    let o = run(
+        dir.path(),
+        &[
+            "record",
+            "--plan",
+            "plan",
+            "--completed",
+            "done2.csv",
+            "--out",
+            "rec",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2));
+    let err = stderr(&o);
+    for needle in [
+        "line 2:",
+        "licence",
+        "active ingredient",
+        "line 3:",
+        "not a date",
+    ] {
+        assert!(err.contains(needle), "message lacks `{needle}`: {err}");
+    }
+}
+
+#[test]
+fn a_full_round_trip_gives_the_expected_remaining_stems() {
+    let dir = tempfile::tempdir().unwrap();
+    planned(dir.path());
+    assert!(
+        run(dir.path(), &["contract", "--plan", "plan", "--out", "con"])
+            .status
+            .success()
+    );
+    let catalogue =
+        hostcut::treatments::Catalogue::load(Some(&dir.path().join("plan/treatments.used.toml")))
+            .unwrap()
+            .0;
+    let template = rows(&dir.path().join("con/completion_template.csv"));
+    let mut csv = String::from(
+        "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n",
+    );
+    let mut expected = std::collections::HashMap::new();
+    for r in &template {
+        let stems: f64 = r[2].parse().unwrap();
+        let method = catalogue.methods.iter().find(|m| m.id == r[1]).unwrap();
+        let month = method.months[0];
+        csv.push_str(&format!(
+            "{},{},{stems},{stems},2027-{month:02}-15,PA-12345,triclopyr,as planned\n",
+            &r[0], &r[1]
+        ));
+        expected.insert(
+            r[0].to_string(),
+            (
+                stems * (1.0 - method.effectiveness),
+                format!("2028-{month:02}-01"),
+            ),
+        );
+    }
+    write(dir.path(), "done.csv", &csv);
+    let o = run(
+        dir.path(),
+        &[
+            "record",
+            "--plan",
+            "plan",
+            "--completed",
+            "done.csv",
+            "--out",
+            "rec",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let next = rows(&dir.path().join("rec/inventory.next.csv"));
+    assert_eq!(next.len(), 5, "every patch carries on, treated or not");
+    let original: std::collections::HashMap<&str, f64> = STANDS
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            (f[0], f[3].parse().unwrap())
+        })
+        .collect();
+    for r in &next {
+        let stems: f64 = r[3].parse().unwrap();
+        match expected.get(&r[0]) {
+            Some((left, due)) => {
+                assert!(
+                    (stems - left).abs() <= 0.051,
+                    "{}: {stems} left, expected {left}",
+                    &r[0]
+                );
+                assert_eq!(&r[10], due.as_str());
+            }
+            None => assert_eq!(stems, original[&r[0]], "untreated patch {} changed", &r[0]),
+        }
+    }
+    // Next season plans from it.
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--inventory",
+            "rec/inventory.next.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "2000",
+            "--out",
+            "next",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&dir.path().join("next"));
+    let total: f64 = next.iter().map(|r| r[3].parse::<f64>().unwrap()).sum();
+    assert!((s["stems_total"].as_f64().unwrap() - total).abs() < 1e-6);
+    assert!(
+        std::fs::read_to_string(dir.path().join("rec/record_report.md"))
+            .unwrap()
+            .contains("Planned and done")
+    );
+}
