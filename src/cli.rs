@@ -52,7 +52,7 @@ pub struct PlanArgs {
     /// Name of the stems attribute of host polygons
     #[arg(long, value_name = "FIELD")]
     pub stems_field: Option<String>,
-    /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha]
+    /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha,suitability]
     #[arg(long, value_name = "CSV")]
     pub inventory: Option<PathBuf>,
     /// Projected CRS (metres) of the inventory's x,y, e.g. EPSG:32618
