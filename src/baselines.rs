@@ -1,6 +1,6 @@
 //! Today's practice, on the same model, budget, crew hours and eligibility as the plan, so the
 //! optimiser never has to be taken on trust. Each rule walks a list of patches and treats each
-//! one with its most effective eligible method (ties: the cheaper) if that still fits the money
+//! one with its most effective eligible method ([`Problem::most_effective`]; ties: the cheaper) if that still fits the money
 //! and hours left, and otherwise skips it and goes on down the list; required patches come first
 //! and excluded or untreatable ones never.
 //!
@@ -26,23 +26,13 @@ pub struct Baseline {
     pub risk_after: f64,
 }
 
-/// The index of a patch's most effective choice (ties: cheaper, then earlier).
-pub fn most_effective(problem: &Problem, i: usize) -> Option<usize> {
-    (0..problem.choices[i].len()).min_by(|&a, &b| {
-        let (ca, cb) = (&problem.choices[i][a], &problem.choices[i][b]);
-        ca.remaining
-            .total_cmp(&cb.remaining)
-            .then(ca.cost.total_cmp(&cb.cost))
-    })
-}
-
 /// Walk `order` treating each patch with its most effective method while it fits.
 pub fn fill_in_order(problem: &Problem, order: &[usize]) -> Option<Assignment> {
     let n = problem.len();
     let mut assignment: Assignment = vec![None; n];
     for i in 0..n {
         if problem.required[i] {
-            assignment[i] = Some(most_effective(problem, i)?);
+            assignment[i] = Some(problem.most_effective(i)?);
         }
     }
     if !problem.feasible(&assignment) {
@@ -54,7 +44,7 @@ pub fn fill_in_order(problem: &Problem, order: &[usize]) -> Option<Assignment> {
         if assignment[i].is_some() || problem.excluded[i] {
             continue;
         }
-        let Some(o) = most_effective(problem, i) else {
+        let Some(o) = problem.most_effective(i) else {
             continue;
         };
         let c = problem.choices[i][o];

@@ -101,13 +101,8 @@ impl PlanFolder {
         let patches = read_csv(&dir.join("patches.csv"))?;
         let (catalogue, _) = Catalogue::load(Some(&dir.join("treatments.used.toml")))?;
         let summary: serde_json::Value = serde_json::from_str(
-            &fs_err::read_to_string(dir.join("summary.json")).map_err(|e| {
-                Error::io(
-                    "read",
-                    dir.join("summary.json"),
-                    std::io::Error::new(e.kind(), e.to_string()),
-                )
-            })?,
+            &std::fs::read_to_string(dir.join("summary.json"))
+                .map_err(|e| Error::io("read", dir.join("summary.json"), e))?,
         )
         .map_err(|e| {
             Error::input(format!(
@@ -314,8 +309,7 @@ fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
 /// Check a filled completion file against the plan. Every problem row is reported, each with
 /// its line number; a row with an empty `treated_stems` is work not done.
 pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
-    let bytes = fs_err::read(path)
-        .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)

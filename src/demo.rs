@@ -276,8 +276,7 @@ gap = 0.0001
 
 /// Write every demo input into `dir` (created if needed).
 pub fn write_inputs(dir: &Path) -> Result<()> {
-    fs_err::create_dir_all(dir)
-        .map_err(|e| Error::io("create", dir, std::io::Error::new(e.kind(), e.to_string())))?;
+    std::fs::create_dir_all(dir).map_err(|e| Error::io("create", dir, e))?;
     let crs = Crs::parse("EPSG:32618", "demo CRS")?;
     for name in [
         "host.tif",
@@ -288,9 +287,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
     ] {
         let p = dir.join(name);
         if p.exists() {
-            fs_err::remove_file(&p).map_err(|e| {
-                Error::io("replace", &p, std::io::Error::new(e.kind(), e.to_string()))
-            })?;
+            std::fs::remove_file(&p).map_err(|e| Error::io("replace", &p, e))?;
         }
     }
     let transform = [X0, CELL, 0.0, Y0 + HEIGHT as f64 * CELL, 0.0, -CELL];
@@ -363,8 +360,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
     )?;
     let write = |name: &str, text: &str| {
         let p = dir.join(name);
-        fs_err::write(&p, text)
-            .map_err(|e| Error::io("write", &p, std::io::Error::new(e.kind(), e.to_string())))
+        std::fs::write(&p, text).map_err(|e| Error::io("write", &p, e))
     };
     write("stands.csv", &inventory_csv())?;
     write("scenario.toml", SCENARIO)?;

@@ -154,18 +154,24 @@ impl Problem<'_> {
         let assignment: Assignment = (0..self.len())
             .map(|i| {
                 if self.excluded[i] {
-                    return None;
+                    None
+                } else {
+                    self.most_effective(i)
                 }
-                (0..self.choices[i].len()).min_by(|&a, &b| {
-                    let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
-                    ca.remaining
-                        .total_cmp(&cb.remaining)
-                        .then(ca.cost.total_cmp(&cb.cost))
-                })
             })
             .collect();
         let risk = self.risk(&assignment);
         (assignment, risk)
+    }
+
+    /// The index of patch i's most effective choice (ties: the cheaper, then the earlier).
+    pub fn most_effective(&self, i: usize) -> Option<usize> {
+        (0..self.choices[i].len()).min_by(|&a, &b| {
+            let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
+            ca.remaining
+                .total_cmp(&cb.remaining)
+                .then(ca.cost.total_cmp(&cb.cost))
+        })
     }
 }
 

@@ -32,8 +32,8 @@ impl Staging {
                     "give `--out` a new folder name",
                 ));
             }
-            let non_empty = fs_err::read_dir(out)
-                .map_err(|e| Error::io("read", out, std::io::Error::new(e.kind(), e.to_string())))?
+            let non_empty = std::fs::read_dir(out)
+                .map_err(|e| Error::io("read", out, e))?
                 .next()
                 .is_some();
             if non_empty && !force {
@@ -47,13 +47,7 @@ impl Staging {
             .parent()
             .filter(|p| !p.as_os_str().is_empty())
             .unwrap_or(Path::new("."));
-        fs_err::create_dir_all(parent).map_err(|e| {
-            Error::io(
-                "create",
-                parent,
-                std::io::Error::new(e.kind(), e.to_string()),
-            )
-        })?;
+        std::fs::create_dir_all(parent).map_err(|e| Error::io("create", parent, e))?;
         let name = out
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
@@ -76,8 +70,7 @@ impl Staging {
         if dir.exists() {
             let _ = std::fs::remove_dir_all(&dir);
         }
-        fs_err::create_dir_all(&dir)
-            .map_err(|e| Error::io("create", &dir, std::io::Error::new(e.kind(), e.to_string())))?;
+        std::fs::create_dir_all(&dir).map_err(|e| Error::io("create", &dir, e))?;
         Ok(Staging {
             out: out.to_path_buf(),
             dir,
@@ -94,16 +87,9 @@ impl Staging {
     pub fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> Result<()> {
         let path = self.path(name);
         if let Some(parent) = path.parent() {
-            fs_err::create_dir_all(parent).map_err(|e| {
-                Error::io(
-                    "create",
-                    parent,
-                    std::io::Error::new(e.kind(), e.to_string()),
-                )
-            })?;
+            std::fs::create_dir_all(parent).map_err(|e| Error::io("create", parent, e))?;
         }
-        fs_err::write(&path, contents)
-            .map_err(|e| Error::io("write", &path, std::io::Error::new(e.kind(), e.to_string())))
+        std::fs::write(&path, contents).map_err(|e| Error::io("write", &path, e))
     }
 
     /// Move the staged outputs into `out`.

@@ -554,8 +554,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
 /// `cost_factor`, `pressure`, `area_ha`, `suitability`. Column names are matched case-insensitively.
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
-    let bytes = fs_err::read(path)
-        .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     parse_inventory(&bytes, &path.display().to_string())
 }
 

@@ -189,19 +189,7 @@ impl Prepared {
 
     /// What treating every eligible patch with its most effective method would cost.
     pub fn cost_of_everything(&self) -> f64 {
-        self.choices
-            .iter()
-            .zip(&self.eligible)
-            .filter(|(_, e)| **e)
-            .filter_map(|(c, _)| {
-                c.iter()
-                    .min_by(|a, b| {
-                        a.remaining
-                            .total_cmp(&b.remaining)
-                            .then(a.cost.total_cmp(&b.cost))
-                    })
-                    .map(|c| c.cost)
-            })
-            .sum()
+        let problem = self.problem(f64::INFINITY, None);
+        problem.cost(&problem.everything().0)
     }
 }

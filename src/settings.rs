@@ -236,8 +236,7 @@ impl Settings {
 
 /// Read a scenario TOML file; relative paths inside it become relative to its folder.
 pub fn read_scenario(path: &Path) -> Result<Scenario> {
-    let text = fs_err::read_to_string(path)
-        .map_err(|e| Error::io("read", path, std::io::Error::new(e.kind(), e.to_string())))?;
+    let text = std::fs::read_to_string(path).map_err(|e| Error::io("read", path, e))?;
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     parse_scenario(&text, &path.display().to_string(), &base)
 }

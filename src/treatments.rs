@@ -78,9 +78,7 @@ impl Catalogue {
                 BUILTIN.to_string(),
             )),
             Some(p) => {
-                let text = fs_err::read_to_string(p).map_err(|e| {
-                    Error::io("read", p, std::io::Error::new(e.kind(), e.to_string()))
-                })?;
+                let text = std::fs::read_to_string(p).map_err(|e| Error::io("read", p, e))?;
                 Ok((Catalogue::parse(&text, &p.display().to_string())?, text))
             }
         }

@@ -11,7 +11,7 @@ use super::plan::RunReport;
 pub fn run(args: &DemoArgs) -> Result<RunReport> {
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
     if out.exists()
-        && fs_err::read_dir(&out)
+        && std::fs::read_dir(&out)
             .map(|mut d| d.next().is_some())
             .unwrap_or(false)
         && !args.force
@@ -22,13 +22,7 @@ pub fn run(args: &DemoArgs) -> Result<RunReport> {
         ));
     }
     if args.force && out.exists() {
-        fs_err::remove_dir_all(&out).map_err(|e| {
-            Error::io(
-                "replace",
-                &out,
-                std::io::Error::new(e.kind(), e.to_string()),
-            )
-        })?;
+        std::fs::remove_dir_all(&out).map_err(|e| Error::io("replace", &out, e))?;
     }
     let inputs = out.join("inputs");
     demo::write_inputs(&inputs)?;
