@@ -24,6 +24,8 @@ pub enum Command {
     Contract(ContractArgs),
     /// Check a filled completion file and write next season's inventory
     Record(RecordArgs),
+    /// Turn a plan into crew-day work orders with routes, a GeoPackage and a printable report
+    Orders(OrdersArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -204,6 +206,53 @@ pub struct RecordArgs {
     /// Replace the outputs in a non-empty `--out`
     #[arg(long)]
     pub force: bool,
+}
+
+/// Flags of `hostcut orders`.
+#[derive(Debug, Clone, Args)]
+pub struct OrdersArgs {
+    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
+    #[arg(long = "plan", value_name = "DIR")]
+    pub plan_dir: PathBuf,
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace the outputs in a non-empty `--out`
+    #[arg(long)]
+    pub force: bool,
+    /// Crews' depot in the plan's CRS [default: centroid of the treated patches]
+    #[arg(long, value_name = "X,Y", conflicts_with = "depot_lonlat")]
+    pub depot: Option<String>,
+    /// Crews' depot as WGS 84 longitude,latitude
+    #[arg(long, value_name = "LON,LAT")]
+    pub depot_lonlat: Option<String>,
+    /// Number of crews working in parallel
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub crews: usize,
+    /// Working hours per crew-day, travel included
+    #[arg(long, value_name = "H", default_value_t = 8.0)]
+    pub day_hours: f64,
+    /// Average travel speed between sites, km/h
+    #[arg(long, value_name = "KMH", default_value_t = 30.0)]
+    pub speed_kmh: f64,
+    /// Road distance over straight-line distance (an assumption, stated in the outputs)
+    #[arg(long, value_name = "F", default_value_t = 1.3)]
+    pub detour_factor: f64,
+    /// First working day, YYYY-MM-DD [default: the season's first window opening from today]
+    #[arg(long, value_name = "DATE")]
+    pub start_date: Option<String>,
+    /// Days of the week the crews work, e.g. mon-fri, mon-sat, mon,wed,fri
+    #[arg(long, value_name = "DAYS", default_value = "mon-fri")]
+    pub workdays: String,
+    /// Most stops on one crew-day
+    #[arg(long, value_name = "N", default_value_t = crate::orders::DEFAULT_MAX_STOPS)]
+    pub max_stops: usize,
+    /// A `hostcut curve` output folder whose budget curve goes into the report
+    #[arg(long, value_name = "DIR")]
+    pub curve: Option<PathBuf>,
+    /// Print only errors and the standing cautions
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 #[derive(Debug, Clone, Args)]

@@ -25,6 +25,12 @@ pub struct PlannedPatch {
     pub stems: f64,
     pub cost: f64,
     pub crew_hours: f64,
+    #[serde(default)]
+    pub reduction_pct: f64,
+    #[serde(default)]
+    pub x: f64,
+    #[serde(default)]
+    pub y: f64,
     pub access: String,
     pub herbicide: String,
     #[serde(default)]
@@ -50,6 +56,10 @@ pub struct PatchRecord {
     pub cost_factor: f64,
     #[serde(default)]
     pub suitability: Option<f64>,
+    #[serde(default)]
+    pub eligible: String,
+    #[serde(default)]
+    pub method: String,
 }
 
 /// A plan folder's outputs, read back.
@@ -61,6 +71,8 @@ pub struct PlanFolder {
     pub catalogue: Catalogue,
     /// The CRS named in summary.json, for the next season's `--crs`.
     pub crs: String,
+    /// summary.json as written by the plan.
+    pub summary: serde_json::Value,
 }
 
 fn read_csv<T: for<'de> Deserialize<'de>>(path: &Path) -> Result<Vec<T>> {
@@ -117,6 +129,7 @@ impl PlanFolder {
             patches,
             catalogue,
             crs,
+            summary,
         };
         for p in &folder.planned {
             if folder.method(&p.method).is_none() {
@@ -276,34 +289,7 @@ pub struct Done {
 }
 
 fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
-    let parts: Vec<&str> = text.trim().split('-').collect();
-    if parts.len() != 3 || parts[0].len() != 4 {
-        return None;
-    }
-    let (y, m, d) = (
-        parts[0].parse().ok()?,
-        parts[1].parse().ok()?,
-        parts[2].parse().ok()?,
-    );
-    let days = [
-        31,
-        if y % 4 == 0 && (y % 100 != 0 || y % 400 == 0) {
-            29
-        } else {
-            28
-        },
-        31,
-        30,
-        31,
-        30,
-        31,
-        31,
-        30,
-        31,
-        30,
-        31,
-    ];
-    ((1..=12).contains(&m) && d >= 1 && d <= days[(m - 1) as usize]).then_some((y, m, d))
+    crate::calendar::Date::parse(text).map(|d| (d.year, d.month, d.day))
 }
 
 /// Check a filled completion file against the plan. Every problem row is reported, each with

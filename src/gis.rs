@@ -608,6 +608,49 @@ pub fn write_vector(
     )
 }
 
+/// One layer for [`write_layers`]: its name, geometry type, field names and features (geo
+/// geometries in the file's CRS).
+pub struct LayerData<'a> {
+    pub name: &'a str,
+    pub geometry: gdal::vector::OGRwkbGeometryType::Type,
+    pub fields: &'a [(&'a str, Property)],
+    pub features: Vec<(geo::Geometry<f64>, Vec<Property>)>,
+}
+
+/// Write several layers into one new file (e.g. a GeoPackage) in `crs`.
+pub fn write_layers(path: &Path, driver: &str, crs: &Crs, layers: Vec<LayerData>) -> Result<()> {
+    let srs = crs.srs()?;
+    let driver = DriverManager::get_driver_by_name(driver)
+        .map_err(|e| Error::Internal(format!("GDAL driver {driver}: {e}")))?;
+    let mut dataset = driver
+        .create_vector_only(path)
+        .map_err(|e| Error::gdal("create", path, e))?;
+    for layer in layers {
+        let mut converted = Vec::with_capacity(layer.features.len());
+        for (g, p) in layer.features {
+            converted.push((
+                g.to_gdal()
+                    .map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?,
+                p,
+            ));
+        }
+        add_layer(
+            &mut dataset,
+            path,
+            layer.name,
+            &srs,
+            layer.geometry,
+            &[],
+            layer.fields,
+            converted,
+        )?;
+    }
+    dataset
+        .close()
+        .map_err(|e| Error::gdal("finish writing", path, e))?;
+    Ok(())
+}
+
 fn write_layer(
     path: &Path,
     driver: &str,
@@ -622,11 +665,37 @@ fn write_layer(
     let mut dataset = driver
         .create_vector_only(path)
         .map_err(|e| Error::gdal("create", path, e))?;
+    add_layer(
+        &mut dataset,
+        path,
+        layer_name,
+        srs,
+        gdal::vector::OGRwkbGeometryType::wkbUnknown,
+        options,
+        field_names,
+        features,
+    )?;
+    dataset
+        .close()
+        .map_err(|e| Error::gdal("finish writing", path, e))?;
+    Ok(())
+}
+
+fn add_layer(
+    dataset: &mut gdal::Dataset,
+    path: &Path,
+    layer_name: &str,
+    srs: &SpatialRef,
+    ty: gdal::vector::OGRwkbGeometryType::Type,
+    options: &[&str],
+    field_names: &[(&str, Property)],
+    features: Vec<(Geometry, Vec<Property>)>,
+) -> Result<()> {
     let layer = dataset
         .create_layer(gdal::vector::LayerOptions {
             name: layer_name,
             srs: Some(srs),
-            ty: gdal::vector::OGRwkbGeometryType::wkbUnknown,
+            ty,
             options: Some(options),
         })
         .map_err(|e| Error::gdal("create a layer in", path, e))?;
@@ -662,9 +731,6 @@ fn write_layer(
             .create(&layer)
             .map_err(|e| Error::gdal("write a feature to", path, e))?;
     }
-    dataset
-        .close()
-        .map_err(|e| Error::gdal("finish writing", path, e))?;
     Ok(())
 }
 

@@ -6,6 +6,7 @@
 //! [`optimise`].
 
 pub mod baselines;
+pub mod calendar;
 pub mod cautions;
 pub mod chart;
 pub mod cli;
@@ -17,12 +18,15 @@ pub mod error;
 pub mod gis;
 pub mod graph;
 pub mod layers;
+pub mod map;
 pub mod model;
 pub mod optimise;
+pub mod orders;
 pub mod output;
 pub mod patches;
 pub mod pipeline;
 pub mod plan;
+pub mod routing;
 pub mod settings;
 pub mod suitability;
 pub mod treatments;
@@ -44,6 +48,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Curve(args) => Ok(commands::curve::run(&args)?.text),
         Command::Contract(args) => Ok(commands::contract::run_contract(&args)?),
         Command::Record(args) => Ok(commands::contract::run_record(&args)?),
+        Command::Orders(args) => commands::orders::run(&args),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

@@ -3,4 +3,5 @@
 pub mod contract;
 pub mod curve;
 pub mod demo;
+pub mod orders;
 pub mod plan;
