@@ -221,10 +221,15 @@ pub struct OrdersArgs {
     #[arg(long)]
     pub force: bool,
     /// Crews' depot in the plan's CRS [default: centroid of the treated patches]
-    #[arg(long, value_name = "X,Y", conflicts_with = "depot_lonlat")]
+    #[arg(
+        long,
+        value_name = "X,Y",
+        conflicts_with = "depot_lonlat",
+        allow_hyphen_values = true
+    )]
     pub depot: Option<String>,
     /// Crews' depot as WGS 84 longitude,latitude
-    #[arg(long, value_name = "LON,LAT")]
+    #[arg(long, value_name = "LON,LAT", allow_hyphen_values = true)]
     pub depot_lonlat: Option<String>,
     /// Number of crews working in parallel
     #[arg(long, value_name = "N", default_value_t = 1)]

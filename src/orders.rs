@@ -315,9 +315,10 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
     })
 }
 
-/// Fewer days: try to move every stop of the lightest days into other days (re-routed, within
-/// the hours and the stop limit), and drop the days that empty. Never adds a day or breaks a
-/// limit; stops of one split patch never share a day because each full part fills its day.
+/// Fewer days: try to move every stop of the lightest days into other days (cheapest insertion,
+/// within the hours and the stop limit), and drop the days that empty; days that took stops are
+/// re-routed at the end (which only shortens them). Never adds a day or breaks a limit; parts of
+/// one split patch never share a day because each whole-day part fills its day.
 fn consolidate(
     m: &Matrix,
     work: &[f64],
@@ -326,44 +327,84 @@ fn consolidate(
     max_stops: usize,
 ) -> Vec<Vec<usize>> {
     let hours = |d: &[usize]| routing::tour_length(m, d) + d.iter().map(|&s| work[s]).sum::<f64>();
+    // The cheapest place for `stop` in `day`: (added hours, position).
+    let insertion = |day: &[usize], stop: usize| -> (f64, usize) {
+        let mut best = (f64::INFINITY, 0);
+        for pos in 0..=day.len() {
+            let a = if pos == 0 { 0 } else { day[pos - 1] };
+            let b = if pos == day.len() { 0 } else { day[pos] };
+            let added = m.get(a, stop) + m.get(stop, b) - m.get(a, b) + work[stop];
+            if added < best.0 {
+                best = (added, pos);
+            }
+        }
+        best
+    };
+    let mut touched = vec![false; days.len()];
     loop {
         let mut by_load: Vec<usize> = (0..days.len()).collect();
         by_load.sort_by(|&a, &b| hours(&days[a]).total_cmp(&hours(&days[b])).then(a.cmp(&b)));
         let mut merged = false;
-        'day: for &from in &by_load {
+        for &from in &by_load {
+            if days[from].is_empty() {
+                continue;
+            }
             let mut trial = days.clone();
+            let mut took = Vec::new();
+            let mut ok = true;
             for &stop in &days[from] {
-                // The day that takes the stop with the least added time.
-                let mut best: Option<(f64, usize, Vec<usize>)> = None;
+                let mut best: Option<(f64, usize, usize)> = None;
                 for to in 0..trial.len() {
-                    if to == from || trial[to].len() >= max_stops {
+                    if to == from || trial[to].is_empty() || trial[to].len() >= max_stops {
                         continue;
                     }
-                    let mut with: Vec<usize> = trial[to].clone();
-                    with.push(stop);
-                    let with = routing::order(m, &with);
-                    let h = hours(&with);
-                    if h <= day_hours + 1e-9 {
-                        let added = h - hours(&trial[to]);
-                        if best.as_ref().is_none_or(|(b, _, _)| added < *b) {
-                            best = Some((added, to, with));
-                        }
+                    let (added, pos) = insertion(&trial[to], stop);
+                    if hours(&trial[to]) + added <= day_hours + 1e-9
+                        && best.is_none_or(|(b, _, _)| added < b)
+                    {
+                        best = Some((added, to, pos));
                     }
                 }
                 match best {
-                    Some((_, to, with)) => trial[to] = with,
-                    None => continue 'day,
+                    Some((_, to, pos)) => {
+                        trial[to].insert(pos, stop);
+                        took.push(to);
+                    }
+                    None => {
+                        ok = false;
+                        break;
+                    }
                 }
             }
-            trial.remove(from);
-            days = trial;
-            merged = true;
-            break;
+            if ok {
+                trial[from].clear();
+                days = trial;
+                for t in took {
+                    touched[t] = true;
+                }
+                merged = true;
+            }
         }
         if !merged {
-            return days;
+            break;
         }
     }
+    days.into_iter()
+        .zip(touched)
+        .filter(|(d, _)| !d.is_empty())
+        .map(|(d, t)| {
+            if !t {
+                return d;
+            }
+            // Keep whichever order is shorter (the local search on long days is not exact).
+            let o = routing::order(m, &d);
+            if routing::tour_length(m, &o) <= routing::tour_length(m, &d) {
+                o
+            } else {
+                d
+            }
+        })
+        .collect()
 }
 
 /// What the crew is told to do at one stop, in plain words, and the dates that follow from it.

@@ -348,15 +348,16 @@ mod tests {
 
     #[test]
     fn split_packs_days() {
-        // Stops 1 km apart on a line from the depot, 1 h of work each, 1 km/h: a day of 6 h
-        // holds the first two stops (2 h out and back + 2 h work) and so on.
+        // Three stops at one place 1 km from the depot, 1 h of work each, 1 km/h: a day costs
+        // 2 h of travel plus its work.
         let m = line(&[0.0, 1000.0, 1000.0, 1000.0]);
         let work = [0.0, 1.0, 1.0, 1.0];
-        let cuts = split(&m, &[1, 2, 3], &work, 4.0, 10).unwrap();
+        let cuts = split(&m, &[1, 2, 3], &work, 5.0, 10).unwrap();
         assert_eq!(cuts.len(), 1, "{cuts:?}");
-        let cuts = split(&m, &[1, 2, 3], &work, 3.5, 10).unwrap();
+        let cuts = split(&m, &[1, 2, 3], &work, 4.0, 10).unwrap();
         assert_eq!(cuts.len(), 2);
-        let cuts = split(&m, &[1, 2, 3], &work, 4.0, 1).unwrap();
+        assert!((cuts[0].travel - 2.0).abs() < 1e-9);
+        let cuts = split(&m, &[1, 2, 3], &work, 5.0, 1).unwrap();
         assert_eq!(cuts.len(), 3);
         assert!(split(&m, &[1, 2, 3], &work, 2.5, 10).is_none());
     }

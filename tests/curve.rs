@@ -262,16 +262,7 @@ fn bad_curve_options_are_refused() {
 /// browser the test says so and passes, except under CI where the browser must be there.
 #[test]
 fn justification_page_renders_in_a_browser() {
-    let chromium = ["/usr/bin/chromium", "/usr/bin/chromium-browser"]
-        .into_iter()
-        .map(Path::new)
-        .find(|p| p.exists());
-    let Some(chromium) = chromium else {
-        assert!(
-            std::env::var_os("CI").is_none(),
-            "CI must install chromium for this test"
-        );
-        eprintln!("skipped: no chromium on this machine");
+    let Some(chromium) = chromium() else {
         return;
     };
     let dir = tempfile::tempdir().unwrap();
@@ -294,25 +285,15 @@ fn justification_page_renders_in_a_browser() {
     assert!(o.status.success(), "{}", stderr(&o));
     let page = dir.path().join("c/justification.html");
     let shot = dir.path().join("page.png");
-    let profile = dir.path().join("profile");
-    let flags = [
-        "--headless",
-        "--no-sandbox",
-        "--disable-gpu",
-        "--disable-quic",
-        "--no-first-run",
-        "--disable-background-networking",
-        "--disable-component-update",
-        "--disable-sync",
-    ];
-    let out = std::process::Command::new(chromium)
-        .args(flags)
-        .arg(format!("--user-data-dir={}", profile.display()))
-        .arg(format!("--screenshot={}", shot.display()))
-        .arg("--window-size=1200,1600")
-        .arg(format!("file://{}", page.display()))
-        .output()
-        .unwrap();
+    let out = chromium_run(
+        &chromium,
+        dir.path(),
+        &[
+            format!("--screenshot={}", shot.display()),
+            "--window-size=1200,1600".into(),
+        ],
+        &page,
+    );
     assert!(
         shot.exists(),
         "no screenshot: {}",
@@ -326,13 +307,7 @@ fn justification_page_renders_in_a_browser() {
         png.len()
     );
     // The DOM as the browser built it holds the chart and the table.
-    let dom = std::process::Command::new(chromium)
-        .args(flags)
-        .arg(format!("--user-data-dir={}", profile.display()))
-        .arg("--dump-dom")
-        .arg(format!("file://{}", page.display()))
-        .output()
-        .unwrap();
+    let dom = chromium_run(&chromium, dir.path(), &["--dump-dom".into()], &page);
     let dom = String::from_utf8_lossy(&dom.stdout);
     assert!(
         dom.contains("<svg")

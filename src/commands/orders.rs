@@ -126,6 +126,20 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
                     "`--depot-lonlat {d}` is not a longitude,latitude (longitude first)"
                 )));
             }
+            let both = gis::transform_points("EPSG:4326", &crs.wkt, &[(lon, lat), (lat, lon)])
+                .unwrap_or_default();
+            // Latitude first is the usual slip: refuse it when the swapped pair lands by the work.
+            if let (Some(centre), [given, swapped]) = (orders::default_depot(&folder), &both[..]) {
+                let far = |p: &(f64, f64)| (p.0 - centre.0).hypot(p.1 - centre.1);
+                if far(given) > 50_000.0 && far(swapped) < far(given) / 10.0 {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "`--depot-lonlat {d}` lands far from the work, but reversed it lands beside it"
+                        ),
+                        "give longitude first, then latitude",
+                    ));
+                }
+            }
             Some(gis::transform_points("EPSG:4326", &crs.wkt, &[(lon, lat)])?[0])
         }
         (None, None) => None,

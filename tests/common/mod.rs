@@ -80,3 +80,43 @@ pub fn csv_rows_of(text: &str) -> Vec<Vec<String>> {
         .map(|r| r.unwrap().iter().map(String::from).collect())
         .collect()
 }
+
+/// Headless Chromium, or `None` (the test then says so and passes) — except under CI, where
+/// .ci/run installs it and its absence is a failure.
+pub fn chromium() -> Option<PathBuf> {
+    let found = ["/usr/bin/chromium", "/usr/bin/chromium-browser"]
+        .into_iter()
+        .map(PathBuf::from)
+        .find(|p| p.exists());
+    if found.is_none() {
+        assert!(
+            std::env::var_os("CI").is_none(),
+            "CI must install chromium for this test"
+        );
+        eprintln!("skipped: no chromium on this machine");
+    }
+    found
+}
+
+/// Run headless Chromium on a local page with a throwaway profile in `scratch`.
+pub fn chromium_run(chromium: &Path, scratch: &Path, args: &[String], page: &Path) -> Output {
+    Command::new(chromium)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ])
+        .arg(format!(
+            "--user-data-dir={}",
+            scratch.join("profile").display()
+        ))
+        .args(args)
+        .arg(format!("file://{}", page.display()))
+        .output()
+        .expect("run chromium")
+}
