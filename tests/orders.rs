@@ -483,6 +483,38 @@ fn pdf_pages(pdf: &[u8]) -> usize {
         .count()
 }
 
+/// Eighty small stands close together: full days of twelve stops.
+fn small_stands_plan(dir: &Path) {
+    let mut csv = String::from("id,x,y,stems,access,herbicide\n");
+    for k in 0..80u64 {
+        let h = k.wrapping_mul(2654435761) % 1_000_003;
+        let access = if k % 5 == 0 { "permission" } else { "open" };
+        csv.push_str(&format!(
+            "T{k:03},{},{},{},{access},allowed\n",
+            500_000 + h % 3000,
+            4_480_000 + (h / 3000) % 3000,
+            5 + k % 26
+        ));
+    }
+    write(dir, "small.csv", &csv);
+    let o = run(
+        dir,
+        &[
+            "plan",
+            "--inventory",
+            "small.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "30000",
+            "--out",
+            "small",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
 #[test]
 fn report_prints_one_page_per_crew_day() {
     let Some(chromium) = chromium() else {
@@ -490,6 +522,7 @@ fn report_prints_one_page_per_crew_day() {
     };
     let dir = tempfile::tempdir().unwrap();
     demo_plan(dir.path());
+    small_stands_plan(dir.path());
     let o = run(
         dir.path(),
         &[
@@ -505,13 +538,15 @@ fn report_prints_one_page_per_crew_day() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     for (out, extra) in [
-        ("ord", vec![]),
-        ("ordc", vec!["--curve", "curve", "--crews", "3"]),
+        ("ord", vec!["--plan", "demo"]),
+        (
+            "ordc",
+            vec!["--plan", "demo", "--curve", "curve", "--crews", "3"],
+        ),
+        ("full", vec!["--plan", "small", "--day-hours", "10"]),
     ] {
         let mut args = vec![
             "orders",
-            "--plan",
-            "demo",
             "--out",
             out,
             "--start-date",
@@ -566,5 +601,10 @@ fn report_prints_one_page_per_crew_day() {
         assert!(dom.contains("Apply per the product label"));
         assert!(dom.contains("north arrow") && dom.contains("scale bar"));
         assert_eq!(out == "ordc", dom.contains("What each budget buys"));
+        if out == "full" {
+            // The page must hold a full day of the most stops allowed.
+            let orders = rows(&dir.path().join(out).join("orders.csv"));
+            assert!(orders.iter().any(|r| r["stop"] == "12"), "a 12-stop day");
+        }
     }
 }

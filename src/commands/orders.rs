@@ -657,6 +657,11 @@ td.n { text-align: right; white-space: nowrap; }
 svg { display: block; }
 .curve svg { max-width: 7.4in; height: auto; }
 .sign { margin-top: 8px; }
+table.stops td { padding: 1px 3px; }
+table.stops td.nw { white-space: nowrap; }
+.day .cautions { columns: 2; column-gap: 14px; font-size: 7.5pt; }
+.day h3 { margin: 5px 0 2px 0; }
+.day ul { margin: 2px 0; padding-left: 16px; }
 "#;
 
 fn status_line(summary: &serde_json::Value) -> String {
@@ -787,7 +792,7 @@ fn day_map(ctx: &Ctx, d: &CrewDay) -> String {
     let Some(b) = map::bounds(&geoms, &points) else {
         return String::new();
     };
-    let f = Frame::fit(b, 720.0, 250.0, 300.0);
+    let f = Frame::fit(b, 720.0, 210.0, 300.0);
     let mut svg = format!(
         r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="route map"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
         f.width, f.height, f.width, f.height
@@ -999,7 +1004,7 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
     );
     h.push_str(&day_map(ctx, d));
     let to = gis::ToLonLat::new(&ctx.crs).ok();
-    h.push_str("<table><tr><th>#</th><th>Patch</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Location</th><th>Cautions</th><th>Done</th></tr>");
+    h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
     let mut codes: BTreeSet<String> = BTreeSet::new();
     let mut methods: BTreeMap<String, orders::Instructions> = BTreeMap::new();
     for (k, s) in d.stops.iter().enumerate() {
@@ -1022,15 +1027,19 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
         };
         let _ = write!(
             h,
-            "<tr><td class=\"n\">{}</td><td>{}{}<br><span class=\"small\">parcel {}</span></td><td>{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
+            "<tr><td class=\"n\">{}</td><td class=\"nw\">{}{}{}</td><td class=\"nw\">{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small nw\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
             k + 1,
             escape(&s.patch_id),
             if s.parts > 1 {
-                format!(" (part {}/{})", s.part, s.parts)
+                format!(" ({}/{})", s.part, s.parts)
             } else {
                 String::new()
             },
-            escape(&p.parcel),
+            if p.parcel.is_empty() {
+                String::new()
+            } else {
+                format!(" &middot; {}", escape(&p.parcel))
+            },
             escape(&s.method.replace('_', " ")),
             s.stems,
             s.work_hours,
