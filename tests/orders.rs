@@ -608,3 +608,45 @@ fn report_prints_one_page_per_crew_day() {
         }
     }
 }
+
+#[test]
+fn a_plan_that_treats_nothing_orders_nothing_and_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    write(
+        dir.path(),
+        "stands.csv",
+        "id,x,y,stems\nA,500000,4480000,300\nB,500300,4480100,200\n",
+    );
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "0",
+            "--out",
+            "plan",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(
+        dir.path(),
+        &[
+            "orders",
+            "--plan",
+            "plan",
+            "--out",
+            "ord",
+            "--start-date",
+            "2027-07-01",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("nothing to order"));
+    assert!(rows(&dir.path().join("ord/orders.csv")).is_empty());
+    assert_eq!(json(&dir.path().join("ord/orders.json"))["crew_days"], 0);
+}

@@ -275,6 +275,12 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
     staging.commit()?;
 
     let mut text = String::new();
+    if folder.planned.is_empty() {
+        let _ = writeln!(
+            text,
+            "the plan treats no patches, so there is nothing to order (raise the plan's budget or check its eligibility rules)"
+        );
+    }
     if !args.quiet {
         let _ = writeln!(
             text,
@@ -333,8 +339,9 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
     Ok(text)
 }
 
+/// Two decimals, and never "-0" (an empty sum of f64 is -0.0).
 fn round2(v: f64) -> f64 {
-    (v * 100.0).round() / 100.0
+    (v * 100.0).round() / 100.0 + 0.0
 }
 
 fn f2(v: f64) -> String {
@@ -888,8 +895,8 @@ fn report_html(ctx: &Ctx, curve_svg: Option<&str>) -> Result<String> {
             (Some(a), Some(b)) => format!(" (first day {a}, last day {b})"),
             _ => String::new(),
         },
-        s.days.iter().map(|d| d.work_hours()).sum::<f64>(),
-        s.days.iter().map(|d| d.travel_hours()).sum::<f64>(),
+        s.days.iter().map(|d| d.work_hours()).sum::<f64>() + 0.0,
+        s.days.iter().map(|d| d.travel_hours()).sum::<f64>() + 0.0,
         if s.split_patches > 0 {
             format!(
                 " {} large patch{} spread over several days.",
