@@ -252,7 +252,8 @@ pub struct OrdersArgs {
     /// Most stops on one crew-day
     #[arg(long, value_name = "N", default_value_t = crate::orders::DEFAULT_MAX_STOPS)]
     pub max_stops: usize,
-    /// A `hostcut curve` output folder whose budget curve goes into the report
+    /// A `hostcut curve` output folder whose budget curve goes into the report [default: the
+    /// plan folder's own curve.svg, if it has one]
     #[arg(long, value_name = "DIR")]
     pub curve: Option<PathBuf>,
     /// Print only errors and the standing cautions

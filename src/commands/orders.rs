@@ -173,7 +173,8 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
         ));
     }
     let curve_svg = match &args.curve {
-        None => None,
+        // A curve written into the plan folder itself is used without asking.
+        None => std::fs::read_to_string(args.plan_dir.join("curve.svg")).ok(),
         Some(dir) => {
             let path = dir.join("curve.svg");
             let text = std::fs::read_to_string(&path).map_err(|_| {
