@@ -142,6 +142,30 @@ pub fn line_chart(
     series: &[Series],
     markers: &[Marker],
 ) -> String {
+    fan_chart(
+        title,
+        x_label,
+        y_label,
+        x_format,
+        y_max,
+        series,
+        markers,
+        &[],
+    )
+}
+
+/// A line chart with a shaded band (x, low, high) behind each series that has one (a fan
+/// chart); bands are light and outlined in the series' dash so they survive black and white.
+pub fn fan_chart(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    x_format: &dyn Fn(f64) -> String,
+    y_max: f64,
+    series: &[Series],
+    markers: &[Marker],
+    bands: &[Vec<(f64, f64, f64)>],
+) -> String {
     let (width, height) = (860.0, 540.0);
     let (left, right, top, bottom) = (86.0, 28.0, 58.0, 150.0);
     let (pw, ph) = (width - left - right, height - top - bottom);
@@ -243,6 +267,28 @@ pub fn line_chart(
             px + 4.0,
             if m.strong { "bold" } else { "normal" },
             escape(&m.label)
+        );
+    }
+    // Bands, behind the lines.
+    for (s, band) in series.iter().zip(bands) {
+        if band.is_empty() {
+            continue;
+        }
+        let (colour, _, dash) = s.style.stroke();
+        let upper = band
+            .iter()
+            .map(|&(x, _, hi)| format!("{:.1},{:.1}", sx(x), sy(hi)));
+        let lower = band
+            .iter()
+            .rev()
+            .map(|&(x, lo, _)| format!("{:.1},{:.1}", sx(x), sy(lo)));
+        let points: Vec<String> = upper.chain(lower).collect();
+        let _ = writeln!(
+            svg,
+            r#"<polygon class="band" data-series="{}" points="{}" fill="{colour}" fill-opacity="0.10" stroke="{colour}" stroke-opacity="0.6" stroke-width="0.8" stroke-dasharray="{}"/>"#,
+            escape(&s.id),
+            points.join(" "),
+            if dash.is_empty() { "none" } else { dash }
         );
     }
     // Series.

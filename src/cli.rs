@@ -26,6 +26,8 @@ pub enum Command {
     Record(RecordArgs),
     /// Turn a plan into crew-day work orders with routes, a GeoPackage and a printable report
     Orders(OrdersArgs),
+    /// Check a plan against a stochastic spread simulation, year by year, against other strategies
+    Simulate(SimulateArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -206,6 +208,52 @@ pub struct RecordArgs {
     /// Replace the outputs in a non-empty `--out`
     #[arg(long)]
     pub force: bool,
+}
+
+/// Flags of `hostcut simulate`.
+#[derive(Debug, Clone, Args)]
+pub struct SimulateArgs {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Simulate the plan in this plan folder, with its inputs and settings
+    #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
+    pub plan_dir: Option<PathBuf>,
+    /// Years to simulate (treatment at the start of year 1)
+    #[arg(long, default_value_t = 10)]
+    pub years: u32,
+    /// Stochastic runs per strategy (the same random numbers for every strategy)
+    #[arg(long, default_value_t = 500)]
+    pub runs: u32,
+    /// Seed of the random streams; the same seed gives byte-identical outputs
+    #[arg(long, default_value_t = 42)]
+    pub seed: u64,
+    /// Threads (results do not depend on it)
+    #[arg(long, default_value_t = 2)]
+    pub jobs: usize,
+    /// e: yearly extinction probability of an average-sized untreated patch
+    #[arg(long, default_value_t = 0.2)]
+    pub extinction: f64,
+    /// x: extinction falls as host^-x
+    #[arg(long, default_value_t = 1.0)]
+    pub extinction_exponent: f64,
+    /// c: colonisation scale per year
+    #[arg(long, default_value_t = 0.5)]
+    pub colonisation: f64,
+    /// iota: introductions per unit of pressure (average-patch equivalents of occupied host)
+    #[arg(long, default_value_t = 0.05)]
+    pub introduction: f64,
+    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
+    #[arg(long, default_value_t = 0.1)]
+    pub regrowth: f64,
+    /// Share of a saturated patch's colonisation pressure that travels far (0 = off)
+    #[arg(long, default_value_t = 0.0)]
+    pub long_distance_share: f64,
+    /// Long-distance kernel scale as a multiple of alpha
+    #[arg(long, default_value_t = 10.0)]
+    pub long_distance_multiple: f64,
+    /// Years a patch must stay occupied to count as saturated
+    #[arg(long, default_value_t = 3)]
+    pub long_distance_after_years: u32,
 }
 
 /// Flags of `hostcut orders`.

@@ -28,6 +28,7 @@ pub mod pipeline;
 pub mod plan;
 pub mod routing;
 pub mod settings;
+pub mod simulate;
 pub mod suitability;
 pub mod treatments;
 
@@ -49,6 +50,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Contract(args) => Ok(commands::contract::run_contract(&args)?),
         Command::Record(args) => Ok(commands::contract::run_record(&args)?),
         Command::Orders(args) => commands::orders::run(&args),
+        Command::Simulate(args) => commands::simulate::run(&args),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

@@ -29,6 +29,14 @@ pub struct Prepared {
     pub excluded: Vec<bool>,
     /// Establishment suitability s_i (1 without a layer or column).
     pub suitability: Vec<f64>,
+    /// Effective host h_i = stems_i x s_i.
+    pub host: Vec<f64>,
+    /// What the pressure was built from, kept so other kernels can be modelled on the same
+    /// patches (ensembles) and so simulations can start where the insect was found.
+    pub corridors: Vec<crate::layers::Corridor>,
+    pub detections: Vec<(f64, f64)>,
+    pub detection_weight: f64,
+    pub epsilon: f64,
 }
 
 /// Run the stages for `s`; `progress` receives one line per stage.
@@ -171,10 +179,31 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         required,
         excluded,
         suitability,
+        host,
+        corridors: layers.corridors.clone(),
+        detections: layers.detections.clone(),
+        detection_weight: layers.detection_weight,
+        epsilon: s.model.epsilon,
     })
 }
 
 impl Prepared {
+    /// The graph, pressure and risk model of the same patches under another kernel.
+    pub fn model_for(&self, kernel: Kernel) -> (PatchGraph, Pressure, RiskModel) {
+        let points: Vec<(f64, f64)> = self.patches.items.iter().map(|p| (p.x, p.y)).collect();
+        let graph = graph::build_graph(&points, kernel, self.epsilon);
+        let pressure = graph::pressure(
+            &self.patches,
+            &self.corridors,
+            &self.detections,
+            self.detection_weight,
+            kernel,
+            self.epsilon,
+        );
+        let model = RiskModel::new(&self.host, &pressure.values, &graph);
+        (graph, pressure, model)
+    }
+
     /// The optimiser's problem at `budget` and `crew_hours`.
     pub fn problem(&self, budget: f64, crew_hours: Option<f64>) -> Problem<'_> {
         Problem {

@@ -5,3 +5,4 @@ pub mod curve;
 pub mod demo;
 pub mod orders;
 pub mod plan;
+pub mod simulate;
