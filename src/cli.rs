@@ -103,9 +103,16 @@ pub struct PlanArgs {
     /// Treatment catalogue TOML (replaces the built-in models/treatments.toml)
     #[arg(long, value_name = "FILE")]
     pub treatments: Option<PathBuf>,
-    /// Dispersal kernel family
-    #[arg(long, value_enum)]
-    pub kernel: Option<KernelKind>,
+    /// Dispersal kernel: `exp` or `cauchy`, optionally with its scale (`exp:200`); give it
+    /// several times to plan across dispersal scenarios (an ensemble, equal weights)
+    #[arg(long, value_name = "FAMILY[:ALPHA_M]")]
+    pub kernel: Vec<String>,
+    /// Dispersal scenarios to plan across: TOML with `[[scenario]]` kernel, alpha_m, weight, name
+    #[arg(long, value_name = "FILE.toml")]
+    pub ensemble: Option<PathBuf>,
+    /// With scenarios: minimise the weighted mean R, the worst-case R, or the largest regret
+    #[arg(long, value_enum, value_name = "HOW")]
+    pub robust: Option<crate::settings::Robust>,
     /// Dispersal kernel scale alpha in metres
     #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
     pub alpha_m: Option<f64>,

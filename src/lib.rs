@@ -14,6 +14,7 @@ pub mod commands;
 pub mod contract;
 pub mod curve;
 pub mod demo;
+pub mod ensemble;
 pub mod error;
 pub mod gis;
 pub mod graph;

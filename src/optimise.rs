@@ -447,61 +447,15 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
 
     let built = match limits.formulation {
         Formulation::Compact => build_compact(problem, scale, warm.as_ref().map(|w| &w.0))?,
-        Formulation::Transport => build_transport(problem, scale, warm.as_ref().map(|w| &w.0))?,
-    };
-    let Built {
-        mut model,
-        x_columns,
-    } = built;
-    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
-    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
-    model.set_option("output_flag", log);
-    model.set_option("log_to_console", log);
-    model.set_option("time_limit", limits.time_limit_s.max(0.01));
-    model.set_option("mip_rel_gap", limits.gap);
-    model.set_option("mip_abs_gap", 1e-9);
-    // Fixed seed and thread count, so the same problem gives the same plan on any machine
-    // (HiGHS's MIP is deterministic for a given thread count).
-    model.set_option("random_seed", 0);
-    model.set_option("threads", limits.threads.unwrap_or(2) as i32);
-    let solved = model
-        .try_solve()
-        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
-    use highs::HighsModelStatus as S;
-    let highs_status = solved.status();
-    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
-    let mut status = match highs_status {
-        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
-        S::Infeasible | S::UnboundedOrInfeasible => {
-            return Ok(infeasible(n, risk_before, greedy, start_time));
-        }
-        S::ReachedTimeLimit
-        | S::ReachedIterationLimit
-        | S::ReachedSolutionLimit
-        | S::ReachedInterrupt
-        | S::ReachedMemoryLimit => Status::TimeLimit,
-        other => {
-            return Err(Error::Internal(format!(
-                "HiGHS ended with status {other:?}"
-            )));
+        Formulation::Transport => {
+            build_transport(problem, scale, warm.as_ref().map(|w| &w.0), None)?
         }
     };
-    let mut assignment: Assignment = vec![None; n];
-    if has_solution {
-        let values = solved.get_solution();
-        let values = values.columns();
-        for i in 0..n {
-            for &(o, col) in &x_columns[i] {
-                if values[col] > 0.5 {
-                    assignment[i] = Some(o);
-                }
-            }
-        }
-    }
-    let dual = solved
-        .double_info_value(c"mip_dual_bound")
-        .unwrap_or(f64::NEG_INFINITY)
-        / scale;
+    let Some(run) = run_highs(built, limits, n)? else {
+        return Ok(infeasible(n, risk_before, greedy, start_time));
+    };
+    let (mut status, mut assignment, has_solution) = (run.status, run.assignment, run.has_solution);
+    let dual = run.objective_bound / scale;
     let mut risk_after = problem.risk(&assignment);
     if !has_solution || !problem.feasible(&assignment) {
         match &warm {
@@ -540,6 +494,189 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         seconds: start_time.elapsed().as_secs_f64(),
         greedy,
     })
+}
+
+/// What HiGHS returned: the status (never infeasible: that is `None` from [`run_highs`]), the
+/// assignment read from the x columns, and its dual bound on the (scaled) objective.
+struct HighsRun {
+    status: Status,
+    assignment: Assignment,
+    has_solution: bool,
+    objective_bound: f64,
+}
+
+/// Solve a built model with the run's limits, a fixed seed and thread count. `None` when HiGHS
+/// proves it infeasible.
+fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option<HighsRun>> {
+    let Built {
+        mut model,
+        x_columns,
+    } = built;
+    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
+    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
+    model.set_option("output_flag", log);
+    model.set_option("log_to_console", log);
+    model.set_option("time_limit", limits.time_limit_s.max(0.01));
+    model.set_option("mip_rel_gap", limits.gap);
+    model.set_option("mip_abs_gap", 1e-9);
+    // Fixed seed and thread count, so the same problem gives the same plan on any machine
+    // (HiGHS's MIP is deterministic for a given thread count).
+    model.set_option("random_seed", 0);
+    model.set_option("threads", limits.threads.unwrap_or(2) as i32);
+    let solved = model
+        .try_solve()
+        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
+    use highs::HighsModelStatus as S;
+    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
+    let status = match solved.status() {
+        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
+        S::Infeasible | S::UnboundedOrInfeasible => return Ok(None),
+        S::ReachedTimeLimit
+        | S::ReachedIterationLimit
+        | S::ReachedSolutionLimit
+        | S::ReachedInterrupt
+        | S::ReachedMemoryLimit => Status::TimeLimit,
+        other => {
+            return Err(Error::Internal(format!(
+                "HiGHS ended with status {other:?}"
+            )));
+        }
+    };
+    let mut assignment: Assignment = vec![None; n];
+    if has_solution {
+        let values = solved.get_solution();
+        let values = values.columns();
+        for i in 0..n {
+            for &(o, col) in &x_columns[i] {
+                if values[col] > 0.5 {
+                    assignment[i] = Some(o);
+                }
+            }
+        }
+    }
+    let objective_bound = solved
+        .double_info_value(c"mip_dual_bound")
+        .unwrap_or(f64::NEG_INFINITY);
+    Ok(Some(HighsRun {
+        status,
+        assignment,
+        has_solution,
+        objective_bound,
+    }))
+}
+
+/// The answer to a min-max solve.
+#[derive(Debug, Clone)]
+pub struct MinMaxSolved {
+    pub assignment: Assignment,
+    /// max_s (R_s - offset_s) of the assignment.
+    pub value: f64,
+    /// A proven lower bound on the least achievable value.
+    pub bound: f64,
+    /// (value - bound) / (the assignment's worst-scenario R): the gap on the risk that remains.
+    pub gap: f64,
+    pub status: Status,
+    pub seconds: f64,
+}
+
+/// Minimise max_s (R_s - offset_s) over feasible plans, exactly (transportation formulation with
+/// an epigraph variable), warm-started from the best of `starts`. `floor` is a lower bound known
+/// beforehand (e.g. max_s of each scenario's own proven bound minus its offset: no plan does
+/// better in scenario s than its optimum); the reported bound is the larger of it and HiGHS's.
+pub fn solve_minmax(
+    problem: &Problem,
+    mm: &MinMax,
+    limits: Limits,
+    starts: &[Assignment],
+    floor: f64,
+) -> Result<MinMaxSolved> {
+    let start_time = Instant::now();
+    let n = problem.len();
+    let warm = starts
+        .iter()
+        .filter(|a| a.len() == n && problem.feasible(a))
+        .min_by(|a, b| mm.value(problem, a).total_cmp(&mm.value(problem, b)))
+        .cloned();
+    let done = |assignment: Assignment, bound: f64, status: Status| {
+        let value = mm.value(problem, &assignment);
+        let bound = if bound.is_finite() {
+            bound.max(floor)
+        } else {
+            floor
+        };
+        let worst = mm.worst_risk(problem, &assignment);
+        let bound = bound.min(value);
+        let gap = if worst > 0.0 {
+            ((value - bound) / worst).max(0.0)
+        } else {
+            0.0
+        };
+        let status = if status == Status::Optimal && gap > OPTIMAL_GAP {
+            Status::GapLimit
+        } else {
+            status
+        };
+        MinMaxSolved {
+            assignment,
+            value,
+            bound,
+            gap,
+            status,
+            seconds: start_time.elapsed().as_secs_f64(),
+        }
+    };
+    // Every R_s only grows with each r_i, so treating everything, when it fits, is optimal.
+    let (everything, _) = problem.everything();
+    if problem.feasible(&everything) {
+        let v = mm.value(problem, &everything);
+        return Ok(done(everything, v, Status::Optimal));
+    }
+    // A start already within the requested gap of the known floor needs no search.
+    if let Some(w) = &warm {
+        let worst = mm.worst_risk(problem, w);
+        if worst > 0.0 && (mm.value(problem, w) - floor) / worst <= limits.gap {
+            return Ok(done(w.clone(), floor, Status::Optimal));
+        }
+    }
+    let worst_before = mm.worst_risk(problem, &vec![None; n]);
+    if worst_before <= 0.0 {
+        return Ok(done(vec![None; n], f64::NEG_INFINITY, Status::Optimal));
+    }
+    let scale = 1e3 / worst_before;
+    let built = build_transport(problem, scale, warm.as_ref(), Some(mm))?;
+    let Some(run) = run_highs(built, limits, n)? else {
+        return Ok(MinMaxSolved {
+            assignment: vec![None; n],
+            value: f64::NAN,
+            bound: f64::NAN,
+            gap: f64::NAN,
+            status: Status::Infeasible,
+            seconds: start_time.elapsed().as_secs_f64(),
+        });
+    };
+    let mut assignment = run.assignment;
+    if !run.has_solution || !problem.feasible(&assignment) {
+        match &warm {
+            Some(w) => assignment = w.clone(),
+            None => {
+                return Ok(MinMaxSolved {
+                    assignment: vec![None; n],
+                    value: f64::NAN,
+                    bound: f64::NAN,
+                    gap: f64::NAN,
+                    status: Status::Infeasible,
+                    seconds: start_time.elapsed().as_secs_f64(),
+                });
+            }
+        }
+    }
+    if let Some(w) = warm.as_ref()
+        && mm.value(problem, w) < mm.value(problem, &assignment)
+    {
+        assignment = w.clone();
+    }
+    let bound = (run.objective_bound / scale).max(floor);
+    Ok(done(assignment, bound, run.status))
 }
 
 /// Memory the transportation model is estimated to need, in GB: about 1 kB per pair-of-options
@@ -769,8 +906,50 @@ fn build_compact(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> Re
 /// sum_l z_kl = v_ik and sum_k z_kl = v_jl. At integer points z is the product v_ik v_jl, so
 /// R = sum_i own_i sum_k r_k^2 v_ik + sum_links w_ij sum_kl r_k r_l z_kl exactly, and its LP
 /// relaxation is the local-consistency bound, much tighter than the compact one.
-fn build_transport(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> Result<Built> {
+/// Several risk models over the same patches (an ensemble of dispersal scenarios) and what to
+/// minimise over them: the largest of R_s - offset_s (offsets 0: the worst-case R; offsets =
+/// each scenario's least achievable R: the largest regret).
+#[derive(Debug, Clone)]
+pub struct MinMax<'a> {
+    pub models: Vec<&'a RiskModel>,
+    pub offsets: Vec<f64>,
+}
+
+impl MinMax<'_> {
+    /// max_s (R_s(a) - offset_s).
+    pub fn value(&self, problem: &Problem, a: &Assignment) -> f64 {
+        let r = problem.remaining(a);
+        self.models
+            .iter()
+            .zip(&self.offsets)
+            .map(|(m, o)| m.risk(&r) - o)
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
+    /// max_s R_s(a): the risk that remains in the worst scenario.
+    pub fn worst_risk(&self, problem: &Problem, a: &Assignment) -> f64 {
+        let r = problem.remaining(a);
+        self.models
+            .iter()
+            .map(|m| m.risk(&r))
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+}
+
+/// The transportation formulation. With `minmax`, the objective is an epigraph variable t with
+/// t >= R_s - offset_s for every model (exact: each R_s is linear in (v, z)); the z variables
+/// cover the union of every model's links.
+fn build_transport(
+    problem: &Problem,
+    scale: f64,
+    warm: Option<&Assignment>,
+    minmax: Option<&MinMax>,
+) -> Result<Built> {
     let n = problem.len();
+    let models: Vec<&RiskModel> = match minmax {
+        Some(m) => m.models.clone(),
+        None => vec![problem.model],
+    };
     let mut vars = ProblemVariables::new();
     let mut columns = 0usize;
     // options[i]: (variable, column, r) with the untreated option first; empty when fixed.
@@ -799,58 +978,96 @@ fn build_transport(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> 
             columns += 1;
         }
     }
-    let mut constant = 0.0;
-    let mut objective = Expression::from(0.0);
-    for i in 0..n {
-        if options[i].is_empty() {
-            constant += problem.model.own[i];
-        } else {
-            for &(v, _, r) in &options[i] {
-                objective += problem.model.own[i] * r * r * v;
-            }
-        }
-    }
     struct Pair {
         a: usize,
         b: usize,
         z: Vec<Vec<(Variable, usize)>>,
     }
+    // One set of z per linked pair of treatable patches, over every model's links.
     let mut pairs: Vec<Pair> = Vec::new();
-    for link in &problem.model.links {
-        let (a, b, w) = (link.a, link.b, link.weight);
-        match (options[a].is_empty(), options[b].is_empty()) {
-            (true, true) => constant += w,
-            (false, true) => {
-                for &(v, _, r) in &options[a] {
-                    objective += w * r * v;
-                }
+    let mut pair_of: std::collections::HashMap<(usize, usize), usize> =
+        std::collections::HashMap::new();
+    for model in &models {
+        for link in &model.links {
+            let (a, b) = (link.a.min(link.b), link.a.max(link.b));
+            if options[a].is_empty() || options[b].is_empty() || pair_of.contains_key(&(a, b)) {
+                continue;
             }
-            (true, false) => {
-                for &(v, _, r) in &options[b] {
-                    objective += w * r * v;
+            let mut z = Vec::with_capacity(options[a].len());
+            for _ in 0..options[a].len() {
+                let mut row = Vec::with_capacity(options[b].len());
+                for _ in 0..options[b].len() {
+                    row.push((vars.add(variable().min(0.0).max(1.0)), columns));
+                    columns += 1;
                 }
+                z.push(row);
             }
-            (false, false) => {
-                let mut z = Vec::with_capacity(options[a].len());
-                for &(_, _, ra) in &options[a] {
-                    let mut row = Vec::with_capacity(options[b].len());
-                    for &(_, _, rb) in &options[b] {
-                        let var = vars.add(variable().min(0.0).max(1.0));
-                        objective += w * ra * rb * var;
-                        row.push((var, columns));
-                        columns += 1;
-                    }
-                    z.push(row);
-                }
-                pairs.push(Pair { a, b, z });
-            }
+            pair_of.insert((a, b), pairs.len());
+            pairs.push(Pair { a, b, z });
         }
     }
     let one = vars.add(variable().min(1.0).max(1.0));
     let one_column = columns;
     columns += 1;
-    objective += constant * one;
-    let mut lp = vars.minimise(scale * objective).using(highs);
+    // R of each model as a linear expression in (v, z) and the fixed column.
+    let risk_of = |model: &RiskModel| -> Expression {
+        let mut constant = 0.0;
+        let mut objective = Expression::from(0.0);
+        for i in 0..n {
+            if options[i].is_empty() {
+                constant += model.own[i];
+            } else {
+                for &(v, _, r) in &options[i] {
+                    objective += model.own[i] * r * r * v;
+                }
+            }
+        }
+        for link in &model.links {
+            let (a, b, w) = (link.a.min(link.b), link.a.max(link.b), link.weight);
+            match (options[a].is_empty(), options[b].is_empty()) {
+                (true, true) => constant += w,
+                (false, true) => {
+                    for &(v, _, r) in &options[a] {
+                        objective += w * r * v;
+                    }
+                }
+                (true, false) => {
+                    for &(v, _, r) in &options[b] {
+                        objective += w * r * v;
+                    }
+                }
+                (false, false) => {
+                    let p = &pairs[pair_of[&(a, b)]];
+                    for (k, &(_, _, ra)) in options[a].iter().enumerate() {
+                        for (l, &(_, _, rb)) in options[b].iter().enumerate() {
+                            objective += w * ra * rb * p.z[k][l].0;
+                        }
+                    }
+                }
+            }
+        }
+        objective + constant * one
+    };
+    let risks: Vec<Expression> = models.iter().map(|m| risk_of(m)).collect();
+    let epigraph = minmax.map(|_| {
+        let t = vars.add(variable());
+        let column = columns;
+        columns += 1;
+        (t, column)
+    });
+    let mut lp = match epigraph {
+        None => vars
+            .minimise(scale * risks.into_iter().next().expect("one model"))
+            .using(highs),
+        Some((t, _)) => {
+            let mut lp = vars.minimise(scale * t).using(highs);
+            let offsets = &minmax.expect("epigraph only with minmax").offsets;
+            for (risk, offset) in risks.into_iter().zip(offsets) {
+                lp = lp.with((scale * (risk - t)).leq(scale * offset));
+            }
+            lp
+        }
+    };
     for i in 0..n {
         if options[i].is_empty() {
             continue;
@@ -903,6 +1120,9 @@ fn build_transport(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> 
         }
         for p in &pairs {
             values[p.z[option_of(p.a)][option_of(p.b)].1] = 1.0;
+        }
+        if let (Some((_, column)), Some(mm)) = (epigraph, minmax) {
+            values[column] = mm.value(problem, assignment);
         }
         model
             .try_set_solution(Some(&values), None, None, None)

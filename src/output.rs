@@ -188,6 +188,10 @@ pub struct Summary {
     pub depot: [f64; 2],
     /// The suitability layer used, if any (effective host = stems x suitability).
     pub suitability_layer: Option<String>,
+    /// Plans across dispersal scenarios: the objective, each scenario and the regret table's
+    /// verdict (absent for a single kernel).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ensemble: Option<serde_json::Value>,
 }
 
 /// Scientific notation for values that span many orders of magnitude.
@@ -466,5 +470,6 @@ pub fn summary(
         baselines: serde_json::Map::new(),
         depot: [f64::NAN, f64::NAN],
         suitability_layer: None,
+        ensemble: None,
     }
 }

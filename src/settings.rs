@@ -35,6 +35,107 @@ pub struct Scenario {
     pub plan: PlanSection,
     #[serde(default)]
     pub solver: SolverSection,
+    /// Dispersal scenarios to plan across (`--ensemble`, several `--kernel`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ensemble: Option<EnsembleSection>,
+}
+
+/// What an ensemble plan minimises.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum Robust {
+    /// The weighted mean of R over the scenarios
+    #[default]
+    Mean,
+    /// The worst-case R over the scenarios
+    Worst,
+    /// The largest regret: R minus the scenario's own least achievable R
+    Regret,
+}
+
+impl Robust {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Robust::Mean => "mean",
+            Robust::Worst => "worst",
+            Robust::Regret => "regret",
+        }
+    }
+}
+
+/// One dispersal scenario of an ensemble.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EnsembleMember {
+    /// Name in outputs (default `family:alpha`, e.g. `exp:200`).
+    #[serde(default)]
+    pub name: String,
+    pub kernel: KernelKind,
+    pub alpha_m: f64,
+    #[serde(default = "d_one")]
+    pub weight: f64,
+}
+
+/// `[ensemble]` of a scenario file, or the whole of an `--ensemble` file.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct EnsembleSection {
+    pub robust: Robust,
+    #[serde(rename = "scenario")]
+    pub members: Vec<EnsembleMember>,
+}
+
+/// Parse `exp`, `cauchy`, `exp:200` or `cauchy:150.5` (a `--kernel` value).
+pub fn parse_kernel(text: &str) -> Result<(KernelKind, Option<f64>)> {
+    let bad = || {
+        Error::input_with_hint(
+            format!("`--kernel {text}` is not a kernel"),
+            "write `exp`, `cauchy`, or a family with its scale in metres such as `exp:200`",
+        )
+    };
+    let (family, alpha) = match text.split_once(':') {
+        Some((f, a)) => (f, Some(a.trim().parse::<f64>().map_err(|_| bad())?)),
+        None => (text, None),
+    };
+    let kind = match family.trim().to_ascii_lowercase().as_str() {
+        "exp" => KernelKind::Exp,
+        "cauchy" => KernelKind::Cauchy,
+        _ => return Err(bad()),
+    };
+    if alpha.is_some_and(|a| !(a.is_finite() && a > 0.0)) {
+        return Err(Error::input(format!(
+            "`--kernel {text}`: the scale must be a positive distance in metres"
+        )));
+    }
+    Ok((kind, alpha))
+}
+
+fn kernel_name(kind: KernelKind) -> &'static str {
+    match kind {
+        KernelKind::Exp => "exp",
+        KernelKind::Cauchy => "cauchy",
+    }
+}
+
+/// Read an `--ensemble` file.
+pub fn read_ensemble(path: &Path) -> Result<EnsembleSection> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::io("read", path, e))?;
+    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    toml::from_str(text).map_err(|e| {
+        let line = e
+            .span()
+            .and_then(|s| text.get(..s.start))
+            .map(|before| before.lines().count().max(1));
+        Error::input_with_hint(
+            format!(
+                "ensemble `{}`{}: {}",
+                path.display(),
+                line.map(|l| format!(", line {l}")).unwrap_or_default(),
+                e.message()
+            ),
+            "one `[[scenario]]` per kernel with `kernel = \"exp\"`, `alpha_m = 200` and optionally `weight` and `name`; optionally `robust = \"worst\"` at the top",
+        )
+    })
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -453,8 +554,60 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(p) = &args.treatments {
         s.plan.treatments = Some(abs(p));
     }
-    if let Some(v) = args.kernel {
-        s.model.kernel = v;
+    match args.kernel.len() {
+        0 => {}
+        1 => {
+            // One kernel on the command line replaces any ensemble of the scenario.
+            let (kind, alpha) = parse_kernel(&args.kernel[0])?;
+            s.model.kernel = kind;
+            if let Some(a) = alpha {
+                s.model.alpha_m = a;
+            }
+            s.ensemble = None;
+        }
+        _ => {
+            let mut members = Vec::new();
+            for k in &args.kernel {
+                let (kernel, alpha) = parse_kernel(k)?;
+                let alpha_m = alpha.ok_or_else(|| {
+                    Error::input_with_hint(
+                        format!("`--kernel {k}`: an ensemble needs each kernel's scale"),
+                        "write e.g. `--kernel exp:100 --kernel exp:400 --kernel cauchy:200`",
+                    )
+                })?;
+                members.push(EnsembleMember {
+                    name: String::new(),
+                    kernel,
+                    alpha_m,
+                    weight: 1.0,
+                });
+            }
+            s.ensemble = Some(EnsembleSection {
+                robust: Robust::Mean,
+                members,
+            });
+        }
+    }
+    if let Some(p) = &args.ensemble {
+        s.ensemble = Some(read_ensemble(&abs(p))?);
+    }
+    if let Some(r) = args.robust {
+        match s.ensemble.as_mut() {
+            Some(e) => e.robust = r,
+            None => {
+                return Err(Error::input_with_hint(
+                    "`--robust` needs scenarios to be robust across",
+                    "add `--ensemble FILE.toml` or several `--kernel FAMILY:ALPHA_M`",
+                ));
+            }
+        }
+    }
+    if let Some(e) = s.ensemble.as_mut() {
+        for m in e.members.iter_mut() {
+            if m.name.is_empty() {
+                m.name = format!("{}:{}", kernel_name(m.kernel), m.alpha_m);
+            }
+        }
     }
     if let Some(v) = args.alpha_m {
         s.model.alpha_m = v;
@@ -538,7 +691,60 @@ pub fn validate(s: &Scenario) -> Result<()> {
     validate_with(s, true)
 }
 
+fn validate_ensemble(e: &EnsembleSection) -> Result<()> {
+    let hint = "each `[[scenario]]` needs `kernel = \"exp\"` or `\"cauchy\"`, `alpha_m` above 0 and a `weight` of 0 or more";
+    if e.members.is_empty() {
+        return Err(Error::input_with_hint(
+            "the ensemble has no scenarios",
+            hint,
+        ));
+    }
+    if e.members.len() > 50 {
+        return Err(Error::input(format!(
+            "the ensemble has {} scenarios; this version plans across at most 50",
+            e.members.len()
+        )));
+    }
+    let mut names = std::collections::BTreeSet::new();
+    for m in &e.members {
+        if !(m.alpha_m.is_finite() && m.alpha_m > 0.0) {
+            return Err(Error::input_with_hint(
+                format!(
+                    "ensemble scenario `{}`: alpha_m must be a positive distance in metres, got {}",
+                    m.name, m.alpha_m
+                ),
+                hint,
+            ));
+        }
+        if !(m.weight.is_finite() && m.weight >= 0.0) {
+            return Err(Error::input_with_hint(
+                format!(
+                    "ensemble scenario `{}`: weight must be 0 or more, got {}",
+                    m.name, m.weight
+                ),
+                hint,
+            ));
+        }
+        if !names.insert(m.name.as_str()) {
+            return Err(Error::input(format!(
+                "ensemble scenario name `{}` appears twice",
+                m.name
+            )));
+        }
+    }
+    if e.members.iter().map(|m| m.weight).sum::<f64>() <= 0.0 {
+        return Err(Error::input_with_hint(
+            "the ensemble's weights are all 0",
+            hint,
+        ));
+    }
+    Ok(())
+}
+
 fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
+    if let Some(e) = &s.ensemble {
+        validate_ensemble(e)?;
+    }
     match (&s.host.path, &s.host.inventory) {
         (None, None) => {
             return Err(Error::input_with_hint(

@@ -5,9 +5,11 @@
 //! of patch i relative to the average untreated patch (a_i its share of all host, h_i the share of
 //! its host standing this year) and o_j = 1 for occupied patches:
 //!
-//!     S_i   = sum_j k_ij A_j o_j                     (connectivity; b = 1)
-//!     P_col = 1 - exp(-c A_i (S_i + iota pi_i))      (an empty patch is colonised)
-//!     P_ext = min(1, e / A_i^x)                      (an occupied patch goes extinct)
+//! ```text
+//! S_i   = sum_j k_ij A_j o_j                     (connectivity; b = 1)
+//! P_col = 1 - exp(-c A_i (S_i + iota pi_i))      (an empty patch is colonised)
+//! P_ext = min(1, e / A_i^x)                      (an occupied patch goes extinct)
+//! ```
 //!
 //! (the colonisation variant 1 - exp(-c S) of the methods notes, scaled by the receiving patch's
 //! host as in the Levins model of `model.rs`). Treatment sets h_i = r_i at the start of year 1;

@@ -87,6 +87,12 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
         .transpose()?;
     let settings = settings::resolve_with(&inputs, false)?;
     let s = &settings.scenario;
+    if s.ensemble.is_some() {
+        return Err(Error::input_with_hint(
+            "`hostcut curve` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
+            "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
+        ));
+    }
     let staging = Staging::new(&settings.out, settings.force)?;
     let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;

@@ -3,6 +3,7 @@
 pub mod contract;
 pub mod curve;
 pub mod demo;
+pub mod ensemble;
 pub mod orders;
 pub mod plan;
 pub mod simulate;

@@ -27,7 +27,24 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let s = &settings.scenario;
     let staging = Staging::new(&settings.out, settings.force)?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let mut prepared = pipeline::prepare(s, &progress)?;
+    let budget = s.plan.budget.unwrap_or(0.0);
+    let limits = Limits {
+        max_memory_gb: s.solver.max_memory_gb,
+        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+    };
+    // Across dispersal scenarios the plan's model becomes their weighted mean.
+    let ensemble = match &s.ensemble {
+        Some(e) => Some(super::ensemble::solve(
+            &mut prepared,
+            e,
+            budget,
+            s.plan.crew_hours,
+            limits,
+            &progress,
+        )?),
+        None => None,
+    };
     let pipeline::Prepared {
         catalogue,
         catalogue_text,
@@ -38,16 +55,14 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         eligible,
         ..
     } = &prepared;
-    let budget = s.plan.budget.unwrap_or(0.0);
     let problem = prepared.problem(budget, s.plan.crew_hours);
-    progress("optimising");
-    let solved = optimise::solve(
-        &problem,
-        Limits {
-            max_memory_gb: s.solver.max_memory_gb,
-            ..Limits::new(s.solver.time_limit_s, s.solver.gap)
-        },
-    )?;
+    let solved = match &ensemble {
+        Some(e) => e.chosen.clone(),
+        None => {
+            progress("optimising");
+            optimise::solve(&problem, limits)?
+        }
+    };
     if solved.status == Status::Infeasible {
         return Err(infeasible_requirements(&problem, patches, budget));
     }
@@ -97,6 +112,10 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         plan.risk_before,
         plan.risk_after,
     );
+    if let Some(e) = &ensemble {
+        staging.write("regret.csv", &e.regret_csv)?;
+        summary.ensemble = Some(e.json.clone());
+    }
     let json = serde_json::to_string_pretty(&summary)
         .map_err(|e| Error::Internal(format!("summary: {e}")))?;
     staging.write("summary.json", json + "\n")?;
@@ -111,6 +130,14 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
     let out = staging.commit()?;
 
     let mut text = human_summary(&summary, &plan, patches, catalogue, &out);
+    if let Some(e) = &ensemble {
+        text = text.replacen("\noutputs in", &format!("\n{}outputs in", e.text), 1);
+        text = text.replacen(
+            "cautions.txt, scenario",
+            "cautions.txt, regret.csv, scenario",
+            1,
+        );
+    }
     if plan.status != Status::Infeasible
         && let Some(line) = comparison_line(&baselines, plan.risk_after)
     {
@@ -298,6 +325,14 @@ fn human_summary(
                         t,
                         "  the greedy benefit-per-cost plan would cut {g:.1}%, leaving {more:.1}% more risk than this plan"
                     );
+                } else if more < -0.05 {
+                    // Only a plan that minimises something else (a robust ensemble plan) can be
+                    // beaten on R by greedy.
+                    let _ = writeln!(
+                        t,
+                        "  the greedy benefit-per-cost plan would cut {g:.1}%, {:.2}% less risk than this plan on this measure (this plan is chosen for robustness across the dispersal scenarios instead)",
+                        -more
+                    );
                 } else {
                     let _ = writeln!(
                         t,
@@ -322,9 +357,14 @@ fn human_summary(
                 ),
                 Status::Infeasible => unreachable!(),
             };
+            let objective = match summary.ensemble.as_ref().and_then(|e| e["robust"].as_str()) {
+                Some("worst") => " on the worst-case R",
+                Some("regret") => " on the largest regret",
+                _ => "",
+            };
             let _ = writeln!(
                 t,
-                "optimiser: {status} (status {}, gap {:.2e}, {:.1} s)",
+                "optimiser{objective}: {status} (status {}, gap {:.2e}, {:.1} s)",
                 plan.status.as_str(),
                 plan.gap,
                 plan.solve_seconds

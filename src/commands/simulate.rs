@@ -212,6 +212,12 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     }
     let settings = settings::resolve_with(&inputs, args.plan_dir.is_none())?;
     let s = &settings.scenario;
+    if s.ensemble.is_some() {
+        return Err(Error::input_with_hint(
+            "`hostcut simulate` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
+            "give one kernel, e.g. `--kernel exp:200`, to simulate each scenario in turn",
+        ));
+    }
     let staging = Staging::new(&settings.out, settings.force)?;
     let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;

@@ -1,0 +1,290 @@
+//! `hostcut plan` across dispersal scenarios: each scenario's own optimum, the weighted-mean
+//! plan, the worst-case or least-regret plan, and regret.csv comparing every candidate under
+//! every scenario.
+
+use std::fmt::Write as _;
+
+use crate::ensemble;
+use crate::error::{Error, Result};
+use crate::graph::Kernel;
+use crate::model::RiskModel;
+use crate::optimise::{self, Assignment, Limits, MinMax, Problem, Solved, Status};
+use crate::pipeline::Prepared;
+use crate::settings::{EnsembleSection, Robust};
+
+/// What the plan command needs back.
+pub struct EnsembleRun {
+    /// The plan to write (mean, worst-case or least-regret).
+    pub chosen: Solved,
+    pub regret_csv: Vec<u8>,
+    pub json: serde_json::Value,
+    /// Lines for stdout.
+    pub text: String,
+}
+
+fn kernel_name(k: &Kernel) -> &'static str {
+    match k.kind {
+        crate::cli::KernelKind::Exp => "exp",
+        crate::cli::KernelKind::Cauchy => "cauchy",
+    }
+}
+
+/// Solve across the scenarios of `e`; `prepared.model` becomes their weighted mean.
+pub fn solve(
+    prepared: &mut Prepared,
+    e: &EnsembleSection,
+    budget: f64,
+    crew_hours: Option<f64>,
+    limits: Limits,
+    progress: &dyn Fn(&str),
+) -> Result<EnsembleRun> {
+    let kernels: Vec<Kernel> = e
+        .members
+        .iter()
+        .map(|m| Kernel {
+            kind: m.kernel,
+            alpha_m: m.alpha_m,
+        })
+        .collect();
+    progress(&format!("building {} dispersal scenarios", kernels.len()));
+    let models: Vec<RiskModel> = kernels.iter().map(|k| prepared.model_for(*k).2).collect();
+    let links: usize = models.iter().map(|m| m.links.len()).sum();
+    if links > 5_000_000 {
+        return Err(Error::input_with_hint(
+            format!(
+                "the scenarios have {links} links together, more than this version plans (5,000,000)"
+            ),
+            "use fewer scenarios, smaller scales, or a larger `--epsilon`",
+        ));
+    }
+    let weights: Vec<f64> = e.members.iter().map(|m| m.weight).collect();
+    let total_weight: f64 = weights.iter().sum();
+    prepared.model = ensemble::combine(&models, &weights);
+    let base = prepared.problem(budget, crew_hours);
+    fn in_scenario<'a>(base: &Problem<'a>, m: &'a RiskModel) -> Problem<'a> {
+        Problem {
+            model: m,
+            ..base.clone()
+        }
+    }
+
+    // Each scenario's own optimum.
+    let mut optima: Vec<Solved> = Vec::new();
+    for (m, member) in models.iter().zip(&e.members) {
+        progress(&format!("optimising for scenario {}", member.name));
+        let solved = optimise::solve(&in_scenario(&base, m), limits)?;
+        if solved.status == Status::Infeasible {
+            return Ok(EnsembleRun {
+                chosen: solved,
+                regret_csv: Vec::new(),
+                json: serde_json::Value::Null,
+                text: String::new(),
+            });
+        }
+        optima.push(solved);
+    }
+    progress("optimising the weighted mean over the scenarios");
+    let best_start = optima
+        .iter()
+        .min_by(|a, b| {
+            base.risk(&a.assignment)
+                .total_cmp(&base.risk(&b.assignment))
+        })
+        .map(|s| s.assignment.clone());
+    let mean = optimise::solve_from(&base, limits, best_start.as_ref())?;
+    let greedy = mean.greedy.clone();
+
+    let minmax_for = |robust: Robust| MinMax {
+        models: models.iter().collect(),
+        offsets: match robust {
+            Robust::Regret => optima.iter().map(|o| o.risk_after).collect(),
+            _ => vec![0.0; models.len()],
+        },
+    };
+    let (chosen, objective) = match e.robust {
+        Robust::Mean => (
+            mean.clone(),
+            "weighted mean of R over the scenarios".to_string(),
+        ),
+        robust => {
+            progress(&format!(
+                "optimising the {} over the scenarios",
+                match robust {
+                    Robust::Worst => "worst-case R",
+                    _ => "largest regret",
+                }
+            ));
+            let mm = minmax_for(robust);
+            let mut starts: Vec<Assignment> = optima.iter().map(|o| o.assignment.clone()).collect();
+            starts.push(mean.assignment.clone());
+            if let Some((g, _)) = &greedy {
+                starts.push(g.clone());
+            }
+            // No plan beats a scenario's proven bound there.
+            let floor = optima
+                .iter()
+                .zip(&mm.offsets)
+                .map(|(o, off)| o.bound - off)
+                .fold(f64::NEG_INFINITY, f64::max);
+            let r = optimise::solve_minmax(&base, &mm, limits, &starts, floor)?;
+            let objective = match robust {
+                Robust::Worst => "worst-case R over the scenarios".to_string(),
+                _ => {
+                    "largest regret over the scenarios (R minus the scenario's least achievable R)"
+                        .to_string()
+                }
+            };
+            (
+                Solved {
+                    risk_after: base.risk(&r.assignment),
+                    assignment: r.assignment,
+                    bound: r.bound,
+                    gap: r.gap,
+                    status: r.status,
+                    seconds: r.seconds,
+                    greedy: greedy.clone(),
+                },
+                objective,
+            )
+        }
+    };
+
+    // Candidates under every scenario.
+    let mut candidates: Vec<(String, Assignment)> =
+        vec![("ensemble_mean".into(), mean.assignment.clone())];
+    if e.robust != Robust::Mean {
+        candidates.push((
+            format!("robust_{}", e.robust.as_str()),
+            chosen.assignment.clone(),
+        ));
+    }
+    for (o, m) in optima.iter().zip(&e.members) {
+        candidates.push((format!("optimum:{}", m.name), o.assignment.clone()));
+    }
+    if let Some((g, _)) = &greedy {
+        candidates.push(("greedy".into(), g.clone()));
+    }
+    let risk_under = |s: usize, a: &Assignment| models[s].risk(&base.remaining(a));
+    // The best known R per scenario: its optimum, or a candidate that did better within the gap.
+    let best: Vec<f64> = (0..models.len())
+        .map(|s| {
+            candidates
+                .iter()
+                .map(|(_, a)| risk_under(s, a))
+                .fold(optima[s].risk_after, f64::min)
+        })
+        .collect();
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let csv_err = |e: csv::Error| Error::Internal(format!("csv: {e}"));
+    w.write_record([
+        "plan",
+        "scenario",
+        "kernel",
+        "alpha_m",
+        "weight",
+        "risk_after",
+        "scenario_best",
+        "regret",
+        "regret_pct",
+        "cost",
+        "n_treated",
+    ])
+    .map_err(csv_err)?;
+    let mut plans_json = Vec::new();
+    let mut worst_regret: Vec<(String, f64)> = Vec::new();
+    for (name, a) in &candidates {
+        let mut max_pct: f64 = 0.0;
+        let mut worst_risk: f64 = 0.0;
+        let mut mean_risk = 0.0;
+        for (s, member) in e.members.iter().enumerate() {
+            let r = risk_under(s, a);
+            let regret = (r - best[s]).max(0.0);
+            let pct = if best[s] > 0.0 {
+                100.0 * regret / best[s]
+            } else {
+                0.0
+            };
+            max_pct = max_pct.max(pct);
+            worst_risk = worst_risk.max(r);
+            mean_risk += member.weight / total_weight * r;
+            w.write_record([
+                name.clone(),
+                member.name.clone(),
+                kernel_name(&kernels[s]).to_string(),
+                member.alpha_m.to_string(),
+                member.weight.to_string(),
+                format!("{r:.9e}"),
+                format!("{:.9e}", best[s]),
+                format!("{regret:.9e}"),
+                format!("{pct:.4}"),
+                format!("{:.2}", base.cost(a) + 0.0),
+                a.iter().filter(|x| x.is_some()).count().to_string(),
+            ])
+            .map_err(csv_err)?;
+        }
+        worst_regret.push((name.clone(), max_pct));
+        plans_json.push(serde_json::json!({
+            "plan": name,
+            "max_regret_pct": max_pct,
+            "worst_risk": worst_risk,
+            "mean_risk": mean_risk,
+            "cost": base.cost(a) + 0.0,
+        }));
+    }
+    let regret_csv = w
+        .into_inner()
+        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    let mut ranked = worst_regret.clone();
+    ranked.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    let most = &ranked[0];
+    let runner = ranked.get(1);
+    let json = serde_json::json!({
+        "robust": e.robust.as_str(),
+        "objective": objective,
+        "scenarios": e.members.iter().zip(&optima).zip(&best).map(|((m, o), b)| serde_json::json!({
+            "name": m.name,
+            "kernel": kernel_name(&Kernel { kind: m.kernel, alpha_m: m.alpha_m }),
+            "alpha_m": m.alpha_m,
+            "weight": m.weight / total_weight,
+            "optimum_risk": o.risk_after,
+            "optimum_status": o.status.as_str(),
+            "optimum_gap": o.gap,
+            "best_known_risk": b,
+        })).collect::<Vec<_>>(),
+        "plans": plans_json,
+        "most_robust": {
+            "plan": most.0,
+            "max_regret_pct": most.1,
+            "runner_up": runner.map(|r| r.0.clone()),
+            "runner_up_max_regret_pct": runner.map(|r| r.1),
+        },
+    });
+    let mut text = String::new();
+    let _ = writeln!(
+        text,
+        "planned across {} dispersal scenarios ({}); objective: {}",
+        e.members.len(),
+        e.members
+            .iter()
+            .map(|m| m.name.as_str())
+            .collect::<Vec<_>>()
+            .join(", "),
+        objective
+    );
+    let _ = writeln!(
+        text,
+        "  most robust candidate: {} (worst regret {:.2}% over the scenarios{})",
+        most.0,
+        most.1,
+        match runner {
+            Some(r) => format!("; next {} at {:.2}%", r.0, r.1),
+            None => String::new(),
+        }
+    );
+    Ok(EnsembleRun {
+        chosen,
+        regret_csv,
+        json,
+        text,
+    })
+}

@@ -1,0 +1,379 @@
+//! Plans across dispersal scenarios: the weighted-mean, worst-case and least-regret MIPs against
+//! brute-force enumeration on small random ensembles, the robustness guarantees, and the CLI.
+
+mod common;
+
+use common::*;
+use hostcut::cli::KernelKind;
+use hostcut::ensemble::combine;
+use hostcut::graph::{Kernel, build_graph};
+use hostcut::model::RiskModel;
+use hostcut::optimise::{Assignment, Limits, MinMax, Problem, solve, solve_minmax};
+use hostcut::treatments::{Choice, MethodId};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+
+struct Instance {
+    models: Vec<RiskModel>,
+    weights: Vec<f64>,
+    choices: Vec<Vec<Choice>>,
+    budget: f64,
+    required: Vec<bool>,
+}
+
+fn instance(seed: u64) -> Instance {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let n = rng.gen_range(5..=7);
+    let points: Vec<(f64, f64)> = (0..n)
+        .map(|_| (rng.gen_range(0.0..1500.0), rng.gen_range(0.0..1500.0)))
+        .collect();
+    let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..500.0)).collect();
+    let pressure: Vec<f64> = (0..n).map(|_| 1.0 + rng.gen_range(0.0..3.0)).collect();
+    let scenarios = rng.gen_range(2..=3);
+    let models = (0..scenarios)
+        .map(|s| {
+            let kind = if s % 2 == 0 {
+                KernelKind::Exp
+            } else {
+                KernelKind::Cauchy
+            };
+            let graph = build_graph(
+                &points,
+                Kernel {
+                    kind,
+                    alpha_m: rng.gen_range(50.0..800.0),
+                },
+                0.001,
+            );
+            RiskModel::new(&stems, &pressure, &graph)
+        })
+        .collect();
+    let weights = (0..scenarios).map(|_| rng.gen_range(0.2..2.0)).collect();
+    let methods: Vec<(f64, f64, f64)> = (0..2)
+        .map(|_| {
+            (
+                rng.gen_range(0.3..1.0),
+                rng.gen_range(50.0..300.0),
+                rng.gen_range(0.5..5.0),
+            )
+        })
+        .collect();
+    let choices: Vec<Vec<Choice>> = (0..n)
+        .map(|i| {
+            if rng.gen_bool(0.1) {
+                return Vec::new();
+            }
+            methods
+                .iter()
+                .enumerate()
+                .map(|(m, &(e, per_patch, per_stem))| Choice {
+                    method: MethodId(m as u16),
+                    cost: per_patch + per_stem * stems[i],
+                    hours: 0.0,
+                    remaining: 1.0 - e,
+                })
+                .collect()
+        })
+        .collect();
+    let total: f64 = choices
+        .iter()
+        .map(|c| c.iter().map(|c| c.cost).fold(0.0, f64::max))
+        .sum();
+    let mut required = vec![false; n];
+    if let Some(i) = (0..n).find(|&i| !choices[i].is_empty() && rng.gen_bool(0.2)) {
+        required[i] = true;
+    }
+    Instance {
+        models,
+        weights,
+        choices,
+        budget: total * rng.gen_range(0.2..0.6),
+        required,
+    }
+}
+
+/// Every feasible assignment (the oracle).
+fn all_plans(p: &Problem) -> Vec<Assignment> {
+    let n = p.len();
+    let mut out = Vec::new();
+    let mut a: Assignment = vec![None; n];
+    fn walk(p: &Problem, i: usize, a: &mut Assignment, out: &mut Vec<Assignment>) {
+        if i == p.len() {
+            if p.feasible(a) {
+                out.push(a.clone());
+            }
+            return;
+        }
+        if !p.required[i] {
+            a[i] = None;
+            walk(p, i + 1, a, out);
+        }
+        for o in 0..p.choices[i].len() {
+            a[i] = Some(o);
+            walk(p, i + 1, a, out);
+        }
+        a[i] = None;
+    }
+    walk(p, 0, &mut a, &mut out);
+    out
+}
+
+fn exact() -> Limits {
+    Limits::new(60.0, 0.0)
+}
+
+#[test]
+fn ensemble_mips_equal_brute_force() {
+    let mut tested = 0;
+    for seed in 0..30 {
+        let inst = instance(seed);
+        let combined = combine(&inst.models, &inst.weights);
+        let base = Problem {
+            model: &combined,
+            choices: inst.choices.clone(),
+            budget: inst.budget,
+            crew_hours: None,
+            required: inst.required.clone(),
+            excluded: vec![false; inst.choices.len()],
+        };
+        let plans = all_plans(&base);
+        if plans.is_empty() {
+            continue; // the required patch does not fit the budget
+        }
+        tested += 1;
+        let r = |s: usize, a: &Assignment| inst.models[s].risk(&base.remaining(a));
+        let k = inst.models.len();
+        let total_w: f64 = inst.weights.iter().sum();
+        // Weighted mean.
+        let brute_mean = plans
+            .iter()
+            .map(|a| {
+                (0..k)
+                    .map(|s| inst.weights[s] / total_w * r(s, a))
+                    .sum::<f64>()
+            })
+            .fold(f64::INFINITY, f64::min);
+        let mean = solve(&base, exact()).unwrap();
+        assert!(
+            (mean.risk_after - brute_mean).abs() <= 1e-9 * brute_mean.max(1e-12),
+            "seed {seed}: mean MIP {} vs brute force {brute_mean}",
+            mean.risk_after
+        );
+        // Each scenario's optimum by brute force.
+        let optimum: Vec<f64> = (0..k)
+            .map(|s| plans.iter().map(|a| r(s, a)).fold(f64::INFINITY, f64::min))
+            .collect();
+        for (robust, offsets) in [("worst", vec![0.0; k]), ("regret", optimum.clone())] {
+            let mm = MinMax {
+                models: inst.models.iter().collect(),
+                offsets: offsets.clone(),
+            };
+            let brute = plans
+                .iter()
+                .map(|a| mm.value(&base, a))
+                .fold(f64::INFINITY, f64::min);
+            let got = solve_minmax(&base, &mm, exact(), &[], f64::NEG_INFINITY).unwrap();
+            let scale = optimum.iter().cloned().fold(0.0, f64::max);
+            assert!(
+                (got.value - brute).abs() <= 1e-8 * scale,
+                "seed {seed} {robust}: MIP {} vs brute force {brute}",
+                got.value
+            );
+            assert!(got.bound <= brute + 1e-8 * scale, "bound is a lower bound");
+            // Robustness: no single-scenario optimum is better on this objective.
+            for s in 0..k {
+                let best_s = plans
+                    .iter()
+                    .min_by(|a, b| r(s, a).total_cmp(&r(s, b)))
+                    .unwrap();
+                assert!(
+                    got.value <= mm.value(&base, best_s) + 1e-8 * scale,
+                    "seed {seed} {robust}: scenario {s}'s optimum beats the robust plan"
+                );
+            }
+        }
+    }
+    assert!(tested >= 20, "only {tested} feasible instances");
+}
+
+const STANDS: &str = "id,x,y,stems,access,herbicide\nA,500000,4480000,300,open,allowed\nB,500150,4480050,180,open,allowed\nC,500400,4480000,220,open,allowed\nD,500600,4480200,90,open,allowed\nE,500900,4480100,260,open,allowed\nF,501300,4480400,140,open,allowed\nG,500200,4480600,200,open,allowed\n";
+
+fn plan(dir: &std::path::Path, out: &str, extra: &[&str]) -> std::process::Output {
+    let mut args = vec![
+        "plan",
+        "--inventory",
+        "stands.csv",
+        "--crs",
+        "EPSG:32618",
+        "--budget",
+        "3500",
+        "--gap",
+        "0",
+        "--out",
+        out,
+        "--quiet",
+    ];
+    args.extend_from_slice(extra);
+    run(dir, &args)
+}
+
+#[test]
+fn an_ensemble_of_one_is_the_plan() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "stands.csv", STANDS);
+    write(
+        dir.path(),
+        "one.toml",
+        "[[scenario]]\nkernel = \"exp\"\nalpha_m = 300\nweight = 2.5\n",
+    );
+    let o = plan(dir.path(), "single", &["--kernel", "exp:300"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = plan(dir.path(), "ens", &["--ensemble", "one.toml"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    for f in ["plan.csv", "patches.csv"] {
+        assert_eq!(
+            std::fs::read_to_string(dir.path().join("single").join(f)).unwrap(),
+            std::fs::read_to_string(dir.path().join("ens").join(f)).unwrap(),
+            "{f}"
+        );
+    }
+    let a = summary(&dir.path().join("single"));
+    let b = summary(&dir.path().join("ens"));
+    assert_eq!(a["risk_after"], b["risk_after"]);
+    assert_eq!(b["ensemble"]["scenarios"][0]["name"], "exp:300");
+    assert!(dir.path().join("ens/regret.csv").exists());
+}
+
+#[test]
+fn robust_plans_from_the_command_line() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "stands.csv", STANDS);
+    let kernels = [
+        "--kernel",
+        "exp:100",
+        "--kernel",
+        "exp:500",
+        "--kernel",
+        "cauchy:250",
+    ];
+    for robust in ["mean", "worst", "regret"] {
+        let mut extra = kernels.to_vec();
+        extra.extend_from_slice(&["--robust", robust]);
+        let o = plan(dir.path(), robust, &extra);
+        assert!(o.status.success(), "{robust}: {}", stderr(&o));
+        assert!(
+            stdout(&o).contains("most robust candidate"),
+            "{}",
+            stdout(&o)
+        );
+        let s = summary(&dir.path().join(robust));
+        assert_eq!(s["ensemble"]["robust"], robust);
+        assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
+        let rows = csv_rows_of(
+            &std::fs::read_to_string(dir.path().join(robust).join("regret.csv")).unwrap(),
+        );
+        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r[0].as_str()).collect();
+        // mean, (robust), three optima, greedy.
+        assert_eq!(
+            plans.len(),
+            if robust == "mean" { 5 } else { 6 },
+            "{plans:?}"
+        );
+        assert_eq!(rows.len(), plans.len() * 3);
+        for r in &rows {
+            let regret: f64 = r[7].parse().unwrap();
+            assert!(regret >= 0.0);
+        }
+        // Each scenario's own optimum has no regret in its scenario.
+        for r in rows.iter().filter(|r| r[0].starts_with("optimum:")) {
+            if r[0] == format!("optimum:{}", r[1]) {
+                assert_eq!(r[7].parse::<f64>().unwrap(), 0.0, "{r:?}");
+            }
+        }
+        if robust == "regret" {
+            // The least-regret plan has the smallest worst regret of all candidates.
+            let max_regret = |plan: &str| {
+                rows.iter()
+                    .filter(|r| r[0] == plan)
+                    .map(|r| r[8].parse::<f64>().unwrap())
+                    .fold(0.0, f64::max)
+            };
+            let mine = max_regret("robust_regret");
+            for p in &plans {
+                assert!(mine <= max_regret(p) + 1e-3, "{p} has less worst regret");
+            }
+            assert_eq!(
+                s["ensemble"]["most_robust"]["max_regret_pct"]
+                    .as_f64()
+                    .unwrap(),
+                mine
+            );
+        }
+    }
+}
+
+#[test]
+fn bad_ensembles_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "stands.csv", STANDS);
+    write(dir.path(), "empty.toml", "robust = \"worst\"\n");
+    write(
+        dir.path(),
+        "dup.toml",
+        "[[scenario]]\nkernel = \"exp\"\nalpha_m = 100\n[[scenario]]\nkernel = \"exp\"\nalpha_m = 100\n",
+    );
+    write(
+        dir.path(),
+        "typo.toml",
+        "[[scenario]]\nkernel = \"gauss\"\nalpha_m = 100\n",
+    );
+    write(
+        dir.path(),
+        "zero.toml",
+        "[[scenario]]\nkernel = \"exp\"\nalpha_m = 100\nweight = 0\n",
+    );
+    let cases: &[(&[&str], &str)] = &[
+        (&["--robust", "worst"], "needs scenarios"),
+        (
+            &["--kernel", "exp:100", "--kernel", "cauchy"],
+            "needs each kernel's scale",
+        ),
+        (&["--kernel", "gauss:100"], "is not a kernel"),
+        (&["--kernel", "exp:-5"], "positive distance"),
+        (&["--ensemble", "empty.toml"], "no scenarios"),
+        (&["--ensemble", "dup.toml"], "appears twice"),
+        (&["--ensemble", "typo.toml"], "line 2"),
+        (&["--ensemble", "zero.toml"], "weights are all 0"),
+        (&["--ensemble", "missing.toml"], "missing.toml"),
+    ];
+    for (extra, message) in cases {
+        let o = plan(dir.path(), "bad", extra);
+        assert_eq!(o.status.code(), Some(2), "{extra:?}: {}", stderr(&o));
+        assert!(stderr(&o).contains(message), "{extra:?}: {}", stderr(&o));
+        assert!(!dir.path().join("bad").exists());
+    }
+    let o = run(
+        dir.path(),
+        &[
+            "curve",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--kernel",
+            "exp:100",
+            "--kernel",
+            "exp:300",
+            "--budgets",
+            "1000,2000",
+            "--out",
+            "c",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("one dispersal kernel"),
+        "{}",
+        stderr(&o)
+    );
+}
