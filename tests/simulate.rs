@@ -220,3 +220,87 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
 fn rows_of(path: &std::path::Path) -> Vec<Vec<String>> {
     csv_rows_of(&std::fs::read_to_string(path).unwrap())
 }
+
+/// Long-distance movement reaches a cluster beyond the ordinary kernel's links: two clusters
+/// 5 km apart, the insect in one, no introductions. Without it the far cluster is never
+/// occupied; with it (saturated patches sending a share far) it is, in many runs.
+#[test]
+fn long_distance_movement_crosses_gaps_the_kernel_cannot() {
+    let n = 8;
+    let mut pts = Vec::new();
+    for k in 0..4 {
+        pts.push((k as f64 * 100.0, 0.0));
+    }
+    for k in 0..4 {
+        pts.push((5000.0 + k as f64 * 100.0, 0.0));
+    }
+    let links_at = |alpha: f64| {
+        let mut links = Vec::new();
+        for i in 0..n {
+            for j in i + 1..n {
+                let d: f64 = (pts[i].0 - pts[j].0).abs();
+                let k = (-d / alpha).exp();
+                if k >= 1e-3 {
+                    links.push((i, j, k));
+                }
+            }
+        }
+        links
+    };
+    let mut l = landscape(n, links_at(200.0), &[1.0; 8]);
+    l.initial = (0..n).map(|i| i < 4).collect();
+    l.long_links = links_at(2000.0);
+    let far_occupied = |p: &Params| {
+        let t = &simulate::simulate(&l, p, &[Treatment::Fixed(vec![1.0; n])], 30, 200, 3, 2)[0];
+        t.final_occupied[4..].iter().sum::<u32>()
+    };
+    let base = Params {
+        introduction: 0.0,
+        extinction: 0.05,
+        colonisation: 1.0,
+        ..Params::default()
+    };
+    assert_eq!(far_occupied(&base), 0, "no link reaches the far cluster");
+    let with = Params {
+        long_distance: Some(simulate::LongDistance {
+            share: 0.3,
+            multiple: 10.0,
+            after_years: 2,
+        }),
+        ..base
+    };
+    assert!(far_occupied(&with) > 100, "long-distance movement reaches it");
+}
+
+#[test]
+fn simulate_takes_the_plan_inputs_directly() {
+    let dir = tempfile::tempdir().unwrap();
+    write(
+        dir.path(),
+        "stands.csv",
+        "id,x,y,stems,pressure\nA,500000,4480000,300,3\nB,500150,4480050,180,1\nC,500400,4480000,220,1\nD,500600,4480200,90,1\n",
+    );
+    let o = run(
+        dir.path(),
+        &[
+            "simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "1500",
+            "--years", "5", "--runs", "50", "--out", "sim",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("the plan leaves"), "{}", stdout(&o));
+    let o = run(
+        dir.path(),
+        &["simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--out", "sim2"],
+    );
+    assert_eq!(o.status.code(), Some(2), "no budget: {}", stderr(&o));
+    let o = run(
+        dir.path(),
+        &[
+            "simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "1500",
+            "--runs", "0", "--out", "sim3",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("at least 1"));
+}
