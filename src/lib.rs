@@ -7,6 +7,7 @@
 
 pub mod baselines;
 pub mod calendar;
+pub mod calibrate;
 pub mod cautions;
 pub mod chart;
 pub mod cli;

@@ -145,6 +145,7 @@ fn one_run(
     seed: u64,
     run: u64,
     r: &[f64],
+    mut states: Option<&mut Vec<Vec<bool>>>,
 ) -> (Vec<f64>, Vec<u32>, Vec<bool>) {
     let n = l.share.len();
     let mut occ = l.initial.clone();
@@ -157,6 +158,9 @@ fn one_run(
         cs.push(occ.iter().filter(|o| **o).count() as u32);
     };
     record(&occ, &h, &mut host_series, &mut count_series);
+    if let Some(st) = states.as_mut() {
+        st.push(occ.clone());
+    }
     let mut s = vec![0.0; n];
     for year in 1..=years {
         if year == 1 {
@@ -217,6 +221,9 @@ fn one_run(
         }
         occ = next;
         record(&occ, &h, &mut host_series, &mut count_series);
+        if let Some(st) = states.as_mut() {
+            st.push(occ.clone());
+        }
         for v in h.iter_mut() {
             *v = (*v * (1.0 + p.regrowth)).min(1.0);
         }
@@ -253,7 +260,7 @@ pub fn simulate(
                                     Treatment::Fixed(r) => r.clone(),
                                     Treatment::PerRun(f) => f(k as u64),
                                 };
-                                one_run(l, p, years, seed, k as u64, &r)
+                                one_run(l, p, years, seed, k as u64, &r, None)
                             })
                             .collect();
                         out.push((k, results));
@@ -287,6 +294,22 @@ pub fn simulate(
         }
     }
     traces
+}
+
+/// The occupancy of every patch in years 0..=years of run `run` (untreated unless `r` says
+/// otherwise): the same draws as [`simulate`]'s run `run`. Used to make survey histories with
+/// known parameters.
+pub fn history(
+    l: &Landscape,
+    p: &Params,
+    years: u32,
+    seed: u64,
+    run: u64,
+    r: &[f64],
+) -> Vec<Vec<bool>> {
+    let mut states = Vec::with_capacity(years as usize + 1);
+    one_run(l, p, years, seed, run, r, Some(&mut states));
+    states
 }
 
 /// The deterministic (mean-field) equilibrium occupancy with host h: the largest fixed point of

@@ -269,7 +269,10 @@ fn long_distance_movement_crosses_gaps_the_kernel_cannot() {
         }),
         ..base
     };
-    assert!(far_occupied(&with) > 100, "long-distance movement reaches it");
+    assert!(
+        far_occupied(&with) > 100,
+        "long-distance movement reaches it"
+    );
 }
 
 #[test]
@@ -283,22 +286,50 @@ fn simulate_takes_the_plan_inputs_directly() {
     let o = run(
         dir.path(),
         &[
-            "simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "1500",
-            "--years", "5", "--runs", "50", "--out", "sim",
+            "simulate",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "1500",
+            "--years",
+            "5",
+            "--runs",
+            "50",
+            "--out",
+            "sim",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("the plan leaves"), "{}", stdout(&o));
     let o = run(
         dir.path(),
-        &["simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--out", "sim2"],
+        &[
+            "simulate",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--out",
+            "sim2",
+        ],
     );
     assert_eq!(o.status.code(), Some(2), "no budget: {}", stderr(&o));
     let o = run(
         dir.path(),
         &[
-            "simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "1500",
-            "--runs", "0", "--out", "sim3",
+            "simulate",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "1500",
+            "--runs",
+            "0",
+            "--out",
+            "sim3",
         ],
     );
     assert_eq!(o.status.code(), Some(2));
