@@ -28,6 +28,8 @@ pub enum Command {
     Orders(OrdersArgs),
     /// Check a plan against a stochastic spread simulation, year by year, against other strategies
     Simulate(SimulateArgs),
+    /// Fit the dispersal scale and spread rates to your own survey history
+    Calibrate(CalibrateArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -107,6 +109,10 @@ pub struct PlanArgs {
     /// several times to plan across dispersal scenarios (an ensemble, equal weights)
     #[arg(long, value_name = "FAMILY[:ALPHA_M]")]
     pub kernel: Vec<String>,
+    /// calibration.toml from `hostcut calibrate`: the kernel family and scale fitted to surveys
+    /// (and, for `simulate`, the fitted colonisation, extinction and introduction)
+    #[arg(long, value_name = "FILE")]
+    pub calibration: Option<PathBuf>,
     /// Dispersal scenarios to plan across: TOML with `[[scenario]]` kernel, alpha_m, weight, name
     #[arg(long, value_name = "FILE.toml")]
     pub ensemble: Option<PathBuf>,
@@ -237,18 +243,18 @@ pub struct SimulateArgs {
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
-    /// e: yearly extinction probability of an average-sized untreated patch
-    #[arg(long, default_value_t = 0.2)]
-    pub extinction: f64,
-    /// x: extinction falls as host^-x
-    #[arg(long, default_value_t = 1.0)]
-    pub extinction_exponent: f64,
-    /// c: colonisation scale per year
-    #[arg(long, default_value_t = 0.5)]
-    pub colonisation: f64,
-    /// iota: introductions per unit of pressure (average-patch equivalents of occupied host)
-    #[arg(long, default_value_t = 0.05)]
-    pub introduction: f64,
+    /// e: yearly extinction probability of an average-sized untreated patch [default: 0.2, or the `--calibration` fit]
+    #[arg(long)]
+    pub extinction: Option<f64>,
+    /// x: extinction falls as host^-x [default: 1.0, or the `--calibration` fit]
+    #[arg(long)]
+    pub extinction_exponent: Option<f64>,
+    /// c: colonisation scale per year [default: 0.5, or the `--calibration` fit]
+    #[arg(long)]
+    pub colonisation: Option<f64>,
+    /// iota: introductions per unit of pressure (average-patch equivalents of occupied host) [default: 0.05, or the `--calibration` fit]
+    #[arg(long)]
+    pub introduction: Option<f64>,
     /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
     #[arg(long, default_value_t = 0.1)]
     pub regrowth: f64,
@@ -261,6 +267,37 @@ pub struct SimulateArgs {
     /// Years a patch must stay occupied to count as saturated
     #[arg(long, default_value_t = 3)]
     pub long_distance_after_years: u32,
+}
+
+/// Flags of `hostcut calibrate`.
+#[derive(Debug, Clone, Args)]
+pub struct CalibrateArgs {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Fit on the patches of this plan folder (its inputs and settings)
+    #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
+    pub plan_dir: Option<PathBuf>,
+    /// Survey records: x,y,year,result (positive|negative) [,date,source]
+    #[arg(long, value_name = "CSV")]
+    pub surveys: PathBuf,
+    /// CRS of the survey coordinates [default: the plan's]; with `--plan`, `--crs` means this too
+    #[arg(long, value_name = "CRS")]
+    pub surveys_crs: Option<String>,
+    /// A survey outside every patch counts for the nearest patch within this distance
+    #[arg(long, value_name = "METRES", default_value_t = 100.0)]
+    pub survey_radius_m: f64,
+    /// Kernel scales searched, MIN:MAX metres
+    #[arg(long, value_name = "MIN:MAX", default_value = "25:3000")]
+    pub alpha_range: String,
+    /// Scales on the profile grid (log-spaced)
+    #[arg(long, default_value_t = 17)]
+    pub alpha_steps: usize,
+    /// x: extinction falls as host^-x (held fixed)
+    #[arg(long, default_value_t = 1.0)]
+    pub extinction_exponent: f64,
+    /// Fewest observed year-to-year transitions to fit at all
+    #[arg(long, default_value_t = 30)]
+    pub min_transitions: usize,
 }
 
 /// Flags of `hostcut orders`.

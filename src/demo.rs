@@ -14,28 +14,7 @@ use geo::{LineString, MultiPolygon, Point, Polygon};
 use crate::error::{Error, Result};
 use crate::gis::{self, Crs, Property};
 
-/// A small deterministic generator (SplitMix64), so the demo needs no random-number crate.
-pub struct SplitMix(u64);
-
-impl SplitMix {
-    pub fn new(seed: u64) -> Self {
-        SplitMix(seed)
-    }
-    pub fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    /// Uniform in [0, 1).
-    pub fn unit(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
-    }
-    pub fn range(&mut self, lo: f64, hi: f64) -> f64 {
-        lo + (hi - lo) * self.unit()
-    }
-}
+pub use crate::rng::SplitMix;
 
 const X0: f64 = 500_000.0;
 const Y0: f64 = 4_470_000.0;
@@ -364,6 +343,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
     };
     write("stands.csv", &inventory_csv())?;
     write("scenario.toml", SCENARIO)?;
+    write("surveys.csv", &surveys_csv(dir)?)?;
     write(
         "README.md",
         "# Demo inputs (invented)\n\nHollin County does not exist. Every value here is made up by `hostcut make-demo-inputs` \
@@ -373,23 +353,69 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
          - rail.gpkg, highway.gpkg: transport corridors\n\
          - detections.gpkg: known lanternfly populations\n\
          - stands.csv: a point stand inventory of the same county (use with `--inventory stands.csv --crs EPSG:32618`)\n\
-         - scenario.toml: the demo plan's settings\n",
+         - scenario.toml: the demo plan's settings\n\
+         - surveys.csv: eight invented seasons of lanternfly surveys (2018-2025), simulated by the tool's own model with exp kernel, alpha 200 m, colonisation 0.5, extinction 0.25, introduction 0.05 (use with `hostcut calibrate --surveys`)\n",
     )?;
     Ok(())
+}
+
+/// Invented survey history for the demo: the tool's own simulator run on the demo landscape
+/// with known parameters (exp kernel, alpha 200 m), about 60 % of patches visited each year, a
+/// few visits outside the county for the unassigned list.
+fn surveys_csv(dir: &Path) -> Result<String> {
+    use crate::simulate::{self, Landscape, Params};
+    let scenario = crate::settings::parse_scenario(SCENARIO, "demo scenario", dir)?;
+    let prepared = crate::pipeline::prepare(&scenario, &|_| {})?;
+    let landscape = Landscape::of(&prepared);
+    let truth = Params {
+        extinction: 0.25,
+        colonisation: 0.5,
+        introduction: 0.05,
+        ..Params::default()
+    };
+    let n = landscape.share.len();
+    let history = simulate::history(&landscape, &truth, 7, 2018, 0, &vec![1.0; n]);
+    let mut r = SplitMix::new(2018);
+    let mut out = String::from("x,y,year,result,date,source\n");
+    for (t, year) in history.iter().enumerate() {
+        for (i, &occupied) in year.iter().enumerate() {
+            if r.unit() >= 0.6 {
+                continue;
+            }
+            let p = &prepared.patches.items[i];
+            let _ = writeln!(
+                out,
+                "{:.1},{:.1},{},{},{}-08-{:02},{}",
+                p.x + r.range(-5.0, 5.0),
+                p.y + r.range(-5.0, 5.0),
+                2018 + t,
+                if occupied { "positive" } else { "negative" },
+                2018 + t,
+                1 + (r.unit() * 28.0) as u32,
+                if i % 3 == 0 {
+                    "state survey"
+                } else {
+                    "county parks crew"
+                }
+            );
+        }
+    }
+    for k in 0..4 {
+        let _ = writeln!(
+            out,
+            "{:.1},{:.1},{},negative,{}-09-01,state survey",
+            X0 - 3000.0 - 500.0 * k as f64,
+            Y0 + 1000.0,
+            2020 + k,
+            2020 + k
+        );
+    }
+    Ok(out)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn splitmix_matches_its_reference_sequence() {
-        // SplitMix64 with seed 0: first output 0xE220A8397B1DCDAF (Steele, Lea & Flood 2014;
-        // the value from the reference C implementation, from memory).
-        assert_eq!(SplitMix::new(0).next_u64(), 0xE220_A839_7B1D_CDAF);
-        let mut r = SplitMix::new(5);
-        assert!((0..1000).map(|_| r.unit()).all(|u| (0.0..1.0).contains(&u)));
-    }
 
     #[test]
     fn the_landscape_is_deterministic() {

@@ -28,6 +28,7 @@ pub mod output;
 pub mod patches;
 pub mod pipeline;
 pub mod plan;
+pub mod rng;
 pub mod routing;
 pub mod settings;
 pub mod simulate;
@@ -53,6 +54,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Record(args) => Ok(commands::contract::run_record(&args)?),
         Command::Orders(args) => commands::orders::run(&args),
         Command::Simulate(args) => commands::simulate::run(&args),
+        Command::Calibrate(args) => commands::calibrate::run(&args),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

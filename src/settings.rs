@@ -117,10 +117,77 @@ fn kernel_name(kind: KernelKind) -> &'static str {
     }
 }
 
-/// Read an `--ensemble` file.
+/// The fitted values of `hostcut calibrate`, as `[calibration]` of calibration.toml.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Calibration {
+    /// The family the surveys favour (lower AIC).
+    pub family: KernelKind,
+    pub alpha_m: f64,
+    pub alpha_low_m: f64,
+    pub alpha_high_m: f64,
+    pub colonisation: f64,
+    pub extinction: f64,
+    pub extinction_exponent: f64,
+    pub introduction: f64,
+    pub log_likelihood: f64,
+    pub aic: f64,
+    /// AIC of the other family minus this one's.
+    pub aic_difference: f64,
+    pub transitions: usize,
+    pub first_year: i32,
+    pub last_year: i32,
+    pub surveys: String,
+}
+
+/// calibration.toml: the fit, plus scenarios across the alpha interval so the same file works as
+/// an `--ensemble`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CalibrationFile {
+    #[serde(default)]
+    pub robust: Robust,
+    pub calibration: Calibration,
+    #[serde(rename = "scenario", default)]
+    pub members: Vec<EnsembleMember>,
+}
+
+fn toml_error(what: &str, path: &Path, text: &str, e: toml::de::Error) -> String {
+    let line = e
+        .span()
+        .and_then(|s| text.get(..s.start))
+        .map(|before| before.lines().count().max(1));
+    format!(
+        "{what} `{}`{}: {}",
+        path.display(),
+        line.map(|l| format!(", line {l}")).unwrap_or_default(),
+        e.message()
+    )
+}
+
+/// Read a calibration.toml written by `hostcut calibrate`.
+pub fn read_calibration(path: &Path) -> Result<CalibrationFile> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::io("read", path, e))?;
+    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    toml::from_str(text).map_err(|e| {
+        Error::input_with_hint(
+            toml_error("calibration", path, text, e),
+            "give the calibration.toml that `hostcut calibrate` wrote",
+        )
+    })
+}
+
+/// Read an `--ensemble` file (a calibration.toml is one too: its scenarios span the fitted alpha
+/// interval).
 pub fn read_ensemble(path: &Path) -> Result<EnsembleSection> {
     let text = std::fs::read_to_string(path).map_err(|e| Error::io("read", path, e))?;
     let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    if let Ok(c) = toml::from_str::<CalibrationFile>(text) {
+        return Ok(EnsembleSection {
+            robust: c.robust,
+            members: c.members,
+        });
+    }
     toml::from_str(text).map_err(|e| {
         let line = e
             .span()
@@ -265,6 +332,10 @@ pub struct ModelSection {
     pub persistence_ratio: f64,
     /// Introductions per unit of pressure, in units of landscape host share (iota).
     pub introduction_weight: f64,
+    /// The `hostcut calibrate` result the kernel came from (its simulation parameters are used
+    /// by `simulate`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<PathBuf>,
 }
 
 impl Default for ModelSection {
@@ -275,6 +346,7 @@ impl Default for ModelSection {
             epsilon: 0.001,
             persistence_ratio: 2.0,
             introduction_weight: 0.01,
+            calibration: None,
         }
     }
 }
@@ -392,6 +464,9 @@ impl Scenario {
             fix(&mut d.path)
         }
         if let Some(p) = self.plan.treatments.as_mut() {
+            fix(p)
+        }
+        if let Some(p) = self.model.calibration.as_mut() {
             fix(p)
         }
     }
@@ -553,6 +628,14 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     }
     if let Some(p) = &args.treatments {
         s.plan.treatments = Some(abs(p));
+    }
+    if let Some(p) = &args.calibration {
+        let path = abs(p);
+        let c = read_calibration(&path)?;
+        s.model.kernel = c.calibration.family;
+        s.model.alpha_m = c.calibration.alpha_m;
+        s.model.calibration = Some(path);
+        s.ensemble = None;
     }
     match args.kernel.len() {
         0 => {}

@@ -78,6 +78,36 @@ pub struct Landscape {
     pub initial: Vec<bool>,
 }
 
+impl Landscape {
+    /// The prepared model's patches and links; year 0 occupied where the detections are (the
+    /// patch each detection falls nearest to, within the kernel cutoff); no long-distance links.
+    pub fn of(prepared: &crate::pipeline::Prepared) -> Landscape {
+        let items = &prepared.patches.items;
+        let mut initial = vec![false; items.len()];
+        let reach = prepared.kernel.cutoff(prepared.epsilon);
+        for &(x, y) in &prepared.detections {
+            let nearest = (0..items.len()).min_by(|&a, &b| {
+                let da = (items[a].x - x).hypot(items[a].y - y);
+                let db = (items[b].x - x).hypot(items[b].y - y);
+                da.total_cmp(&db)
+            });
+            if let Some(i) = nearest
+                && (items[i].x - x).hypot(items[i].y - y) <= reach
+            {
+                initial[i] = true;
+            }
+        }
+        let m = &prepared.model;
+        Landscape {
+            share: m.share.clone(),
+            pressure: m.pressure.clone(),
+            links: m.links.iter().map(|l| (l.a, l.b, l.kernel)).collect(),
+            long_links: Vec::new(),
+            initial,
+        }
+    }
+}
+
 /// What a strategy leaves of each patch's host in year 1 (r_i), fixed or drawn per run.
 pub enum Treatment<'a> {
     Fixed(Vec<f64>),
@@ -94,26 +124,7 @@ pub struct Trace {
     pub final_occupied: Vec<u32>,
 }
 
-/// SplitMix64 (Steele, Lea & Flood 2014): a small, well-mixed generator for seeding streams.
-#[derive(Debug, Clone)]
-pub struct SplitMix(u64);
-
-impl SplitMix {
-    pub fn new(seed: u64) -> SplitMix {
-        SplitMix(seed)
-    }
-    pub fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    /// Uniform in [0, 1).
-    pub fn uniform(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+pub use crate::rng::SplitMix;
 
 /// The generator of one (seed, run, year, purpose) stream.
 pub fn stream(seed: u64, run: u64, year: u64, purpose: u64) -> SplitMix {
@@ -200,7 +211,7 @@ fn one_run(
         let mut u = stream(seed, run, year as u64, 0);
         let mut next = occ.clone();
         for i in 0..n {
-            let draw = u.uniform();
+            let draw = u.unit();
             if occ[i] {
                 if draw < extinction_p(p, area[i]) {
                     next[i] = false;
@@ -387,7 +398,7 @@ mod tests {
     fn streams_are_uniform_and_distinct() {
         let mut a = stream(42, 0, 1, 0);
         let mut b = stream(42, 1, 1, 0);
-        let xs: Vec<f64> = (0..20_000).map(|_| a.uniform()).collect();
+        let xs: Vec<f64> = (0..20_000).map(|_| a.unit()).collect();
         let mean = xs.iter().sum::<f64>() / xs.len() as f64;
         // Mean of U(0,1) is 1/2 with sd 1/sqrt(12 n) = 0.002 here.
         assert!((mean - 0.5).abs() < 0.01);

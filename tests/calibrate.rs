@@ -1,5 +1,6 @@
 //! Calibration: the likelihood against brute force over hidden states, the mean-field filter
-//! against the exact likelihood, and recovery of known parameters from simulated surveys.
+//! against the exact likelihood, recovery of known parameters from simulated surveys, and the
+//! command on the demo.
 
 mod common;
 
@@ -11,10 +12,8 @@ use hostcut::simulate::{self, Landscape, Params, SplitMix};
 
 fn random_geometry(n: usize, side: f64, seed: u64) -> (Geometry, Vec<(f64, f64)>) {
     let mut g = SplitMix::new(seed);
-    let pts: Vec<(f64, f64)> = (0..n)
-        .map(|_| (g.uniform() * side, g.uniform() * side))
-        .collect();
-    let sizes: Vec<f64> = (0..n).map(|_| 0.4 + 1.6 * g.uniform()).collect();
+    let pts: Vec<(f64, f64)> = (0..n).map(|_| (g.unit() * side, g.unit() * side)).collect();
+    let sizes: Vec<f64> = (0..n).map(|_| 0.4 + 1.6 * g.unit()).collect();
     let total: f64 = sizes.iter().sum();
     let mut pairs = Vec::new();
     for i in 0..n {
@@ -118,7 +117,7 @@ fn exact_likelihood_equals_brute_force_over_hidden_states() {
         let states: Vec<Vec<Option<bool>>> = (0..4)
             .map(|_| {
                 (0..3)
-                    .map(|_| (r.uniform() > 0.35).then(|| r.uniform() < 0.5))
+                    .map(|_| (r.unit() > 0.35).then(|| r.unit() < 0.5))
                     .collect()
             })
             .collect();
@@ -143,7 +142,7 @@ fn mean_field_filter_is_exact_with_complete_surveys_and_its_bias_with_gaps_is_sm
     let (g, _) = random_geometry(6, 900.0, 3);
     let mut r = SplitMix::new(9);
     let complete: Vec<Vec<Option<bool>>> = (0..6)
-        .map(|_| (0..6).map(|_| Some(r.uniform() < 0.5)).collect())
+        .map(|_| (0..6).map(|_| Some(r.unit() < 0.5)).collect())
         .collect();
     let pressure = [1.0; 6];
     let obs = Observations {
@@ -205,7 +204,7 @@ fn known_parameters_are_recovered_and_intervals_tighten_with_more_years() {
             pressure: vec![1.0; 40],
             links,
             long_links: Vec::new(),
-            initial: (0..40).map(|_| init.uniform() < 0.3).collect(),
+            initial: (0..40).map(|_| init.unit() < 0.3).collect(),
         };
         let hist = simulate::history(&land, &truth, 14, 77, rep, &[1.0; 40]);
         for (years, width) in [(5usize, &mut width_short), (15, &mut width_long)] {
@@ -237,4 +236,239 @@ fn known_parameters_are_recovered_and_intervals_tighten_with_more_years() {
     );
     assert!(covered * 4 >= tried * 3, "coverage {covered}/{tried}");
     assert!(width_long < width_short, "intervals narrow with more years");
+}
+
+use common::*;
+
+fn demo(dir: &std::path::Path) {
+    let o = run(dir, &["demo", "--out", "demo", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
+/// The demo's surveys were simulated with an exp kernel at alpha = 200 m (src/demo.rs): the fit
+/// should favour exp and its interval should hold 200 m; the result then drives plan, ensemble
+/// and simulate.
+#[test]
+fn demo_surveys_calibrate_and_feed_plan_ensemble_and_simulate() {
+    let dir = tempfile::tempdir().unwrap();
+    demo(dir.path());
+    let o = run(
+        dir.path(),
+        &[
+            "calibrate",
+            "--plan",
+            "demo",
+            "--surveys",
+            "demo/inputs/surveys.csv",
+            "--out",
+            "cal",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    assert!(text.contains("favour the exp kernel"), "{text}");
+    let cal: toml::Value =
+        toml::from_str(&std::fs::read_to_string(dir.path().join("cal/calibration.toml")).unwrap())
+            .unwrap();
+    let c = &cal["calibration"];
+    let (lo, est, hi) = (
+        c["alpha_low_m"].as_float().unwrap(),
+        c["alpha_m"].as_float().unwrap(),
+        c["alpha_high_m"].as_float().unwrap(),
+    );
+    assert!(
+        lo <= 200.0 && 200.0 <= hi,
+        "interval {lo}-{hi} misses the 200 m truth"
+    );
+    assert!(lo < est && est < hi);
+    assert!(c["aic_difference"].as_float().unwrap() > 0.0);
+    let rows =
+        csv_rows_of(&std::fs::read_to_string(dir.path().join("cal/calibration.csv")).unwrap());
+    assert_eq!(rows.len(), 12, "6 rows per family");
+    let unassigned = csv_rows_of(
+        &std::fs::read_to_string(dir.path().join("cal/unassigned_surveys.csv")).unwrap(),
+    );
+    assert_eq!(
+        unassigned.len(),
+        4,
+        "the four visits outside the county are reported"
+    );
+    let svg = std::fs::read_to_string(dir.path().join("cal/likelihood.svg")).unwrap();
+    roxmltree::Document::parse(&svg).unwrap();
+
+    let scenario = "demo/scenario.resolved.toml";
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--scenario",
+            scenario,
+            "--calibration",
+            "cal/calibration.toml",
+            "--out",
+            "p",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&dir.path().join("p"));
+    assert!((s["alpha_m"].as_f64().unwrap() - est).abs() < 1e-9);
+    assert_eq!(s["kernel"], "exp");
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--scenario",
+            scenario,
+            "--ensemble",
+            "cal/calibration.toml",
+            "--out",
+            "e",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&dir.path().join("e"));
+    assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
+    let o = run(
+        dir.path(),
+        &[
+            "simulate", "--plan", "p", "--runs", "20", "--years", "3", "--out", "sim", "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let sim: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("sim/sim.json")).unwrap())
+            .unwrap();
+    assert_eq!(
+        sim["params"]["colonisation"].as_f64().unwrap(),
+        c["colonisation"].as_float().unwrap(),
+        "simulate takes the fitted rates from the plan's calibration"
+    );
+}
+
+#[test]
+fn surveys_are_assigned_inside_nearest_or_reported() {
+    let dir = tempfile::tempdir().unwrap();
+    write(
+        dir.path(),
+        "stands.csv",
+        "id,x,y,stems\nA,500000,4480000,300\nB,501000,4480000,200\n",
+    );
+    let mut csv = String::from("x,y,year,result\n");
+    csv.push_str("500050,4480000,2020,negative\n"); // 50 m from A: nearest within 100 m
+    csv.push_str("500500,4480000,2020,positive\n"); // 500 m from both: too far
+    csv.push_str("501000,4480020,2020,positive\n"); // B
+    write(dir.path(), "s.csv", &csv);
+    let o = run(
+        dir.path(),
+        &[
+            "calibrate",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--surveys",
+            "s.csv",
+            "--out",
+            "cal",
+        ],
+    );
+    // One year of surveys: nothing to fit, refused with how much more would help.
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("transitions") && stderr(&o).contains("more patch-years"),
+        "{}",
+        stderr(&o)
+    );
+    // The assignment itself (library): inside a raster patch, nearest within the radius, too far.
+    use hostcut::commands::calibrate::{Placement, Survey, assign, observations};
+    let sv = |x: f64, y: f64, year: i32, positive: bool| Survey {
+        line: 0,
+        x,
+        y,
+        year,
+        positive,
+        date: String::new(),
+        source: String::new(),
+    };
+    let scenario = hostcut::settings::parse_scenario(
+        "[host]\ninventory = \"stands.csv\"\ncrs = \"EPSG:32618\"\n",
+        "test",
+        dir.path(),
+    )
+    .unwrap();
+    let prepared = hostcut::pipeline::prepare(&scenario, &|_| {}).unwrap();
+    let surveys = [
+        sv(500050.0, 4480000.0, 2020, false),
+        sv(500500.0, 4480000.0, 2020, true),
+        sv(501000.0, 4480020.0, 2020, true),
+        sv(501010.0, 4480000.0, 2020, false),
+        sv(500000.0, 4480000.0, 2021, true),
+    ];
+    let placed = assign(&surveys, &prepared.patches, 100.0);
+    assert_eq!(placed[0], Placement::Nearest(0, 50.0));
+    assert!(matches!(placed[1], Placement::TooFar(Some(_), d) if (d - 500.0).abs() < 1e-9));
+    assert!(matches!(placed[2], Placement::Nearest(1, _)));
+    let obs = observations(&surveys, &placed, 2).unwrap();
+    assert_eq!(obs.first_year, 2020);
+    // B: one positive and one negative visit in 2020 -> occupied.
+    assert_eq!(obs.states[0], vec![Some(false), Some(true)]);
+    assert_eq!(obs.states[1], vec![Some(true), None]);
+    // Raster patches have outlines: a survey inside one is `Inside`.
+    demo(dir.path());
+    let prepared = hostcut::pipeline::prepare(
+        &hostcut::settings::read_scenario(&dir.path().join("demo/scenario.resolved.toml")).unwrap(),
+        &|_| {},
+    )
+    .unwrap();
+    let p = &prepared.patches.items[0];
+    let cell = p.outline.as_ref().unwrap().0[0].exterior().0[0];
+    let inside = sv(cell.x + 5.0, cell.y - 5.0, 2020, true);
+    let got = assign(std::slice::from_ref(&inside), &prepared.patches, 0.0);
+    assert!(matches!(got[0], Placement::Inside(_)), "{got:?}");
+}
+
+#[test]
+fn surveys_that_cannot_identify_alpha_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    demo(dir.path());
+    // The demo's visits with every result negative: nothing spreads, so no scale is favoured.
+    let text = std::fs::read_to_string(dir.path().join("demo/inputs/surveys.csv")).unwrap();
+    write(dir.path(), "neg.csv", &text.replace("positive", "negative"));
+    let o = run(
+        dir.path(),
+        &[
+            "calibrate",
+            "--plan",
+            "demo",
+            "--surveys",
+            "neg.csv",
+            "--out",
+            "cal",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", stdout(&o));
+    assert!(stderr(&o).contains("cannot pin down"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("more surveyed patch-years"),
+        "{}",
+        stderr(&o)
+    );
+    assert!(!dir.path().join("cal").exists());
+    write(dir.path(), "bad.csv", "x,y,year,result\n1,2,2020,maybe\n");
+    let o = run(
+        dir.path(),
+        &[
+            "calibrate",
+            "--plan",
+            "demo",
+            "--surveys",
+            "bad.csv",
+            "--out",
+            "cal",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("line 2"), "{}", stderr(&o));
 }

@@ -51,9 +51,9 @@ fn linked_landscape_long_run_matches_the_mean_field_equilibrium() {
     let mut g = simulate::SplitMix::new(3);
     let n = 60;
     let pts: Vec<(f64, f64)> = (0..n)
-        .map(|_| (g.uniform() * 3000.0, g.uniform() * 3000.0))
+        .map(|_| (g.unit() * 3000.0, g.unit() * 3000.0))
         .collect();
-    let sizes: Vec<f64> = (0..n).map(|_| 0.3 + 2.0 * g.uniform()).collect();
+    let sizes: Vec<f64> = (0..n).map(|_| 0.3 + 2.0 * g.unit()).collect();
     let mut links = Vec::new();
     for i in 0..n {
         for j in i + 1..n {
@@ -93,7 +93,7 @@ fn below_the_persistence_threshold_the_insect_dies_out() {
     let n = 30;
     let mut g = simulate::SplitMix::new(5);
     let pts: Vec<(f64, f64)> = (0..n)
-        .map(|_| (g.uniform() * 2000.0, g.uniform() * 2000.0))
+        .map(|_| (g.unit() * 2000.0, g.unit() * 2000.0))
         .collect();
     let mut links = Vec::new();
     let mut stems = vec![0.0; n];

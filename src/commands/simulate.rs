@@ -63,7 +63,25 @@ struct SimJson {
     lambda_m_before: f64,
 }
 
-fn check(args: &SimulateArgs) -> Result<Params> {
+fn check(args: &SimulateArgs, fitted: Option<&crate::settings::Calibration>) -> Result<Params> {
+    let d = Params::default();
+    let pick = |flag: Option<f64>, fit: Option<f64>, default: f64| flag.or(fit).unwrap_or(default);
+    let extinction = pick(args.extinction, fitted.map(|c| c.extinction), d.extinction);
+    let extinction_exponent = pick(
+        args.extinction_exponent,
+        fitted.map(|c| c.extinction_exponent),
+        d.extinction_exponent,
+    );
+    let colonisation = pick(
+        args.colonisation,
+        fitted.map(|c| c.colonisation),
+        d.colonisation,
+    );
+    let introduction = pick(
+        args.introduction,
+        fitted.map(|c| c.introduction),
+        d.introduction,
+    );
     let positive = |v: f64, name: &str| -> Result<()> {
         if v.is_finite() && v >= 0.0 {
             Ok(())
@@ -73,10 +91,10 @@ fn check(args: &SimulateArgs) -> Result<Params> {
             )))
         }
     };
-    positive(args.extinction, "extinction")?;
-    positive(args.extinction_exponent, "extinction-exponent")?;
-    positive(args.colonisation, "colonisation")?;
-    positive(args.introduction, "introduction")?;
+    positive(extinction, "extinction")?;
+    positive(extinction_exponent, "extinction-exponent")?;
+    positive(colonisation, "colonisation")?;
+    positive(introduction, "introduction")?;
     positive(args.regrowth, "regrowth")?;
     if !(0.0..=1.0).contains(&args.long_distance_share) {
         return Err(Error::input(
@@ -99,10 +117,10 @@ fn check(args: &SimulateArgs) -> Result<Params> {
         ));
     }
     Ok(Params {
-        extinction: args.extinction,
-        extinction_exponent: args.extinction_exponent,
-        colonisation: args.colonisation,
-        introduction: args.introduction,
+        extinction,
+        extinction_exponent,
+        colonisation,
+        introduction,
         regrowth: args.regrowth,
         long_distance: (args.long_distance_share > 0.0).then_some(LongDistance {
             share: args.long_distance_share,
@@ -165,31 +183,11 @@ fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
     let mut order: Vec<usize> = (0..problem.len()).collect();
     let mut g = simulate::stream(seed, run, 0, 1);
     for k in (1..order.len()).rev() {
-        let j = (g.uniform() * (k + 1) as f64) as usize;
+        let j = (g.unit() * (k + 1) as f64) as usize;
         order.swap(k, j.min(k));
     }
     let a = baselines::fill_in_order(problem, &order).unwrap_or_else(|| vec![None; problem.len()]);
     problem.remaining(&a)
-}
-
-/// Patches occupied at year 0: the one each detection falls nearest to, within the kernel cutoff.
-fn initially_occupied(prepared: &Prepared) -> Vec<bool> {
-    let items = &prepared.patches.items;
-    let mut occ = vec![false; items.len()];
-    let reach = prepared.kernel.cutoff(prepared.epsilon);
-    for &(x, y) in &prepared.detections {
-        let nearest = (0..items.len()).min_by(|&a, &b| {
-            let da = (items[a].x - x).hypot(items[a].y - y);
-            let db = (items[b].x - x).hypot(items[b].y - y);
-            da.total_cmp(&db)
-        });
-        if let Some(i) = nearest
-            && (items[i].x - x).hypot(items[i].y - y) <= reach
-        {
-            occ[i] = true;
-        }
-    }
-    occ
 }
 
 fn pct(v: f64) -> f64 {
@@ -205,13 +203,17 @@ fn num(v: f64) -> String {
 }
 
 pub fn run(args: &SimulateArgs) -> Result<String> {
-    let params = check(args)?;
     let mut inputs = args.inputs.clone();
     if let Some(dir) = &args.plan_dir {
         inputs.scenario = Some(settings::plan_folder_scenario(dir)?);
     }
     let settings = settings::resolve_with(&inputs, args.plan_dir.is_none())?;
     let s = &settings.scenario;
+    let fitted = match &s.model.calibration {
+        Some(path) => Some(settings::read_calibration(path)?.calibration),
+        None => None,
+    };
+    let params = check(args, fitted.as_ref())?;
     if s.ensemble.is_some() {
         return Err(Error::input_with_hint(
             "`hostcut simulate` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
@@ -262,11 +264,8 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
         None => Vec::new(),
     };
     let landscape = Landscape {
-        share: model.share.clone(),
-        pressure: model.pressure.clone(),
-        links: model.links.iter().map(|l| (l.a, l.b, l.kernel)).collect(),
         long_links,
-        initial: initially_occupied(&prepared),
+        ..Landscape::of(&prepared)
     };
     let seed = args.seed;
     let random = |run: u64| random_plan(&problem, seed, run);
