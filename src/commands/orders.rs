@@ -581,15 +581,20 @@ fn write_maps(ctx: &Ctx, staging: &Staging) -> Result<()> {
         ("crew", Property::Integer(0)),
         ("first_date", Property::Text(String::new())),
     ];
+    // Outlines for raster and polygon plans; points (patches.csv x, y) for inventories.
+    let polygons = ctx
+        .outlines
+        .values()
+        .any(|g| matches!(g, Geometry::Polygon(_) | Geometry::MultiPolygon(_)));
     let mut patches = Vec::new();
     for rec in &ctx.folder.patches {
-        let Some(g) = ctx.outlines.get(&rec.patch_id) else {
-            continue;
-        };
-        let mp = match g {
-            Geometry::Polygon(p) => MultiPolygon(vec![p.clone()]),
-            Geometry::MultiPolygon(m) => m.clone(),
-            _ => continue,
+        let geometry = match ctx.outlines.get(&rec.patch_id) {
+            Some(Geometry::Polygon(p)) if polygons => {
+                Geometry::MultiPolygon(MultiPolygon(vec![p.clone()]))
+            }
+            Some(Geometry::MultiPolygon(m)) if polygons => Geometry::MultiPolygon(m.clone()),
+            _ if polygons => continue,
+            _ => Geometry::Point(Point::new(rec.x, rec.y)),
         };
         let (status, method, priority) = match planned.get(rec.patch_id.as_str()) {
             Some((prio, p)) => ("treat", p.method.clone(), *prio),
@@ -601,7 +606,7 @@ fn write_maps(ctx: &Ctx, staging: &Staging) -> Result<()> {
             .cloned()
             .unwrap_or((0, String::new()));
         patches.push((
-            Geometry::MultiPolygon(mp),
+            geometry,
             vec![
                 text(&rec.patch_id),
                 text(status),
@@ -621,7 +626,11 @@ fn write_maps(ctx: &Ctx, staging: &Staging) -> Result<()> {
         vec![
             LayerData {
                 name: "patches",
-                geometry: T::wkbMultiPolygon,
+                geometry: if polygons {
+                    T::wkbMultiPolygon
+                } else {
+                    T::wkbPoint
+                },
                 fields: &patch_fields,
                 features: patches,
             },
@@ -724,7 +733,7 @@ fn overview_map(ctx: &Ctx) -> String {
             None => UNTREATED,
         };
         match ctx.outlines.get(&rec.patch_id) {
-            Some(g) => {
+            Some(g @ (Geometry::Polygon(_) | Geometry::MultiPolygon(_))) => {
                 let _ = write!(
                     svg,
                     r##"<path d="{}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></path>"##,
@@ -732,11 +741,14 @@ fn overview_map(ctx: &Ctx) -> String {
                     escape(&rec.patch_id)
                 );
             }
-            None => {
+            // Inventory stands are points: a circle sized by stems (area proportional).
+            _ => {
                 let (x, y) = f.px(rec.x, rec.y);
+                let r = (rec.stems.max(0.0).sqrt() * 0.25).clamp(2.5, 9.0);
                 let _ = write!(
                     svg,
-                    r##"<circle cx="{x:.1}" cy="{y:.1}" r="3" fill="{fill}" stroke="#333" stroke-width="0.6"/>"##
+                    r##"<circle cx="{x:.1}" cy="{y:.1}" r="{r:.1}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></circle>"##,
+                    escape(&rec.patch_id)
                 );
             }
         }
