@@ -644,30 +644,22 @@ pub fn solve_minmax(
     }
     let scale = 1e3 / worst_before;
     let built = build_transport(problem, scale, warm.as_ref(), Some(mm))?;
+    let infeasible = || MinMaxSolved {
+        assignment: vec![None; n],
+        value: f64::NAN,
+        bound: f64::NAN,
+        gap: f64::NAN,
+        status: Status::Infeasible,
+        seconds: start_time.elapsed().as_secs_f64(),
+    };
     let Some(run) = run_highs(built, limits, n)? else {
-        return Ok(MinMaxSolved {
-            assignment: vec![None; n],
-            value: f64::NAN,
-            bound: f64::NAN,
-            gap: f64::NAN,
-            status: Status::Infeasible,
-            seconds: start_time.elapsed().as_secs_f64(),
-        });
+        return Ok(infeasible());
     };
     let mut assignment = run.assignment;
     if !run.has_solution || !problem.feasible(&assignment) {
         match &warm {
             Some(w) => assignment = w.clone(),
-            None => {
-                return Ok(MinMaxSolved {
-                    assignment: vec![None; n],
-                    value: f64::NAN,
-                    bound: f64::NAN,
-                    gap: f64::NAN,
-                    status: Status::Infeasible,
-                    seconds: start_time.elapsed().as_secs_f64(),
-                });
-            }
+            None => return Ok(infeasible()),
         }
     }
     if let Some(w) = warm.as_ref()
