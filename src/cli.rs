@@ -102,6 +102,10 @@ pub struct PlanArgs {
     #[arg(long, allow_negative_numbers = true, value_name = "GAMMA")]
     pub detection_weight: Option<f64>,
 
+    /// Offer trap-tree methods: remove most stems, keep a few male stems treated with a systemic
+    /// insecticide as lanternfly sinks (catalogue methods with `sink_kill`)
+    #[arg(long)]
+    pub trap_trees: bool,
     /// Treatment catalogue TOML (replaces the built-in models/treatments.toml)
     #[arg(long, value_name = "FILE")]
     pub treatments: Option<PathBuf>,

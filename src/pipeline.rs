@@ -146,7 +146,7 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     let choices: Vec<_> = patches
         .items
         .iter()
-        .map(|p| treatments::choices_for(&catalogue, p))
+        .map(|p| treatments::choices_for(&catalogue, p, s.plan.trap_trees))
         .collect();
     let eligible: Vec<bool> = choices
         .iter()

@@ -368,6 +368,9 @@ pub struct PlanSection {
     /// Treatment catalogue; the built-in one when absent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub treatments: Option<PathBuf>,
+    /// Offer trap-tree methods (catalogue methods with `sink_kill`).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub trap_trees: bool,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -700,6 +703,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     }
     if let Some(v) = args.budget {
         s.plan.budget = Some(v);
+    }
+    if args.trap_trees {
+        s.plan.trap_trees = true;
     }
     if let Some(v) = args.crew_hours {
         s.plan.crew_hours = Some(v);

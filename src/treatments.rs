@@ -36,6 +36,28 @@ pub struct Method {
     pub cautions: Vec<String>,
     #[serde(default)]
     pub source: String,
+    /// Share of the treated stems that need a follow-up visit next season (survivors and root
+    /// suckers), for multi-season programmes; default 1 - effectiveness.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub follow_up_share: Option<f64>,
+    /// The method used on the follow-up visit (default: this one).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub follow_up_method: Option<String>,
+    /// A trap-tree method: the share of arriving insects the kept, insecticide-treated stems
+    /// kill. Offered only with `--trap-trees`; its remaining risk is (1 - e)(1 - sink_kill).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sink_kill: Option<f64>,
+}
+
+impl Method {
+    /// r: the share of the patch's risk-bearing host left after this method.
+    pub fn remaining(&self) -> f64 {
+        (1.0 - self.effectiveness) * (1.0 - self.sink_kill.unwrap_or(0.0))
+    }
+
+    pub fn follow_up_share(&self) -> f64 {
+        self.follow_up_share.unwrap_or(1.0 - self.effectiveness)
+    }
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -125,6 +147,23 @@ impl Catalogue {
                     m.months
                 )));
             }
+            for (name, v) in [
+                ("follow_up_share", m.follow_up_share),
+                ("sink_kill", m.sink_kill),
+            ] {
+                if let Some(v) = v
+                    && !(v.is_finite() && (0.0..=1.0).contains(&v))
+                {
+                    return Err(bad(format!("{name} must be between 0 and 1, got {v}")));
+                }
+            }
+            if let Some(f) = &m.follow_up_method
+                && !self.methods.iter().any(|x| &x.id == f)
+            {
+                return Err(bad(format!(
+                    "follow_up_method `{f}` is not a method of the catalogue"
+                )));
+            }
             for code in &m.cautions {
                 if cautions::lookup(code).is_none() {
                     return Err(bad(format!(
@@ -154,7 +193,8 @@ pub struct Choice {
 
 /// The methods a patch may receive. Denied access: none. Herbicide prohibited: no herbicide
 /// methods. Restricted herbicide sites stay eligible and are flagged by the caution codes.
-pub fn choices_for(catalogue: &Catalogue, patch: &Patch) -> Vec<Choice> {
+/// Trap-tree methods (with `sink_kill`) only when `trap_trees` is on.
+pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Vec<Choice> {
     if patch.site.access == Access::Denied {
         return Vec::new();
     }
@@ -164,6 +204,7 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch) -> Vec<Choice> {
         .enumerate()
         .filter(|(_, m)| !(m.herbicide && patch.site.herbicide == Herbicide::Prohibited))
         .filter(|(_, m)| m.effectiveness > 0.0)
+        .filter(|(_, m)| trap_trees || m.sink_kill.is_none())
         .map(|(k, m)| Choice {
             method: MethodId(k as u16),
             // Money is priced to the cent per patch, as a contract line would be.
@@ -173,7 +214,7 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch) -> Vec<Choice> {
                 .round()
                 / 100.0,
             hours: m.hours_per_stem * patch.stems,
-            remaining: 1.0 - m.effectiveness,
+            remaining: m.remaining(),
         })
         .collect()
 }
@@ -239,24 +280,33 @@ mod tests {
     #[test]
     fn cost_and_hours_follow_the_formula() {
         let (c, _) = Catalogue::load(None).unwrap();
-        let choices = choices_for(&c, &patch(Access::Open, Herbicide::Allowed, 1.5));
-        assert_eq!(choices.len(), c.methods.len());
-        for ch in &choices {
+        let choices = choices_for(&c, &patch(Access::Open, Herbicide::Allowed, 1.5), false);
+        let traps = c.methods.iter().filter(|m| m.sink_kill.is_some()).count();
+        assert_eq!(
+            choices.len(),
+            c.methods.len() - traps,
+            "trap trees only on request"
+        );
+        let with_traps = choices_for(&c, &patch(Access::Open, Herbicide::Allowed, 1.5), true);
+        assert_eq!(with_traps.len(), c.methods.len());
+        for ch in &with_traps {
             let m = c.method(ch.method);
             assert!(
                 (ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs()
                     <= 0.005 + 1e-9
             );
             assert!((ch.hours - m.hours_per_stem * 100.0).abs() < 1e-9);
-            assert!((ch.remaining - (1.0 - m.effectiveness)).abs() < 1e-12);
+            // r = (1 - e)(1 - sink kill): the kept stems are host, but insects landing there die.
+            let sink = m.sink_kill.unwrap_or(0.0);
+            assert!((ch.remaining - (1.0 - m.effectiveness) * (1.0 - sink)).abs() < 1e-12);
         }
     }
 
     #[test]
     fn eligibility_and_site_cautions() {
         let (c, _) = Catalogue::load(None).unwrap();
-        assert!(choices_for(&c, &patch(Access::Denied, Herbicide::Allowed, 1.0)).is_empty());
-        let prohibited = choices_for(&c, &patch(Access::Open, Herbicide::Prohibited, 1.0));
+        assert!(choices_for(&c, &patch(Access::Denied, Herbicide::Allowed, 1.0), false).is_empty());
+        let prohibited = choices_for(&c, &patch(Access::Open, Herbicide::Prohibited, 1.0), false);
         assert!(
             !prohibited.is_empty() && prohibited.iter().all(|ch| !c.method(ch.method).herbicide)
         );
