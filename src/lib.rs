@@ -28,6 +28,7 @@ pub mod output;
 pub mod patches;
 pub mod pipeline;
 pub mod plan;
+pub mod program;
 pub mod rng;
 pub mod routing;
 pub mod settings;

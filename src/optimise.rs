@@ -498,16 +498,16 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
 
 /// What HiGHS returned: the status (never infeasible: that is `None` from [`run_highs`]), the
 /// assignment read from the x columns, and its dual bound on the (scaled) objective.
-struct HighsRun {
-    status: Status,
-    assignment: Assignment,
-    has_solution: bool,
-    objective_bound: f64,
+pub(crate) struct HighsRun {
+    pub(crate) status: Status,
+    pub(crate) assignment: Assignment,
+    pub(crate) has_solution: bool,
+    pub(crate) objective_bound: f64,
 }
 
 /// Solve a built model with the run's limits, a fixed seed and thread count. `None` when HiGHS
 /// proves it infeasible.
-fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option<HighsRun>> {
+pub(crate) fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option<HighsRun>> {
     let Built {
         mut model,
         x_columns,
@@ -708,9 +708,10 @@ fn prune_worthless(problem: &Problem, assignment: &mut Assignment) {
 }
 
 /// A built HiGHS model and, per patch, (choice index, column) of each x_io.
-struct Built {
-    model: highs::Model,
-    x_columns: Vec<Vec<(usize, usize)>>,
+pub(crate) struct Built {
+    pub(crate) model: highs::Model,
+    /// Per patch: (option index, column of its binary).
+    pub(crate) x_columns: Vec<Vec<(usize, usize)>>,
 }
 
 /// Choice `o` of patch `i` is dominated when another choice costs no more, takes no more crew
