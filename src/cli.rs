@@ -30,6 +30,8 @@ pub enum Command {
     Simulate(SimulateArgs),
     /// Fit the dispersal scale and spread rates to your own survey history
     Calibrate(CalibrateArgs),
+    /// Plan several seasons at once: new treatments, follow-ups and regrowth under yearly budgets
+    Program(ProgramArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -302,6 +304,35 @@ pub struct CalibrateArgs {
     /// Fewest observed year-to-year transitions to fit at all
     #[arg(long, default_value_t = 30)]
     pub min_transitions: usize,
+}
+
+/// Flags of `hostcut program`.
+#[derive(Debug, Clone, Args)]
+pub struct ProgramArgs {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Reuse the inputs and settings of an earlier plan folder
+    #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
+    pub plan_dir: Option<PathBuf>,
+    /// Seasons in the programme
+    #[arg(long, value_name = "N")]
+    pub seasons: usize,
+    /// Budget of each season, comma-separated (one value: the same every season)
+    #[arg(long, value_name = "B1,B2,...", value_delimiter = ',', required = true)]
+    pub budgets: Vec<f64>,
+    /// Crew hours of each season, comma-separated (one value: every season); `--crew-hours`
+    /// gives one limit for every season too
+    #[arg(long, value_name = "H1,H2,...", value_delimiter = ',')]
+    pub season_crew_hours: Vec<f64>,
+    /// Weight of season t in the objective is DISCOUNT^(t-1)
+    #[arg(long, default_value_t = 1.0)]
+    pub discount: f64,
+    /// Yearly growth of untreated host (0.05 = 5 % more stems a year)
+    #[arg(long, default_value_t = 0.05)]
+    pub growth: f64,
+    /// Yearly regrowth of a treated patch toward its untreated host once visits stop
+    #[arg(long, default_value_t = 0.5)]
+    pub regrowth: f64,
 }
 
 /// Flags of `hostcut orders`.

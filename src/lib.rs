@@ -56,6 +56,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Orders(args) => commands::orders::run(&args),
         Command::Simulate(args) => commands::simulate::run(&args),
         Command::Calibrate(args) => commands::calibrate::run(&args),
+        Command::Program(args) => commands::program::run(&args),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;

@@ -300,11 +300,61 @@ pub struct ProgramSolved {
     pub seconds: f64,
 }
 
-/// The exact MIP, warm-started from `start` when feasible.
+/// A proven lower bound on the programme's objective from one single-season problem per
+/// season: by season t a patch's host can be no lower than its courses allow, for no less than
+/// their cost up to t, and the seasons' budgets (and hours) up to t can be pooled. So
+/// R_t >= U_t^2 x min{ R(ratios) : sum of cumulative course costs <= B_1 + ... + B_t }, whose
+/// proven bound the single-season MIP gives (R is homogeneous of degree 2 in the host, and every
+/// untreated patch stands at U_t).
+pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
+    use crate::optimise::Problem;
+    use crate::treatments::{Choice, MethodId};
+    let n = p.len();
+    let mut floor = 0.0;
+    for t in 0..p.weights.len() {
+        if p.weights[t] == 0.0 {
+            continue;
+        }
+        let u = p.untreated[t];
+        let choices: Vec<Vec<Choice>> = (0..n)
+            .map(|i| {
+                p.courses[i]
+                    .iter()
+                    .map(|c| Choice {
+                        method: MethodId(c.method as u16),
+                        cost: c.cost[..=t].iter().sum(),
+                        hours: c.hours[..=t].iter().sum(),
+                        remaining: c.host[t] / u,
+                    })
+                    .collect()
+            })
+            .collect();
+        let pooled = |v: &[f64]| v[..=t].iter().sum::<f64>();
+        let relaxed = Problem {
+            model: p.model,
+            choices,
+            budget: pooled(&p.budgets),
+            crew_hours: p.hours.as_ref().map(|h| pooled(h)),
+            required: vec![false; n],
+            excluded: vec![false; n],
+        };
+        let solved = crate::optimise::solve(&relaxed, limits)?;
+        if !solved.bound.is_finite() {
+            return Ok(0.0);
+        }
+        floor += p.weights[t] * u * u * solved.bound;
+    }
+    Ok(floor)
+}
+
+/// The exact MIP, warm-started from `start` when feasible; `floor` is a lower bound known
+/// beforehand (e.g. [`season_floor`]); the reported bound is the larger of it and HiGHS's, and
+/// a start already within the requested gap of it is returned without search.
 pub fn solve(
     p: &ProgramProblem,
     limits: Limits,
     start: Option<&Assignment>,
+    floor: f64,
 ) -> Result<ProgramSolved> {
     let clock = std::time::Instant::now();
     let n = p.len();
@@ -332,6 +382,24 @@ pub fn solve(
             status: Status::Optimal,
             seconds: clock.elapsed().as_secs_f64(),
         });
+    }
+    if let Some(w) = &warm {
+        let v = p.objective(w);
+        if v > 0.0 && (v - floor) / v <= limits.gap {
+            let gap = ((v - floor) / v).max(0.0);
+            return Ok(ProgramSolved {
+                assignment: w.clone(),
+                objective: v,
+                bound: floor.min(v),
+                gap,
+                status: if gap > OPTIMAL_GAP {
+                    Status::GapLimit
+                } else {
+                    Status::Optimal
+                },
+                seconds: clock.elapsed().as_secs_f64(),
+            });
+        }
     }
     let scale = 1e3 / before;
     let mut vars = ProblemVariables::new();
@@ -501,7 +569,10 @@ pub fn solve(
         assignment = w.clone();
     }
     let objective = p.objective(&assignment);
-    let bound = (run.objective_bound / scale).min(objective).max(0.0);
+    let bound = (run.objective_bound / scale)
+        .max(floor)
+        .min(objective)
+        .max(0.0);
     let gap = if objective > 0.0 {
         ((objective - bound) / objective).max(0.0)
     } else {
@@ -585,7 +656,7 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
                 })
             })
             .collect();
-        let solved = solve(&season, limits, Some(&keep))?;
+        let solved = solve(&season, limits, Some(&keep), 0.0)?;
         if solved.status == Status::Infeasible {
             return Err(Error::input(
                 "the myopic season-by-season plan cannot fund the required patches",

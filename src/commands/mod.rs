@@ -7,4 +7,5 @@ pub mod demo;
 pub mod ensemble;
 pub mod orders;
 pub mod plan;
+pub mod program;
 pub mod simulate;
