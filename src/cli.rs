@@ -17,7 +17,7 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Build the patch graph and risk model, choose treatments under the budget, write the plan
-    Plan(PlanArgs),
+    Plan(PlanCommand),
     /// Plan at many budgets: what each extra thousand buys, with a chart and a justification page
     Curve(CurveArgs),
     /// Turn a plan into a bid schedule, a scope of work and a completion template
@@ -45,6 +45,17 @@ pub enum KernelKind {
     Exp,
     /// k(d) = 1 / (1 + (d / alpha)^2)
     Cauchy,
+}
+
+/// `hostcut plan`: the shared planning flags plus the ones only a single plan has.
+#[derive(Debug, Clone, Args)]
+pub struct PlanCommand {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Also write the exact MIP (transportation formulation, objective R x 1000 / R before) in
+    /// MPS, for checking with another solver
+    #[arg(long, value_name = "FILE")]
+    pub write_mps: Option<PathBuf>,
 }
 
 /// Flags of `hostcut plan`. Every flag overrides the same setting in `--scenario`.

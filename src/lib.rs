@@ -46,8 +46,16 @@ pub fn run(cli: Cli) -> Result<String> {
     gdal::config::set_error_handler(|_, _, _| {});
     match cli.command {
         Command::Plan(args) => {
-            let settings = settings::resolve(&args)?;
-            let report = commands::plan::run(&settings)?;
+            if let Some(p) = &args.write_mps
+                && !p.extension().is_some_and(|e| e.eq_ignore_ascii_case("mps"))
+            {
+                return Err(Error::input_with_hint(
+                    format!("`--write-mps {}`: the file must end in .mps", p.display()),
+                    "e.g. `--write-mps plan.mps`",
+                ));
+            }
+            let settings = settings::resolve(&args.inputs)?;
+            let report = commands::plan::run_with(&settings, args.write_mps.as_deref())?;
             Ok(report.text)
         }
         Command::Curve(args) => Ok(commands::curve::run(&args)?.text),

@@ -11,8 +11,9 @@ fuzz_target!(|data: &[u8]| {
     if let Ok(cli) = hostcut::cli::Cli::try_parse_from(&args) {
         if let hostcut::cli::Command::Plan(plan) = cli.command {
             // Never read files named by the fuzzer.
-            if plan.scenario.is_none() {
-                let _ = hostcut::settings::resolve(&plan);
+            let p = &plan.inputs;
+            if p.scenario.is_none() && p.ensemble.is_none() && p.calibration.is_none() {
+                let _ = hostcut::settings::resolve(&plan.inputs);
             }
         }
     }

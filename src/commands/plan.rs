@@ -24,6 +24,11 @@ pub struct RunReport {
 
 /// Run the whole planning job for resolved settings.
 pub fn run(settings: &Settings) -> Result<RunReport> {
+    run_with(settings, None)
+}
+
+/// As [`run`], also writing the exact MIP in MPS to `mps` when given.
+pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<RunReport> {
     let s = &settings.scenario;
     let staging = Staging::new(&settings.out, settings.force)?;
     let progress = |msg: &str| settings.progress(msg);
@@ -56,6 +61,15 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
         ..
     } = &prepared;
     let problem = prepared.problem(budget, s.plan.crew_hours);
+    if let Some(path) = mps {
+        if ensemble.is_some() {
+            return Err(Error::input(
+                "`--write-mps` writes a single-kernel plan's MIP; drop the ensemble to use it",
+            ));
+        }
+        let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
+        optimise::write_mps(&problem, &path)?;
+    }
     let solved = match &ensemble {
         Some(e) => e.chosen.clone(),
         None => {
