@@ -32,6 +32,8 @@ pub enum Command {
     Calibrate(CalibrateArgs),
     /// Plan several seasons at once: new treatments, follow-ups and regrowth under yearly budgets
     Program(ProgramArgs),
+    /// Benchmark the optimiser on a synthetic landscape (formulations against each other)
+    Bench(BenchArgs),
     /// Make the invented demo landscape and plan it end to end
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
@@ -344,6 +346,45 @@ pub struct ProgramArgs {
     /// Yearly regrowth of a treated patch toward its untreated host once visits stop
     #[arg(long, default_value_t = 0.5)]
     pub regrowth: f64,
+}
+
+/// Flags of `hostcut bench`.
+#[derive(Debug, Clone, Args)]
+pub struct BenchArgs {
+    /// Patches in the synthetic landscape
+    #[arg(long, default_value_t = 200)]
+    pub patches: usize,
+    /// Clusters the patches gather in
+    #[arg(long, default_value_t = 1)]
+    pub clusters: usize,
+    /// Side of the square area, metres
+    #[arg(long, default_value_t = 3000.0)]
+    pub side_m: f64,
+    /// Spread of each cluster (standard deviation), metres
+    #[arg(long, default_value_t = 800.0)]
+    pub spread_m: f64,
+    /// Kernel scale, metres (larger = more densely linked)
+    #[arg(long, default_value_t = 400.0)]
+    pub alpha_m: f64,
+    /// Methods per patch (the built-in catalogue's first N)
+    #[arg(long, default_value_t = 3)]
+    pub methods: usize,
+    /// Budget as a share of treating everything with its most effective method
+    #[arg(long, default_value_t = 0.3)]
+    pub budget_share: f64,
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    #[arg(long, default_value_t = 600.0)]
+    pub time_limit_s: f64,
+    #[arg(long, default_value_t = 1e-4)]
+    pub gap: f64,
+    /// Formulations to run: transport, compact, direct
+    #[arg(long, value_delimiter = ',', default_value = "transport,direct")]
+    pub formulations: Vec<String>,
+    /// Also write the direct (baseline) formulation's MIP in MPS here, for an outside solver
+    /// such as Debian's `coinor-cbc`
+    #[arg(long, value_name = "FILE")]
+    pub write_mps: Option<PathBuf>,
 }
 
 /// Flags of `hostcut orders`.

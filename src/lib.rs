@@ -34,6 +34,7 @@ pub mod routing;
 pub mod settings;
 pub mod simulate;
 pub mod suitability;
+pub mod synthetic;
 pub mod treatments;
 
 use cli::{Cli, Command};
@@ -66,6 +67,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Calibrate(args) => commands::calibrate::run(&args),
         Command::Program(args) => commands::program::run(&args),
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
+        Command::Bench(args) => commands::bench::run(&args),
         Command::MakeDemoInputs(args) => {
             demo::write_inputs(&args.dir)?;
             Ok(format!("demo inputs written to {}\n", args.dir.display()))

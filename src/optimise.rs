@@ -355,6 +355,9 @@ pub enum Formulation {
     Transport,
     /// One u per link and choice of one end, plus McCormick's envelope row.
     Compact,
+    /// The textbook baseline: one binary per patch and method, one product variable per link
+    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (for benchmarks).
+    Direct,
 }
 
 impl Limits {
@@ -363,6 +366,7 @@ impl Limits {
     pub fn new(time_limit_s: f64, gap: f64) -> Limits {
         let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
             Ok("compact") => Formulation::Compact,
+            Ok("direct") => Formulation::Direct,
             _ => Formulation::Transport,
         };
         Limits {
@@ -447,6 +451,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
 
     let built = match limits.formulation {
         Formulation::Compact => build_compact(problem, scale, warm.as_ref().map(|w| &w.0))?,
+        Formulation::Direct => build_direct(problem, scale)?,
         Formulation::Transport => {
             build_transport(problem, scale, warm.as_ref().map(|w| &w.0), None)?
         }
@@ -565,10 +570,13 @@ pub(crate) fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option
     }))
 }
 
-/// Write the exact MIP that [`solve`] builds (transportation formulation, no warm start) to an
-/// MPS file through HiGHS's own writer. The objective is R x 1000 / R before, with the constant
+/// Write the exact MIP in the given formulation (no warm start) to an MPS file through HiGHS's own writer. The objective is R x 1000 / R before, with the constant
 /// carried by a column fixed at 1, so its optimum times R before / 1000 is the least achievable R.
-pub fn write_mps(problem: &Problem, path: &std::path::Path) -> Result<()> {
+pub fn write_mps(
+    problem: &Problem,
+    path: &std::path::Path,
+    formulation: Formulation,
+) -> Result<()> {
     let risk_before = problem.model.risk_before();
     if risk_before <= 0.0 {
         return Err(Error::input("there is no risk to model: nothing to write"));
@@ -585,7 +593,12 @@ pub fn write_mps(problem: &Problem, path: &std::path::Path) -> Result<()> {
             "e.g. `--write-mps plan.mps`",
         ));
     }
-    let Built { mut model, .. } = build_transport(problem, 1e3 / risk_before, None, None)?;
+    let scale = 1e3 / risk_before;
+    let Built { mut model, .. } = match formulation {
+        Formulation::Transport => build_transport(problem, scale, None, None)?,
+        Formulation::Compact => build_compact(problem, scale, None)?,
+        Formulation::Direct => build_direct(problem, scale)?,
+    };
     let file = path.to_string_lossy().into_owned();
     model.set_option("output_flag", false);
     model.set_option("write_model_to_file", true);
@@ -771,6 +784,93 @@ fn dominated(problem: &Problem, i: usize, o: usize) -> bool {
 }
 
 /// The compact formulation: one u per link and choice of one end (see the module docs).
+/// The direct formulation: x_im binary, sum_m x_im <= 1, t_i = sum_m e_m x_im, and
+/// r_i r_j = 1 - t_i - t_j + sum_mn e_m e_n y_ijmn with y_ijmn >= x_im + x_jn - 1, y >= 0
+/// (Fortet 1960; exact at integer points because the y coefficients are positive and minimised).
+/// Own terms are linear: r_i^2 = 1 - sum_m (1 - r_m^2) x_im. No warm start: it is the baseline.
+fn build_direct(problem: &Problem, scale: f64) -> Result<Built> {
+    let n = problem.len();
+    let mut vars = ProblemVariables::new();
+    let mut columns = 0usize;
+    let mut x: Vec<Vec<(Variable, usize)>> = vec![Vec::new(); n];
+    let mut x_columns: Vec<Vec<(usize, usize)>> = vec![Vec::new(); n];
+    for i in 0..n {
+        if problem.excluded[i] {
+            continue;
+        }
+        for o in 0..problem.choices[i].len() {
+            x[i].push((vars.add(variable().binary()), columns));
+            x_columns[i].push((o, columns));
+            columns += 1;
+        }
+    }
+    let e = |i: usize, o: usize| 1.0 - problem.choices[i][o].remaining;
+    let mut objective = Expression::from(0.0);
+    let mut constant = 0.0;
+    for i in 0..n {
+        constant += problem.model.own[i];
+        for (o, &(v, _)) in x[i].iter().enumerate() {
+            let r = problem.choices[i][o].remaining;
+            objective -= problem.model.own[i] * (1.0 - r * r) * v;
+        }
+    }
+    let mut fortet = Vec::new();
+    for link in &problem.model.links {
+        let (a, b, w) = (link.a, link.b, link.weight);
+        constant += w;
+        for (o, &(v, _)) in x[a].iter().enumerate() {
+            objective -= w * e(a, o) * v;
+        }
+        for (o, &(v, _)) in x[b].iter().enumerate() {
+            objective -= w * e(b, o) * v;
+        }
+        for (oa, &(va, _)) in x[a].iter().enumerate() {
+            for (ob, &(vb, _)) in x[b].iter().enumerate() {
+                let y = vars.add(variable().min(0.0));
+                columns += 1;
+                objective += w * e(a, oa) * e(b, ob) * y;
+                fortet.push((y, va, vb));
+            }
+        }
+    }
+    let one = vars.add(variable().min(1.0).max(1.0));
+    objective += constant * one;
+    let mut lp = vars.minimise(scale * objective).using(highs);
+    for i in 0..n {
+        if x[i].is_empty() {
+            continue;
+        }
+        let sum: Expression = x[i].iter().map(|&(v, _)| v).sum();
+        lp = if problem.required[i] {
+            lp.with(sum.eq(1.0))
+        } else {
+            lp.with(sum.leq(1.0))
+        };
+    }
+    let chosen = |f: &dyn Fn(&Choice) -> f64| -> Expression {
+        (0..n)
+            .flat_map(|i| {
+                x[i].iter()
+                    .enumerate()
+                    .map(|(o, &(v, _))| f(&problem.choices[i][o]) * v)
+                    .collect::<Vec<_>>()
+            })
+            .sum()
+    };
+    lp = lp.with(chosen(&|c| c.cost).leq(problem.budget));
+    if let Some(h) = problem.crew_hours {
+        lp = lp.with(chosen(&|c| c.hours).leq(h));
+    }
+    for (y, va, vb) in fortet {
+        lp = lp.with((y - va - vb).geq(-1.0));
+    }
+    let _ = columns;
+    Ok(Built {
+        model: lp.into_inner(),
+        x_columns,
+    })
+}
+
 fn build_compact(problem: &Problem, scale: f64, warm: Option<&Assignment>) -> Result<Built> {
     let n = problem.len();
     // Columns, in the order HiGHS will see them.

@@ -125,6 +125,11 @@ fn compact_mip_equals_brute_force_on_random_instances() {
     check_against_brute_force(Formulation::Compact);
 }
 
+#[test]
+fn direct_baseline_formulation_equals_brute_force_too() {
+    check_against_brute_force(Formulation::Direct);
+}
+
 fn check_against_brute_force(formulation: Formulation) {
     let mut compared = 0;
     let mut infeasible = 0;

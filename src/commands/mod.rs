@@ -1,5 +1,6 @@
 //! One file per subcommand.
 
+pub mod bench;
 pub mod calibrate;
 pub mod contract;
 pub mod curve;

@@ -68,7 +68,7 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
             ));
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
-        optimise::write_mps(&problem, &path)?;
+        optimise::write_mps(&problem, &path, optimise::Formulation::Transport)?;
     }
     let solved = match &ensemble {
         Some(e) => e.chosen.clone(),
