@@ -49,6 +49,16 @@ pub enum KernelKind {
     Cauchy,
 }
 
+impl KernelKind {
+    /// The name used in flags and outputs.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            KernelKind::Exp => "exp",
+            KernelKind::Cauchy => "cauchy",
+        }
+    }
+}
+
 /// `hostcut plan`: the shared planning flags plus the ones only a single plan has.
 #[derive(Debug, Clone, Args)]
 pub struct PlanCommand {

@@ -110,13 +110,6 @@ pub fn parse_kernel(text: &str) -> Result<(KernelKind, Option<f64>)> {
     Ok((kind, alpha))
 }
 
-fn kernel_name(kind: KernelKind) -> &'static str {
-    match kind {
-        KernelKind::Exp => "exp",
-        KernelKind::Cauchy => "cauchy",
-    }
-}
-
 /// The fitted values of `hostcut calibrate`, as `[calibration]` of calibration.toml.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -691,7 +684,7 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(e) = s.ensemble.as_mut() {
         for m in e.members.iter_mut() {
             if m.name.is_empty() {
-                m.name = format!("{}:{}", kernel_name(m.kernel), m.alpha_m);
+                m.name = format!("{}:{}", m.kernel.as_str(), m.alpha_m);
             }
         }
     }

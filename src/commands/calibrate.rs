@@ -200,13 +200,6 @@ pub fn observations(surveys: &[Survey], placed: &[Placement], n: usize) -> Optio
     })
 }
 
-fn family_name(f: KernelKind) -> &'static str {
-    match f {
-        KernelKind::Exp => "exp",
-        KernelKind::Cauchy => "cauchy",
-    }
-}
-
 fn parse_range(text: &str) -> Result<(f64, f64)> {
     let bad = || {
         Error::input_with_hint(
@@ -332,7 +325,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
     let grid = calibrate::alpha_grid(alpha_min, alpha_max, args.alpha_steps);
     let mut fits: Vec<FamilyFit> = Vec::new();
     for family in [KernelKind::Exp, KernelKind::Cauchy] {
-        progress(&format!("fitting the {} kernel", family_name(family)));
+        progress(&format!("fitting the {} kernel", family.as_str()));
         let pressure_at = |alpha: f64| pressure(&prepared, family, alpha);
         fits.push(calibrate::fit_family(
             &geometry,
@@ -358,7 +351,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         return Err(Error::input_with_hint(
             format!(
                 "the surveys cannot pin down the kernel scale: the profile likelihood of alpha ({}) falls by only {drop:.2} of the {PROFILE_DROP:.2} needed for a 95% interval between {alpha_min} and {alpha_max} m",
-                family_name(fit.family)
+                fit.family.as_str()
             ),
             format!(
                 "about {} more surveyed patch-years (the same patches in consecutive years) would help; or narrow `--alpha-range`",
@@ -397,7 +390,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         ]
         .into_iter()
         .map(|(tag, alpha, weight)| EnsembleMember {
-            name: format!("{}:{tag}", family_name(fit.family)),
+            name: format!("{}:{tag}", fit.family.as_str()),
             kernel: fit.family,
             alpha_m: alpha,
             weight,
@@ -419,7 +412,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
     w.write_record(["parameter", "family", "estimate", "low", "high"])
         .map_err(e)?;
     for f in &fits {
-        let name = family_name(f.family);
+        let name = f.family.as_str();
         let rows: [(&str, f64, Option<f64>, Option<f64>); 6] = [
             ("alpha_m", f.theta.alpha_m, f.alpha_low, f.alpha_high),
             (
@@ -549,8 +542,8 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         .iter()
         .zip(styles)
         .map(|(f, style)| Series {
-            id: family_name(f.family).to_string(),
-            label: format!("{} kernel (AIC {:.1})", family_name(f.family), f.aic),
+            id: f.family.as_str().to_string(),
+            label: format!("{} kernel (AIC {:.1})", f.family.as_str(), f.aic),
             points: f
                 .profile
                 .iter()
@@ -594,10 +587,10 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
     let _ = writeln!(
         t,
         "the surveys favour the {} kernel (AIC {:.1} against {:.1} for {}: difference {:.1})",
-        family_name(fit.family),
+        fit.family.as_str(),
         fit.aic,
         other.aic,
-        family_name(other.family),
+        other.family.as_str(),
         other.aic - fit.aic
     );
     let _ = writeln!(

@@ -22,13 +22,6 @@ pub struct EnsembleRun {
     pub text: String,
 }
 
-fn kernel_name(k: &Kernel) -> &'static str {
-    match k.kind {
-        crate::cli::KernelKind::Exp => "exp",
-        crate::cli::KernelKind::Cauchy => "cauchy",
-    }
-}
-
 /// Solve across the scenarios of `e`; `prepared.model` becomes their weighted mean.
 pub fn solve(
     prepared: &mut Prepared,
@@ -210,7 +203,7 @@ pub fn solve(
             w.write_record([
                 name.clone(),
                 member.name.clone(),
-                kernel_name(&kernels[s]).to_string(),
+                kernels[s].kind.as_str().to_string(),
                 member.alpha_m.to_string(),
                 member.weight.to_string(),
                 format!("{r:.9e}"),
@@ -243,7 +236,7 @@ pub fn solve(
         "objective": objective,
         "scenarios": e.members.iter().zip(&optima).zip(&best).map(|((m, o), b)| serde_json::json!({
             "name": m.name,
-            "kernel": kernel_name(&Kernel { kind: m.kernel, alpha_m: m.alpha_m }),
+            "kernel": m.kernel.as_str(),
             "alpha_m": m.alpha_m,
             "weight": m.weight / total_weight,
             "optimum_risk": o.risk_after,
