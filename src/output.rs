@@ -224,12 +224,36 @@ pub struct Outputs<'a> {
     pub suitability: &'a [f64],
 }
 
-fn csv_bytes(header: &[&str], rows: Vec<Vec<String>>) -> Result<Vec<u8>> {
+/// The columns of plan.csv (a programme's season folders add `action`).
+pub const PLAN_COLUMNS: [&str; 19] = [
+    "priority",
+    "patch_id",
+    "method",
+    "stems",
+    "cost",
+    "crew_hours",
+    "risk_share",
+    "reduction_pct",
+    "value_per_cost",
+    "x",
+    "y",
+    "lon",
+    "lat",
+    "parcel",
+    "access",
+    "herbicide",
+    "contact",
+    "corridors",
+    "cautions",
+];
+
+/// A CSV file's bytes: the header row, then the rows.
+pub fn csv_bytes(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(header)
         .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     for r in rows {
-        w.write_record(&r)
+        w.write_record(r)
             .map_err(|e| Error::Internal(format!("csv: {e}")))?;
     }
     w.into_inner()
@@ -274,28 +298,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             row.cautions.join(";"),
         ]);
     }
-    let header = [
-        "priority",
-        "patch_id",
-        "method",
-        "stems",
-        "cost",
-        "crew_hours",
-        "risk_share",
-        "reduction_pct",
-        "value_per_cost",
-        "x",
-        "y",
-        "lon",
-        "lat",
-        "parcel",
-        "access",
-        "herbicide",
-        "contact",
-        "corridors",
-        "cautions",
-    ];
-    staging.write("plan.csv", csv_bytes(&header, rows)?)?;
+    staging.write("plan.csv", csv_bytes(&PLAN_COLUMNS, &rows)?)?;
 
     let mut rows = Vec::new();
     for (i, p) in patches.items.iter().enumerate() {
@@ -346,7 +349,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "method",
         "suitability",
     ];
-    staging.write("patches.csv", csv_bytes(&header, rows)?)?;
+    staging.write("patches.csv", csv_bytes(&header, &rows)?)?;
 
     let mut priority = vec![0i64; patches.len()];
     for (rank, row) in plan.rows.iter().enumerate() {

@@ -9,7 +9,7 @@ use crate::chart::{escape, thousands};
 use crate::cli::{ContractArgs, RecordArgs};
 use crate::contract::{self, PlanFolder};
 use crate::error::{Error, Result};
-use crate::output::Staging;
+use crate::output::{self, Staging};
 
 fn money(code: &str, cents: i64) -> String {
     let symbol = if code == "USD" {
@@ -22,18 +22,6 @@ fn money(code: &str, cents: i64) -> String {
         thousands((cents / 100) as f64),
         (cents % 100).abs()
     )
-}
-
-fn csv_text(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    for r in rows {
-        w.write_record(r)
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
 }
 
 pub fn run_contract(args: &ContractArgs) -> Result<String> {
@@ -93,7 +81,7 @@ pub fn run_contract(args: &ContractArgs) -> Result<String> {
         "bid_unit_price",
         "bid_extended",
     ];
-    staging.write("bid_schedule.csv", csv_text(&header, &rows)?)?;
+    staging.write("bid_schedule.csv", output::csv_bytes(&header, &rows)?)?;
 
     // Completion template, in priority order.
     let mut rows = Vec::new();
@@ -119,7 +107,10 @@ pub fn run_contract(args: &ContractArgs) -> Result<String> {
         "product_active_ingredient",
         "notes",
     ];
-    staging.write("completion_template.csv", csv_text(&header, &rows)?)?;
+    staging.write(
+        "completion_template.csv",
+        output::csv_bytes(&header, &rows)?,
+    )?;
 
     // Scope of work.
     let (md, html) = scope_of_work(&folder, &items, total);
@@ -290,7 +281,7 @@ pub fn run_record(args: &RecordArgs) -> Result<String> {
         "suitability",
         "follow_up_due",
     ];
-    staging.write("inventory.next.csv", csv_text(&header, &rows)?)?;
+    staging.write("inventory.next.csv", output::csv_bytes(&header, &rows)?)?;
     let planned_stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
     let planned_cents: i64 = folder
         .planned

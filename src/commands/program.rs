@@ -36,17 +36,6 @@ fn per_season(values: &[f64], seasons: usize, flag: &str) -> Result<Vec<f64>> {
     Ok(v)
 }
 
-fn csv_bytes(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let e = |e: csv::Error| Error::Internal(format!("csv: {e}"));
-    w.write_record(header).map_err(e)?;
-    for r in rows {
-        w.write_record(r).map_err(e)?;
-    }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
-}
-
 pub fn run(args: &ProgramArgs) -> Result<String> {
     let mut inputs = args.inputs.clone();
     if let Some(dir) = &args.plan_dir {
@@ -175,7 +164,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     let rows: Vec<Vec<String>> = rows.into_iter().map(|r| r.1).collect();
     staging.write(
         "program.csv",
-        csv_bytes(
+        output::csv_bytes(
             &[
                 "season",
                 "patch_id",
@@ -433,7 +422,7 @@ fn write_season(
             p.site.access.as_str().to_string(),
             p.site.herbicide.as_str().to_string(),
             p.site.contact.clone(),
-            prepared.pressure.corridors[r.i].join("; "),
+            prepared.pressure.corridors[r.i].join(";"),
             treatments::caution_codes(method, p).join(";"),
             match r.visit.action {
                 Action::New => "new".to_string(),
@@ -443,29 +432,12 @@ fn write_season(
     }
     staging.write(
         &format!("{dir}/plan.csv"),
-        csv_bytes(
-            &[
-                "priority",
-                "patch_id",
-                "method",
-                "stems",
-                "cost",
-                "crew_hours",
-                "risk_share",
-                "reduction_pct",
-                "value_per_cost",
-                "x",
-                "y",
-                "lon",
-                "lat",
-                "parcel",
-                "access",
-                "herbicide",
-                "contact",
-                "corridors",
-                "cautions",
-                "action",
-            ],
+        output::csv_bytes(
+            &output::PLAN_COLUMNS
+                .iter()
+                .copied()
+                .chain(["action"])
+                .collect::<Vec<_>>(),
             &plan_rows,
         )?,
     )?;
@@ -496,7 +468,7 @@ fn write_season(
     }
     staging.write(
         &format!("{dir}/patches.csv"),
-        csv_bytes(
+        output::csv_bytes(
             &[
                 "patch_id",
                 "x",
