@@ -388,8 +388,10 @@ pub struct BenchArgs {
     pub time_limit_s: f64,
     #[arg(long, default_value_t = 1e-4)]
     pub gap: f64,
-    /// Formulations to run: transport, compact, direct
-    #[arg(long, value_delimiter = ',', default_value = "transport,direct")]
+    /// Solvers to run: hostcut (the plan command's: transportation MIP with the relaxation
+    /// bound, rounding and local search), transport, compact, direct (plain HiGHS on each
+    /// formulation; direct is the baseline)
+    #[arg(long, value_delimiter = ',', default_value = "hostcut,direct")]
     pub formulations: Vec<String>,
     /// Also write the direct (baseline) formulation's MIP in MPS here, for an outside solver
     /// such as Debian's `coinor-cbc`

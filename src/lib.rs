@@ -29,6 +29,7 @@ pub mod patches;
 pub mod pipeline;
 pub mod plan;
 pub mod program;
+pub mod relax;
 pub mod rng;
 pub mod routing;
 pub mod settings;

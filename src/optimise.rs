@@ -21,6 +21,7 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
+use crate::relax;
 use crate::treatments::Choice;
 
 /// What the optimiser is asked: the model, each patch's eligible choices and the limits.
@@ -175,6 +176,120 @@ impl Problem<'_> {
     }
 }
 
+/// Adaptive greedy by risk reduction per unit cost from the feasible plan `start`: treat an
+/// untreated patch or upgrade a treated one while anything fits and lowers R.
+pub fn fill(problem: &Problem, start: Assignment) -> Assignment {
+    let n = problem.len();
+    let fits = |spent: f64, hours: f64, c: &Choice| {
+        Problem::within(problem.budget, spent + c.cost)
+            && problem
+                .crew_hours
+                .is_none_or(|h| Problem::within(h, hours + c.hours))
+    };
+    // Evaluated lazily (Minoux's accelerated greedy): a move's gain only
+    // falls as other patches are treated (every w_ij >= 0) and the budget left only shrinks, so
+    // a queued ratio is an upper bound; only the top entry is re-evaluated. The patch that
+    // moves has its own options re-queued. Ties go to the lowest (patch, choice), as in a plain
+    // scan.
+    let mut current = start;
+    let mut remaining = problem.remaining(&current);
+    let (mut spent, mut hours) = (problem.cost(&current), problem.hours(&current));
+    let mut version = vec![0u32; n];
+    let mut queue = std::collections::BinaryHeap::new();
+    let evaluate = |current: &Assignment,
+                    remaining: &[f64],
+                    spent: f64,
+                    hours: f64,
+                    i: usize,
+                    o: usize|
+     -> Option<f64> {
+        let c = &problem.choices[i][o];
+        if c.remaining >= remaining[i] {
+            return None;
+        }
+        let (now_cost, now_hours) = current[i]
+            .map(|k| (problem.choices[i][k].cost, problem.choices[i][k].hours))
+            .unwrap_or((0.0, 0.0));
+        let step = Choice {
+            cost: c.cost - now_cost,
+            hours: c.hours - now_hours,
+            ..*c
+        };
+        if !fits(spent, hours, &step) {
+            return None;
+        }
+        let gain = problem.gain(remaining, i, o);
+        if gain <= 0.0 {
+            return None;
+        }
+        Some(if step.cost > 0.0 {
+            gain / step.cost
+        } else {
+            f64::INFINITY
+        })
+    };
+    let push_patch = |queue: &mut std::collections::BinaryHeap<Entry>,
+                      current: &Assignment,
+                      remaining: &[f64],
+                      spent: f64,
+                      hours: f64,
+                      version: &[u32],
+                      i: usize| {
+        for o in 0..problem.choices[i].len() {
+            if let Some(ratio) = evaluate(current, remaining, spent, hours, i, o) {
+                queue.push(Entry {
+                    ratio,
+                    i,
+                    o,
+                    version: version[i],
+                });
+            }
+        }
+    };
+    for i in 0..n {
+        if !problem.excluded[i] {
+            push_patch(&mut queue, &current, &remaining, spent, hours, &version, i);
+        }
+    }
+    while let Some(top) = queue.pop() {
+        if top.version != version[top.i] {
+            continue;
+        }
+        let Some(ratio) = evaluate(&current, &remaining, spent, hours, top.i, top.o) else {
+            continue;
+        };
+        let fresh = Entry { ratio, ..top };
+        if queue.peek().is_some_and(|next| *next > fresh) {
+            queue.push(fresh);
+            continue;
+        }
+        let (i, o) = (top.i, top.o);
+        let (spent_before, hours_before) = (spent, hours);
+        if let Some(k) = current[i] {
+            spent -= problem.choices[i][k].cost;
+            hours -= problem.choices[i][k].hours;
+        }
+        current[i] = Some(o);
+        remaining[i] = problem.choices[i][o].remaining;
+        spent += problem.choices[i][o].cost;
+        hours += problem.choices[i][o].hours;
+        version[i] += 1;
+        if spent < spent_before || hours < hours_before {
+            // A cheaper upgrade freed budget: moves dropped for not fitting may fit again.
+            queue.clear();
+            for j in 0..n {
+                if !problem.excluded[j] {
+                    version[j] += 1;
+                    push_patch(&mut queue, &current, &remaining, spent, hours, &version, j);
+                }
+            }
+        } else {
+            push_patch(&mut queue, &current, &remaining, spent, hours, &version, i);
+        }
+    }
+    current
+}
+
 /// The better of (a) adaptive greedy by risk reduction per unit cost and (b) the best single
 /// choice, both after the required patches get their cheapest choice. A greedy move treats an
 /// untreated patch or upgrades a treated one to a more effective method, paying the cost
@@ -196,73 +311,25 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
     if !problem.feasible(&base) {
         return None;
     }
-    let fits = |assignment: &Assignment, spent: f64, hours: f64, c: &Choice| {
-        let _ = assignment;
-        Problem::within(problem.budget, spent + c.cost)
-            && problem
-                .crew_hours
-                .is_none_or(|h| Problem::within(h, hours + c.hours))
-    };
     // (a) adaptive greedy.
-    let mut current = base.clone();
-    let mut remaining = problem.remaining(&current);
-    let (mut spent, mut hours) = (problem.cost(&current), problem.hours(&current));
-    loop {
-        let mut best: Option<(f64, usize, usize)> = None;
-        for i in 0..n {
-            if problem.excluded[i] {
-                continue;
-            }
-            let (now_cost, now_hours) = current[i]
-                .map(|k| (problem.choices[i][k].cost, problem.choices[i][k].hours))
-                .unwrap_or((0.0, 0.0));
-            for (o, c) in problem.choices[i].iter().enumerate() {
-                if c.remaining >= remaining[i] {
-                    continue;
-                }
-                let step = Choice {
-                    cost: c.cost - now_cost,
-                    hours: c.hours - now_hours,
-                    ..*c
-                };
-                if !fits(&current, spent, hours, &step) {
-                    continue;
-                }
-                let gain = problem.gain(&remaining, i, o);
-                if gain <= 0.0 {
-                    continue;
-                }
-                let ratio = if step.cost > 0.0 {
-                    gain / step.cost
-                } else {
-                    f64::INFINITY
-                };
-                if best.is_none_or(|(b, _, _)| ratio > b) {
-                    best = Some((ratio, i, o));
-                }
-            }
-        }
-        let Some((_, i, o)) = best else { break };
-        if let Some(k) = current[i] {
-            spent -= problem.choices[i][k].cost;
-            hours -= problem.choices[i][k].hours;
-        }
-        current[i] = Some(o);
-        remaining[i] = problem.choices[i][o].remaining;
-        spent += problem.choices[i][o].cost;
-        hours += problem.choices[i][o].hours;
-    }
+    let current = fill(problem, base.clone());
     let greedy_risk = problem.risk(&current);
     // (b) best single choice on top of the required ones.
     let base_remaining = problem.remaining(&base);
     let (base_spent, base_hours) = (problem.cost(&base), problem.hours(&base));
+    let fits = |c: &Choice| {
+        Problem::within(problem.budget, base_spent + c.cost)
+            && problem
+                .crew_hours
+                .is_none_or(|h| Problem::within(h, base_hours + c.hours))
+    };
     let mut single: Option<(f64, usize, usize)> = None;
     for i in 0..n {
         if base[i].is_some() || problem.excluded[i] {
             continue;
         }
         for (o, c) in problem.choices[i].iter().enumerate() {
-            if fits(&base, base_spent, base_hours, c) {
+            if fits(c) {
                 let gain = problem.gain(&base_remaining, i, o);
                 if single.is_none_or(|(g, _, _)| gain > g) {
                     single = Some((gain, i, o));
@@ -279,6 +346,38 @@ pub fn greedy(problem: &Problem) -> Option<(Assignment, f64)> {
         }
     }
     Some((current, greedy_risk))
+}
+
+/// A queued greedy move: ordered by ratio, then the lower patch and choice first.
+#[derive(Debug, Clone, Copy)]
+struct Entry {
+    ratio: f64,
+    i: usize,
+    o: usize,
+    version: u32,
+}
+
+impl PartialEq for Entry {
+    fn eq(&self, other: &Self) -> bool {
+        self.cmp(other) == std::cmp::Ordering::Equal
+    }
+}
+
+impl Eq for Entry {}
+
+impl PartialOrd for Entry {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+
+impl Ord for Entry {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        self.ratio
+            .total_cmp(&other.ratio)
+            .then(other.i.cmp(&self.i))
+            .then(other.o.cmp(&self.o))
+    }
 }
 
 /// Exact optimum by enumerating every assignment (for tests; small problems only).
@@ -335,6 +434,93 @@ pub fn brute_force(problem: &Problem) -> Option<(Assignment, f64)> {
     best
 }
 
+/// Models estimated above this size skip HiGHS: relaxation and local search alone.
+pub const LARGE_MODEL_GB: f64 = 0.2;
+
+/// Frank–Wolfe iterations spent on problems small enough for the MIP.
+const SMALL_RELAX_ITERATIONS: usize = 300;
+
+/// The plan read off a relaxed solution: each patch's heaviest choice when it carries at least
+/// half the weight (required patches: their heaviest choice), patches dropped in order of
+/// their weight until the plan fits, then filled greedily.
+pub fn round(problem: &Problem, weights: &[Vec<f64>]) -> Assignment {
+    let n = problem.len();
+    let mut plan: Assignment = vec![None; n];
+    let mut kept: Vec<(f64, usize)> = Vec::new();
+    for i in 0..n {
+        if problem.excluded[i] {
+            continue;
+        }
+        let heaviest = (0..problem.choices[i].len())
+            .max_by(|&a, &b| weights[i][a].total_cmp(&weights[i][b]).then(b.cmp(&a)));
+        if let Some(o) = heaviest
+            && (problem.required[i] || weights[i][o] >= 0.5)
+        {
+            plan[i] = Some(o);
+            if !problem.required[i] {
+                kept.push((weights[i][o], i));
+            }
+        }
+    }
+    kept.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let mut k = 0;
+    while !problem.feasible(&plan) && k < kept.len() {
+        plan[kept[k].1] = None;
+        k += 1;
+    }
+    if !problem.feasible(&plan) {
+        return plan;
+    }
+    fill(problem, plan)
+}
+
+/// Local search: drop one treated patch (least risk lost per unit cost first) and refill
+/// greedily; keep the change when R falls. Repeats until a pass finds nothing or `done` says
+/// stop (checked after every try).
+pub fn improve(
+    problem: &Problem,
+    mut plan: Assignment,
+    mut risk: f64,
+    done: impl Fn(f64) -> bool,
+) -> (Assignment, f64) {
+    loop {
+        let remaining = problem.remaining(&plan);
+        let mut order: Vec<(f64, usize)> = (0..problem.len())
+            .filter(|&i| plan[i].is_some() && !problem.required[i])
+            .map(|i| {
+                let o = plan[i].unwrap();
+                let c = &problem.choices[i][o];
+                // The risk lost by dropping i, per unit of its cost.
+                let mut loss = problem.model.own[i] * (1.0 - c.remaining * c.remaining);
+                for &(j, l) in &problem.model.adjacency[i] {
+                    loss += problem.model.links[l].weight * remaining[j] * (1.0 - c.remaining);
+                }
+                (loss / c.cost.max(1e-12), i)
+            })
+            .collect();
+        order.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        let mut improved = false;
+        for &(_, i) in &order {
+            if done(risk) {
+                return (plan, risk);
+            }
+            let mut trial = plan.clone();
+            trial[i] = None;
+            let trial = fill(problem, trial);
+            let r = problem.risk(&trial);
+            if r < risk * (1.0 - 1e-12) && problem.feasible(&trial) {
+                plan = trial;
+                risk = r;
+                improved = true;
+                break;
+            }
+        }
+        if !improved || done(risk) {
+            return (plan, risk);
+        }
+    }
+}
+
 /// Solver limits.
 #[derive(Debug, Clone, Copy)]
 pub struct Limits {
@@ -346,6 +532,9 @@ pub struct Limits {
     pub formulation: Formulation,
     /// Refuse to build a model estimated to need more than this many GB.
     pub max_memory_gb: f64,
+    /// Use the relaxation bound, its rounded plan and local search beside HiGHS (off only for
+    /// the benchmark's plain-HiGHS baseline).
+    pub assist: bool,
 }
 
 /// Which exact linearisation of the link products to build (docs/model.md).
@@ -375,6 +564,7 @@ impl Limits {
             threads: None,
             formulation,
             max_memory_gb: f64::INFINITY,
+            assist: true,
         }
     }
 }
@@ -434,7 +624,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         });
     }
     let need_gb = estimated_gb(problem);
-    if need_gb > limits.max_memory_gb {
+    if !limits.assist && need_gb > limits.max_memory_gb {
         return Err(Error::input_with_hint(
             format!(
                 "the exact model for {} patches and {} links needs about {need_gb:.2} GB, more than `--max-memory-gb {}`",
@@ -445,6 +635,77 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             "raise `--epsilon` or lower `--alpha-m` to keep fewer links, split the area, or raise `--max-memory-gb` if the machine has the memory",
         ));
     }
+    // A convex relaxation bound (src/relax.rs) and its rounded plan, cheap next to the MIP.
+    // Large problems, whose exact model HiGHS cannot take in (or would not get through its
+    // root LP) within the limits, are solved by relaxation and local search alone.
+    let large = limits.assist && need_gb > limits.max_memory_gb.min(LARGE_MODEL_GB);
+    let mut warm = warm;
+    let mut relaxed_bound = f64::NEG_INFINITY;
+    if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
+        let stop = relax::Stop {
+            gap: limits.gap,
+            max_iterations: if large { usize::MAX } else { SMALL_RELAX_ITERATIONS },
+            time_limit_s: if large {
+                0.5 * limits.time_limit_s
+            } else {
+                (0.1 * limits.time_limit_s).min(2.0)
+            },
+        };
+        if let Some(relaxation) = relax::bound(problem, &plan, risk, stop) {
+            relaxed_bound = relaxation.value;
+            let rounded = round(problem, &relaxation.weights);
+            let r = problem.risk(&rounded);
+            if r < risk && problem.feasible(&rounded) {
+                warm = Some((rounded, r));
+            }
+        }
+    }
+    let bound_of = |risk: f64, dual: f64| dual.max(floor).max(relaxed_bound).min(risk).max(0.0);
+    let gap_of = |risk: f64, bound: f64| {
+        if risk > 0.0 {
+            ((risk - bound) / risk).max(0.0)
+        } else {
+            0.0
+        }
+    };
+    if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
+        let early = gap_of(risk, bound_of(risk, f64::NEG_INFINITY)) <= limits.gap;
+        if early || large {
+            let deadline = limits.time_limit_s;
+            let (mut assignment, mut risk_after) = if early {
+                (plan, risk)
+            } else {
+                improve(problem, plan, risk, |r| {
+                    gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap
+                        || start_time.elapsed().as_secs_f64() >= deadline
+                })
+            };
+            prune_worthless(problem, &mut assignment);
+            risk_after = risk_after.min(problem.risk(&assignment));
+            let bound = bound_of(risk_after, f64::NEG_INFINITY);
+            let gap = gap_of(risk_after, bound);
+            let status = if gap <= OPTIMAL_GAP {
+                Status::Optimal
+            } else if gap <= limits.gap {
+                Status::GapLimit
+            } else {
+                Status::TimeLimit
+            };
+            return Ok(Solved {
+                assignment,
+                risk_after,
+                bound,
+                gap,
+                status,
+                seconds: start_time.elapsed().as_secs_f64(),
+                greedy,
+            });
+        }
+    }
+    let limits = Limits {
+        time_limit_s: (limits.time_limit_s - start_time.elapsed().as_secs_f64()).max(0.01),
+        ..limits
+    };
     // HiGHS sees R scaled so that R before treatment = 1000: coefficients stay in a range it
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
     let scale = 1e3 / risk_before;
@@ -476,17 +737,8 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         risk_after = *r;
     }
     prune_worthless(problem, &mut assignment);
-    let dual = dual.max(floor);
-    let bound = if dual.is_finite() {
-        dual.min(risk_after).max(0.0)
-    } else {
-        0.0
-    };
-    let gap = if risk_after > 0.0 {
-        ((risk_after - bound) / risk_after).max(0.0)
-    } else {
-        0.0
-    };
+    let bound = bound_of(risk_after, dual);
+    let gap = gap_of(risk_after, bound);
     if status == Status::Optimal && gap > OPTIMAL_GAP {
         status = Status::GapLimit;
     }

@@ -151,3 +151,80 @@ fn knapsack_instances_reach_their_optima_through_the_planner() {
         assert!(s["spent"].as_f64().unwrap() <= inst.capacity + 1e-6);
     }
 }
+
+/// With no links and one method that removes a patch, the relaxation of src/relax.rs is the
+/// LP relaxation of the 0-1 knapsack, whose value is Dantzig's bound (Dantzig 1957, from
+/// memory): items by profit/weight, the first that does not fit taken fractionally. On P01–P08
+/// the relaxation's bound on R must equal risk_before - Dantzig's bound and lie below the
+/// optimum's R.
+#[test]
+fn relaxation_equals_dantzig_bound_on_the_public_instances() {
+    use hostcut::graph::{Kernel, build_graph};
+    use hostcut::model::RiskModel;
+    use hostcut::optimise::Problem;
+    use hostcut::relax::{Stop, bound};
+    use hostcut::treatments::{Choice, MethodId};
+    for inst in INSTANCES {
+        let n = inst.weights.len();
+        let points: Vec<(f64, f64)> = (0..n).map(|i| (i as f64 * 1e6, 0.0)).collect();
+        let graph = build_graph(
+            &points,
+            Kernel {
+                kind: hostcut::cli::KernelKind::Exp,
+                alpha_m: 100.0,
+            },
+            0.001,
+        );
+        let stems = vec![1.0; n];
+        let pressure: Vec<f64> = inst.profits.iter().map(|p| p * (n * n) as f64).collect();
+        let model = RiskModel::new(&stems, &pressure, &graph);
+        assert!(model.links.is_empty());
+        let problem = Problem {
+            model: &model,
+            choices: inst
+                .weights
+                .iter()
+                .map(|w| {
+                    vec![Choice {
+                        method: MethodId(0),
+                        cost: *w,
+                        hours: 0.0,
+                        remaining: 0.0,
+                    }]
+                })
+                .collect(),
+            budget: inst.capacity,
+            crew_hours: None,
+            required: vec![false; n],
+            excluded: vec![false; n],
+        };
+        let mut items: Vec<usize> = (0..n).collect();
+        items.sort_by(|&a, &b| {
+            (inst.profits[b] / inst.weights[b]).total_cmp(&(inst.profits[a] / inst.weights[a]))
+        });
+        let (mut left, mut dantzig) = (inst.capacity, 0.0);
+        for &k in &items {
+            let take = (left / inst.weights[k]).min(1.0);
+            dantzig += take * inst.profits[k];
+            left -= take * inst.weights[k];
+            if left <= 0.0 {
+                break;
+            }
+        }
+        let before = model.risk_before();
+        let start = vec![None; n];
+        let stop = Stop {
+            gap: 0.0,
+            max_iterations: 100,
+            time_limit_s: 10.0,
+        };
+        let b = bound(&problem, &start, before, stop).unwrap();
+        let lp = before - b.value;
+        assert!(
+            (lp - dantzig).abs() <= 1e-9 * dantzig,
+            "{}: relaxation removes {lp}, Dantzig's bound is {dantzig}",
+            inst.name
+        );
+        assert!(lp >= inst.optimum - 1e-6, "{}: LP below the optimum", inst.name);
+    }
+}
