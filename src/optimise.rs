@@ -21,7 +21,7 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
-use crate::relax;
+use crate::{decompose, relax};
 use crate::treatments::Choice;
 
 /// What the optimiser is asked: the model, each patch's eligible choices and the limits.
@@ -668,9 +668,19 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             0.0
         }
     };
+    // Components that cannot interact, each small enough to enumerate, are merged exactly
+    // under the one budget (src/decompose.rs) instead of the monolithic formulation.
+    let early = limits.assist
+        && warm
+            .as_ref()
+            .is_some_and(|(_, r)| gap_of(*r, bound_of(*r, f64::NEG_INFINITY)) <= limits.gap);
+    let pieces = if limits.assist && !early {
+        decompose::pieces(problem)
+    } else {
+        None
+    };
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
-        let early = gap_of(risk, bound_of(risk, f64::NEG_INFINITY)) <= limits.gap;
-        if early || large {
+        if early || (large && pieces.is_none()) {
             let deadline = limits.time_limit_s;
             let (mut assignment, mut risk_after) = if early {
                 (plan, risk)
@@ -711,6 +721,12 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     let scale = 1e3 / risk_before;
 
     let built = match limits.formulation {
+        _ if pieces.is_some() => decompose::build_merge(
+            problem,
+            pieces.as_deref().unwrap_or_default(),
+            scale,
+            warm.as_ref().map(|w| &w.0),
+        )?,
         Formulation::Compact => build_compact(problem, scale, warm.as_ref().map(|w| &w.0))?,
         Formulation::Direct => build_direct(problem, scale)?,
         Formulation::Transport => {
