@@ -173,7 +173,17 @@ pub fn frontier(problem: &Problem, members: &[usize]) -> Vec<Point> {
         let i = members[k];
         if !problem.required[i] {
             plan[k] = None;
-            walk(problem, members, links, hours_limit, k + 1, cost, hours, plan, all);
+            walk(
+                problem,
+                members,
+                links,
+                hours_limit,
+                k + 1,
+                cost,
+                hours,
+                plan,
+                all,
+            );
         }
         if !problem.excluded[i] {
             for (o, c) in problem.choices[i].iter().enumerate() {
@@ -182,7 +192,17 @@ pub fn frontier(problem: &Problem, members: &[usize]) -> Vec<Point> {
                     && (problem.crew_hours.is_none() || nh <= hours_limit * (1.0 + 1e-12) + 1e-9);
                 if fits {
                     plan[k] = Some(o);
-                    walk(problem, members, links, hours_limit, k + 1, nc, nh, plan, all);
+                    walk(
+                        problem,
+                        members,
+                        links,
+                        hours_limit,
+                        k + 1,
+                        nc,
+                        nh,
+                        plan,
+                        all,
+                    );
                 }
             }
         }

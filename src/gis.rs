@@ -111,7 +111,16 @@ pub struct Grid {
     pub crs: Crs,
 }
 
-impl Grid {
+/// A raster's georeferencing without its values: size and geotransform.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Frame {
+    pub width: usize,
+    pub height: usize,
+    /// GDAL geotransform: x = t0 + col t1 + row t2, y = t3 + col t4 + row t5 (cell corner).
+    pub transform: [f64; 6],
+}
+
+impl Frame {
     /// Cell area in hectares (works for rotated grids too).
     pub fn cell_area_ha(&self) -> f64 {
         let t = &self.transform;
@@ -120,9 +129,7 @@ impl Grid {
 
     /// Working-CRS coordinates of the centre of cell (col, row).
     pub fn cell_centre(&self, col: usize, row: usize) -> (f64, f64) {
-        let (c, r) = (col as f64 + 0.5, row as f64 + 0.5);
-        let t = &self.transform;
-        (t[0] + c * t[1] + r * t[2], t[3] + c * t[4] + r * t[5])
+        self.corner(col as f64 + 0.5, row as f64 + 0.5)
     }
 
     /// Working-CRS corner of cell (col, row) at fractional offsets.
@@ -132,6 +139,17 @@ impl Grid {
             t[0] + col * t[1] + row * t[2],
             t[3] + col * t[4] + row * t[5],
         )
+    }
+
+    /// The frame of rows `row0..row0 + rows`.
+    pub fn rows(&self, row0: usize, rows: usize) -> Frame {
+        let (x, y) = self.corner(0.0, row0 as f64);
+        let t = &self.transform;
+        Frame {
+            width: self.width,
+            height: rows,
+            transform: [x, t[1], t[2], y, t[4], t[5]],
+        }
     }
 
     /// The raster's footprint as a rectangle in the working CRS.
@@ -154,19 +172,130 @@ impl Grid {
     }
 }
 
-/// Read band 1 of a raster. `assume_crs` is used only when the file has no CRS.
-pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
-    read_raster_within(path, assume_crs, f64::INFINITY)
+impl Grid {
+    pub fn frame(&self) -> Frame {
+        Frame {
+            width: self.width,
+            height: self.height,
+            transform: self.transform,
+        }
+    }
+
+    pub fn cell_area_ha(&self) -> f64 {
+        self.frame().cell_area_ha()
+    }
+
+    pub fn cell_centre(&self, col: usize, row: usize) -> (f64, f64) {
+        self.frame().cell_centre(col, row)
+    }
+
+    pub fn corner(&self, col: f64, row: f64) -> (f64, f64) {
+        self.frame().corner(col, row)
+    }
+
+    pub fn extent(&self) -> Rect<f64> {
+        self.frame().extent()
+    }
 }
 
-/// Bytes the planner needs per host cell: the values as f64, the parcel index and the
-/// union-find parent (u32 each), and GDAL's read buffer.
-pub const BYTES_PER_CELL: f64 = 24.0;
+/// A host raster opened for reading by rows: its frame, CRS and nodata, values still on disk.
+#[derive(Debug, Clone)]
+pub struct RasterFile {
+    pub path: PathBuf,
+    pub frame: Frame,
+    pub crs: Crs,
+    pub nodata: Option<f64>,
+    /// GDAL's block height: strips are read in multiples of it.
+    pub block_rows: usize,
+}
 
-/// As [`read_raster`], refusing from the header alone a raster whose cells would need more than
-/// `max_gb` gigabytes (see [`BYTES_PER_CELL`]).
-pub fn read_raster_within(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) -> Result<Grid> {
+/// Worst-case bytes the streaming labeller needs per cell: one run (16 bytes with its label)
+/// per two cells, as on a checkerboard.
+pub const LABEL_BYTES_PER_CELL: f64 = 8.0;
+
+/// Open band 1 of a host raster for streaming, checking its header (georeferencing, CRS, a
+/// numeric band without palette) and refusing from the header alone a raster whose labelling
+/// could need more than `max_gb` gigabytes (see [`LABEL_BYTES_PER_CELL`]).
+pub fn open_raster(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) -> Result<RasterFile> {
     let dataset = open(path)?;
+    let (crs, transform) = raster_header(&dataset, path, assume_crs)?;
+    let band = dataset
+        .rasterband(1)
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
+    let (width, height) = band.size();
+    let cells = width.saturating_mul(height);
+    let need_gb = cells as f64 * LABEL_BYTES_PER_CELL / 1e9;
+    if need_gb > max_gb {
+        return Err(Error::input_with_hint(
+            format!(
+                "host raster `{}` has {width} x {height} cells: labelling it may need up to {need_gb:.3} GB, more than `--max-memory-gb {max_gb}`",
+                path.display()
+            ),
+            "clip it to the programme area, resample it coarser with `gdalwarp -tr`, or raise `--max-memory-gb` if the machine has the memory",
+        ));
+    }
+    if width > u32::MAX as usize || height > u32::MAX as usize {
+        return Err(Error::input(format!(
+            "host raster `{}` is {width} x {height} cells; this version reads rasters up to {} cells a side",
+            path.display(),
+            u32::MAX
+        )));
+    }
+    check_band(&band, path)?;
+    let block_rows = band.block_size().1.max(1);
+    Ok(RasterFile {
+        path: path.to_path_buf(),
+        frame: Frame {
+            width,
+            height,
+            transform,
+        },
+        crs,
+        nodata: band.no_data_value(),
+        block_rows,
+    })
+}
+
+impl RasterFile {
+    /// Rows `row0..row0 + rows` of band 1 as f32, nodata and non-finite values as NaN.
+    pub fn read_rows(&self, row0: usize, rows: usize) -> Result<Vec<f32>> {
+        let dataset = open(&self.path)?;
+        self.read_rows_from(&dataset, row0, rows)
+    }
+
+    /// As [`RasterFile::read_rows`], from an already open dataset.
+    pub fn read_rows_from(&self, dataset: &Dataset, row0: usize, rows: usize) -> Result<Vec<f32>> {
+        let band = dataset
+            .rasterband(1)
+            .map_err(|e| Error::gdal("read band 1 of", &self.path, e))?;
+        let w = self.frame.width;
+        let buffer = band
+            .read_as::<f32>((0, row0 as isize), (w, rows), (w, rows), None)
+            .map_err(|e| Error::gdal("read band 1 of", &self.path, e))?;
+        let (_, mut values) = buffer.into_shape_and_vec();
+        let nodata = self.nodata;
+        for v in values.iter_mut() {
+            let nd = nodata.is_some_and(|nd| {
+                f64::from(*v) == nd || (nd as f32) == *v || (nd.is_nan() && v.is_nan())
+            });
+            if nd || !v.is_finite() {
+                *v = f32::NAN;
+            }
+        }
+        Ok(values)
+    }
+
+    /// Open the file once for a sequence of reads.
+    pub fn dataset(&self) -> Result<Dataset> {
+        open(&self.path)
+    }
+}
+
+fn raster_header(
+    dataset: &Dataset,
+    path: &Path,
+    assume_crs: Option<&Crs>,
+) -> Result<(Crs, [f64; 6])> {
     if dataset.raster_count() == 0 {
         return Err(Error::input(format!(
             "`{}` has no raster band; the host layer needs band 1 = stems per hectare",
@@ -191,32 +320,12 @@ pub fn read_raster_within(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) ->
             "georeference it first, e.g. with `gdal_translate -a_ullr` or `gdalwarp`",
         )
     })?;
-    let band = dataset
-        .rasterband(1)
-        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
-    let (width, height) = band.size();
-    let cells = width.saturating_mul(height);
-    let need_gb = cells as f64 * BYTES_PER_CELL / 1e9;
-    if need_gb > max_gb {
-        return Err(Error::input_with_hint(
-            format!(
-                "host raster `{}` has {width} x {height} cells: reading it needs about {need_gb:.3} GB, more than `--max-memory-gb {max_gb}`",
-                path.display()
-            ),
-            "clip it to the programme area, resample it coarser with `gdalwarp -tr`, or raise `--max-memory-gb` if the machine has the memory",
-        ));
-    }
-    if cells > 400_000_000 {
-        return Err(Error::input_with_hint(
-            format!(
-                "host raster `{}` has {width} x {height} cells, more than this version reads at once (4e8)",
-                path.display()
-            ),
-            "clip it to the programme area or resample it to a coarser cell size with `gdalwarp -tr`",
-        ));
-    }
-    // Band 1 must hold numbers: a complex band, or a palette (a classified map such as land
-    // cover), is not stems per hectare.
+    Ok((crs, transform))
+}
+
+/// Band 1 must hold numbers: a complex band, or a palette (a classified map such as land
+/// cover), is not stems per hectare.
+fn check_band(band: &gdal::raster::RasterBand, path: &Path) -> Result<()> {
     if band.band_type() == gdal::raster::GdalDataType::Unknown {
         return Err(Error::input_with_hint(
             format!(
@@ -235,6 +344,19 @@ pub fn read_raster_within(path: &Path, assume_crs: Option<&Crs>, max_gb: f64) ->
             "give a density raster (stems/ha); a class map must first be turned into densities, e.g. with gdal_calc.py",
         ));
     }
+    Ok(())
+}
+
+/// Read band 1 of a raster whole (small layers and tests; the host raster is streamed by
+/// [`open_raster`]). `assume_crs` is used only when the file has no CRS.
+pub fn read_raster(path: &Path, assume_crs: Option<&Crs>) -> Result<Grid> {
+    let dataset = open(path)?;
+    let (crs, transform) = raster_header(&dataset, path, assume_crs)?;
+    let band = dataset
+        .rasterband(1)
+        .map_err(|e| Error::gdal("read band 1 of", path, e))?;
+    check_band(&band, path)?;
+    let (width, height) = band.size();
     let nodata = band.no_data_value();
     let buffer = band
         .read_band_as::<f64>()
@@ -454,9 +576,9 @@ pub fn read_vector(
     })
 }
 
-/// Burn polygon `i` of `polygons` as value i+1 into a grid aligned with `grid`; 0 = no polygon.
-/// Where polygons overlap the later one wins. A cell belongs to a polygon when its centre is inside.
-pub fn rasterize_index(grid: &Grid, polygons: &[MultiPolygon<f64>]) -> Result<Vec<u32>> {
+/// Burn each (value, polygon) into a grid aligned with `grid`; 0 = no polygon (values are
+/// 1-based parcel indices). Where polygons overlap the later one wins. A cell belongs to a polygon when its centre is inside.
+pub fn rasterize_index(grid: &Frame, polygons: &[(u32, &MultiPolygon<f64>)]) -> Result<Vec<u32>> {
     let driver = DriverManager::get_driver_by_name("MEM")
         .map_err(|e| Error::Internal(format!("GDAL MEM driver: {e}")))?;
     let mut dataset = driver
@@ -467,13 +589,13 @@ pub fn rasterize_index(grid: &Grid, polygons: &[MultiPolygon<f64>]) -> Result<Ve
         .map_err(|e| Error::Internal(format!("set geotransform: {e}")))?;
     let mut geometries = Vec::with_capacity(polygons.len());
     let mut burn = Vec::with_capacity(polygons.len());
-    for (i, polygon) in polygons.iter().enumerate() {
+    for (index, polygon) in polygons {
         geometries.push(
             polygon
                 .to_gdal()
                 .map_err(|e| Error::Internal(format!("convert parcel to GDAL: {e}")))?,
         );
-        burn.push((i + 1) as f64);
+        burn.push(f64::from(*index));
     }
     if !geometries.is_empty() {
         gdal::raster::rasterize(&mut dataset, &[1], &geometries, &burn, None)

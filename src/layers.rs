@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 use geo::{BoundingRect, Intersects, MultiLineString, MultiPolygon, Point, Rect};
 
 use crate::error::{Error, Result};
-use crate::gis::{self, Crs, Grid, VectorLayer};
+use crate::gis::{self, Crs, RasterFile, VectorLayer};
 use crate::patches::{Access, Herbicide, Site};
 use crate::settings::Scenario;
 
@@ -47,9 +47,13 @@ pub struct Stand {
 /// The host layer in whichever form it came.
 #[derive(Debug, Clone)]
 pub enum Host {
-    Raster(Grid),
+    /// A density raster, read by rows when patches are labelled.
+    Raster(RasterFile),
     Polygons(VectorLayer),
-    Inventory { path: PathBuf, stands: Vec<Stand> },
+    Inventory {
+        path: PathBuf,
+        stands: Vec<Stand>,
+    },
 }
 
 /// Every input layer, in the working CRS.
@@ -230,8 +234,8 @@ fn open_host(
     let dataset = gdal::Dataset::open(path).map_err(|e| Error::gdal("open", path, e))?;
     if dataset.raster_count() > 0 {
         drop(dataset);
-        let grid = gis::read_raster_within(path, assume, max_gb)?;
-        return Ok((grid.crs.clone(), Host::Raster(grid)));
+        let raster = gis::open_raster(path, assume, max_gb)?;
+        return Ok((raster.crs.clone(), Host::Raster(raster)));
     }
     if dataset.layer_count() == 0 {
         return Err(Error::input(format!(
@@ -266,7 +270,7 @@ fn open_host(
 
 fn host_extent(host: &Host) -> Option<Rect<f64>> {
     match host {
-        Host::Raster(g) => Some(g.extent()),
+        Host::Raster(r) => Some(r.frame.extent()),
         Host::Polygons(l) => l.extent(),
         Host::Inventory { stands, .. } => {
             let pts: Vec<geo::Coord<f64>> = stands

@@ -20,6 +20,7 @@ pub mod ensemble;
 pub mod error;
 pub mod gis;
 pub mod graph;
+pub mod label;
 pub mod layers;
 pub mod map;
 pub mod model;

@@ -21,8 +21,8 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
-use crate::{decompose, relax};
 use crate::treatments::Choice;
+use crate::{decompose, relax};
 
 /// What the optimiser is asked: the model, each patch's eligible choices and the limits.
 #[derive(Debug, Clone)]
@@ -644,7 +644,11 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
         let stop = relax::Stop {
             gap: limits.gap,
-            max_iterations: if large { usize::MAX } else { SMALL_RELAX_ITERATIONS },
+            max_iterations: if large {
+                usize::MAX
+            } else {
+                SMALL_RELAX_ITERATIONS
+            },
             time_limit_s: if large {
                 0.5 * limits.time_limit_s
             } else {
@@ -679,38 +683,38 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     } else {
         None
     };
-    if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
-        if early || (large && pieces.is_none()) {
-            let deadline = limits.time_limit_s;
-            let (mut assignment, mut risk_after) = if early {
-                (plan, risk)
-            } else {
-                improve(problem, plan, risk, |r| {
-                    gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap
-                        || start_time.elapsed().as_secs_f64() >= deadline
-                })
-            };
-            prune_worthless(problem, &mut assignment);
-            risk_after = risk_after.min(problem.risk(&assignment));
-            let bound = bound_of(risk_after, f64::NEG_INFINITY);
-            let gap = gap_of(risk_after, bound);
-            let status = if gap <= OPTIMAL_GAP {
-                Status::Optimal
-            } else if gap <= limits.gap {
-                Status::GapLimit
-            } else {
-                Status::TimeLimit
-            };
-            return Ok(Solved {
-                assignment,
-                risk_after,
-                bound,
-                gap,
-                status,
-                seconds: start_time.elapsed().as_secs_f64(),
-                greedy,
-            });
-        }
+    if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist)
+        && (early || (large && pieces.is_none()))
+    {
+        let deadline = limits.time_limit_s;
+        let (mut assignment, mut risk_after) = if early {
+            (plan, risk)
+        } else {
+            improve(problem, plan, risk, |r| {
+                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap
+                    || start_time.elapsed().as_secs_f64() >= deadline
+            })
+        };
+        prune_worthless(problem, &mut assignment);
+        risk_after = risk_after.min(problem.risk(&assignment));
+        let bound = bound_of(risk_after, f64::NEG_INFINITY);
+        let gap = gap_of(risk_after, bound);
+        let status = if gap <= OPTIMAL_GAP {
+            Status::Optimal
+        } else if gap <= limits.gap {
+            Status::GapLimit
+        } else {
+            Status::TimeLimit
+        };
+        return Ok(Solved {
+            assignment,
+            risk_after,
+            bound,
+            gap,
+            status,
+            seconds: start_time.elapsed().as_secs_f64(),
+            greedy,
+        });
     }
     let limits = Limits {
         time_limit_s: (limits.time_limit_s - start_time.elapsed().as_secs_f64()).max(0.01),

@@ -14,7 +14,8 @@ use rstar::RTree;
 use rstar::primitives::{GeomWithData, Rectangle};
 
 use crate::error::{Error, Result};
-use crate::gis::{self, Crs, Grid};
+use crate::gis::{self, Crs, Frame, Grid};
+use crate::label::{Blob, Labeller, Rules, Run};
 use crate::layers::{Host, Layers, Parcel, Stand};
 use crate::settings::HostSection;
 
@@ -140,8 +141,10 @@ pub struct Patches {
     pub dropped_slivers: usize,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
     pub source: &'static str,
-    /// For raster input, each patch's cells (row-major indices into the host grid); else empty.
-    pub cells: Vec<Vec<usize>>,
+    /// For raster input, each patch's runs of cells in the host raster (`frame`); else empty.
+    pub runs: Vec<Vec<Run>>,
+    /// The host raster's frame, for raster input.
+    pub frame: Option<Frame>,
 }
 
 impl Patches {
@@ -170,138 +173,127 @@ pub struct LabelOptions {
     pub max_patch_ha: Option<f64>,
 }
 
-/// A connected group of host cells with one parcel and one block.
-#[derive(Debug, Clone)]
-pub struct Component {
-    /// Row-major cell indices, ascending.
-    pub cells: Vec<usize>,
-    /// 1-based parcel index (0 = outside every parcel).
-    pub parcel: u32,
-}
-
-fn find(parent: &mut [u32], mut i: u32) -> u32 {
-    while parent[i as usize] != i {
-        let p = parent[i as usize];
-        parent[i as usize] = parent[p as usize];
-        i = p;
+impl LabelOptions {
+    /// The labeller's rules for cells of `cell_ha` hectares.
+    pub fn rules(&self, cell_ha: f64) -> Rules {
+        Rules {
+            min_density: self.min_density,
+            connectivity: self.connectivity,
+            block_side: self
+                .max_patch_ha
+                .map(|max| ((max / cell_ha).sqrt().floor() as usize).max(1))
+                .unwrap_or(usize::MAX),
+        }
     }
-    i
 }
 
-/// Label host cells into components. Two host cells join when they touch (4- or 8-connected),
-/// lie in the same parcel and, with `max_patch_ha`, in the same square block. Components are
-/// returned in the row-major order of their first cell; those smaller than `min_patch_ha` are
-/// dropped and counted.
+/// Label host cells into components, streaming strips of `strip` rows from `read(row0, rows)`
+/// (values, and parcel indices or an empty vector). Two host cells join when they touch (4- or
+/// 8-connected), lie in the same parcel and, with `max_patch_ha`, in the same square block.
+/// Components come in the row-major order of their first cell; those smaller than
+/// `min_patch_ha` are dropped and counted. Also returns the largest value seen (NaN if none).
+pub fn label_strips(
+    frame: &Frame,
+    options: LabelOptions,
+    strip: usize,
+    mut read: impl FnMut(usize, usize) -> Result<(Vec<f32>, Vec<u32>)>,
+) -> Result<(Vec<Blob>, usize, f64)> {
+    let (w, h) = (frame.width, frame.height);
+    let cell_ha = frame.cell_area_ha();
+    let mut labeller = Labeller::new(w, options.rules(cell_ha));
+    let strip = strip.max(1);
+    let mut row0 = 0;
+    while row0 < h {
+        let rows = strip.min(h - row0);
+        let (values, parcels) = read(row0, rows)?;
+        for r in 0..rows {
+            let parcels = if parcels.is_empty() {
+                &[][..]
+            } else {
+                &parcels[r * w..(r + 1) * w]
+            };
+            labeller.push_row(&values[r * w..(r + 1) * w], parcels);
+        }
+        row0 += rows;
+    }
+    let max = labeller.max_value();
+    let mut blobs = labeller.finish();
+    let before = blobs.len();
+    blobs.retain(|b| b.cells as f64 * cell_ha >= options.min_patch_ha);
+    let dropped = before - blobs.len();
+    Ok((blobs, dropped, max))
+}
+
+/// [`label_strips`] over a grid in memory and its parcel index (one entry per cell), in
+/// strips of `strip` rows.
 pub fn label_cells(
     grid: &Grid,
     parcel_index: &[u32],
     options: LabelOptions,
-) -> (Vec<Component>, usize) {
-    let (w, h) = (grid.width, grid.height);
-    let n = w * h;
-    let is_host = |i: usize| grid.values[i].is_finite() && grid.values[i] >= options.min_density;
-    let cell_ha = grid.cell_area_ha();
-    let block_side = options
-        .max_patch_ha
-        .map(|max| ((max / cell_ha).sqrt().floor() as usize).max(1))
-        .unwrap_or(usize::MAX);
-    let key = |i: usize| {
-        let (col, row) = (i % w, i / w);
-        (
-            parcel_index.get(i).copied().unwrap_or(0),
-            col / block_side,
-            row / block_side,
-        )
-    };
-    let mut parent: Vec<u32> = (0..n as u32).collect();
-    for row in 0..h {
-        for col in 0..w {
-            let i = row * w + col;
-            if !is_host(i) {
-                continue;
-            }
-            let mut neighbours = Vec::with_capacity(4);
-            if col > 0 {
-                neighbours.push(i - 1);
-            }
-            if row > 0 {
-                neighbours.push(i - w);
-                if options.connectivity == 8 {
-                    if col > 0 {
-                        neighbours.push(i - w - 1);
-                    }
-                    if col + 1 < w {
-                        neighbours.push(i - w + 1);
-                    }
-                }
-            }
-            for j in neighbours {
-                if is_host(j) && key(j) == key(i) {
-                    let (a, b) = (find(&mut parent, i as u32), find(&mut parent, j as u32));
-                    if a != b {
-                        parent[a.max(b) as usize] = a.min(b);
-                    }
-                }
-            }
-        }
-    }
-    let mut by_root: HashMap<u32, usize> = HashMap::new();
-    let mut components: Vec<Component> = Vec::new();
-    for i in 0..n {
-        if !is_host(i) {
-            continue;
-        }
-        let root = find(&mut parent, i as u32);
-        let slot = *by_root.entry(root).or_insert_with(|| {
-            components.push(Component {
-                cells: Vec::new(),
-                parcel: key(i).0,
-            });
-            components.len() - 1
-        });
-        components[slot].cells.push(i);
-    }
-    let before = components.len();
-    components.retain(|c| c.cells.len() as f64 * cell_ha >= options.min_patch_ha);
-    let dropped = before - components.len();
-    (components, dropped)
+    strip: usize,
+) -> (Vec<Blob>, usize) {
+    let w = grid.width;
+    let (blobs, dropped, _) = label_strips(&grid.frame(), options, strip, |row0, rows| {
+        let cells = row0 * w..(row0 + rows) * w;
+        let values = grid.values[cells.clone()]
+            .iter()
+            .map(|&v| v as f32)
+            .collect();
+        let parcels = parcel_index
+            .get(cells)
+            .map(<[u32]>::to_vec)
+            .unwrap_or_default();
+        Ok((values, parcels))
+    })
+    .expect("reading from memory cannot fail");
+    (blobs, dropped)
 }
 
-/// The outline of a set of cells: the union of its row runs.
-pub fn outline(grid: &Grid, cells: &[usize]) -> MultiPolygon<f64> {
-    let w = grid.width;
-    let mut runs: Vec<Polygon<f64>> = Vec::new();
-    let mut k = 0;
-    while k < cells.len() {
-        let start = cells[k];
-        let mut end = start;
-        while k + 1 < cells.len() && cells[k + 1] == end + 1 && !(end + 1).is_multiple_of(w) {
-            k += 1;
-            end = cells[k];
-        }
-        let row = (start / w) as f64;
-        let (c0, c1) = ((start % w) as f64, (end % w) as f64 + 1.0);
-        let corners = [
-            grid.corner(c0, row),
-            grid.corner(c1, row),
-            grid.corner(c1, row + 1.0),
-            grid.corner(c0, row + 1.0),
-            grid.corner(c0, row),
-        ];
-        runs.push(Polygon::new(
-            corners
-                .iter()
-                .map(|&(x, y)| geo::coord! { x: x, y: y })
-                .collect::<Vec<_>>()
-                .into(),
-            vec![],
-        ));
-        k += 1;
+/// The outline of a component: the union of its row runs.
+pub fn outline(frame: &Frame, runs: &[Run]) -> MultiPolygon<f64> {
+    let polygons: Vec<Polygon<f64>> = runs
+        .iter()
+        .map(|r| {
+            let row = r.row as f64;
+            let (c0, c1) = (r.c0 as f64, r.c1 as f64);
+            let corners = [
+                frame.corner(c0, row),
+                frame.corner(c1, row),
+                frame.corner(c1, row + 1.0),
+                frame.corner(c0, row + 1.0),
+                frame.corner(c0, row),
+            ];
+            Polygon::new(
+                corners
+                    .iter()
+                    .map(|&(x, y)| geo::coord! { x: x, y: y })
+                    .collect::<Vec<_>>()
+                    .into(),
+                vec![],
+            )
+        })
+        .collect();
+    if polygons.len() == 1 {
+        return MultiPolygon(polygons);
     }
-    if runs.len() == 1 {
-        return MultiPolygon(runs);
+    geo::unary_union(&polygons)
+}
+
+/// Rows per strip for the streaming read: a multiple of GDAL's block height, about 256 rows,
+/// at most 64 MB of values and parcel indices.
+fn strip_rows(raster: &gis::RasterFile) -> usize {
+    let block = raster.block_rows.max(1);
+    let cap = (64e6 / (8.0 * raster.frame.width.max(1) as f64))
+        .floor()
+        .max(1.0) as usize;
+    let want = 256usize.div_ceil(block) * block;
+    if want <= cap {
+        want
+    } else if block > cap {
+        cap
+    } else {
+        (cap / block) * block
     }
-    geo::unary_union(&runs)
 }
 
 /// Finds the parcel a point lies in.
@@ -354,29 +346,55 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
     };
     let mut items = Vec::new();
     let mut dropped_slivers = 0;
-    let mut cells = Vec::new();
+    let mut runs = Vec::new();
     let source;
     match &layers.host {
-        Host::Raster(grid) => {
+        Host::Raster(raster) => {
             source = "raster";
-            let polygons: Vec<MultiPolygon<f64>> =
-                layers.parcels.iter().map(|p| p.geometry.clone()).collect();
-            let index = gis::rasterize_index(grid, &polygons)?;
+            let frame = &raster.frame;
+            // Parcels with their 1-based index and bounding box, so each strip burns only
+            // the parcels that reach it.
+            type Reach<'a> = (u32, &'a MultiPolygon<f64>, Option<geo::Rect<f64>>);
+            let parcels: Vec<Reach> = layers
+                .parcels
+                .iter()
+                .enumerate()
+                .map(|(i, p)| {
+                    use geo::BoundingRect;
+                    ((i + 1) as u32, &p.geometry, p.geometry.bounding_rect())
+                })
+                .collect();
             let options = LabelOptions {
                 min_density: host.min_density,
                 connectivity: host.connectivity,
                 min_patch_ha: host.min_patch_ha,
                 max_patch_ha: host.max_patch_ha,
             };
-            let (components, dropped) = label_cells(grid, &index, options);
+            let dataset = raster.dataset()?;
+            let (components, dropped, max) =
+                label_strips(frame, options, strip_rows(raster), |row0, rows| {
+                    let values = raster.read_rows_from(&dataset, row0, rows)?;
+                    let strip = frame.rows(row0, rows);
+                    let extent = strip.extent();
+                    let reaching: Vec<(u32, &MultiPolygon<f64>)> = parcels
+                        .iter()
+                        .filter(|(_, _, r)| {
+                            r.is_some_and(|r| {
+                                use geo::Intersects;
+                                r.intersects(&extent)
+                            })
+                        })
+                        .map(|&(i, g, _)| (i, g))
+                        .collect();
+                    let index = if reaching.is_empty() {
+                        Vec::new()
+                    } else {
+                        gis::rasterize_index(&strip, &reaching)?
+                    };
+                    Ok((values, index))
+                })?;
             dropped_slivers = dropped;
             if components.is_empty() {
-                let max = grid
-                    .values
-                    .iter()
-                    .copied()
-                    .filter(|v| v.is_finite())
-                    .fold(f64::NAN, f64::max);
                 return Err(Error::input_with_hint(
                     format!(
                         "host raster: no patch left (cells >= {} stems/ha: none{}; largest value {})",
@@ -398,17 +416,13 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     "check that band 1 holds stems per hectare, or lower `--min-density` / `--min-patch-ha`",
                 ));
             }
-            let cell_ha = grid.cell_area_ha();
+            let cell_ha = frame.cell_area_ha();
             let width = components.len().to_string().len().max(4);
             for (k, c) in components.iter().enumerate() {
-                let (mut stems, mut sx, mut sy) = (0.0, 0.0, 0.0);
-                for &i in &c.cells {
-                    let s = grid.values[i] * cell_ha;
-                    let (x, y) = grid.cell_centre(i % grid.width, i / grid.width);
-                    stems += s;
-                    sx += s * x;
-                    sy += s * y;
-                }
+                let stems = c.sum * cell_ha;
+                // The affine geotransform maps the value-weighted mean cell position to the
+                // stem-weighted centroid.
+                let (x, y) = frame.corner(c.sum_col / c.sum, c.sum_row / c.sum);
                 let site = if c.parcel == 0 {
                     Site::default()
                 } else {
@@ -417,17 +431,17 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                 items.push(Patch {
                     id: PatchId(k as u32),
                     label: format!("P{:0width$}", k + 1),
-                    x: sx / stems,
-                    y: sy / stems,
+                    x,
+                    y,
                     stems,
-                    area_ha: Some(c.cells.len() as f64 * cell_ha),
-                    outline: Some(outline(grid, &c.cells)),
+                    area_ha: Some(c.cells as f64 * cell_ha),
+                    outline: Some(outline(frame, &c.runs)),
                     site,
                     pressure_override: None,
                     suitability: None,
                 });
             }
-            cells = components.into_iter().map(|c| c.cells).collect();
+            runs = components.into_iter().map(|c| c.runs).collect();
         }
         Host::Polygons(layer) => {
             source = "polygons";
@@ -547,7 +561,11 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
         items,
         dropped_slivers,
         source,
-        cells,
+        runs,
+        frame: match &layers.host {
+            Host::Raster(r) => Some(r.frame),
+            _ => None,
+        },
     })
 }
 

@@ -113,16 +113,8 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         Some(def) => Some(crate::gis::Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
-    let host_grid = match &layers.host {
-        layers::Host::Raster(grid) => Some(grid),
-        _ => None,
-    };
-    let suitability = suitability::per_patch(
-        &patches,
-        s.host.suitability.as_deref(),
-        host_grid,
-        assume.as_ref(),
-    )?;
+    let suitability =
+        suitability::per_patch(&patches, s.host.suitability.as_deref(), assume.as_ref())?;
     // Effective host h_i = stems_i x s_i; a_i = h_i / sum h.
     let host: Vec<f64> = patches
         .items

@@ -292,7 +292,11 @@ impl<'a> Relaxed<'a> {
                     opts.push(Opt {
                         choice: Some(o),
                         cost: c.cost,
-                        hours: if problem.crew_hours.is_some() { c.hours } else { 0.0 },
+                        hours: if problem.crew_hours.is_some() {
+                            c.hours
+                        } else {
+                            0.0
+                        },
                         e: c.remaining,
                     });
                 }
@@ -395,7 +399,9 @@ impl<'a> Relaxed<'a> {
 
     /// The quadratic part of f at a direction with moments dr.
     fn curvature(&self, dr: &[f64]) -> f64 {
-        let mut q: f64 = (0..dr.len()).map(|i| self.quadratic[i] * dr[i] * dr[i]).sum();
+        let mut q: f64 = (0..dr.len())
+            .map(|i| self.quadratic[i] * dr[i] * dr[i])
+            .sum();
         for l in &self.problem.model.links {
             q += l.weight * dr[l.a] * dr[l.b];
         }
@@ -518,9 +524,8 @@ impl<'a> Relaxed<'a> {
     /// the minimum). With hours binding, the multiplier is found by bisection and y mixes the
     /// two bracketing solutions to meet the hours exactly.
     fn oracle(&self, g: &[f64]) -> Option<(Vec<f64>, f64)> {
-        let hours_of = |y: &[f64]| -> f64 {
-            y.iter().zip(&self.opts).map(|(w, o)| w * o.hours).sum()
-        };
+        let hours_of =
+            |y: &[f64]| -> f64 { y.iter().zip(&self.opts).map(|(w, o)| w * o.hours).sum() };
         let (y0, v0) = self.knapsack_lp(g)?;
         let Some(limit) = self.problem.crew_hours else {
             return Some((y0, v0));
@@ -631,7 +636,11 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
         let d: Vec<f64> = y.iter().zip(&x).map(|(a, b)| a - b).collect();
         let (dr, ds) = relaxed.moments(&d);
         let q = relaxed.curvature(&dr);
-        let gamma = if q > 0.0 { (-gd / (2.0 * q)).min(1.0) } else { 1.0 };
+        let gamma = if q > 0.0 {
+            (-gd / (2.0 * q)).min(1.0)
+        } else {
+            1.0
+        };
         x.iter_mut().zip(&d).for_each(|(a, b)| *a += gamma * b);
         r.iter_mut().zip(&dr).for_each(|(a, b)| *a += gamma * b);
         s.iter_mut().zip(&ds).for_each(|(a, b)| *a += gamma * b);

@@ -12,30 +12,30 @@
 use std::path::Path;
 
 use crate::error::{Error, Result};
-use crate::gis::{self, Crs, Grid};
+use crate::gis::{self, Crs};
 use crate::patches::Patches;
 
 /// s_i for every patch: 1 without a layer or column.
 pub fn per_patch(
     patches: &Patches,
     layer: Option<&Path>,
-    host_grid: Option<&Grid>,
     assume: Option<&Crs>,
 ) -> Result<Vec<f64>> {
     let n = patches.len();
     let mut s = vec![1.0; n];
     if let Some(path) = layer {
-        let use_cells = host_grid.is_some() && patches.cells.len() == n;
+        let use_cells = patches.frame.is_some() && patches.runs.len() == n;
         let (points, owner): (Vec<(f64, f64)>, Vec<usize>) =
-            if let (true, Some(grid)) = (use_cells, host_grid) {
+            if let (true, Some(frame)) = (use_cells, patches.frame) {
                 patches
-                    .cells
+                    .runs
                     .iter()
                     .enumerate()
-                    .flat_map(|(i, cells)| {
-                        cells
-                            .iter()
-                            .map(move |&c| (grid.cell_centre(c % grid.width, c / grid.width), i))
+                    .flat_map(|(i, runs)| {
+                        runs.iter().flat_map(move |r| {
+                            (r.c0..r.c1)
+                                .map(move |c| (frame.cell_centre(c as usize, r.row as usize), i))
+                        })
                     })
                     .unzip()
             } else {

@@ -36,7 +36,8 @@ fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
         items,
         dropped_slivers: 0,
         source: "inventory",
-        cells: Vec::new(),
+        runs: Vec::new(),
+        frame: None,
     }
 }
 

@@ -133,8 +133,16 @@ fn component_merge_equals_brute_force_on_tiny_instances() {
         match exact {
             None => assert_eq!(solved.status, Status::Infeasible, "seed {seed}"),
             Some((_, best)) => {
-                assert_eq!(solved.status, Status::Optimal, "seed {seed}: gap {}", solved.gap);
-                assert!(p.feasible(&solved.assignment), "seed {seed}: plan infeasible");
+                assert_eq!(
+                    solved.status,
+                    Status::Optimal,
+                    "seed {seed}: gap {}",
+                    solved.gap
+                );
+                assert!(
+                    p.feasible(&solved.assignment),
+                    "seed {seed}: plan infeasible"
+                );
                 assert!(
                     (solved.risk_after - best).abs() <= 1e-9 * best,
                     "seed {seed}: merge {} vs brute force {best}",
@@ -153,7 +161,10 @@ fn decomposed_and_monolithic_solves_agree_on_random_instances() {
     for seed in 100..120 {
         let inst = instance(seed, 12);
         let p = problem(&inst);
-        assert!(decompose::pieces(&p).is_some(), "seed {seed}: not decomposed");
+        assert!(
+            decompose::pieces(&p).is_some(),
+            "seed {seed}: not decomposed"
+        );
         let merged = solve(&p, Limits::new(60.0, 0.0)).unwrap();
         let whole = solve(
             &p,
@@ -167,7 +178,12 @@ fn decomposed_and_monolithic_solves_agree_on_random_instances() {
         if whole.status == Status::Infeasible {
             continue;
         }
-        assert_eq!(whole.status, Status::Optimal, "seed {seed}: monolithic gap {}", whole.gap);
+        assert_eq!(
+            whole.status,
+            Status::Optimal,
+            "seed {seed}: monolithic gap {}",
+            whole.gap
+        );
         assert!(
             (merged.risk_after - whole.risk_after).abs() <= 1e-8 * whole.risk_after,
             "seed {seed}: decomposed {} vs monolithic {}",

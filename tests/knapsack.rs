@@ -225,6 +225,10 @@ fn relaxation_equals_dantzig_bound_on_the_public_instances() {
             "{}: relaxation removes {lp}, Dantzig's bound is {dantzig}",
             inst.name
         );
-        assert!(lp >= inst.optimum - 1e-6, "{}: LP below the optimum", inst.name);
+        assert!(
+            lp >= inst.optimum - 1e-6,
+            "{}: LP below the optimum",
+            inst.name
+        );
     }
 }

@@ -306,9 +306,7 @@ fn lanczos_smallest_eigenvalue_matches_nalgebra() {
                 .collect();
             off.extend(copy);
             let mut d = diag.clone();
-            for i in 0..half {
-                d[i + half] = diag[i];
-            }
+            d[half..2 * half].copy_from_slice(&diag[..half]);
             check_eigen(&d[..2 * half], &off, case);
             continue;
         }

@@ -236,14 +236,16 @@ fn patch_means_match_gdalwarp_onto_the_host_grid() {
         min_patch_ha: 0.0,
         max_patch_ha: None,
     };
-    let (components, _) =
-        hostcut::patches::label_cells(&hostgrid, &vec![0; hostgrid.values.len()], options);
+    let (components, _) = hostcut::patches::label_cells(&hostgrid, &[], options, 64);
     let (header, rows) = read_rows(&dir.path().join("out/patches.csv"));
     let suit = header.iter().position(|h| h == "suitability").unwrap();
     assert_eq!(rows.len(), components.len());
     for (row, component) in rows.iter().zip(&components) {
-        let expected = component.cells.iter().map(|&c| grid.values[c]).sum::<f64>()
-            / component.cells.len() as f64;
+        let expected = component
+            .cell_indices(hostgrid.width)
+            .map(|c| grid.values[c])
+            .sum::<f64>()
+            / component.cells as f64;
         let got: f64 = row[suit].parse().unwrap();
         assert!(
             (got - expected).abs() < 2e-3,
