@@ -397,6 +397,17 @@ pub struct BenchArgs {
     /// such as Debian's `coinor-cbc`
     #[arg(long, value_name = "FILE")]
     pub write_mps: Option<PathBuf>,
+    /// Benchmark the raster path instead: a synthetic N x N Float32 host raster with
+    /// `--patches` clumps of host in `--clusters` clusters, labelled into the patch graph and
+    /// risk model as `hostcut plan` does (no optimisation)
+    #[arg(long, value_name = "N")]
+    pub raster_side: Option<usize>,
+    /// Cell side of the synthetic raster, metres
+    #[arg(long, value_name = "M", default_value_t = 20.0)]
+    pub cell_m: f64,
+    /// Keep the synthetic raster here (reused if it exists) [default: a temporary file]
+    #[arg(long, value_name = "FILE", requires = "raster_side")]
+    pub raster_file: Option<PathBuf>,
 }
 
 /// Flags of `hostcut orders`.

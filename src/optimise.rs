@@ -76,6 +76,13 @@ pub struct Solved {
     pub seconds: f64,
     /// The better of adaptive benefit/cost greedy and the best single item.
     pub greedy: Option<(Assignment, f64)>,
+    /// How the plan was searched for, e.g. `transport MIP`, `component merge MIP`,
+    /// `relaxation and local search` (see docs/model.md).
+    pub path: &'static str,
+    /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
+    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/relax.rs) or
+    /// `HiGHS dual bound`.
+    pub bound_from: &'static str,
 }
 
 const FEASIBILITY: f64 = 1e-9;
@@ -606,6 +613,8 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             status: Status::Optimal,
             seconds: start_time.elapsed().as_secs_f64(),
             greedy,
+            path: "nothing to choose",
+            bound_from: "exact",
         });
     }
     // Treating everything with its most effective method is optimal when it fits, and its risk
@@ -621,6 +630,8 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             status: Status::Optimal,
             seconds: start_time.elapsed().as_secs_f64(),
             greedy,
+            path: "everything fits",
+            bound_from: "exact",
         });
     }
     let need_gb = estimated_gb(problem);
@@ -665,6 +676,16 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         }
     }
     let bound_of = |risk: f64, dual: f64| dual.max(floor).max(relaxed_bound).min(risk).max(0.0);
+    // The proof behind `bound_of` (ties go to the cheaper proof).
+    let bound_from = |dual: f64| {
+        if floor >= relaxed_bound && floor >= dual {
+            "floor"
+        } else if relaxed_bound >= dual {
+            "relaxation"
+        } else {
+            "HiGHS dual bound"
+        }
+    };
     let gap_of = |risk: f64, bound: f64| {
         if risk > 0.0 {
             ((risk - bound) / risk).max(0.0)
@@ -714,6 +735,12 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             status,
             seconds: start_time.elapsed().as_secs_f64(),
             greedy,
+            path: if early {
+                "greedy and relaxation rounding"
+            } else {
+                "relaxation and local search"
+            },
+            bound_from: bound_from(f64::NEG_INFINITY),
         });
     }
     let limits = Limits {
@@ -724,6 +751,12 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
     let scale = 1e3 / risk_before;
 
+    let path = match limits.formulation {
+        _ if pieces.is_some() => "component merge MIP",
+        Formulation::Compact => "compact MIP",
+        Formulation::Direct => "direct MIP",
+        Formulation::Transport => "transport MIP",
+    };
     let built = match limits.formulation {
         _ if pieces.is_some() => decompose::build_merge(
             problem,
@@ -770,6 +803,8 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         status,
         seconds: start_time.elapsed().as_secs_f64(),
         greedy,
+        path,
+        bound_from: bound_from(dual),
     })
 }
 
@@ -1547,5 +1582,7 @@ fn infeasible(
         status: Status::Infeasible,
         seconds: start.elapsed().as_secs_f64(),
         greedy,
+        path: "infeasible",
+        bound_from: "none",
     }
 }

@@ -169,6 +169,10 @@ pub struct Summary {
     pub gap: Option<f64>,
     pub bound: Option<f64>,
     pub solve_seconds: f64,
+    /// How the plan was searched for (e.g. `transport MIP`, `component merge MIP`).
+    pub solver_path: &'static str,
+    /// Which proof gave `bound`: exact, floor, relaxation or HiGHS dual bound.
+    pub bound_from: &'static str,
     pub n_patches: usize,
     pub n_edges: usize,
     pub n_treated: usize,
@@ -457,6 +461,8 @@ pub fn summary(
         gap: finite(plan.gap),
         bound: finite(plan.bound),
         solve_seconds: plan.solve_seconds,
+        solver_path: plan.solver_path,
+        bound_from: plan.bound_from,
         n_patches: o.patches.len(),
         n_edges,
         n_treated: plan.rows.len(),

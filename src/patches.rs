@@ -281,7 +281,7 @@ pub fn outline(frame: &Frame, runs: &[Run]) -> MultiPolygon<f64> {
 
 /// Rows per strip for the streaming read: a multiple of GDAL's block height, about 256 rows,
 /// at most 64 MB of values and parcel indices.
-fn strip_rows(raster: &gis::RasterFile) -> usize {
+pub fn strip_rows(raster: &gis::RasterFile) -> usize {
     let block = raster.block_rows.max(1);
     let cap = (64e6 / (8.0 * raster.frame.width.max(1) as f64))
         .floor()

@@ -43,6 +43,9 @@ pub struct Plan {
     pub bound: f64,
     pub gap: f64,
     pub solve_seconds: f64,
+    /// How the plan was searched for and which proof gave the bound ([`Solved`]'s).
+    pub solver_path: &'static str,
+    pub bound_from: &'static str,
 }
 
 impl Plan {
@@ -163,5 +166,7 @@ pub fn assemble(
         bound: solved.bound,
         gap: solved.gap,
         solve_seconds: solved.seconds,
+        solver_path: solved.path,
+        bound_from: solved.bound_from,
     }
 }

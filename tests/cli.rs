@@ -93,6 +93,8 @@ fn inventory_plan_writes_every_output() {
         "gap",
         "bound",
         "solve_seconds",
+        "solver_path",
+        "bound_from",
         "n_patches",
         "n_edges",
         "n_treated",

@@ -12,6 +12,9 @@ use crate::synthetic::{self, Spec};
 use crate::treatments::{self, Catalogue};
 
 pub fn run(args: &BenchArgs) -> Result<String> {
+    if let Some(side) = args.raster_side {
+        return raster(args, side);
+    }
     if args.patches == 0
         || args.methods == 0
         || !(args.budget_share > 0.0 && args.budget_share <= 1.0)
@@ -81,7 +84,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
     );
     let _ = writeln!(
         t,
-        "{:<10} {:>12} {:>14} {:>14} {:>10} {:>9}",
+        "{:<10} {:>12} {:>14} {:>14} {:>10} {:>9}  path (bound from)",
         "method", "status", "risk after", "bound", "gap", "seconds"
     );
     let clock = std::time::Instant::now();
@@ -108,12 +111,14 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         times.push((name, s.seconds, s.risk_after));
         let _ = writeln!(
             t,
-            "{name:<10} {:>12} {:>14.8} {:>14.8} {:>10.2e} {:>9.2}",
+            "{name:<10} {:>12} {:>14.8} {:>14.8} {:>10.2e} {:>9.2}  {} ({})",
             s.status.as_str(),
             s.risk_after,
             s.bound,
             s.gap,
-            s.seconds
+            s.seconds,
+            s.path,
+            s.bound_from
         );
     }
     if let Some(&(_, base_s, base_r)) = times.iter().find(|t| t.0 == "direct") {
@@ -132,4 +137,123 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         let _ = writeln!(t, "direct formulation's MIP written to {}", path.display());
     }
     Ok(t)
+}
+
+/// The raster path at scale: write a synthetic host raster (not timed), read it once through
+/// GDAL in the labeller's strips (the baseline: the I/O floor), then build the patches, graph
+/// and risk model from it as `hostcut plan` does.
+fn raster(args: &BenchArgs, side: usize) -> Result<String> {
+    use crate::settings::Scenario;
+    use crate::synthetic::{RasterSpec, write_raster};
+    if side == 0 || args.patches == 0 || args.cell_m.is_nan() || args.cell_m <= 0.0 {
+        return Err(Error::input(
+            "`--raster-side`, `--patches` and `--cell-m` must be above 0",
+        ));
+    }
+    let spec = RasterSpec {
+        width: side,
+        height: side,
+        cell_m: args.cell_m,
+        clumps: args.patches,
+        clusters: args.clusters,
+        spread_cells: args.spread_m / args.cell_m,
+        seed: args.seed,
+    };
+    let (path, temporary) = match &args.raster_file {
+        Some(p) => (p.clone(), false),
+        None => (
+            std::env::temp_dir().join(format!(
+                "hostcut-bench-{}-{side}-{}.tif",
+                std::process::id(),
+                args.seed
+            )),
+            true,
+        ),
+    };
+    let mut t = String::new();
+    let clock = std::time::Instant::now();
+    if path.exists() && !temporary {
+        let _ = writeln!(t, "raster {} exists: reused (its own spec)", path.display());
+    } else {
+        write_raster(&path, spec)?;
+        let _ = writeln!(
+            t,
+            "synthetic raster: {side} x {side} cells ({:.3e}), {} m cells, {} clumps in {} clusters, seed {}, written in {:.2} s (not timed below)",
+            (side * side) as f64,
+            args.cell_m,
+            args.patches,
+            args.clusters,
+            args.seed,
+            clock.elapsed().as_secs_f64()
+        );
+    }
+    let result = (|| -> Result<()> {
+        let mut scenario = Scenario::default();
+        scenario.host.path = Some(path.clone());
+        scenario.model.alpha_m = args.alpha_m;
+        let max_gb = scenario.solver.max_memory_gb;
+        // Baseline: every value read once through GDAL in the labeller's strips.
+        let clock = std::time::Instant::now();
+        let file = crate::gis::open_raster(&path, None, max_gb)?;
+        let dataset = file.dataset()?;
+        let strip = crate::patches::strip_rows(&file);
+        let (mut row0, mut host_cells) = (0, 0usize);
+        while row0 < file.frame.height {
+            let rows = strip.min(file.frame.height - row0);
+            let values = file.read_rows_from(&dataset, row0, rows)?;
+            host_cells += values.iter().filter(|&&v| v >= 10.0).count();
+            row0 += rows;
+        }
+        drop(dataset);
+        let read_s = clock.elapsed().as_secs_f64();
+        let _ = writeln!(
+            t,
+            "read once in strips of {strip} rows (baseline): {read_s:.2} s, {host_cells} cells at or above 10 stems/ha"
+        );
+        let clock = std::time::Instant::now();
+        let stages = std::cell::RefCell::new(Vec::new());
+        let prepared = crate::pipeline::prepare(&scenario, &|line: &str| {
+            stages.borrow_mut().push(format!(
+                "  {:>7.2} s  {line}",
+                clock.elapsed().as_secs_f64()
+            ));
+        })?;
+        let ones = vec![1.0; prepared.patches.len()];
+        let capacity = prepared.model.capacity(&ones);
+        stages.borrow_mut().push(format!(
+            "  {:>7.2} s  lambda_M {:.6e} by power iteration ({} iterations, residual {:.1e})",
+            clock.elapsed().as_secs_f64(),
+            capacity.lambda,
+            capacity.iterations,
+            capacity.residual
+        ));
+        let seconds = clock.elapsed().as_secs_f64();
+        for line in stages.borrow().iter() {
+            let _ = writeln!(t, "{line}");
+        }
+        let _ = writeln!(
+            t,
+            "raster to patch graph, risk model and lambda_M: {seconds:.2} s ({:.2}x the read), {} patches, {} links",
+            seconds / read_s.max(1e-9),
+            prepared.patches.len(),
+            prepared.graph.edges.len()
+        );
+        if let Some(peak) = peak_memory_mb() {
+            let _ = writeln!(t, "peak resident memory of this process: {peak:.0} MB");
+        }
+        Ok(())
+    })();
+    if temporary {
+        let _ = std::fs::remove_file(&path);
+    }
+    result?;
+    Ok(t)
+}
+
+/// The process's peak resident set (VmHWM), megabytes, where /proc tells it.
+fn peak_memory_mb() -> Option<f64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb / 1000.0)
 }

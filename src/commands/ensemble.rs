@@ -136,6 +136,8 @@ pub fn solve(
                     status: r.status,
                     seconds: r.seconds,
                     greedy: greedy.clone(),
+                    path: "min-max MIP",
+                    bound_from: "HiGHS dual bound",
                 },
                 objective,
             )

@@ -378,10 +378,12 @@ fn human_summary(
             };
             let _ = writeln!(
                 t,
-                "optimiser{objective}: {status} (status {}, gap {:.2e}, {:.1} s)",
+                "optimiser{objective}: {status} (status {}, gap {:.2e}, {:.1} s; {}, bound from {})",
                 plan.status.as_str(),
                 plan.gap,
-                plan.solve_seconds
+                plan.solve_seconds,
+                plan.solver_path,
+                plan.bound_from
             );
             for row in plan.rows.iter().take(5) {
                 let p = &patches.items[row.patch.index()];
