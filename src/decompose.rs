@@ -59,6 +59,17 @@ pub fn pieces(problem: &Problem) -> Option<Vec<Piece>> {
     if members.len() < 2 {
         return None;
     }
+    let count = members.len();
+    let pieces = small_pieces(problem, members);
+    if pieces.len() < count || pieces.iter().map(|p| p.points.len()).sum::<usize>() > TOTAL_POINTS {
+        return None;
+    }
+    Some(pieces)
+}
+
+/// The frontiers of those `components` with at most [`PLANS_PER_COMPONENT`] plans, in the
+/// order given (the others are left out), enumerated on two threads.
+pub fn small_pieces(problem: &Problem, components: Vec<Vec<usize>>) -> Vec<Piece> {
     let options = |i: usize| {
         usize::from(!problem.required[i])
             + if problem.excluded[i] {
@@ -67,15 +78,16 @@ pub fn pieces(problem: &Problem) -> Option<Vec<Piece>> {
                 problem.choices[i].len()
             }
     };
-    for m in &members {
-        let mut plans = 1usize;
-        for &i in m {
-            plans = plans.saturating_mul(options(i).max(1));
-        }
-        if plans > PLANS_PER_COMPONENT {
-            return None;
-        }
-    }
+    let members: Vec<Vec<usize>> = components
+        .into_iter()
+        .filter(|m| {
+            let mut plans = 1usize;
+            for &i in m {
+                plans = plans.saturating_mul(options(i).max(1));
+            }
+            plans <= PLANS_PER_COMPONENT
+        })
+        .collect();
     let workers = 2;
     let members = &members;
     let parts: Vec<Vec<(usize, Vec<Point>)>> = std::thread::scope(|scope| {
@@ -100,18 +112,12 @@ pub fn pieces(problem: &Problem) -> Option<Vec<Piece>> {
             frontiers[c] = points;
         }
     }
-    let total: usize = frontiers.iter().map(Vec::len).sum();
-    if total > TOTAL_POINTS {
-        return None;
-    }
-    Some(
-        members
-            .iter()
-            .cloned()
-            .zip(frontiers)
-            .map(|(members, points)| Piece { members, points })
-            .collect(),
-    )
+    members
+        .iter()
+        .cloned()
+        .zip(frontiers)
+        .map(|(members, points)| Piece { members, points })
+        .collect()
 }
 
 /// The Pareto frontier of one component's plans within the budget and hours (empty when none

@@ -29,6 +29,7 @@
 
 use std::time::Instant;
 
+use crate::decompose::{Piece, Point};
 use crate::optimise::{Assignment, Problem};
 
 /// One option of a patch in the relaxation: untreated (choice None) or a choice.
@@ -595,6 +596,599 @@ impl<'a> Relaxed<'a> {
     }
 }
 
+/// The small components whose plans are enumerated (src/decompose.rs) and, per patch,
+/// whether it lies in one.
+struct Exact {
+    pieces: Vec<Piece>,
+    of: Vec<bool>,
+}
+
+/// Prices on the budget and the crew hours for [`lagrangian`].
+#[derive(Debug, Clone, Copy)]
+struct Prices {
+    budget: f64,
+    hours: f64,
+}
+
+impl Relaxed<'_> {
+    /// The price-adjusted linear term of option k.
+    fn priced(&self, i: usize, k: usize, p: Prices) -> f64 {
+        let o = &self.opts[k];
+        self.linear[i] * o.e * o.e + p.budget * o.cost + p.hours * o.hours
+    }
+
+    /// Minimise f(x) + mu cost(x) + nu hours(x) over the product of the patches' simplices
+    /// (no budget row) by block coordinate descent, one patch at a time, each step exact:
+    /// with the other patches fixed, f is q r_i^2 + b r_i + (the options' priced terms), and
+    /// its minimum over the simplex lies on the lower convex hull of the points (e_k, c_k).
+    /// `x`, `r` are updated in place; returns a lower bound on the minimum (the Frank–Wolfe
+    /// duality gap, exact for a convex function over a product of simplices) and the cost and
+    /// hours of the final x.
+    /// Patches of the small components in `exact` are not relaxed: each such component takes
+    /// its frontier plan of least priced risk, exactly.
+    #[allow(clippy::too_many_arguments)]
+    fn descend(
+        &self,
+        x: &mut [f64],
+        r: &mut [f64],
+        p: Prices,
+        exact: &Exact,
+        sweeps: usize,
+        tol: f64,
+    ) -> (f64, f64, f64) {
+        let n = self.problem.len();
+        let model = self.problem.model;
+        let mut hull: Vec<usize> = Vec::new();
+        let mut order: Vec<usize> = Vec::new();
+        let mut lower = f64::NEG_INFINITY;
+        let mut exact_value = 0.0;
+        for piece in &exact.pieces {
+            let priced = |q: &Point| q.risk + p.budget * q.cost + p.hours * q.hours;
+            let Some(best) = piece
+                .points
+                .iter()
+                .min_by(|a, b| priced(a).total_cmp(&priced(b)))
+            else {
+                continue;
+            };
+            exact_value += priced(best);
+            for (&i, &choice) in piece.members.iter().zip(&best.plan) {
+                for k in self.options(i) {
+                    x[k] = if self.opts[k].choice == choice {
+                        1.0
+                    } else {
+                        0.0
+                    };
+                }
+                r[i] = choice
+                    .map(|o| self.problem.choices[i][o].remaining)
+                    .unwrap_or(1.0);
+            }
+        }
+        for sweep in 0..=sweeps {
+            // The bound at the current x: F(x) + sum_i min_k (g_k - g_i . x_i).
+            let mut b = vec![0.0; n];
+            for l in &model.links {
+                b[l.a] += l.weight * r[l.b];
+                b[l.b] += l.weight * r[l.a];
+            }
+            let mut value = exact_value;
+            let mut dual = 0.0;
+            for i in 0..n {
+                let range = self.options(i);
+                if range.is_empty() || exact.of[i] {
+                    continue;
+                }
+                // F's link terms are counted once: half of r_i b_i per patch.
+                let g_r = 2.0 * self.quadratic[i] * r[i] + b[i];
+                value += self.quadratic[i] * r[i] * r[i] + 0.5 * b[i] * r[i];
+                let (mut gx, mut gmin) = (0.0, f64::INFINITY);
+                for k in range {
+                    let c = self.priced(i, k, p);
+                    value += x[k] * c;
+                    let g = g_r * self.opts[k].e + c;
+                    gx += x[k] * g;
+                    gmin = gmin.min(g);
+                }
+                dual += gmin - gx;
+            }
+            lower = lower.max(value + dual);
+            if sweep == sweeps || -dual <= tol * value.abs().max(1e-300) {
+                break;
+            }
+            for i in 0..n {
+                let range = self.options(i);
+                if range.is_empty() || exact.of[i] {
+                    continue;
+                }
+                let mut bi = 0.0;
+                for &(j, l) in &model.adjacency[i] {
+                    bi += model.links[l].weight * r[j];
+                }
+                let q = self.quadratic[i].max(0.0);
+                // Options by e, then the lower convex hull of (e, c).
+                order.clear();
+                order.extend(range.clone());
+                order.sort_by(|&a, &c| {
+                    self.opts[a]
+                        .e
+                        .total_cmp(&self.opts[c].e)
+                        .then(self.priced(i, a, p).total_cmp(&self.priced(i, c, p)))
+                });
+                hull.clear();
+                for &k in &order {
+                    let (ek, ck) = (self.opts[k].e, self.priced(i, k, p));
+                    if let Some(&last) = hull.last()
+                        && self.opts[last].e >= ek
+                    {
+                        // Same e: the sort put the cheaper first.
+                        continue;
+                    }
+                    while hull.len() >= 2 {
+                        let (a, m) = (hull[hull.len() - 2], hull[hull.len() - 1]);
+                        let (ea, ca) = (self.opts[a].e, self.priced(i, a, p));
+                        let (em, cm) = (self.opts[m].e, self.priced(i, m, p));
+                        // m is above the chord from a to k.
+                        if (cm - ca) * (ek - ea) >= (ck - ca) * (em - ea) {
+                            hull.pop();
+                        } else {
+                            break;
+                        }
+                    }
+                    hull.push(k);
+                }
+                // Best point on each hull segment (or the single vertex).
+                let phi = |rr: f64, c: f64| q * rr * rr + bi * rr + c;
+                let mut best = (f64::INFINITY, hull[0], hull[0], 1.0);
+                for &k in &hull {
+                    let v = phi(self.opts[k].e, self.priced(i, k, p));
+                    if v < best.0 {
+                        best = (v, k, k, 1.0);
+                    }
+                }
+                for w in hull.windows(2) {
+                    let (a, c) = (w[0], w[1]);
+                    let (ea, ec) = (self.opts[a].e, self.opts[c].e);
+                    let (pa, pc) = (self.priced(i, a, p), self.priced(i, c, p));
+                    let m = (pc - pa) / (ec - ea);
+                    if q <= 0.0 {
+                        continue;
+                    }
+                    let rr = (-(bi + m) / (2.0 * q)).clamp(ea, ec);
+                    let v = phi(rr, pa + m * (rr - ea));
+                    if v < best.0 {
+                        // Weight on a: (ec - rr) / (ec - ea).
+                        best = (v, a, c, (ec - rr) / (ec - ea));
+                    }
+                }
+                for k in range {
+                    x[k] = 0.0;
+                }
+                let (_, a, c, wa) = best;
+                x[a] += wa;
+                x[c] += 1.0 - wa;
+                r[i] = wa * self.opts[a].e + (1.0 - wa) * self.opts[c].e;
+            }
+        }
+        let cost = x.iter().zip(&self.opts).map(|(w, o)| w * o.cost).sum();
+        let hours = x.iter().zip(&self.opts).map(|(w, o)| w * o.hours).sum();
+        (lower, cost, hours)
+    }
+}
+
+/// The same relaxation's bound by its Lagrangian dual (Everett 1963; Geoffrion 1974, both
+/// from memory): any prices mu, nu >= 0 on the budget and crew hours give
+///   min_x [f(x) + mu (cost(x) - B) + nu (hours(x) - H)] <= the relaxation's minimum,
+/// and without the budget row the inner minimum separates into one small convex problem per
+/// patch given its neighbours, solved by block coordinate descent with a proven lower bound
+/// (see `descend`). The dual is concave in the prices; they are found by bisection on the
+/// sign of its slope (cost(x) - B). Returns the best bound and the relaxed x it came with.
+fn lagrangian(
+    relaxed: &Relaxed,
+    incumbent: f64,
+    stop: Stop,
+    clock: &Instant,
+) -> Option<(f64, Vec<f64>, usize)> {
+    let problem = relaxed.problem;
+    let n = problem.len();
+    let budget = problem.budget;
+    if !budget.is_finite() {
+        return None;
+    }
+    let hours_limit = problem.crew_hours.filter(|h| h.is_finite());
+    let pieces =
+        crate::decompose::small_pieces(problem, crate::decompose::component_members(problem));
+    if pieces.iter().any(|p| p.points.is_empty()) {
+        // A component has no plan within the budget: no plan at all.
+        return None;
+    }
+    let mut of = vec![false; n];
+    for piece in &pieces {
+        for &i in &piece.members {
+            of[i] = true;
+        }
+    }
+    if std::env::var_os("HOSTCUT_RELAX_LOG").is_some() {
+        let members = crate::decompose::component_members(problem);
+        let mut sizes: Vec<usize> = members.iter().map(Vec::len).collect();
+        sizes.sort_unstable();
+        let exact_patches: usize = pieces.iter().map(|p| p.members.len()).sum();
+        eprintln!(
+            "components: {} (largest {:?}), {} enumerated holding {exact_patches} patches",
+            sizes.len(),
+            &sizes[sizes.len().saturating_sub(5)..],
+            pieces.len()
+        );
+    }
+    let exact = Exact { pieces, of };
+    let mut x = vec![0.0; relaxed.opts.len()];
+    for i in 0..n {
+        if let Some(k) = relaxed.options(i).next() {
+            x[k] = 1.0;
+        }
+    }
+    let (mut r, _) = relaxed.moments(&x);
+    let mut best = f64::NEG_INFINITY;
+    let mut best_x = x.clone();
+    let mut sweeps_run = 0;
+    let mut kept = f64::NEG_INFINITY;
+    let out_of_time = |clock: &Instant| clock.elapsed().as_secs_f64() >= stop.time_limit_s;
+    let done = |b: f64| incumbent - b <= stop.gap * incumbent;
+    // One evaluation of the dual at prices p: (bound, cost, hours).
+    let mut evaluate =
+        |p: Prices, x: &mut Vec<f64>, r: &mut Vec<f64>, best: &mut f64, best_x: &mut Vec<f64>| {
+            let (lower, cost, hours) = relaxed.descend(x, r, p, &exact, 200, 0.1 * stop.gap);
+            sweeps_run += 1;
+            let bound = lower - p.budget * budget - p.hours * hours_limit.unwrap_or(0.0);
+            *best = best.max(bound);
+            // The relaxed point kept for rounding: the best bound's among those within the rows.
+            let within = cost <= budget * (1.0 + 1e-12)
+                && hours_limit.is_none_or(|h| hours <= h * (1.0 + 1e-12));
+            if within && bound > kept {
+                kept = bound;
+                best_x.clone_from(x);
+            }
+            (cost, hours)
+        };
+    // Scale of the prices: R per unit of cost at the start.
+    let cheapest_unit = problem.model.risk_before() / budget.max(1e-12);
+    let mut prices = Prices {
+        budget: 0.0,
+        hours: 0.0,
+    };
+    let rounds = if hours_limit.is_some() { 3 } else { 1 };
+    for _ in 0..rounds {
+        for axis in 0..2 {
+            let (limit, scale) = match axis {
+                0 => (budget, cheapest_unit),
+                _ => match hours_limit {
+                    Some(h) => (h, problem.model.risk_before() / h.max(1e-12)),
+                    None => continue,
+                },
+            };
+            let at = |p: Prices, v: f64| {
+                if axis == 0 {
+                    Prices { budget: v, ..p }
+                } else {
+                    Prices { hours: v, ..p }
+                }
+            };
+            let used = |c: (f64, f64)| if axis == 0 { c.0 } else { c.1 };
+            // Bracket: lo where the row is overrun (or 0), hi where it holds.
+            let (mut lo, mut hi) = (0.0, scale);
+            let u0 = used(evaluate(
+                at(prices, 0.0),
+                &mut x,
+                &mut r,
+                &mut best,
+                &mut best_x,
+            ));
+            if u0 <= limit {
+                prices = at(prices, 0.0);
+                continue;
+            }
+            loop {
+                if out_of_time(clock) || done(best) {
+                    return Some((best.min(incumbent).max(0.0), best_x, sweeps_run));
+                }
+                let u = used(evaluate(
+                    at(prices, hi),
+                    &mut x,
+                    &mut r,
+                    &mut best,
+                    &mut best_x,
+                ));
+                if u <= limit {
+                    break;
+                }
+                lo = hi;
+                hi *= 4.0;
+                if hi > 1e300 {
+                    return Some((best.min(incumbent).max(0.0), best_x, sweeps_run));
+                }
+            }
+            for _ in 0..40 {
+                if out_of_time(clock) || done(best) || hi - lo <= 1e-9 * hi {
+                    break;
+                }
+                let mid = 0.5 * (lo + hi);
+                let u = used(evaluate(
+                    at(prices, mid),
+                    &mut x,
+                    &mut r,
+                    &mut best,
+                    &mut best_x,
+                ));
+                if u <= limit {
+                    hi = mid;
+                } else {
+                    lo = mid;
+                }
+            }
+            prices = at(prices, 0.5 * (lo + hi));
+        }
+    }
+    Some((best.min(incumbent).max(0.0), best_x, sweeps_run))
+}
+
+/// A second, usually much tighter bound: the local-polytope LP of R as a pairwise energy
+/// over each patch's options (one unary term per patch, pi_i a_i^2 e_o^2 plus the priced cost
+/// and hours; one pairwise term w_ij e_o e_o' per link), solved in its dual by max-product
+/// linear programming's edge updates (Globerson & Jaakkola 2007, min-sum form, from memory),
+/// with the budget and crew hours priced as in [`lagrangian`]. Any messages delta with
+/// delta_{j->i}(o) + delta_{i->j}(o') <= w_ij e_o e_o' for every pair give
+///   R(plan) + prices . (use - limits) >= sum_i min_o [theta_i(o) + sum_j delta_{j->i}(o)] - prices . limits,
+/// and the updates keep that inequality (any violation by rounding is measured and
+/// subtracted). The bound is valid after any number of sweeps, at any prices.
+fn message_passing(
+    relaxed: &Relaxed,
+    incumbent: f64,
+    stop: Stop,
+    clock: &Instant,
+) -> Option<(f64, Vec<f64>, usize)> {
+    let problem = relaxed.problem;
+    let model = problem.model;
+    let n = problem.len();
+    let budget = problem.budget;
+    if !budget.is_finite() || (0..n).any(|i| relaxed.options(i).is_empty()) {
+        return None;
+    }
+    let hours_limit = problem.crew_hours.filter(|h| h.is_finite());
+    // Messages: per link, first to a (a's options), then to b.
+    let mut at = Vec::with_capacity(model.links.len() + 1);
+    let mut total = 0;
+    for l in &model.links {
+        at.push(total);
+        total += relaxed.options(l.a).len() + relaxed.options(l.b).len();
+    }
+    at.push(total);
+    let delta = vec![0.0; total];
+    let unary = |k: usize, i: usize, p: Prices| {
+        let o = &relaxed.opts[k];
+        model.own[i] * o.e * o.e + p.budget * o.cost + p.hours * o.hours
+    };
+    let prices = Prices {
+        budget: 0.0,
+        hours: 0.0,
+    };
+    // Beliefs B_i(o) = theta_i(o) + sum of messages into i, indexed like opts.
+    let mut belief: Vec<f64> = vec![0.0; relaxed.opts.len()];
+    for i in 0..n {
+        for k in relaxed.options(i) {
+            belief[k] = unary(k, i, prices);
+        }
+    }
+    let (mut ba, mut bb, mut na, mut nb) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut sweep = |belief: &mut [f64], delta: &mut [f64]| {
+        for (l, link) in model.links.iter().enumerate() {
+            let (ra, rb) = (relaxed.options(link.a), relaxed.options(link.b));
+            let la = ra.len();
+            let (to_a, to_b) = delta[at[l]..at[l + 1]].split_at_mut(la);
+            ba.clear();
+            bb.clear();
+            ba.extend(ra.clone().zip(to_a.iter()).map(|(k, d)| belief[k] - d));
+            bb.extend(rb.clone().zip(to_b.iter()).map(|(k, d)| belief[k] - d));
+            let w = link.weight;
+            na.clear();
+            nb.clear();
+            for (x, ka) in ra.clone().enumerate() {
+                let ea = relaxed.opts[ka].e;
+                let m = rb
+                    .clone()
+                    .enumerate()
+                    .map(|(y, kb)| w * ea * relaxed.opts[kb].e + bb[y])
+                    .fold(f64::INFINITY, f64::min);
+                na.push(0.5 * (m - ba[x]));
+            }
+            for (y, kb) in rb.clone().enumerate() {
+                let eb = relaxed.opts[kb].e;
+                let m = ra
+                    .clone()
+                    .enumerate()
+                    .map(|(x, ka)| w * relaxed.opts[ka].e * eb + ba[x])
+                    .fold(f64::INFINITY, f64::min);
+                nb.push(0.5 * (m - bb[y]));
+            }
+            for (x, k) in ra.enumerate() {
+                to_a[x] = na[x];
+                belief[k] = ba[x] + na[x];
+            }
+            for (y, k) in rb.enumerate() {
+                to_b[y] = nb[y];
+                belief[k] = bb[y] + nb[y];
+            }
+        }
+    };
+    // The proven bound at the current messages and prices, and the options the beliefs pick.
+    let evaluate = |belief: &[f64], delta: &[f64], p: Prices| -> (f64, Vec<usize>, f64, f64) {
+        let mut value = 0.0;
+        let mut pick = Vec::with_capacity(n);
+        let (mut cost, mut hours) = (0.0, 0.0);
+        for i in 0..n {
+            let k = relaxed
+                .options(i)
+                .min_by(|&a, &b| belief[a].total_cmp(&belief[b]))
+                .expect("every patch has an option");
+            value += belief[k];
+            cost += relaxed.opts[k].cost;
+            hours += relaxed.opts[k].hours;
+            pick.push(k);
+        }
+        let mut violation = 0.0;
+        for (l, link) in model.links.iter().enumerate() {
+            let (ra, rb) = (relaxed.options(link.a), relaxed.options(link.b));
+            let (to_a, to_b) = delta[at[l]..at[l + 1]].split_at(ra.len());
+            let mut worst: f64 = 0.0;
+            for (x, ka) in ra.clone().enumerate() {
+                for (y, kb) in rb.clone().enumerate() {
+                    let theta = link.weight * relaxed.opts[ka].e * relaxed.opts[kb].e;
+                    worst = worst.max(to_a[x] + to_b[y] - theta);
+                }
+            }
+            violation += worst;
+        }
+        let bound = value - violation - p.budget * budget - p.hours * hours_limit.unwrap_or(0.0);
+        (bound, pick, cost, hours)
+    };
+    let best = f64::NEG_INFINITY;
+    let mut kept = (f64::NEG_INFINITY, Vec::new());
+    let mut evaluations = 0;
+    let run = |p: Prices, belief: &mut Vec<f64>, delta: &mut Vec<f64>, best: &mut f64| {
+        // Beliefs follow the prices: only the unary terms change.
+        let mut last = f64::NEG_INFINITY;
+        let mut out = (0.0, 0.0);
+        for s in 0..30 {
+            if s > 0 {
+                sweep(belief, delta);
+            }
+            let (bound, pick, cost, hours) = evaluate(belief, delta, p);
+            evaluations += 1;
+            *best = best.max(bound);
+            let within = cost <= budget * (1.0 + 1e-12)
+                && hours_limit.is_none_or(|h| hours <= h * (1.0 + 1e-12));
+            if within && bound > kept.0 {
+                kept = (bound, pick);
+            }
+            out = (cost, hours);
+            if bound - last <= 1e-4 * stop.gap * incumbent
+                || clock.elapsed().as_secs_f64() >= stop.time_limit_s
+            {
+                break;
+            }
+            last = bound;
+        }
+        out
+    };
+    let reprice = |belief: &mut [f64], from: Prices, to: Prices| {
+        for i in 0..n {
+            for k in relaxed.options(i) {
+                belief[k] += unary(k, i, to) - unary(k, i, from);
+            }
+        }
+    };
+    // The dual is concave in the prices; each price is found by bisection on the sign of its
+    // slope (use - limit), the budget's inside the hours' when both bind.
+    struct State {
+        belief: Vec<f64>,
+        delta: Vec<f64>,
+        prices: Prices,
+        best: f64,
+    }
+    let state = std::cell::RefCell::new(State {
+        belief,
+        delta,
+        prices,
+        best,
+    });
+    let run = std::cell::RefCell::new(run);
+    // (cost, hours) at prices p, or None once out of time or the gap is met.
+    let try_at = |p: Prices| -> Option<(f64, f64)> {
+        let mut st = state.borrow_mut();
+        if clock.elapsed().as_secs_f64() >= stop.time_limit_s
+            || incumbent - st.best <= stop.gap * incumbent
+        {
+            return None;
+        }
+        let State {
+            belief,
+            delta,
+            prices,
+            best,
+        } = &mut *st;
+        reprice(belief, *prices, p);
+        *prices = p;
+        Some((run.borrow_mut())(p, belief, delta, best))
+    };
+    // The least price (to a relative tolerance) at which use <= limit.
+    fn bisect(
+        limit: f64,
+        scale: f64,
+        tol: f64,
+        f: &mut dyn FnMut(f64) -> Option<f64>,
+    ) -> Option<f64> {
+        if f(0.0)? <= limit {
+            return Some(0.0);
+        }
+        let (mut lo, mut hi) = (0.0, scale);
+        while f(hi)? > limit {
+            lo = hi;
+            hi *= 4.0;
+            if hi > 1e300 {
+                return None;
+            }
+        }
+        while hi - lo > tol * hi {
+            let mid = 0.5 * (lo + hi);
+            if f(mid)? <= limit {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+        }
+        Some(hi)
+    }
+    let budget_scale = model.risk_before() / budget.max(1e-12);
+    let budget_price = |hours_price: f64, tol: f64| {
+        bisect(budget, budget_scale, tol, &mut |v| {
+            try_at(Prices {
+                budget: v,
+                hours: hours_price,
+            })
+            .map(|c| c.0)
+        })
+    };
+    match hours_limit {
+        None => {
+            let _ = budget_price(0.0, 1e-6);
+        }
+        Some(h) => {
+            let _ = bisect(h, model.risk_before() / h.max(1e-12), 1e-4, &mut |nu| {
+                let mu = budget_price(nu, 1e-4)?;
+                try_at(Prices {
+                    budget: mu,
+                    hours: nu,
+                })
+                .map(|c| c.1)
+            });
+        }
+    }
+    let best = state.borrow().best;
+    let mut x = vec![0.0; relaxed.opts.len()];
+    for &k in &kept.1 {
+        x[k] = 1.0;
+    }
+    Some((best.min(incumbent).max(0.0), x, evaluations))
+}
+
+/// The message-passing bound alone (see [`message_passing`]), for tests and benchmarks: a
+/// proven lower bound on the least achievable R, or None when the budget is infinite or a
+/// patch has no option.
+pub fn local_polytope_bound(problem: &Problem, incumbent: f64, stop: Stop) -> Option<f64> {
+    let clock = Instant::now();
+    let relaxed = Relaxed::new(problem);
+    message_passing(&relaxed, incumbent, stop, &clock).map(|(b, _, _)| b)
+}
+
 /// The relaxation bound, starting Frank–Wolfe from `start` (a feasible plan, e.g. greedy's)
 /// and stopping when the bound is within `stop.gap` of `incumbent`, after `stop.max_iterations`
 /// or at `stop.time_limit_s`. None when no plan is feasible (the required patches overrun the
@@ -603,6 +1197,65 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
     let clock = Instant::now();
     let relaxed = Relaxed::new(problem);
     let n = problem.len();
+    // Message passing on the local-polytope LP first (the tightest, and fast on sparse
+    // graphs), then the Lagrangian dual of the convex reformulation; Frank–Wolfe gets the
+    // time left when the gap is not met.
+    let passed = message_passing(&relaxed, incumbent, stop, &clock);
+    let log = std::env::var_os("HOSTCUT_RELAX_LOG").is_some();
+    if log && let Some((b, _, evaluations)) = &passed {
+        eprintln!(
+            "message passing: bound {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
+            clock.elapsed().as_secs_f64(),
+            (incumbent - b) / incumbent
+        );
+    }
+    let lagrange = if passed
+        .as_ref()
+        .is_some_and(|(b, _, _)| incumbent - b <= stop.gap * incumbent)
+    {
+        None
+    } else {
+        lagrangian(&relaxed, incumbent, stop, &clock)
+    };
+    let dual = match (passed, lagrange) {
+        (Some(a), Some(b)) => Some(if a.0 >= b.0 { a } else { b }),
+        (a, b) => a.or(b),
+    };
+    let weights_of = |x: &[f64]| -> Vec<Vec<f64>> {
+        (0..n)
+            .map(|i| {
+                let mut w = vec![0.0; problem.choices[i].len()];
+                for k in relaxed.options(i) {
+                    if let Some(o) = relaxed.opts[k].choice {
+                        w[o] = x[k];
+                    }
+                }
+                w
+            })
+            .collect()
+    };
+    if std::env::var_os("HOSTCUT_RELAX_LOG").is_some()
+        && let Some((b, _, evaluations)) = &dual
+    {
+        eprintln!(
+            "dual bound: {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
+            clock.elapsed().as_secs_f64(),
+            (incumbent - b) / incumbent
+        );
+    }
+    if let Some((b, x, evaluations)) = &dual
+        && (incumbent - b <= stop.gap * incumbent
+            || clock.elapsed().as_secs_f64() >= stop.time_limit_s)
+    {
+        return Some(Bound {
+            value: *b,
+            iterations: *evaluations,
+            components: relaxed.components,
+            min_shift: relaxed.min_shift,
+            weights: weights_of(x),
+            seconds: clock.elapsed().as_secs_f64(),
+        });
+    }
     let mut x = vec![0.0; relaxed.opts.len()];
     for i in 0..n {
         let k = relaxed
@@ -616,6 +1269,8 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
     let (mut r, mut s) = relaxed.moments(&x);
     let mut best = f64::NEG_INFINITY;
     let mut iterations = 0;
+    // HOSTCUT_RELAX_LOG=1 prints the iterates' value and the bound (for developers).
+    let log = std::env::var_os("HOSTCUT_RELAX_LOG").is_some();
     while iterations < stop.max_iterations {
         iterations += 1;
         let f = relaxed.value(&r, &s);
@@ -623,6 +1278,14 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
         let (y, lmo) = relaxed.oracle(&g)?;
         let gx: f64 = g.iter().zip(&x).map(|(a, b)| a * b).sum();
         best = best.max(f + lmo - gx);
+        if log && iterations.is_power_of_two() {
+            eprintln!(
+                "relax {iterations:>7} {:>8.2} s  f {f:.9e}  bound {best:.9e}  incumbent {incumbent:.9e}  gap(f) {:.3e}  gap(incumbent) {:.3e}",
+                clock.elapsed().as_secs_f64(),
+                (f - best) / f,
+                (incumbent - best) / incumbent
+            );
+        }
         if incumbent - best <= stop.gap * incumbent
             || clock.elapsed().as_secs_f64() >= stop.time_limit_s
         {
@@ -645,17 +1308,10 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
         r.iter_mut().zip(&dr).for_each(|(a, b)| *a += gamma * b);
         s.iter_mut().zip(&ds).for_each(|(a, b)| *a += gamma * b);
     }
-    let weights = (0..n)
-        .map(|i| {
-            let mut w = vec![0.0; problem.choices[i].len()];
-            for k in relaxed.options(i) {
-                if let Some(o) = relaxed.opts[k].choice {
-                    w[o] = x[k];
-                }
-            }
-            w
-        })
-        .collect();
+    let (best, weights) = match dual {
+        Some((b, y, _)) if b > best => (b, weights_of(&y)),
+        _ => (best, weights_of(&x)),
+    };
     Some(Bound {
         value: best.min(incumbent).max(0.0),
         iterations,
