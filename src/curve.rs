@@ -94,13 +94,21 @@ pub fn trace(
         ..limits
     };
     let budgets = &budgets;
+    let bar =
+        crate::progress::Stage::bar("solving the budget curve", budgets.len() as u64, "budgets");
+    let bar = &bar;
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
         let handles: Vec<_> = (0..jobs)
             .map(|w| {
                 scope.spawn(move || {
                     (w..budgets.len())
                         .step_by(jobs)
-                        .map(|k| solve_point(prepared, budgets, k, crew_hours, limits, depot))
+                        .map(|k| {
+                            let point =
+                                solve_point(prepared, budgets, k, crew_hours, limits, depot);
+                            bar.inc(1);
+                            point
+                        })
                         .collect()
                 })
             })

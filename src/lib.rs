@@ -31,6 +31,7 @@ pub mod patches;
 pub mod pipeline;
 pub mod plan;
 pub mod program;
+pub mod progress;
 pub mod relax;
 pub mod rng;
 pub mod routing;
@@ -48,6 +49,16 @@ pub fn run(cli: Cli) -> Result<String> {
     // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
     // default handler from printing them a second time.
     gdal::config::set_error_handler(|_, _, _| {});
+    progress::init(match &cli.command {
+        Command::Plan(a) => a.inputs.quiet,
+        Command::Curve(a) => a.inputs.quiet,
+        Command::Simulate(a) => a.inputs.quiet,
+        Command::Calibrate(a) => a.inputs.quiet,
+        Command::Program(a) => a.inputs.quiet,
+        Command::Orders(a) => a.quiet,
+        Command::Demo(a) => a.quiet,
+        _ => false,
+    });
     match cli.command {
         Command::Plan(args) => {
             if let Some(p) = &args.write_mps

@@ -203,7 +203,9 @@ pub fn label_strips(
     let mut labeller = Labeller::new(w, options.rules(cell_ha));
     let strip = strip.max(1);
     let mut row0 = 0;
+    let bar = crate::progress::Stage::bar("labelling host cells", h as u64, "rows");
     while row0 < h {
+        bar.set(row0 as u64);
         let rows = strip.min(h - row0);
         let (values, parcels) = read(row0, rows)?;
         for r in 0..rows {

@@ -1197,30 +1197,9 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
     let clock = Instant::now();
     let relaxed = Relaxed::new(problem);
     let n = problem.len();
-    // Message passing on the local-polytope LP first (the tightest, and fast on sparse
-    // graphs), then the Lagrangian dual of the convex reformulation; Frank–Wolfe gets the
-    // time left when the gap is not met.
-    let passed = message_passing(&relaxed, incumbent, stop, &clock);
     let log = std::env::var_os("HOSTCUT_RELAX_LOG").is_some();
-    if log && let Some((b, _, evaluations)) = &passed {
-        eprintln!(
-            "message passing: bound {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
-            clock.elapsed().as_secs_f64(),
-            (incumbent - b) / incumbent
-        );
-    }
-    let lagrange = if passed
-        .as_ref()
-        .is_some_and(|(b, _, _)| incumbent - b <= stop.gap * incumbent)
-    {
-        None
-    } else {
-        lagrangian(&relaxed, incumbent, stop, &clock)
-    };
-    let dual = match (passed, lagrange) {
-        (Some(a), Some(b)) => Some(if a.0 >= b.0 { a } else { b }),
-        (a, b) => a.or(b),
-    };
+    let met = |b: f64| incumbent - b <= stop.gap * incumbent;
+    let out_of_time = || clock.elapsed().as_secs_f64() >= stop.time_limit_s;
     let weights_of = |x: &[f64]| -> Vec<Vec<f64>> {
         (0..n)
             .map(|i| {
@@ -1234,28 +1213,6 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
             })
             .collect()
     };
-    if std::env::var_os("HOSTCUT_RELAX_LOG").is_some()
-        && let Some((b, _, evaluations)) = &dual
-    {
-        eprintln!(
-            "dual bound: {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
-            clock.elapsed().as_secs_f64(),
-            (incumbent - b) / incumbent
-        );
-    }
-    if let Some((b, x, evaluations)) = &dual
-        && (incumbent - b <= stop.gap * incumbent
-            || clock.elapsed().as_secs_f64() >= stop.time_limit_s)
-    {
-        return Some(Bound {
-            value: *b,
-            iterations: *evaluations,
-            components: relaxed.components,
-            min_shift: relaxed.min_shift,
-            weights: weights_of(x),
-            seconds: clock.elapsed().as_secs_f64(),
-        });
-    }
     let mut x = vec![0.0; relaxed.opts.len()];
     for i in 0..n {
         let k = relaxed
@@ -1269,44 +1226,90 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
     let (mut r, mut s) = relaxed.moments(&x);
     let mut best = f64::NEG_INFINITY;
     let mut iterations = 0;
-    // HOSTCUT_RELAX_LOG=1 prints the iterates' value and the bound (for developers).
-    let log = std::env::var_os("HOSTCUT_RELAX_LOG").is_some();
-    while iterations < stop.max_iterations {
-        iterations += 1;
-        let f = relaxed.value(&r, &s);
-        let g = relaxed.gradient(&r);
-        let (y, lmo) = relaxed.oracle(&g)?;
-        let gx: f64 = g.iter().zip(&x).map(|(a, b)| a * b).sum();
-        best = best.max(f + lmo - gx);
-        if log && iterations.is_power_of_two() {
+    // Frank–Wolfe until `cap` iterations or `seconds` (from the start), the gap met or no
+    // descent left; resumable. false when the relaxed set is empty.
+    let mut frank_wolfe = |cap: usize, seconds: f64, x: &mut Vec<f64>, best: &mut f64| -> bool {
+        while iterations < cap {
+            iterations += 1;
+            let f = relaxed.value(&r, &s);
+            let g = relaxed.gradient(&r);
+            let Some((y, lmo)) = relaxed.oracle(&g) else {
+                return false;
+            };
+            let gx: f64 = g.iter().zip(x.iter()).map(|(a, b)| a * b).sum();
+            *best = best.max(f + lmo - gx);
+            // HOSTCUT_RELAX_LOG=1 prints the iterates' value and the bound (for developers).
+            if log && iterations.is_power_of_two() {
+                eprintln!(
+                    "relax {iterations:>7} {:>8.2} s  f {f:.9e}  bound {:.9e}  incumbent {incumbent:.9e}  gap(f) {:.3e}  gap(incumbent) {:.3e}",
+                    clock.elapsed().as_secs_f64(),
+                    *best,
+                    (f - *best) / f,
+                    (incumbent - *best) / incumbent
+                );
+            }
+            if met(*best) || clock.elapsed().as_secs_f64() >= seconds {
+                break;
+            }
+            let gy: f64 = g.iter().zip(&y).map(|(a, b)| a * b).sum();
+            let gd = gy - gx;
+            if gd >= -1e-15 * f.abs().max(1e-300) {
+                break;
+            }
+            let d: Vec<f64> = y.iter().zip(x.iter()).map(|(a, b)| a - b).collect();
+            let (dr, ds) = relaxed.moments(&d);
+            let q = relaxed.curvature(&dr);
+            let gamma = if q > 0.0 {
+                (-gd / (2.0 * q)).min(1.0)
+            } else {
+                1.0
+            };
+            x.iter_mut().zip(&d).for_each(|(a, b)| *a += gamma * b);
+            r.iter_mut().zip(&dr).for_each(|(a, b)| *a += gamma * b);
+            s.iter_mut().zip(&ds).for_each(|(a, b)| *a += gamma * b);
+        }
+        true
+    };
+    // A short Frank–Wolfe run first: on densely linked clusters the convex reformulation is
+    // nearly exact and a few iterations prove the gap. Then message passing on the
+    // local-polytope LP (far tighter on sparse graphs), then the Lagrangian of the convex
+    // reformulation; Frank–Wolfe gets whatever time is left.
+    if !frank_wolfe(
+        stop.max_iterations.min(64),
+        0.1 * stop.time_limit_s,
+        &mut x,
+        &mut best,
+    ) {
+        return None;
+    }
+    let mut dual: Option<(f64, Vec<f64>, usize)> = None;
+    if !met(best) && !out_of_time() {
+        dual = message_passing(&relaxed, incumbent, stop, &clock);
+        if log && let Some((b, _, evaluations)) = &dual {
             eprintln!(
-                "relax {iterations:>7} {:>8.2} s  f {f:.9e}  bound {best:.9e}  incumbent {incumbent:.9e}  gap(f) {:.3e}  gap(incumbent) {:.3e}",
+                "message passing: bound {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
                 clock.elapsed().as_secs_f64(),
-                (f - best) / f,
-                (incumbent - best) / incumbent
+                (incumbent - b) / incumbent
             );
         }
-        if incumbent - best <= stop.gap * incumbent
-            || clock.elapsed().as_secs_f64() >= stop.time_limit_s
-        {
-            break;
+    }
+    let dual_met = |d: &Option<(f64, Vec<f64>, usize)>| d.as_ref().is_some_and(|d| met(d.0));
+    if !met(best) && !dual_met(&dual) && !out_of_time() {
+        let lagrange = lagrangian(&relaxed, incumbent, stop, &clock);
+        if log && let Some((b, _, evaluations)) = &lagrange {
+            eprintln!(
+                "lagrangian: bound {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
+                clock.elapsed().as_secs_f64(),
+                (incumbent - b) / incumbent
+            );
         }
-        let gy: f64 = g.iter().zip(&y).map(|(a, b)| a * b).sum();
-        let gd = gy - gx;
-        if gd >= -1e-15 * f.abs().max(1e-300) {
-            break;
-        }
-        let d: Vec<f64> = y.iter().zip(&x).map(|(a, b)| a - b).collect();
-        let (dr, ds) = relaxed.moments(&d);
-        let q = relaxed.curvature(&dr);
-        let gamma = if q > 0.0 {
-            (-gd / (2.0 * q)).min(1.0)
-        } else {
-            1.0
+        dual = match (dual, lagrange) {
+            (Some(a), Some(b)) => Some(if a.0 >= b.0 { a } else { b }),
+            (a, b) => a.or(b),
         };
-        x.iter_mut().zip(&d).for_each(|(a, b)| *a += gamma * b);
-        r.iter_mut().zip(&dr).for_each(|(a, b)| *a += gamma * b);
-        s.iter_mut().zip(&ds).for_each(|(a, b)| *a += gamma * b);
+    }
+    if !met(best) && !dual_met(&dual) && !out_of_time() {
+        frank_wolfe(stop.max_iterations, stop.time_limit_s, &mut x, &mut best);
     }
     let (best, weights) = match dual {
         Some((b, y, _)) if b > best => (b, weights_of(&y)),

@@ -74,6 +74,12 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
         Some(e) => e.chosen.clone(),
         None => {
             progress("optimising");
+            let _spinner = crate::progress::Stage::spinner(&format!(
+                "optimising {} patches (time limit {} s, gap {})",
+                problem.len(),
+                s.solver.time_limit_s,
+                s.solver.gap
+            ));
             optimise::solve(&problem, limits)?
         }
     };

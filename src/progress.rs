@@ -1,0 +1,96 @@
+//! Progress bars on long stages (raster labelling, optimising, budget curves), drawn on
+//! stderr only when it is a terminal and the command is not `--quiet`; pipes, files and CI
+//! logs get the plain stage lines alone.
+
+use std::io::IsTerminal;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::Duration;
+
+use indicatif::{ProgressBar, ProgressStyle};
+
+static ENABLED: AtomicBool = AtomicBool::new(false);
+
+/// Turn bars on for this process when stderr is a terminal, `quiet` is off and
+/// `HOSTCUT_NO_PROGRESS` is unset.
+pub fn init(quiet: bool) {
+    let on = !quiet
+        && std::io::stderr().is_terminal()
+        && std::env::var_os("HOSTCUT_NO_PROGRESS").is_none();
+    ENABLED.store(on, Ordering::Relaxed);
+}
+
+pub fn enabled() -> bool {
+    ENABLED.load(Ordering::Relaxed)
+}
+
+/// A bar or spinner that draws only when enabled; cleared when finished or dropped.
+pub struct Stage(Option<ProgressBar>);
+
+impl Stage {
+    /// A bar over `len` steps of `unit` (e.g. "rows", "budgets").
+    pub fn bar(what: &str, len: u64, unit: &str) -> Stage {
+        if !enabled() {
+            return Stage(None);
+        }
+        let bar = ProgressBar::new(len);
+        let template = format!(
+            "{{msg}} [{{bar:30}}] {{pos}}/{{len}} {unit} ({{elapsed}}, about {{eta}} left)"
+        );
+        if let Ok(style) = ProgressStyle::with_template(&template) {
+            bar.set_style(style.progress_chars("=> "));
+        }
+        bar.set_message(what.to_string());
+        Stage(Some(bar))
+    }
+
+    /// A spinner with the time spent, for a stage without countable steps (a time-limited solve).
+    pub fn spinner(what: &str) -> Stage {
+        if !enabled() {
+            return Stage(None);
+        }
+        let bar = ProgressBar::new_spinner();
+        if let Ok(style) = ProgressStyle::with_template("{spinner} {msg} ({elapsed})") {
+            bar.set_style(style);
+        }
+        bar.set_message(what.to_string());
+        bar.tick();
+        bar.enable_steady_tick(Duration::from_millis(200));
+        Stage(Some(bar))
+    }
+
+    pub fn set(&self, position: u64) {
+        if let Some(b) = &self.0 {
+            b.set_position(position);
+        }
+    }
+
+    pub fn inc(&self, steps: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(steps);
+        }
+    }
+}
+
+impl Drop for Stage {
+    fn drop(&mut self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn stages_are_silent_when_disabled() {
+        init(true);
+        assert!(!enabled());
+        let s = Stage::bar("labelling", 10, "rows");
+        s.set(5);
+        s.inc(1);
+        assert!(s.0.is_none());
+        assert!(Stage::spinner("optimising").0.is_none());
+    }
+}
