@@ -827,108 +827,111 @@ fn lagrangian(
             x[k] = 1.0;
         }
     }
-    let (mut r, _) = relaxed.moments(&x);
-    let mut best = f64::NEG_INFINITY;
-    let mut best_x = x.clone();
-    let mut sweeps_run = 0;
-    let mut kept = f64::NEG_INFINITY;
-    let out_of_time = |clock: &Instant| clock.elapsed().as_secs_f64() >= stop.time_limit_s;
-    let done = |b: f64| incumbent - b <= stop.gap * incumbent;
-    // One evaluation of the dual at prices p: (bound, cost, hours).
-    let mut evaluate =
-        |p: Prices, x: &mut Vec<f64>, r: &mut Vec<f64>, best: &mut f64, best_x: &mut Vec<f64>| {
-            let (lower, cost, hours) = relaxed.descend(x, r, p, &exact, 200, 0.1 * stop.gap);
-            sweeps_run += 1;
-            let bound = lower - p.budget * budget - p.hours * hours_limit.unwrap_or(0.0);
-            *best = best.max(bound);
-            // The relaxed point kept for rounding: the best bound's among those within the rows.
-            let within = cost <= budget * (1.0 + 1e-12)
-                && hours_limit.is_none_or(|h| hours <= h * (1.0 + 1e-12));
-            if within && bound > kept {
-                kept = bound;
-                best_x.clone_from(x);
-            }
-            (cost, hours)
-        };
-    // Scale of the prices: R per unit of cost at the start.
-    let cheapest_unit = problem.model.risk_before() / budget.max(1e-12);
-    let mut prices = Prices {
-        budget: 0.0,
-        hours: 0.0,
+    let (r, _) = relaxed.moments(&x);
+    struct State {
+        x: Vec<f64>,
+        r: Vec<f64>,
+        best: f64,
+        kept: (f64, Vec<f64>),
+        evaluations: usize,
+    }
+    let state = std::cell::RefCell::new(State {
+        kept: (f64::NEG_INFINITY, x.clone()),
+        x,
+        r,
+        best: f64::NEG_INFINITY,
+        evaluations: 0,
+    });
+    // One evaluation of the dual at prices p: (cost, hours) of the relaxed minimiser.
+    let try_at = |p: Prices| -> Option<(f64, f64)> {
+        let mut st = state.borrow_mut();
+        if clock.elapsed().as_secs_f64() >= stop.time_limit_s
+            || incumbent - st.best <= stop.gap * incumbent
+        {
+            return None;
+        }
+        let State { x, r, .. } = &mut *st;
+        let (lower, cost, hours) = relaxed.descend(x, r, p, &exact, 200, 0.1 * stop.gap);
+        st.evaluations += 1;
+        let bound = lower - p.budget * budget - p.hours * hours_limit.unwrap_or(0.0);
+        st.best = st.best.max(bound);
+        // The relaxed point kept for rounding: the best bound's among those within the rows.
+        let within = cost <= budget * (1.0 + 1e-12)
+            && hours_limit.is_none_or(|h| hours <= h * (1.0 + 1e-12));
+        if within && bound > st.kept.0 {
+            st.kept = (bound, st.x.clone());
+        }
+        Some((cost, hours))
     };
-    let rounds = if hours_limit.is_some() { 3 } else { 1 };
-    for _ in 0..rounds {
-        for axis in 0..2 {
-            let (limit, scale) = match axis {
-                0 => (budget, cheapest_unit),
-                _ => match hours_limit {
-                    Some(h) => (h, problem.model.risk_before() / h.max(1e-12)),
-                    None => continue,
-                },
-            };
-            let at = |p: Prices, v: f64| {
-                if axis == 0 {
-                    Prices { budget: v, ..p }
-                } else {
-                    Prices { hours: v, ..p }
-                }
-            };
-            let used = |c: (f64, f64)| if axis == 0 { c.0 } else { c.1 };
-            // Bracket: lo where the row is overrun (or 0), hi where it holds.
-            let (mut lo, mut hi) = (0.0, scale);
-            let u0 = used(evaluate(
-                at(prices, 0.0),
-                &mut x,
-                &mut r,
-                &mut best,
-                &mut best_x,
-            ));
-            if u0 <= limit {
-                prices = at(prices, 0.0);
-                continue;
+    search_prices(budget, hours_limit, problem.model.risk_before(), &try_at);
+    let st = state.into_inner();
+    Some((st.best.min(incumbent).max(0.0), st.kept.1, st.evaluations))
+}
+
+/// Find the prices that maximise a concave dual by bisection on the sign of its slope
+/// (use - limit), the budget's price inside the hours' when crew hours bind. `try_at(p)`
+/// evaluates the dual at p and returns (cost, hours) of its minimiser, or None to stop (out of
+/// time, or the gap met).
+fn search_prices(
+    budget: f64,
+    hours_limit: Option<f64>,
+    risk_before: f64,
+    try_at: &dyn Fn(Prices) -> Option<(f64, f64)>,
+) {
+    // The least price (to a relative tolerance) at which use <= limit.
+    fn bisect(
+        limit: f64,
+        scale: f64,
+        tol: f64,
+        f: &mut dyn FnMut(f64) -> Option<f64>,
+    ) -> Option<f64> {
+        if f(0.0)? <= limit {
+            return Some(0.0);
+        }
+        let (mut lo, mut hi) = (0.0, scale);
+        while f(hi)? > limit {
+            lo = hi;
+            hi *= 4.0;
+            if hi > 1e300 {
+                return None;
             }
-            loop {
-                if out_of_time(clock) || done(best) {
-                    return Some((best.min(incumbent).max(0.0), best_x, sweeps_run));
-                }
-                let u = used(evaluate(
-                    at(prices, hi),
-                    &mut x,
-                    &mut r,
-                    &mut best,
-                    &mut best_x,
-                ));
-                if u <= limit {
-                    break;
-                }
-                lo = hi;
-                hi *= 4.0;
-                if hi > 1e300 {
-                    return Some((best.min(incumbent).max(0.0), best_x, sweeps_run));
-                }
+        }
+        while hi - lo > tol * hi {
+            let mid = 0.5 * (lo + hi);
+            if f(mid)? <= limit {
+                hi = mid;
+            } else {
+                lo = mid;
             }
-            for _ in 0..40 {
-                if out_of_time(clock) || done(best) || hi - lo <= 1e-9 * hi {
-                    break;
-                }
-                let mid = 0.5 * (lo + hi);
-                let u = used(evaluate(
-                    at(prices, mid),
-                    &mut x,
-                    &mut r,
-                    &mut best,
-                    &mut best_x,
-                ));
-                if u <= limit {
-                    hi = mid;
-                } else {
-                    lo = mid;
-                }
-            }
-            prices = at(prices, 0.5 * (lo + hi));
+        }
+        Some(hi)
+    }
+    // Prices start at R per unit of the row's limit.
+    let budget_scale = risk_before / budget.max(1e-12);
+    let budget_price = |hours_price: f64, tol: f64| {
+        bisect(budget, budget_scale, tol, &mut |v| {
+            try_at(Prices {
+                budget: v,
+                hours: hours_price,
+            })
+            .map(|c| c.0)
+        })
+    };
+    match hours_limit {
+        None => {
+            let _ = budget_price(0.0, 1e-6);
+        }
+        Some(h) => {
+            let _ = bisect(h, risk_before / h.max(1e-12), 1e-4, &mut |nu| {
+                let mu = budget_price(nu, 1e-4)?;
+                try_at(Prices {
+                    budget: mu,
+                    hours: nu,
+                })
+                .map(|c| c.1)
+            });
         }
     }
-    Some((best.min(incumbent).max(0.0), best_x, sweeps_run))
 }
 
 /// A second, usually much tighter bound: the local-polytope LP of R as a pairwise energy
@@ -1086,8 +1089,6 @@ fn message_passing(
             }
         }
     };
-    // The dual is concave in the prices; each price is found by bisection on the sign of its
-    // slope (use - limit), the budget's inside the hours' when both bind.
     struct State {
         belief: Vec<f64>,
         delta: Vec<f64>,
@@ -1119,59 +1120,7 @@ fn message_passing(
         *prices = p;
         Some((run.borrow_mut())(p, belief, delta, best))
     };
-    // The least price (to a relative tolerance) at which use <= limit.
-    fn bisect(
-        limit: f64,
-        scale: f64,
-        tol: f64,
-        f: &mut dyn FnMut(f64) -> Option<f64>,
-    ) -> Option<f64> {
-        if f(0.0)? <= limit {
-            return Some(0.0);
-        }
-        let (mut lo, mut hi) = (0.0, scale);
-        while f(hi)? > limit {
-            lo = hi;
-            hi *= 4.0;
-            if hi > 1e300 {
-                return None;
-            }
-        }
-        while hi - lo > tol * hi {
-            let mid = 0.5 * (lo + hi);
-            if f(mid)? <= limit {
-                hi = mid;
-            } else {
-                lo = mid;
-            }
-        }
-        Some(hi)
-    }
-    let budget_scale = model.risk_before() / budget.max(1e-12);
-    let budget_price = |hours_price: f64, tol: f64| {
-        bisect(budget, budget_scale, tol, &mut |v| {
-            try_at(Prices {
-                budget: v,
-                hours: hours_price,
-            })
-            .map(|c| c.0)
-        })
-    };
-    match hours_limit {
-        None => {
-            let _ = budget_price(0.0, 1e-6);
-        }
-        Some(h) => {
-            let _ = bisect(h, model.risk_before() / h.max(1e-12), 1e-4, &mut |nu| {
-                let mu = budget_price(nu, 1e-4)?;
-                try_at(Prices {
-                    budget: mu,
-                    hours: nu,
-                })
-                .map(|c| c.1)
-            });
-        }
-    }
+    search_prices(budget, hours_limit, model.risk_before(), &try_at);
     let best = state.borrow().best;
     let mut x = vec![0.0; relaxed.opts.len()];
     for &k in &kept.1 {

@@ -115,6 +115,19 @@ fn instance(seed: u64) -> Instance {
     }
 }
 
+impl Instance {
+    fn problem(&self) -> Problem<'_> {
+        Problem {
+            model: &self.model,
+            choices: self.choices.clone(),
+            budget: self.budget,
+            crew_hours: self.crew_hours,
+            required: self.required.clone(),
+            excluded: self.excluded.clone(),
+        }
+    }
+}
+
 #[test]
 fn mip_equals_brute_force_on_random_instances() {
     check_against_brute_force(Formulation::Transport);
@@ -136,14 +149,7 @@ fn check_against_brute_force(formulation: Formulation) {
     let mut linked = 0;
     for seed in 0..40 {
         let inst = instance(seed);
-        let problem = Problem {
-            model: &inst.model,
-            choices: inst.choices.clone(),
-            budget: inst.budget,
-            crew_hours: inst.crew_hours,
-            required: inst.required.clone(),
-            excluded: inst.excluded.clone(),
-        };
+        let problem = inst.problem();
         let exact = brute_force(&problem);
         let limits = Limits {
             formulation,
@@ -236,14 +242,7 @@ fn relaxation_bound_never_exceeds_the_brute_force_optimum() {
     let mut closed = 0.0;
     for seed in 0..40 {
         let inst = instance(seed);
-        let problem = Problem {
-            model: &inst.model,
-            choices: inst.choices.clone(),
-            budget: inst.budget,
-            crew_hours: inst.crew_hours,
-            required: inst.required.clone(),
-            excluded: inst.excluded.clone(),
-        };
+        let problem = inst.problem();
         let Some((best_plan, best)) = brute_force(&problem) else {
             continue;
         };
@@ -356,14 +355,7 @@ fn message_passing_bound_is_below_the_local_polytope_lp_and_close_to_it() {
     let (mut compared, mut ratio_sum) = (0, 0.0);
     for seed in 100..140 {
         let inst = instance(seed);
-        let problem = Problem {
-            model: &inst.model,
-            choices: inst.choices.clone(),
-            budget: inst.budget,
-            crew_hours: inst.crew_hours,
-            required: inst.required.clone(),
-            excluded: inst.excluded.clone(),
-        };
+        let problem = inst.problem();
         let Some((_, best)) = brute_force(&problem) else {
             continue;
         };
