@@ -125,7 +125,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         for &(name, seconds, risk) in times.iter().filter(|t| t.0 != "direct") {
             let _ = writeln!(
                 t,
-                "{name} against direct: {:.3}x the time, risk after {:+.3}%",
+                "{name} against direct: {:.2e} x the time, risk after {:+.3}%",
                 seconds / base_s.max(1e-9),
                 100.0 * (risk - base_r) / base_r.max(1e-300)
             );
