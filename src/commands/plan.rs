@@ -331,8 +331,10 @@ fn human_summary(
             );
             let _ = writeln!(
                 t,
-                "connected-host risk index R {:.6} -> {:.6}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
-                summary.risk_before, summary.risk_after, summary.risk_reduction_pct
+                "connected-host risk index R {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
+                small(summary.risk_before),
+                small(summary.risk_after),
+                summary.risk_reduction_pct
             );
             if let (Some(g), Some(gr)) = (summary.greedy_reduction_pct, summary.greedy_risk_after) {
                 let more = if summary.risk_after > 0.0 {
@@ -362,8 +364,17 @@ fn human_summary(
             }
             let _ = writeln!(
                 t,
-                "metapopulation capacity {:.6} -> {:.6}",
-                summary.lambda_before, summary.lambda_after
+                "metapopulation capacity {} -> {}{}",
+                small(summary.lambda_before),
+                small(summary.lambda_after),
+                if summary.lambda_before > 0.0 {
+                    format!(
+                        ": {:.1}% less",
+                        100.0 * (1.0 - summary.lambda_after / summary.lambda_before)
+                    )
+                } else {
+                    String::new()
+                }
             );
             let status = match plan.status {
                 Status::Optimal => "proven optimal".to_string(),
@@ -421,4 +432,14 @@ fn human_summary(
     t.push('\n');
     t.push_str(&cautions::standing_text());
     t
+}
+
+/// A share-squared quantity for the terminal: six decimals, or three significant figures in
+/// scientific notation when that would print only zeros (large landscapes).
+fn small(v: f64) -> String {
+    if v != 0.0 && v.abs() < 1e-3 {
+        format!("{v:.3e}")
+    } else {
+        format!("{v:.6}")
+    }
 }
