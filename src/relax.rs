@@ -1,5 +1,7 @@
-//! A proven lower bound on the least achievable R for problems too large for the exact MIP,
-//! from a convex reformulation of R solved by Frank–Wolfe.
+//! Proven lower bounds on the least achievable R for problems too large for the exact MIP:
+//! message passing on the local-polytope LP (see `message_passing`), and a convex
+//! reformulation of R solved by its Lagrangian dual and by Frank–Wolfe. [`bound`] runs them
+//! in that order of need (a short Frank–Wolfe run first) and keeps the best.
 //!
 //! R = r^T Q r with Q_ii = pi_i a_i^2 and Q_ij = w_ij / 2 >= 0 is not convex in r in general
 //! (the kernel is cut off at epsilon and weighted by pressure), and its plain continuous
