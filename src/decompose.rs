@@ -194,8 +194,8 @@ pub fn frontier(problem: &Problem, members: &[usize]) -> Vec<Point> {
         if !problem.excluded[i] {
             for (o, c) in problem.choices[i].iter().enumerate() {
                 let (nc, nh) = (cost + c.cost, hours + c.hours);
-                let fits = nc <= problem.budget * (1.0 + 1e-12) + 1e-9
-                    && (problem.crew_hours.is_none() || nh <= hours_limit * (1.0 + 1e-12) + 1e-9);
+                let fits = Problem::within(problem.budget, nc)
+                    && (problem.crew_hours.is_none() || Problem::within(hours_limit, nh));
                 if fits {
                     plan[k] = Some(o);
                     walk(

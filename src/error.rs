@@ -97,6 +97,19 @@ impl Error {
     pub fn hint(&self) -> Option<&str> {
         match self {
             Error::Input { hint, .. } => hint.as_deref(),
+            Error::Gdal { action, .. }
+                if [
+                    "create",
+                    "write",
+                    "finish writing",
+                    "set nodata of",
+                    "georeference",
+                ]
+                .iter()
+                .any(|a| action.starts_with(a)) =>
+            {
+                Some("check that the folder exists, is writable and has space left")
+            }
             Error::Gdal { .. } => {
                 Some("check that the file exists, is readable and is a format GDAL can open")
             }

@@ -128,7 +128,8 @@ impl Problem<'_> {
             .sum()
     }
 
-    fn within(limit: f64, used: f64) -> bool {
+    /// `used` fits `limit`, to the optimiser's feasibility tolerance.
+    pub(crate) fn within(limit: f64, used: f64) -> bool {
         used <= limit + FEASIBILITY * limit.abs().max(1.0)
     }
 

@@ -185,6 +185,25 @@ impl RasterPainter {
 /// painted and written 256 rows at a time.
 pub fn write_raster(path: &std::path::Path, spec: RasterSpec) -> crate::error::Result<()> {
     use crate::error::Error;
+    // Written beside the target and renamed when complete, so a failed or interrupted run
+    // never leaves a partial raster that a later run would reuse.
+    let mut partial = path.as_os_str().to_owned();
+    partial.push(".partial");
+    let partial = std::path::PathBuf::from(partial);
+    let written = write_raster_to(&partial, path, spec);
+    if written.is_err() {
+        let _ = std::fs::remove_file(&partial);
+        return written;
+    }
+    std::fs::rename(&partial, path).map_err(|e| Error::io("rename into place", path, e))
+}
+
+fn write_raster_to(
+    partial: &std::path::Path,
+    path: &std::path::Path,
+    spec: RasterSpec,
+) -> crate::error::Result<()> {
+    use crate::error::Error;
     use gdal::DriverManager;
     let fail = |e| Error::gdal("write", path, e);
     let driver = DriverManager::get_driver_by_name("GTiff").map_err(fail)?;
@@ -195,7 +214,7 @@ pub fn write_raster(path: &std::path::Path, spec: RasterSpec) -> crate::error::R
         "BIGTIFF=IF_SAFER",
     ]);
     let mut ds = driver
-        .create_with_band_type_with_options::<f32, _>(path, spec.width, spec.height, 1, &options)
+        .create_with_band_type_with_options::<f32, _>(partial, spec.width, spec.height, 1, &options)
         .map_err(fail)?;
     ds.set_geo_transform(&[400_000.0, spec.cell_m, 0.0, 4_600_000.0, 0.0, -spec.cell_m])
         .map_err(fail)?;
