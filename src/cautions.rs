@@ -26,7 +26,7 @@ pub const ALL: &[Caution] = &[
     },
     Caution {
         code: "WATER",
-        text: "Water and sensitive sites: keep the label's buffers from streams, ponds, wells and wetlands, or use a product labelled for aquatic sites; some basal-bark formulations are not registered near water.",
+        text: "Water and sensitive sites: keep the label's buffers from streams, ponds, wells and wetlands, or use a product labelled for aquatic sites; some basal-bark formulations are not registered near water. On a plan row, WATER marks a site within the buffer of a water feature of the water layer.",
     },
     Caution {
         code: "DRIFT",
@@ -55,6 +55,14 @@ pub const ALL: &[Caution] = &[
     Caution {
         code: "PERMISSION",
         text: "Landowner permission is needed before entering or treating this site; contact the listed owner or manager first.",
+    },
+    Caution {
+        code: "NO_HERBICIDE",
+        text: "NO HERBICIDE ON THIS SITE: the site's rules forbid herbicide; use only the mechanical method planned, and bring no herbicide onto the site.",
+    },
+    Caution {
+        code: "WATER_UNCHECKED",
+        text: "No water layer was given, so this site was not checked for nearby water: look for streams, ponds, wells and wetlands before herbicide work and keep the label's buffers.",
     },
 ];
 
@@ -99,4 +107,13 @@ pub fn standing_text() -> String {
         out.push_str(&format!("[{}] {}\n", c.code, c.text));
     }
     out
+}
+
+/// The line on whether sites were checked for water, for cautions.txt and the reports.
+pub fn site_check_text(water_checked: bool) -> &'static str {
+    if water_checked {
+        "Water: sites were checked against the water layer(s) given; plan rows within a water buffer carry WATER and get only methods allowed near water. The label's own buffer governs where it is wider."
+    } else {
+        "Water: NO WATER LAYER WAS GIVEN, so no site was checked for nearby water; herbicide rows carry WATER_UNCHECKED. Give `--water streams.gpkg` (streams, ponds, wells, wetlands) to check them."
+    }
 }

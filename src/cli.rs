@@ -80,9 +80,15 @@ pub struct PlanArgs {
     /// Host layer: a raster (band 1 = tree-of-heaven stems per hectare) or polygons with a stems attribute
     #[arg(long, value_name = "RASTER|VECTOR", conflicts_with = "inventory")]
     pub host: Option<PathBuf>,
-    /// Name of the stems attribute of host polygons
+    /// Layer to read in a multi-layer host file (e.g. a GeoPackage)
+    #[arg(long, value_name = "NAME")]
+    pub host_layer: Option<String>,
+    /// Name of the stems attribute of host polygons (matched ignoring case)
     #[arg(long, value_name = "FIELD")]
     pub stems_field: Option<String>,
+    /// Name of the id attribute of host polygons [default: P0001, P0002... in layer order]
+    #[arg(long, value_name = "FIELD")]
+    pub id_field: Option<String>,
     /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha,suitability]
     #[arg(long, value_name = "CSV")]
     pub inventory: Option<PathBuf>,
@@ -111,6 +117,27 @@ pub struct PlanArgs {
     /// Access polygons (e.g. parcels) with access, herbicide, cost_factor and contact fields
     #[arg(long, value_name = "VECTOR")]
     pub access: Option<PathBuf>,
+    /// Layer to read in a multi-layer `--access` file
+    #[arg(long, value_name = "NAME")]
+    pub access_layer: Option<String>,
+    /// Field of `--access` with the parcel id [default: parcel_id]; `none` if it has none
+    #[arg(long, value_name = "FIELD")]
+    pub parcel_field: Option<String>,
+    /// Field of `--access` with open / permission / denied [default: access]; `none` if the
+    /// layer holds no access rules
+    #[arg(long, value_name = "FIELD")]
+    pub access_field: Option<String>,
+    /// Field of `--access` with allowed / restricted / prohibited [default: herbicide]; `none`
+    /// if the layer holds no herbicide rules
+    #[arg(long, value_name = "FIELD")]
+    pub herbicide_field: Option<String>,
+    /// Field of `--access` with the cost factor [default: cost_factor]; `none` if it has none
+    #[arg(long, value_name = "FIELD")]
+    pub cost_factor_field: Option<String>,
+    /// Field of `--access` with the landowner or manager contact [default: contact]; `none` if
+    /// it has none
+    #[arg(long, value_name = "FIELD")]
+    pub contact_field: Option<String>,
     /// Transport corridor lines (rail, highway); repeat for several
     #[arg(long, value_name = "VECTOR")]
     pub corridor: Vec<PathBuf>,
@@ -120,9 +147,37 @@ pub struct PlanArgs {
     /// Buffer in metres of each `--corridor`, in order (one value applies to all)
     #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
     pub corridor_buffer_m: Vec<f64>,
+    /// Layer of each multi-layer `--corridor` file, in order (one value applies to all)
+    #[arg(long, value_name = "NAME")]
+    pub corridor_layer: Vec<String>,
     /// Known lanternfly detections (points)
     #[arg(long, value_name = "VECTOR")]
     pub detections: Option<PathBuf>,
+    /// Layer to read in a multi-layer `--detections` file
+    #[arg(long, value_name = "NAME")]
+    pub detections_layer: Option<String>,
+    /// Water features: streams, ponds, wells, wetlands (points, lines or polygons); repeat for
+    /// several. Patches within the buffer get only methods the catalogue allows near water
+    #[arg(long, value_name = "VECTOR")]
+    pub water: Vec<PathBuf>,
+    /// Buffer in metres of each `--water` layer, in order (one value applies to all) [default:
+    /// 15, common practice; the product label governs]
+    #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
+    pub water_buffer_m: Vec<f64>,
+    /// Layer of each multi-layer `--water` file, in order (one value applies to all)
+    #[arg(long, value_name = "NAME")]
+    pub water_layer: Vec<String>,
+    /// Sensitive sites: schools, water supplies, protected habitats (points, lines or
+    /// polygons); repeat for several. Patches within the buffer are restricted sites
+    #[arg(long, value_name = "VECTOR")]
+    pub sensitive: Vec<PathBuf>,
+    /// Buffer in metres of each `--sensitive` layer, in order (one value applies to all)
+    /// [default: 30, common practice; local rules govern]
+    #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
+    pub sensitive_buffer_m: Vec<f64>,
+    /// Layer of each multi-layer `--sensitive` file, in order (one value applies to all)
+    #[arg(long, value_name = "NAME")]
+    pub sensitive_layer: Vec<String>,
     /// Weight gamma of detections in the introduction pressure
     #[arg(long, allow_negative_numbers = true, value_name = "GAMMA")]
     pub detection_weight: Option<f64>,
@@ -478,7 +533,10 @@ pub struct DemoArgs {
 
 #[derive(Debug, Clone, Args)]
 pub struct MakeDemoArgs {
-    /// Folder to write the demo inputs into
+    /// Folder to write the demo inputs into (new or empty)
     #[arg(value_name = "DIR")]
     pub dir: PathBuf,
+    /// Replace an earlier `make-demo-inputs` folder
+    #[arg(long)]
+    pub force: bool,
 }

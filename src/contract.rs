@@ -39,6 +39,33 @@ pub struct PlannedPatch {
     pub contact: String,
     #[serde(default)]
     pub cautions: String,
+    /// The site's rules in words (no herbicide, restricted conditions, water nearby).
+    #[serde(default)]
+    pub site_notes: String,
+}
+
+impl PlannedPatch {
+    /// Whether the site forbids herbicide.
+    pub fn no_herbicide(&self) -> bool {
+        self.herbicide == "prohibited"
+    }
+
+    /// The restricted-site conditions from `site_notes`, if the site is restricted.
+    pub fn restriction(&self) -> Option<&str> {
+        (self.herbicide == "restricted").then(|| {
+            self.site_notes
+                .split("; ")
+                .find(|n| n.starts_with("restricted site"))
+                .unwrap_or("restricted site: herbicide only under the site's conditions; confirm them with the site manager")
+        })
+    }
+
+    /// The water note from `site_notes` (e.g. `near water: Mill Creek (12 m)`), if any.
+    pub fn near_water(&self) -> Option<&str> {
+        self.site_notes
+            .split("; ")
+            .find(|n| n.starts_with("near water"))
+    }
 }
 
 /// One patch as patches.csv records it.

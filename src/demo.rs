@@ -257,18 +257,6 @@ gap = 0.0001
 pub fn write_inputs(dir: &Path) -> Result<()> {
     std::fs::create_dir_all(dir).map_err(|e| Error::io("create", dir, e))?;
     let crs = Crs::parse("EPSG:32618", "demo CRS")?;
-    for name in [
-        "host.tif",
-        "parcels.gpkg",
-        "rail.gpkg",
-        "highway.gpkg",
-        "detections.gpkg",
-    ] {
-        let p = dir.join(name);
-        if p.exists() {
-            std::fs::remove_file(&p).map_err(|e| Error::io("replace", &p, e))?;
-        }
-    }
     let transform = [X0, CELL, 0.0, Y0 + HEIGHT as f64 * CELL, 0.0, -CELL];
     gis::write_geotiff(
         &dir.join("host.tif"),

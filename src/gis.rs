@@ -265,6 +265,17 @@ impl RasterFile {
 
     /// As [`RasterFile::read_rows`], from an already open dataset.
     pub fn read_rows_from(&self, dataset: &Dataset, row0: usize, rows: usize) -> Result<Vec<f32>> {
+        Ok(self.read_rows_counted(dataset, row0, rows)?.0)
+    }
+
+    /// As [`RasterFile::read_rows_from`], also counting the cells that are not nodata but hold
+    /// no finite number (NaN or infinity), which are skipped like nodata.
+    pub fn read_rows_counted(
+        &self,
+        dataset: &Dataset,
+        row0: usize,
+        rows: usize,
+    ) -> Result<(Vec<f32>, usize)> {
         let band = dataset
             .rasterband(1)
             .map_err(|e| Error::gdal("read band 1 of", &self.path, e))?;
@@ -274,15 +285,19 @@ impl RasterFile {
             .map_err(|e| Error::gdal("read band 1 of", &self.path, e))?;
         let (_, mut values) = buffer.into_shape_and_vec();
         let nodata = self.nodata;
+        let mut non_finite = 0;
         for v in values.iter_mut() {
             let nd = nodata.is_some_and(|nd| {
                 f64::from(*v) == nd || (nd as f32) == *v || (nd.is_nan() && v.is_nan())
             });
-            if nd || !v.is_finite() {
+            if nd {
+                *v = f32::NAN;
+            } else if !v.is_finite() {
+                non_finite += 1;
                 *v = f32::NAN;
             }
         }
-        Ok(values)
+        Ok((values, non_finite))
     }
 
     /// Open the file once for a sequence of reads.
@@ -419,9 +434,15 @@ pub struct VectorFeature {
 #[derive(Debug, Clone)]
 pub struct VectorLayer {
     pub path: PathBuf,
+    /// The layer read (recorded in `scenario.resolved.toml`).
     pub layer_name: String,
+    /// How many layers the file has.
+    pub layer_count: usize,
     pub field_names: Vec<String>,
     pub features: Vec<VectorFeature>,
+    /// Features skipped because they have no geometry (null or empty), counted for the
+    /// summary: nothing is dropped without a word.
+    pub without_geometry: usize,
 }
 
 impl VectorLayer {
@@ -442,52 +463,155 @@ impl VectorLayer {
         out
     }
 
-    /// Error unless `field` exists in the layer.
-    pub fn require_field(&self, field: &str, what: &str) -> Result<()> {
-        if self.field_names.iter().any(|f| f == field) {
-            return Ok(());
+    /// The layer's own name for the field a user calls `wanted`: the same name, the same name
+    /// in another case (county exports are often upper case), or — for a Shapefile, whose
+    /// field names are cut to 10 characters — its first 10 characters in any case.
+    pub fn field(&self, wanted: &str) -> Option<&str> {
+        let wanted = wanted.trim();
+        if let Some(f) = self.field_names.iter().find(|f| *f == wanted) {
+            return Some(f);
+        }
+        if let Some(f) = self
+            .field_names
+            .iter()
+            .find(|f| f.eq_ignore_ascii_case(wanted))
+        {
+            return Some(f);
+        }
+        let cut: String = wanted.chars().take(10).collect();
+        if cut.len() < wanted.len() {
+            return self
+                .field_names
+                .iter()
+                .find(|f| f.eq_ignore_ascii_case(&cut))
+                .map(String::as_str);
+        }
+        None
+    }
+
+    /// The layer's name for `field` (see [`VectorLayer::field`]), or an input error listing the
+    /// fields it has; `flag` is the setting that names the field.
+    pub fn require_field(&self, field: &str, what: &str, flag: &str) -> Result<String> {
+        if let Some(f) = self.field(field) {
+            return Ok(f.to_string());
         }
         Err(Error::input_with_hint(
             format!(
-                "{what} `{}` has no field `{field}` (fields: {})",
+                "{what} `{}`{} has no field `{field}` (fields: {})",
                 self.path.display(),
-                self.field_names.join(", ")
+                self.layer_note(),
+                if self.field_names.is_empty() {
+                    "none".to_string()
+                } else {
+                    self.field_names.join(", ")
+                }
             ),
-            "name the right field in the scenario file or rename the field in the layer",
+            format!("name the right field with `{flag}` (or in the scenario), or rename the field in the layer"),
         ))
+    }
+
+    /// ", layer `NAME`" for messages about a file with several layers.
+    fn layer_note(&self) -> String {
+        if self.layer_count > 1 {
+            format!(", layer `{}`", self.layer_name)
+        } else {
+            String::new()
+        }
     }
 }
 
-/// Read the first (or the named) layer of a vector file, reprojected into `target`.
+/// Pick the layer of a vector file: the named one, the only one, or the only one with
+/// geometry; a file with several candidate layers and no name is refused, listing them, so a
+/// GeoPackage is never silently read from whichever layer comes first. `flag` is the setting
+/// that names the layer.
+fn pick_layer<'a>(
+    dataset: &'a Dataset,
+    path: &Path,
+    layer_name: Option<&str>,
+    what: &str,
+    flag: &str,
+) -> Result<gdal::vector::Layer<'a>> {
+    let names: Vec<String> = dataset.layers().map(|l| l.name()).collect();
+    if let Some(name) = layer_name {
+        return dataset.layer_by_name(name).map_err(|_| {
+            Error::input_with_hint(
+                format!(
+                    "{what} `{}` has no layer `{name}` (layers: {})",
+                    path.display(),
+                    names.join(", ")
+                ),
+                format!("name one of its layers with `{flag}`"),
+            )
+        });
+    }
+    if names.is_empty() {
+        return Err(Error::input(format!(
+            "{what} `{}` has no vector layer",
+            path.display()
+        )));
+    }
+    if names.len() == 1 {
+        return dataset
+            .layer(0)
+            .map_err(|e| Error::gdal("read the first layer of", path, e));
+    }
+    let spatial: Vec<usize> = dataset
+        .layers()
+        .enumerate()
+        .filter(|(_, l)| {
+            l.defn()
+                .geom_fields()
+                .next()
+                .is_some()
+        })
+        .map(|(k, _)| k)
+        .collect();
+    if spatial.len() == 1 {
+        return dataset
+            .layer(spatial[0])
+            .map_err(|e| Error::gdal("read a layer of", path, e));
+    }
+    Err(Error::input_with_hint(
+        format!(
+            "{what} `{}` has {} layers ({}); which one should be read?",
+            path.display(),
+            names.len(),
+            names.join(", ")
+        ),
+        format!("name the layer with `{flag}` (or `layer = \"...\"` in the scenario)"),
+    ))
+}
+
+/// The working CRS of a vector layer (the named one, or the only one): its own, which must be
+/// projected in metres, or `assume` when it has none.
+pub fn vector_crs(
+    path: &Path,
+    layer_name: Option<&str>,
+    assume: Option<&Crs>,
+    what: &str,
+    layer_flag: &str,
+) -> Result<Crs> {
+    let dataset = open(path)?;
+    let layer = pick_layer(&dataset, path, layer_name, what, layer_flag)?;
+    match layer.spatial_ref() {
+        Some(srs) => Crs::from_srs(&srs, &format!("{what} `{}`", path.display())),
+        None => assume.cloned().ok_or_else(|| missing_crs(path)),
+    }
+}
+
+/// Read the named layer of a vector file (or its only layer), reprojected into `target`.
+/// `layer_flag` is the setting that names the layer, for messages.
 pub fn read_vector(
     path: &Path,
     layer_name: Option<&str>,
     target: &Crs,
     assume_crs: Option<&Crs>,
     what: &str,
+    layer_flag: &str,
 ) -> Result<VectorLayer> {
     let dataset = open(path)?;
-    let mut layer = match layer_name {
-        Some(name) => dataset.layer_by_name(name).map_err(|_| {
-            let names: Vec<String> = dataset.layers().map(|l| l.name()).collect();
-            Error::input(format!(
-                "{what} `{}` has no layer `{name}` (layers: {})",
-                path.display(),
-                names.join(", ")
-            ))
-        })?,
-        None => {
-            if dataset.layer_count() == 0 {
-                return Err(Error::input(format!(
-                    "{what} `{}` has no vector layer",
-                    path.display()
-                )));
-            }
-            dataset
-                .layer(0)
-                .map_err(|e| Error::gdal("read the first layer of", path, e))?
-        }
-    };
+    let layer_count = dataset.layer_count();
+    let mut layer = pick_layer(&dataset, path, layer_name, what, layer_flag)?;
     let source_srs = match layer.spatial_ref() {
         Some(srs) => traditional(srs),
         None => match assume_crs {
@@ -501,12 +625,15 @@ pub fn read_vector(
     let field_names: Vec<String> = layer.defn().fields().map(|f| f.name()).collect();
     let name = layer.name();
     let mut features = Vec::new();
+    let mut without_geometry = 0;
     for (index, feature) in layer.features().enumerate() {
         let number = index + 1;
         let Some(geometry) = feature.geometry() else {
+            without_geometry += 1;
             continue;
         };
         if geometry.is_empty() {
+            without_geometry += 1;
             continue;
         }
         let mut geometry = geometry.clone();
@@ -571,8 +698,10 @@ pub fn read_vector(
     Ok(VectorLayer {
         path: path.to_path_buf(),
         layer_name: name,
+        layer_count,
         field_names,
         features,
+        without_geometry,
     })
 }
 
@@ -636,6 +765,29 @@ impl ToLonLat {
             .transform_coords(&mut xs, &mut ys, &mut [])
             .map_err(|e| Error::Internal(format!("reprojection to WGS 84: {e}")))?;
         Ok(xs.into_iter().zip(ys).collect())
+    }
+
+    /// The index of the first point that cannot be converted (outside the CRS's domain, or not
+    /// finite), or Ok when all can.
+    pub fn check(&self, points: &[(f64, f64)]) -> std::result::Result<(), usize> {
+        if let Some(k) = points
+            .iter()
+            .position(|p| !(p.0.is_finite() && p.1.is_finite()))
+        {
+            return Err(k);
+        }
+        let ok = |chunk: &[(f64, f64)]| {
+            self.points(chunk)
+                .is_ok_and(|v| v.iter().all(|p| p.0.is_finite() && p.1.is_finite()))
+        };
+        if ok(points) {
+            return Ok(());
+        }
+        // Find the culprit point by point (only on failure).
+        match points.iter().position(|p| !ok(std::slice::from_ref(p))) {
+            Some(k) => Err(k),
+            None => Ok(()),
+        }
     }
 
     /// A geometry reprojected to WGS 84.

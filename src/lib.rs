@@ -83,8 +83,10 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
         Command::Bench(args) => commands::bench::run(&args),
         Command::MakeDemoInputs(args) => {
-            demo::write_inputs(&args.dir)?;
-            Ok(format!("demo inputs written to {}\n", args.dir.display()))
+            let staging = output::Staging::new(&args.dir, args.force, "make-demo-inputs")?;
+            demo::write_inputs(staging.dir())?;
+            let dir = staging.commit()?;
+            Ok(format!("demo inputs written to {}\n", dir.display()))
         }
     }
 }

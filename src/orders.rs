@@ -425,7 +425,11 @@ pub fn fell_after(date: Date) -> Date {
 pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Instructions {
     let p = &folder.planned[stop.row];
     let method = folder.method(&p.method).expect("checked on read");
-    let mut text = vec![method.label.clone()];
+    let mut text = Vec::new();
+    if p.no_herbicide() {
+        text.push("NO HERBICIDE ON THIS SITE.".to_string());
+    }
+    text.push(method.label.clone());
     if stop.parts > 1 {
         text.push(format!(
             "Part {} of {}: about {:.0} of the patch's {:.0} stems today.",
@@ -434,12 +438,27 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
     }
     if method.herbicide {
         text.push("Apply per the product label.".into());
-        if contract::site_class(p, method) == "restricted site" {
-            text.push("Restricted site: confirm the site's extra conditions with its manager before any herbicide work.".into());
+        if let Some(r) = p.restriction() {
+            text.push(format!(
+                "Restricted site ({}): confirm the site's conditions with its manager before any herbicide work.",
+                r.trim_start_matches("restricted site: ")
+            ));
         }
-        if p.cautions.split(';').any(|c| c == "WATER") {
-            text.push("Keep the label's buffer from water.".into());
-        }
+    }
+    if let Some(w) = p.near_water() {
+        text.push(format!(
+            "Near water ({}): {}keep the label's buffer from the water.",
+            w.trim_start_matches("near water: "),
+            if method.herbicide {
+                "use only a product labelled for aquatic sites; "
+            } else {
+                ""
+            }
+        ));
+    } else if method.herbicide && p.cautions.split(';').any(|c| c == "WATER_UNCHECKED") {
+        text.push("Water not checked: look for streams, ponds, wells and wetlands and keep the label's buffer.".into());
+    } else if p.cautions.split(';').any(|c| c == "WATER") {
+        text.push("Keep the label's buffer from water.".into());
     }
     if p.access == "permission" {
         text.push(format!(

@@ -14,69 +14,247 @@ use crate::patches::Patches;
 use crate::plan::Plan;
 use crate::treatments::Catalogue;
 
-/// A staging folder that becomes `--out` on [`Staging::commit`] and is removed otherwise.
+/// The marker file in every folder hostcut writes. `--force` replaces only a folder that holds
+/// it, and only with a run of the same command, so no user's own folder is ever emptied.
+pub const MARKER: &str = ".hostcut-folder";
+
+/// Test hook (tests/safety.rs): `HOSTCUT_TEST_HOOK=kill:STEP` makes the process kill itself
+/// with SIGKILL at that step of [`Staging::commit`] (`staged`, `swapped`, `moved-old`), and
+/// `no-exchange` forces the two-rename fallback used where the file system cannot swap folders.
+const TEST_HOOK: &str = "HOSTCUT_TEST_HOOK";
+
+fn test_hook_is(value: &str) -> bool {
+    std::env::var(TEST_HOOK).is_ok_and(|v| v == value)
+}
+
+fn checkpoint(step: &str) {
+    if test_hook_is(&format!("kill:{step}")) {
+        let _ = rustix::process::kill_process(rustix::process::getpid(), rustix::process::Signal::KILL);
+        // SIGKILL cannot be caught; the process ends here.
+        std::thread::sleep(std::time::Duration::from_secs(60));
+    }
+}
+
+/// The command a hostcut output folder was written by, from its marker; `None` when the folder
+/// has no marker (it is not one of ours).
+pub fn written_by(folder: &Path) -> Option<String> {
+    let text = std::fs::read_to_string(folder.join(MARKER)).ok()?;
+    text.lines()
+        .find_map(|l| l.strip_prefix("command = "))
+        .map(|c| c.trim().trim_matches('"').to_string())
+}
+
+fn marker_text(command: &str) -> String {
+    format!(
+        "# Written by hostcut {}: `hostcut {command} --force` may replace this folder with a new run.\ncommand = \"{command}\"\n",
+        env!("CARGO_PKG_VERSION")
+    )
+}
+
+/// An exclusive lock on writing one output folder, held for the whole run: a second run into
+/// the same `--out` is refused instead of mixing two runs' files. The lock is an advisory
+/// `flock` on `.NAME.hostcut-lock` beside the folder, released by the kernel if the process
+/// dies, and the file is removed when the run ends.
+struct OutputLock {
+    path: PathBuf,
+    file: std::fs::File,
+}
+
+impl OutputLock {
+    fn acquire(path: PathBuf, out: &Path) -> Result<OutputLock> {
+        use rustix::fs::{FlockOperation, flock};
+        use std::os::unix::fs::MetadataExt;
+        loop {
+            let file = std::fs::OpenOptions::new()
+                .create(true)
+                .truncate(false)
+                .write(true)
+                .open(&path)
+                .map_err(|e| Error::io("create the lock file", &path, e))?;
+            if flock(&file, FlockOperation::NonBlockingLockExclusive).is_err() {
+                return Err(Error::input_with_hint(
+                    format!(
+                        "another hostcut run is writing `{}` right now",
+                        out.display()
+                    ),
+                    "wait for it to finish, or give this run another `--out`",
+                ));
+            }
+            // The file may have been removed (by the run that held it) between our open and our
+            // lock: then we hold a lock nobody else can see, so take the lock again.
+            let held = file.metadata().map(|m| (m.dev(), m.ino()));
+            let now = std::fs::metadata(&path).map(|m| (m.dev(), m.ino()));
+            match (held, now) {
+                (Ok(a), Ok(b)) if a == b => return Ok(OutputLock { path, file }),
+                _ => continue,
+            }
+        }
+    }
+}
+
+impl Drop for OutputLock {
+    fn drop(&mut self) {
+        // Remove the file while still holding the lock; a run waiting on the old file sees it
+        // gone and locks a new one.
+        let _ = std::fs::remove_file(&self.path);
+        let _ = &self.file;
+    }
+}
+
+/// A staging folder beside `--out` that becomes `--out` on [`Staging::commit`] and is removed
+/// otherwise.
+///
+/// Commit swaps whole folders: a new `--out` is a rename; replacing an earlier run (`--force`)
+/// exchanges the two folders in one atomic rename (Linux `renameat2(RENAME_EXCHANGE)`), then
+/// removes the old one. A reader — or a run killed at any moment — sees either the old folder
+/// whole or the new one whole, never a mix, and files of the earlier run never survive into the
+/// new one. `--force` replaces only a folder that holds hostcut's marker written by the same
+/// command; anything else is refused.
 pub struct Staging {
     out: PathBuf,
     dir: PathBuf,
-    force: bool,
+    command: &'static str,
     done: bool,
+    _lock: OutputLock,
+}
+
+fn is_empty_dir(path: &Path) -> Result<bool> {
+    Ok(std::fs::read_dir(path)
+        .map_err(|e| Error::io("read", path, e))?
+        .next()
+        .is_none())
+}
+
+/// Whether process `pid` is still running.
+fn alive(pid: u32) -> bool {
+    Path::new(&format!("/proc/{pid}")).exists()
+}
+
+/// The absolute path of `out`, with `.` and `..` resolved through the parent folder.
+fn absolute_out(out: &Path) -> Result<PathBuf> {
+    let abs = std::path::absolute(out).map_err(|e| Error::io("resolve", out, e))?;
+    if let Ok(real) = abs.canonicalize() {
+        return Ok(real);
+    }
+    // It does not exist yet: resolve its parent (which may not exist either).
+    let name = abs.file_name().map(|n| n.to_os_string());
+    match (abs.parent(), name) {
+        (Some(parent), Some(name)) => match parent.canonicalize() {
+            Ok(p) => Ok(p.join(name)),
+            Err(_) => Ok(abs),
+        },
+        _ => Ok(abs),
+    }
 }
 
 impl Staging {
-    /// Check `out` can be written (new, empty, or `force`) and make the staging folder.
-    pub fn new(out: &Path, force: bool) -> Result<Staging> {
-        if out.exists() {
-            if !out.is_dir() {
-                return Err(Error::input_with_hint(
-                    format!("`{}` exists and is not a folder", out.display()),
-                    "give `--out` a new folder name",
-                ));
-            }
-            let non_empty = std::fs::read_dir(out)
-                .map_err(|e| Error::io("read", out, e))?
-                .next()
-                .is_some();
-            if non_empty && !force {
-                return Err(Error::input_with_hint(
-                    format!("output folder `{}` is not empty", out.display()),
-                    "give a new folder, or add `--force` to replace its outputs",
-                ));
-            }
-        }
-        let parent = out
-            .parent()
-            .filter(|p| !p.as_os_str().is_empty())
-            .unwrap_or(Path::new("."));
+    /// Check that `out` may be written by `command` (new, empty, or with `force` a folder this
+    /// tool wrote for the same command), lock it against a concurrent run, and make the staging
+    /// folder with the marker.
+    pub fn new(out: &Path, force: bool, command: &'static str) -> Result<Staging> {
+        let out = absolute_out(out)?;
+        let (Some(parent), Some(name)) = (out.parent(), out.file_name()) else {
+            return Err(Error::input_with_hint(
+                format!("`{}` cannot be an output folder", out.display()),
+                "give `--out` a folder name, e.g. `--out run1`",
+            ));
+        };
+        let name = name.to_string_lossy().into_owned();
         std::fs::create_dir_all(parent).map_err(|e| Error::io("create", parent, e))?;
-        let name = out
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .unwrap_or_else(|| "out".into());
-        // Staging folders left by runs that were killed (their process is gone) are removed.
-        let prefix = format!(".{name}.partial-");
+        let lock = OutputLock::acquire(parent.join(format!(".{name}.hostcut-lock")), &out)?;
+        let partial = format!(".{name}.partial-");
+        let old = format!(".{name}.old-");
+        // Folders left by runs that were killed (their process is gone): a staging folder is
+        // removed; an old folder moved aside by the two-rename fallback is put back if the new
+        // one never arrived. Both are ours: they hold the marker.
         if let Ok(entries) = std::fs::read_dir(parent) {
             for entry in entries.flatten() {
                 let file_name = entry.file_name().to_string_lossy().into_owned();
-                if let Some(pid) = file_name
-                    .strip_prefix(&prefix)
-                    .and_then(|p| p.parse::<u32>().ok())
-                    && !Path::new(&format!("/proc/{pid}")).exists()
-                {
+                let dead = |prefix: &str| {
+                    file_name
+                        .strip_prefix(prefix)
+                        .and_then(|p| p.parse::<u32>().ok())
+                        .is_some_and(|pid| !alive(pid))
+                };
+                if !entry.path().join(MARKER).is_file() {
+                    continue;
+                }
+                if dead(&partial) {
                     let _ = std::fs::remove_dir_all(entry.path());
+                } else if dead(&old) {
+                    if out.exists() {
+                        let _ = std::fs::remove_dir_all(entry.path());
+                    } else {
+                        let _ = std::fs::rename(entry.path(), &out);
+                    }
                 }
             }
         }
-        let dir = parent.join(format!("{prefix}{}", std::process::id()));
+        Self::check_target(&out, force, command)?;
+        let dir = parent.join(format!("{partial}{}", std::process::id()));
         if dir.exists() {
             let _ = std::fs::remove_dir_all(&dir);
         }
         std::fs::create_dir_all(&dir).map_err(|e| Error::io("create", &dir, e))?;
-        Ok(Staging {
-            out: out.to_path_buf(),
+        let staging = Staging {
+            out,
             dir,
-            force,
+            command,
             done: false,
-        })
+            _lock: lock,
+        };
+        staging.write(MARKER, marker_text(command))?;
+        Ok(staging)
+    }
+
+    /// Refuse a target that is not a folder, a non-empty folder without `force`, and with
+    /// `force` a folder that is not hostcut's output of the same command.
+    fn check_target(out: &Path, force: bool, command: &str) -> Result<()> {
+        if !out.exists() {
+            return Ok(());
+        }
+        if !out.is_dir() {
+            return Err(Error::input_with_hint(
+                format!("`{}` exists and is not a folder", out.display()),
+                "give `--out` a new folder name",
+            ));
+        }
+        if is_empty_dir(out)? {
+            return Ok(());
+        }
+        if !force {
+            return Err(Error::input_with_hint(
+                format!("output folder `{}` is not empty", out.display()),
+                "give a new folder, or add `--force` to replace an earlier run of this command there",
+            ));
+        }
+        match written_by(out) {
+            Some(c) if c == command => Ok(()),
+            Some(c) => Err(Error::input_with_hint(
+                format!(
+                    "`{}` holds the output of `hostcut {c}`; `--force` replaces only an earlier `hostcut {command}` run",
+                    out.display()
+                ),
+                "give this run its own folder",
+            )),
+            None => Err(Error::input_with_hint(
+                format!(
+                    "`{}` was not written by hostcut (it has no {MARKER} marker), so `--force` will not replace it",
+                    out.display()
+                ),
+                "give a new folder: hostcut never deletes a folder it did not write",
+            )),
+        }
+    }
+
+    /// The final output folder.
+    pub fn out(&self) -> &Path {
+        &self.out
+    }
+
+    /// The staging folder itself (files are written here until commit).
+    pub fn dir(&self) -> &Path {
+        &self.dir
     }
 
     /// Path of `name` inside the staging folder.
@@ -92,34 +270,50 @@ impl Staging {
         std::fs::write(&path, contents).map_err(|e| Error::io("write", &path, e))
     }
 
-    /// Move the staged outputs into `out`.
+    /// Move the staged folder into place as `out`, whole.
     pub fn commit(mut self) -> Result<PathBuf> {
         let io = |action, path: &Path, e: std::io::Error| Error::io(action, path, e);
-        if self.out.exists() {
-            let empty = std::fs::read_dir(&self.out)
-                .map_err(|e| io("read", &self.out, e))?
-                .next()
-                .is_none();
-            if empty {
-                std::fs::remove_dir(&self.out).map_err(|e| io("replace", &self.out, e))?;
-            } else if self.force {
-                // Replace file by file: each rename is atomic.
-                for entry in std::fs::read_dir(&self.dir).map_err(|e| io("read", &self.dir, e))? {
-                    let entry = entry.map_err(|e| io("read", &self.dir, e))?;
-                    let target = self.out.join(entry.file_name());
-                    if target.is_dir() {
-                        std::fs::remove_dir_all(&target).map_err(|e| io("replace", &target, e))?;
-                    }
-                    std::fs::rename(entry.path(), &target)
-                        .map_err(|e| io("move output to", &target, e))?;
-                }
-                std::fs::remove_dir(&self.dir).map_err(|e| io("remove", &self.dir, e))?;
-                self.done = true;
-                return Ok(self.out.clone());
-            }
+        checkpoint("staged");
+        // Checked again: the folder may have changed since the run started.
+        Self::check_target(&self.out, true, self.command)?;
+        if !self.out.exists() || is_empty_dir(&self.out)? {
+            // rename(2) replaces an empty folder atomically.
+            std::fs::rename(&self.dir, &self.out)
+                .map_err(|e| io("move outputs to", &self.out, e))?;
+            self.done = true;
+            return Ok(self.out.clone());
         }
+        let exchanged = !test_hook_is("no-exchange")
+            && rustix::fs::renameat_with(
+                rustix::fs::CWD,
+                &self.dir,
+                rustix::fs::CWD,
+                &self.out,
+                rustix::fs::RenameFlags::EXCHANGE,
+            )
+            .is_ok();
+        if exchanged {
+            // The staging path now holds the earlier run's folder.
+            checkpoint("swapped");
+            self.done = true;
+            std::fs::remove_dir_all(&self.dir).map_err(|e| io("remove", &self.dir, e))?;
+            return Ok(self.out.clone());
+        }
+        // Two renames where the file system cannot exchange folders; a run killed between them
+        // leaves the old folder aside, and the next run puts it back (see `Staging::new`).
+        let name = self
+            .out
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        let aside = self
+            .dir
+            .with_file_name(format!(".{name}.old-{}", std::process::id()));
+        std::fs::rename(&self.out, &aside).map_err(|e| io("move aside", &self.out, e))?;
+        checkpoint("moved-old");
         std::fs::rename(&self.dir, &self.out).map_err(|e| io("move outputs to", &self.out, e))?;
         self.done = true;
+        std::fs::remove_dir_all(&aside).map_err(|e| io("remove", &aside, e))?;
         Ok(self.out.clone())
     }
 }
@@ -132,18 +326,76 @@ impl Drop for Staging {
     }
 }
 
+/// Write a file the user named outside any output folder (e.g. `--write-mps`): refused if it
+/// exists (hostcut never overwrites a file it did not write in this run) or if its folder does
+/// not; `write` fills a temporary file beside it, which is then linked into place without ever
+/// replacing anything.
+pub fn write_new_file(
+    path: &Path,
+    flag: &str,
+    write: impl FnOnce(&Path) -> Result<()>,
+) -> Result<()> {
+    check_new_file(path, flag)?;
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    // The temporary keeps the extension: writers choose their format by it.
+    let temporary = path.with_file_name(format!(".partial-{}-{name}", std::process::id()));
+    let result = write(&temporary).and_then(|()| {
+        std::fs::hard_link(&temporary, path).map_err(|e| {
+            if e.kind() == std::io::ErrorKind::AlreadyExists {
+                Error::input_with_hint(
+                    format!("`{flag} {}`: the file appeared while this run was working", path.display()),
+                    "give a new file name",
+                )
+            } else {
+                Error::io("write", path, e)
+            }
+        })
+    });
+    let _ = std::fs::remove_file(&temporary);
+    result
+}
+
+/// Refuse `path` for a new file if it exists or its folder does not.
+pub fn check_new_file(path: &Path, flag: &str) -> Result<()> {
+    if path.exists() {
+        return Err(Error::input_with_hint(
+            format!("`{flag} {}`: the file exists", path.display()),
+            "give a new file name; hostcut never overwrites a file it did not write in this run",
+        ));
+    }
+    let parent = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    if !parent.is_dir() {
+        return Err(Error::input_with_hint(
+            format!(
+                "`{flag} {}`: the folder `{}` does not exist",
+                path.display(),
+                parent.display()
+            ),
+            "create the folder first, or give a path in an existing folder",
+        ));
+    }
+    Ok(())
+}
+
 /// Make a run repeatable: keep the catalogue it used as `treatments.used.toml` and write
-/// `scenario.resolved.toml` pointing at it, under a one-line `header` comment.
+/// `scenario.resolved.toml` pointing at it, under a one-line `header` comment. Paths inside the
+/// output folder are written relative to it, so the folder can be moved or copied.
 pub fn write_provenance(
     staging: &Staging,
     scenario: &crate::settings::Scenario,
-    out: &Path,
     catalogue_text: &str,
     header: &str,
 ) -> Result<()> {
     staging.write("treatments.used.toml", catalogue_text)?;
     let mut resolved = scenario.clone();
-    resolved.plan.treatments = Some(out.join("treatments.used.toml"));
+    resolved.plan.treatments = Some(staging.path("treatments.used.toml"));
+    resolved.relative_to(&[staging.dir(), staging.out()]);
     staging.write(
         "scenario.resolved.toml",
         format!("# {header}\n{}", resolved.to_toml()?),
@@ -196,6 +448,41 @@ pub struct Summary {
     /// verdict (absent for a single kernel).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ensemble: Option<serde_json::Value>,
+    /// Cells, features and patches skipped while reading, by reason.
+    pub skipped: crate::layers::Skipped,
+    /// How the site rules were read and checked.
+    pub site_rules: SiteRules,
+}
+
+/// summary.json's `site_rules`: whether water was checked, how many sites carry each rule, and
+/// the rules that took their default.
+#[derive(Debug, Clone, Serialize)]
+pub struct SiteRules {
+    /// `true` when water layers were given (patches are near water or clear), else every site
+    /// is unchecked.
+    pub water_checked: bool,
+    pub patches_near_water: usize,
+    pub patches_herbicide_prohibited: usize,
+    pub patches_restricted: usize,
+    pub patches_access_denied: usize,
+    pub notes: Vec<String>,
+}
+
+impl SiteRules {
+    pub fn of(patches: &Patches) -> SiteRules {
+        use crate::patches::{Access, Herbicide, Water};
+        let count = |f: &dyn Fn(&crate::patches::Site) -> bool| {
+            patches.items.iter().filter(|p| f(&p.site)).count()
+        };
+        SiteRules {
+            water_checked: patches.water_checked,
+            patches_near_water: count(&|s| matches!(s.water, Water::Near(_))),
+            patches_herbicide_prohibited: count(&|s| s.herbicide == Herbicide::Prohibited),
+            patches_restricted: count(&|s| s.herbicide == Herbicide::Restricted),
+            patches_access_denied: count(&|s| s.access == Access::Denied),
+            notes: patches.notes.clone(),
+        }
+    }
 }
 
 /// Scientific notation for values that span many orders of magnitude.
@@ -229,7 +516,7 @@ pub struct Outputs<'a> {
 }
 
 /// The columns of plan.csv (a programme's season folders add `action`).
-pub const PLAN_COLUMNS: [&str; 19] = [
+pub const PLAN_COLUMNS: [&str; 20] = [
     "priority",
     "patch_id",
     "method",
@@ -249,6 +536,7 @@ pub const PLAN_COLUMNS: [&str; 19] = [
     "contact",
     "corridors",
     "cautions",
+    "site_notes",
 ];
 
 /// A CSV file's bytes: the header row, then the rows.
@@ -300,6 +588,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             p.site.contact.clone(),
             o.pressure.corridors[i].join(";"),
             row.cautions.join(";"),
+            p.site.notes(),
         ]);
     }
     staging.write("plan.csv", csv_bytes(&PLAN_COLUMNS, &rows)?)?;
@@ -330,6 +619,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(plan.establishment_after[i], 6),
             method_id(i),
             round(o.suitability[i], 6),
+            p.site.water.as_str().into(),
+            p.site.notes(),
         ]);
     }
     let header = [
@@ -352,6 +643,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "establishment_p_after",
         "method",
         "suitability",
+        "water",
+        "site_notes",
     ];
     staging.write("patches.csv", csv_bytes(&header, &rows)?)?;
 
@@ -418,7 +711,14 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         &fields,
         &features,
     )?;
-    staging.write("cautions.txt", cautions::standing_text())?;
+    staging.write(
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(patches.water_checked)
+        ),
+    )?;
     Ok(())
 }
 
@@ -480,5 +780,7 @@ pub fn summary(
         depot: [f64::NAN, f64::NAN],
         suitability_layer: None,
         ensemble: None,
+        skipped: o.patches.skipped.clone(),
+        site_rules: SiteRules::of(o.patches),
     }
 }

@@ -16,7 +16,7 @@ use rstar::primitives::{GeomWithData, Rectangle};
 use crate::error::{Error, Result};
 use crate::gis::{self, Crs, Frame, Grid};
 use crate::label::{Blob, Labeller, Rules, Run};
-use crate::layers::{Host, Layers, Parcel, Stand};
+use crate::layers::{Host, Layers, Parcel, SiteFeature, Skipped, Stand};
 use crate::settings::HostSection;
 
 /// Dense index of a patch, 0..n, shared by every stage after this one.
@@ -81,6 +81,27 @@ impl Herbicide {
     }
 }
 
+/// Whether water lies within the buffer of a patch.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Water {
+    /// No water layer was given: the site was not checked.
+    Unchecked,
+    /// No water feature of the water layers lies within its buffer.
+    Clear,
+    /// Within the buffer of these water features (e.g. `Mill Creek (12 m)`).
+    Near(String),
+}
+
+impl Water {
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Water::Unchecked => "unchecked",
+            Water::Clear => "clear",
+            Water::Near(_) => "near",
+        }
+    }
+}
+
 /// The rules of the place a patch stands on.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Site {
@@ -89,6 +110,10 @@ pub struct Site {
     pub herbicide: Herbicide,
     pub cost_factor: f64,
     pub contact: String,
+    /// Why herbicide is restricted here (the parcel's rule, a sensitive site nearby), for crews
+    /// and bidders; `None` unless `herbicide` is restricted.
+    pub restriction: Option<String>,
+    pub water: Water,
 }
 
 impl Default for Site {
@@ -99,7 +124,33 @@ impl Default for Site {
             herbicide: Herbicide::Allowed,
             cost_factor: 1.0,
             contact: String::new(),
+            restriction: None,
+            water: Water::Unchecked,
         }
+    }
+}
+
+impl Site {
+    /// The site's rules in words for people (plan.csv `site_notes`, work orders, the scope of
+    /// work): no herbicide, restricted conditions, water nearby. Empty for an open site with no
+    /// special rule.
+    pub fn notes(&self) -> String {
+        let mut notes = Vec::new();
+        match self.herbicide {
+            Herbicide::Prohibited => notes.push("NO HERBICIDE ON THIS SITE".to_string()),
+            Herbicide::Restricted => notes.push(format!(
+                "restricted site: herbicide only under the site's conditions ({})",
+                self.restriction.as_deref().unwrap_or("confirm them with the site manager")
+            )),
+            Herbicide::Allowed => {}
+        }
+        if let Water::Near(what) = &self.water {
+            notes.push(format!("near water: {what}"));
+        }
+        if self.access == Access::Permission {
+            notes.push("landowner permission first".to_string());
+        }
+        notes.join("; ")
     }
 }
 
@@ -139,6 +190,12 @@ pub struct Patches {
     pub items: Vec<Patch>,
     /// Raster components dropped as smaller than `min_patch_ha`.
     pub dropped_slivers: usize,
+    /// Everything skipped while reading the layers and building patches, by reason.
+    pub skipped: Skipped,
+    /// Plain notes on rules that took their default (from the access layer).
+    pub notes: Vec<String>,
+    /// Whether the sites were checked against water layers.
+    pub water_checked: bool,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
     pub source: &'static str,
     /// For raster input, each patch's runs of cells in the host raster (`frame`); else empty.
@@ -349,6 +406,8 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
     let mut items = Vec::new();
     let mut dropped_slivers = 0;
     let mut runs = Vec::new();
+    let mut skipped = layers.skipped.clone();
+    let non_finite = std::cell::Cell::new(0usize);
     let source;
     match &layers.host {
         Host::Raster(raster) => {
@@ -375,7 +434,8 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
             let dataset = raster.dataset()?;
             let (components, dropped, max) =
                 label_strips(frame, options, strip_rows(raster), |row0, rows| {
-                    let values = raster.read_rows_from(&dataset, row0, rows)?;
+                    let (values, bad) = raster.read_rows_counted(&dataset, row0, rows)?;
+                    non_finite.set(non_finite.get() + bad);
                     let strip = frame.rows(row0, rows);
                     let extent = strip.extent();
                     let reaching: Vec<(u32, &MultiPolygon<f64>)> = parcels
@@ -396,6 +456,8 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     Ok((values, index))
                 })?;
             dropped_slivers = dropped;
+            skipped.add("host_cells_not_finite", non_finite.get());
+            skipped.add("host_patches_below_min_patch_ha", dropped);
             if components.is_empty() {
                 return Err(Error::input_with_hint(
                     format!(
@@ -448,6 +510,14 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
         Host::Polygons(layer) => {
             source = "polygons";
             let mut seen = BTreeSet::new();
+            let stems_field = layer
+                .field(&host.stems_field)
+                .unwrap_or(&host.stems_field)
+                .to_string();
+            let id_field = host
+                .id_field
+                .as_ref()
+                .map(|f| layer.field(f).unwrap_or(f).to_string());
             for f in &layer.features {
                 let at = format!(
                     "host layer `{}`, feature {}",
@@ -464,16 +534,16 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                         ));
                     }
                 };
-                let stems = f.fields.get(&host.stems_field).and_then(|v| v.as_number());
+                let stems = f.fields.get(&stems_field).and_then(|v| v.as_number());
                 let stems = match stems {
                     Some(s) if s.is_finite() && s >= 0.0 => s,
                     _ => {
                         return Err(Error::input_with_hint(
                             format!(
                                 "{at}, field `{}`: stems must be a number 0 or more, got `{}`",
-                                host.stems_field,
+                                stems_field,
                                 f.fields
-                                    .get(&host.stems_field)
+                                    .get(&stems_field)
                                     .map(|v| v.as_text())
                                     .unwrap_or_default()
                             ),
@@ -481,7 +551,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                         ));
                     }
                 };
-                let label = match &host.id_field {
+                let label = match &id_field {
                     Some(field) => f
                         .fields
                         .get(field)
@@ -492,6 +562,15 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                         })?,
                     None => format!("P{:04}", f.number),
                 };
+                if let Some(c) = label.chars().find(|c| c.is_control() && *c != '\t') {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "{at}: the id holds a control character (U+{:04X})",
+                            c as u32
+                        ),
+                        "ids are printed on work orders and maps: use letters, digits and punctuation",
+                    ));
+                }
                 if !seen.insert(label.clone()) {
                     return Err(Error::input_with_hint(
                         format!("{at}: duplicate id `{label}`"),
@@ -502,6 +581,7 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     return Err(Error::input(format!("{at}: empty polygon")));
                 };
                 if stems <= 0.0 {
+                    skipped.add("host_features_with_0_stems", 1);
                     continue;
                 }
                 items.push(Patch {
@@ -558,10 +638,15 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
             "the host layer holds no stems (every patch has 0 stems)",
         ));
     }
+    check_positions(&items, &layers.crs, source)?;
+    overlay_sites(&mut items, layers);
     Ok(Patches {
         crs: layers.crs.clone(),
         items,
         dropped_slivers,
+        skipped,
+        notes: layers.notes.clone(),
+        water_checked: layers.water_checked,
         source,
         runs,
         frame: match &layers.host {
@@ -569,6 +654,119 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
             _ => None,
         },
     })
+}
+
+/// Every patch position must convert to longitude and latitude (outputs carry both): a point
+/// outside the working CRS's domain (e.g. x = 1e300, a raster whose origin is off the globe) is
+/// refused, naming the patch.
+fn check_positions(items: &[Patch], crs: &Crs, source: &str) -> Result<()> {
+    let to_lonlat = gis::ToLonLat::new(crs)?;
+    let points: Vec<(f64, f64)> = items.iter().map(|p| (p.x, p.y)).collect();
+    if let Err(k) = to_lonlat.check(&points) {
+        let p = &items[k];
+        let what = match source {
+            "inventory" => format!("stand `{}`", p.label),
+            "polygons" => format!("host polygon `{}`", p.label),
+            _ => format!("host raster patch `{}`", p.label),
+        };
+        return Err(Error::input_with_hint(
+            format!(
+                "{what} lies at x {:e}, y {:e}, outside the area {} covers",
+                p.x, p.y, crs.name
+            ),
+            "check the coordinates and the CRS they are in (`--crs`, or the layer's own CRS)",
+        ));
+    }
+    Ok(())
+}
+
+/// The first buffered feature of `features` within reach of `geometry`, with its distance.
+fn within_buffer(
+    tree: &RTree<GeomWithData<Rectangle<[f64; 2]>, usize>>,
+    features: &[SiteFeature],
+    geometry: &geo::Geometry<f64>,
+) -> Vec<(usize, f64)> {
+    use geo::{BoundingRect, Distance, Euclidean};
+    let Some(r) = geometry.bounding_rect() else {
+        return Vec::new();
+    };
+    let reach = features.iter().map(|f| f.buffer_m).fold(0.0, f64::max);
+    let envelope = rstar::AABB::from_corners(
+        [r.min().x - reach, r.min().y - reach],
+        [r.max().x + reach, r.max().y + reach],
+    );
+    let mut hits: Vec<(usize, f64)> = tree
+        .locate_in_envelope_intersecting(&envelope)
+        .filter_map(|g| {
+            let f = &features[g.data];
+            let d = Euclidean.distance(geometry, &f.geometry);
+            (d <= f.buffer_m).then_some((g.data, d))
+        })
+        .collect();
+    hits.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    hits
+}
+
+fn feature_tree(features: &[SiteFeature]) -> RTree<GeomWithData<Rectangle<[f64; 2]>, usize>> {
+    use geo::BoundingRect;
+    RTree::bulk_load(
+        features
+            .iter()
+            .enumerate()
+            .filter_map(|(i, f)| {
+                f.geometry.bounding_rect().map(|r| {
+                    GeomWithData::new(
+                        Rectangle::from_corners([r.min().x, r.min().y], [r.max().x, r.max().y]),
+                        i,
+                    )
+                })
+            })
+            .collect(),
+    )
+}
+
+/// Apply the water and sensitive-site layers to each patch's site: a patch within the buffer
+/// of a sensitive site becomes a restricted site (a prohibited one stays prohibited), with the
+/// site named as the reason; with water layers, each patch is near water or clear.
+fn overlay_sites(items: &mut [Patch], layers: &Layers) {
+    let sensitive = feature_tree(&layers.sensitive);
+    let water = feature_tree(&layers.water);
+    let describe = |features: &[SiteFeature], hits: &[(usize, f64)]| {
+        hits.iter()
+            .take(3)
+            .map(|&(k, d)| format!("{} ({:.0} m)", features[k].name, d))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    for p in items.iter_mut() {
+        let geometry = p.geometry();
+        if !layers.sensitive.is_empty() {
+            let hits = within_buffer(&sensitive, &layers.sensitive, &geometry);
+            if !hits.is_empty() {
+                let reason = format!(
+                    "within the buffer of sensitive site {}",
+                    describe(&layers.sensitive, &hits)
+                );
+                if p.site.herbicide == Herbicide::Allowed {
+                    p.site.herbicide = Herbicide::Restricted;
+                }
+                if p.site.herbicide == Herbicide::Restricted {
+                    p.site.restriction = Some(match p.site.restriction.take() {
+                        Some(r) => format!("{r}; {reason}"),
+                        None => reason,
+                    });
+                }
+            }
+        }
+        if layers.water_checked {
+            let hits = within_buffer(&water, &layers.water, &geometry);
+            p.site.water = if hits.is_empty() {
+                Water::Clear
+            } else {
+                Water::Near(describe(&layers.water, &hits))
+            };
+        }
+    }
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
@@ -672,6 +870,15 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
             return Err(Error::input(format!(
                 "inventory `{file}`, line {line}: empty id"
             )));
+        }
+        if let Some(c) = id.chars().find(|c| c.is_control() && *c != '\t') {
+            return Err(Error::input_with_hint(
+                format!(
+                    "inventory `{file}`, line {line}, column `id`: the id holds a control character (U+{:04X})",
+                    c as u32
+                ),
+                "ids are printed on work orders and maps: use letters, digits and punctuation",
+            ));
         }
         if let Some(first) = seen.insert(id.clone(), line) {
             return Err(Error::input_with_hint(

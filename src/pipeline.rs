@@ -13,6 +13,8 @@ use crate::treatments::{self, Catalogue, Choice};
 
 /// Everything a planning command needs, built once.
 pub struct Prepared {
+    /// The scenario with the layers and fields actually read (for `scenario.resolved.toml`).
+    pub resolved: Scenario,
     pub catalogue: Catalogue,
     /// The catalogue's text, kept in the plan folder.
     pub catalogue_text: String,
@@ -50,6 +52,18 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         patches.len(),
         patches.source
     ));
+    // Skips and defaulted rules are said even under `--quiet`: they change what was planned.
+    for line in patches.skipped.lines() {
+        eprintln!("note: {line}");
+    }
+    for note in &patches.notes {
+        eprintln!("note: {note}");
+    }
+    if !patches.water_checked && !patches.items.is_empty() {
+        progress("no water layer given: sites are not checked for nearby water (WATER_UNCHECKED)");
+    }
+    let mut resolved = s.clone();
+    layers.bindings.apply(&mut resolved);
 
     let by_label = patches.by_label();
     let mut required = vec![false; patches.len()];
@@ -149,16 +163,18 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         if required[i] && choices[i].is_empty() {
             return Err(Error::input_with_hint(
                 format!(
-                    "`--require`: patch `{}` cannot be treated (access {}, herbicide {})",
+                    "`--require`: patch `{}` cannot be treated (access {}, herbicide {}, water {}): no method of the catalogue is allowed there",
                     p.label,
                     p.site.access.as_str(),
-                    p.site.herbicide.as_str()
+                    p.site.herbicide.as_str(),
+                    p.site.water.as_str()
                 ),
                 "drop it from `--require`, or change its access rules",
             ));
         }
     }
     Ok(Prepared {
+        resolved,
         catalogue,
         catalogue_text,
         patches,

@@ -29,7 +29,7 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
 use crate::optimise::{Assignment, Built, Limits, OPTIMAL_GAP, Status, run_highs};
-use crate::patches::{Herbicide, Patch};
+use crate::patches::Patch;
 use crate::treatments::{Catalogue, Choice};
 
 /// What a course does in one season.
@@ -118,9 +118,7 @@ pub fn courses(
             .follow_up_method
             .as_ref()
             .and_then(|id| catalogue.methods.iter().position(|x| &x.id == id))
-            .filter(|&f| {
-                !(catalogue.methods[f].herbicide && patch.site.herbicide == Herbicide::Prohibited)
-            })
+            .filter(|&f| catalogue.methods[f].allowed_on(&patch.site))
             .unwrap_or(m);
         let r_f = catalogue.methods[fu].remaining();
         for start in 0..s_count {

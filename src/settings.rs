@@ -29,6 +29,13 @@ pub struct Scenario {
     pub corridors: Vec<CorridorSection>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub detections: Option<DetectionSection>,
+    /// Water features (streams, ponds, wells, wetlands) whose buffer limits herbicide methods.
+    #[serde(default, rename = "water", skip_serializing_if = "Vec::is_empty")]
+    pub water: Vec<SiteLayerSection>,
+    /// Sensitive sites (schools, water supplies, habitats) whose buffer makes patches
+    /// restricted sites.
+    #[serde(default, rename = "sensitive", skip_serializing_if = "Vec::is_empty")]
+    pub sensitive: Vec<SiteLayerSection>,
     #[serde(default)]
     pub model: ModelSection,
     #[serde(default)]
@@ -248,38 +255,109 @@ impl Default for HostSection {
     }
 }
 
+/// The word that says a layer deliberately carries no such field (e.g. `herbicide_field =
+/// "none"`: the parcels layer holds no herbicide rules).
+pub const NO_FIELD: &str = "none";
+
+/// `[access]`: parcels and the fields that hold their rules. Each field is a name in the layer
+/// (matched ignoring case, and Shapefile names cut to 10 characters are recognised), `"none"`
+/// when the layer has no such field, or absent for the default name. A field that is named but
+/// missing is refused, and so is a layer with no access or herbicide field unless it is said to
+/// have none: a rule must never vanish silently. `scenario.resolved.toml` records the fields and
+/// the layer actually used.
 #[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct AccessSection {
     pub path: PathBuf,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub layer: Option<String>,
-    #[serde(default = "d_parcel")]
-    pub parcel_field: String,
-    #[serde(default = "d_access")]
-    pub access_field: String,
-    #[serde(default = "d_herbicide")]
-    pub herbicide_field: String,
-    #[serde(default = "d_cost_factor")]
-    pub cost_factor_field: String,
-    #[serde(default = "d_contact")]
-    pub contact_field: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub parcel_field: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub access_field: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub herbicide_field: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cost_factor_field: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub contact_field: Option<String>,
 }
-fn d_parcel() -> String {
-    "parcel_id".into()
+
+/// Default names of the access layer's fields.
+pub const ACCESS_FIELDS: [(&str, &str); 5] = [
+    ("parcel", "parcel_id"),
+    ("access", "access"),
+    ("herbicide", "herbicide"),
+    ("cost_factor", "cost_factor"),
+    ("contact", "contact"),
+];
+
+impl AccessSection {
+    /// A section for `path` with every field at its default name.
+    pub fn new(path: PathBuf) -> AccessSection {
+        AccessSection {
+            path,
+            layer: None,
+            parcel_field: None,
+            access_field: None,
+            herbicide_field: None,
+            cost_factor_field: None,
+            contact_field: None,
+        }
+    }
+
+    /// The field setting for a rule (`parcel`, `access`, `herbicide`, `cost_factor`,
+    /// `contact`).
+    pub fn field(&self, rule: &str) -> Option<&String> {
+        match rule {
+            "parcel" => self.parcel_field.as_ref(),
+            "access" => self.access_field.as_ref(),
+            "herbicide" => self.herbicide_field.as_ref(),
+            "cost_factor" => self.cost_factor_field.as_ref(),
+            "contact" => self.contact_field.as_ref(),
+            _ => None,
+        }
+    }
+
+    pub fn field_mut(&mut self, rule: &str) -> Option<&mut Option<String>> {
+        match rule {
+            "parcel" => Some(&mut self.parcel_field),
+            "access" => Some(&mut self.access_field),
+            "herbicide" => Some(&mut self.herbicide_field),
+            "cost_factor" => Some(&mut self.cost_factor_field),
+            "contact" => Some(&mut self.contact_field),
+            _ => None,
+        }
+    }
 }
-fn d_access() -> String {
-    "access".into()
+
+/// `[[water]]` or `[[sensitive]]`: a layer of features (points, lines or polygons) with a
+/// buffer in metres. Patches within the buffer of a water feature may get only the methods the
+/// catalogue allows near water; within the buffer of a sensitive site they are restricted sites.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SiteLayerSection {
+    pub path: PathBuf,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layer: Option<String>,
+    /// Buffer in metres (default: [`DEFAULT_WATER_BUFFER_M`] for water,
+    /// [`DEFAULT_SENSITIVE_BUFFER_M`] for sensitive sites).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub buffer_m: Option<f64>,
+    /// Field naming each feature in outputs (e.g. `name`); default: a `name` field if the
+    /// layer has one, else the feature number.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub name_field: Option<String>,
 }
-fn d_herbicide() -> String {
-    "herbicide".into()
-}
-fn d_cost_factor() -> String {
-    "cost_factor".into()
-}
-fn d_contact() -> String {
-    "contact".into()
-}
+
+/// Default water buffer, metres: 15 m (about 50 ft) is a common no-spray setback for
+/// non-aquatic products near surface water (common practice; illustrative — every product
+/// label sets its own buffer, and the label governs).
+pub const DEFAULT_WATER_BUFFER_M: f64 = 15.0;
+
+/// Default sensitive-site buffer, metres: 30 m (about 100 ft) around schools, water supplies
+/// and protected habitats (common practice; illustrative — local rules govern).
+pub const DEFAULT_SENSITIVE_BUFFER_M: f64 = 30.0;
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -438,32 +516,38 @@ fn absolute(base: &Path, p: &Path) -> PathBuf {
 }
 
 impl Scenario {
+    /// Every input path the scenario names.
+    pub fn paths_mut(&mut self) -> Vec<&mut PathBuf> {
+        let mut paths: Vec<&mut PathBuf> = Vec::new();
+        paths.extend(self.host.path.as_mut());
+        paths.extend(self.host.inventory.as_mut());
+        paths.extend(self.host.suitability.as_mut());
+        paths.extend(self.access.as_mut().map(|a| &mut a.path));
+        paths.extend(self.corridors.iter_mut().map(|c| &mut c.path));
+        paths.extend(self.detections.as_mut().map(|d| &mut d.path));
+        paths.extend(self.water.iter_mut().map(|w| &mut w.path));
+        paths.extend(self.sensitive.iter_mut().map(|w| &mut w.path));
+        paths.extend(self.plan.treatments.as_mut());
+        paths.extend(self.model.calibration.as_mut());
+        paths
+    }
+
     /// Make every relative path relative to `base` and absolute.
     fn rebase(&mut self, base: &Path) {
-        let fix = |p: &mut PathBuf| *p = absolute(base, p);
-        if let Some(p) = self.host.path.as_mut() {
-            fix(p)
+        for p in self.paths_mut() {
+            *p = absolute(base, p);
         }
-        if let Some(p) = self.host.inventory.as_mut() {
-            fix(p)
-        }
-        if let Some(p) = self.host.suitability.as_mut() {
-            fix(p)
-        }
-        if let Some(a) = self.access.as_mut() {
-            fix(&mut a.path)
-        }
-        for c in &mut self.corridors {
-            fix(&mut c.path)
-        }
-        if let Some(d) = self.detections.as_mut() {
-            fix(&mut d.path)
-        }
-        if let Some(p) = self.plan.treatments.as_mut() {
-            fix(p)
-        }
-        if let Some(p) = self.model.calibration.as_mut() {
-            fix(p)
+    }
+
+    /// Write paths inside one of `folders` relative to that folder, so a folder holding both
+    /// the record and its inputs (a plan folder with its catalogue, the demo with its inputs) can
+    /// be moved or copied and still repeats; paths elsewhere stay absolute, so moving the
+    /// folder does not lose them.
+    pub fn relative_to(&mut self, folders: &[&Path]) {
+        for p in self.paths_mut() {
+            if let Some(rel) = folders.iter().find_map(|f| p.strip_prefix(f).ok()) {
+                *p = rel.to_path_buf();
+            }
         }
     }
 
@@ -535,15 +619,43 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
         s.host.connectivity = v;
     }
     if let Some(p) = &args.access {
-        s.access = Some(AccessSection {
-            path: abs(p),
-            layer: None,
-            parcel_field: d_parcel(),
-            access_field: d_access(),
-            herbicide_field: d_herbicide(),
-            cost_factor_field: d_cost_factor(),
-            contact_field: d_contact(),
-        });
+        s.access = Some(AccessSection::new(abs(p)));
+    }
+    let field_flags = [
+        ("parcel", &args.parcel_field, "--parcel-field"),
+        ("access", &args.access_field, "--access-field"),
+        ("herbicide", &args.herbicide_field, "--herbicide-field"),
+        ("cost_factor", &args.cost_factor_field, "--cost-factor-field"),
+        ("contact", &args.contact_field, "--contact-field"),
+    ];
+    for (rule, value, flag) in field_flags {
+        let Some(value) = value else { continue };
+        match s.access.as_mut().and_then(|a| a.field_mut(rule)) {
+            Some(slot) => *slot = Some(value.trim().to_string()),
+            None => {
+                return Err(Error::input_with_hint(
+                    format!("`{flag}` names a field of the access layer, but no access layer is given"),
+                    "add `--access parcels.gpkg` (or `[access]` in the scenario)",
+                ));
+            }
+        }
+    }
+    if let Some(layer) = &args.access_layer {
+        match s.access.as_mut() {
+            Some(a) => a.layer = Some(layer.clone()),
+            None => {
+                return Err(Error::input_with_hint(
+                    "`--access-layer` names a layer of the access file, but no access layer is given",
+                    "add `--access parcels.gpkg`",
+                ));
+            }
+        }
+    }
+    if let Some(layer) = &args.host_layer {
+        s.host.layer = Some(layer.clone());
+    }
+    if let Some(field) = &args.id_field {
+        s.host.id_field = Some(field.trim().to_string());
     }
     if !args.corridor.is_empty() {
         let n = args.corridor.len();
@@ -613,6 +725,13 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
                 .unwrap_or_else(|| "corridor".into());
         }
     }
+    if !args.corridor_layer.is_empty() {
+        let n = s.corridors.len();
+        let layers = per_layer(&args.corridor_layer, n, "--corridor-layer", "--corridor")?;
+        for (c, layer) in s.corridors.iter_mut().zip(layers) {
+            c.layer = Some(layer);
+        }
+    }
     if let Some(p) = &args.detections {
         s.detections = Some(DetectionSection {
             path: abs(p),
@@ -621,6 +740,69 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
         });
     } else if let (Some(w), Some(d)) = (args.detection_weight, s.detections.as_mut()) {
         d.weight = w;
+    }
+    if let Some(layer) = &args.detections_layer {
+        match s.detections.as_mut() {
+            Some(d) => d.layer = Some(layer.clone()),
+            None => {
+                return Err(Error::input_with_hint(
+                    "`--detections-layer` names a layer of the detections file, but no detections layer is given",
+                    "add `--detections detections.gpkg`",
+                ));
+            }
+        }
+    }
+    for (files, buffers, layers, sections, what) in [
+        (
+            &args.water,
+            &args.water_buffer_m,
+            &args.water_layer,
+            &mut s.water,
+            "water",
+        ),
+        (
+            &args.sensitive,
+            &args.sensitive_buffer_m,
+            &args.sensitive_layer,
+            &mut s.sensitive,
+            "sensitive",
+        ),
+    ] {
+        let (file_flag, buffer_flag, layer_flag) = (
+            format!("--{what}"),
+            format!("--{what}-buffer-m"),
+            format!("--{what}-layer"),
+        );
+        if !files.is_empty() {
+            *sections = files
+                .iter()
+                .map(|p| SiteLayerSection {
+                    path: abs(p),
+                    layer: None,
+                    buffer_m: None,
+                    name_field: None,
+                })
+                .collect();
+        }
+        let n = sections.len();
+        if n == 0 && !(buffers.is_empty() && layers.is_empty()) {
+            return Err(Error::input_with_hint(
+                format!("`{buffer_flag}` / `{layer_flag}` need at least one `{file_flag}` layer"),
+                format!("add `{file_flag} FILE`"),
+            ));
+        }
+        if !buffers.is_empty() {
+            let values = per_layer(buffers, n, &buffer_flag, &file_flag)?;
+            for (section, v) in sections.iter_mut().zip(values) {
+                section.buffer_m = Some(v);
+            }
+        }
+        if !layers.is_empty() {
+            let values = per_layer(layers, n, &layer_flag, &file_flag)?;
+            for (section, v) in sections.iter_mut().zip(values) {
+                section.layer = Some(v);
+            }
+        }
     }
     if let Some(p) = &args.treatments {
         s.plan.treatments = Some(abs(p));
@@ -758,6 +940,18 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
         force: args.force,
         quiet: args.quiet,
     })
+}
+
+/// One value of `flag` for all `n` layers of `layer_flag`, or one per layer in order.
+fn per_layer<T: Clone>(values: &[T], n: usize, flag: &str, layer_flag: &str) -> Result<Vec<T>> {
+    match values.len() {
+        1 => Ok(vec![values[0].clone(); n]),
+        m if m == n => Ok(values.to_vec()),
+        m => Err(Error::input_with_hint(
+            format!("{m} values of `{flag}` for {n} `{layer_flag}` layers"),
+            format!("give one `{flag}` for all of them or one per `{layer_flag}`, in the same order"),
+        )),
+    }
 }
 
 fn check(ok: bool, message: impl FnOnce() -> String, hint: &str) -> Result<()> {
@@ -904,6 +1098,33 @@ fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
             },
             "e.g. `--corridor-buffer-m 500`",
         )?;
+    }
+    for (sections, what) in [(&s.water, "water"), (&s.sensitive, "sensitive")] {
+        for w in sections {
+            if let Some(b) = w.buffer_m {
+                check(
+                    b.is_finite() && b >= 0.0,
+                    || {
+                        format!(
+                            "{what} layer `{}`: buffer must be 0 or more metres, got {b}",
+                            w.path.display()
+                        )
+                    },
+                    &format!("e.g. `--{what}-buffer-m 15`"),
+                )?;
+            }
+        }
+    }
+    if let Some(a) = &s.access {
+        for (rule, _) in ACCESS_FIELDS {
+            if let Some(f) = a.field(rule) {
+                check(
+                    !f.trim().is_empty(),
+                    || format!("access layer: the {rule} field name is empty"),
+                    "name the field, or write `none` if the layer has no such field",
+                )?;
+            }
+        }
     }
     if let Some(d) = &s.detections {
         check(

@@ -65,7 +65,7 @@ pub fn generate(spec: &Spec) -> Landscape {
                     Herbicide::Allowed
                 },
                 cost_factor: 1.0,
-                contact: String::new(),
+                ..Site::default()
             },
             pressure_override: Some(if near_corridor { 4.0 } else { 1.0 }),
             suitability: None,

@@ -12,7 +12,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::cautions;
 use crate::error::{Error, Result};
-use crate::patches::{Access, Herbicide, Patch};
+use crate::patches::{Access, Herbicide, Patch, Site, Water};
 
 /// The built-in catalogue, `models/treatments.toml`.
 pub const BUILTIN: &str = include_str!("../models/treatments.toml");
@@ -47,6 +47,18 @@ pub struct Method {
     /// kill. Offered only with `--trap-trees`; its remaining risk is (1 - e)(1 - sink_kill).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sink_kill: Option<f64>,
+    /// May be used within the buffer of a water feature (`--water`), with products labelled
+    /// for aquatic sites. Default: true for methods without herbicide, false for herbicide
+    /// methods (never assumed safe near water).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub near_water: Option<bool>,
+    /// Prone to drift onto non-target plants (e.g. foliar spray). Default false.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub drift_prone: bool,
+    /// May be used at a restricted site (`herbicide = restricted`, or within the buffer of a
+    /// sensitive site). Default: true unless the method is drift-prone.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub at_restricted_sites: Option<bool>,
 }
 
 impl Method {
@@ -57,6 +69,25 @@ impl Method {
 
     pub fn follow_up_share(&self) -> f64 {
         self.follow_up_share.unwrap_or(1.0 - self.effectiveness)
+    }
+
+    /// Whether the method may be used within a water buffer.
+    pub fn allowed_near_water(&self) -> bool {
+        self.near_water.unwrap_or(!self.herbicide)
+    }
+
+    /// Whether the method may be used at a restricted site.
+    pub fn allowed_at_restricted_sites(&self) -> bool {
+        self.at_restricted_sites.unwrap_or(!self.drift_prone)
+    }
+
+    /// Whether the method may be used on `site` at all: access, the herbicide rule, water
+    /// nearby and the restricted-site rule.
+    pub fn allowed_on(&self, site: &Site) -> bool {
+        site.access != Access::Denied
+            && !(self.herbicide && site.herbicide == Herbicide::Prohibited)
+            && !(matches!(site.water, Water::Near(_)) && !self.allowed_near_water())
+            && !(site.herbicide == Herbicide::Restricted && !self.allowed_at_restricted_sites())
     }
 }
 
@@ -192,17 +223,16 @@ pub struct Choice {
 }
 
 /// The methods a patch may receive. Denied access: none. Herbicide prohibited: no herbicide
-/// methods. Restricted herbicide sites stay eligible and are flagged by the caution codes.
-/// Trap-tree methods (with `sink_kill`) only when `trap_trees` is on.
+/// methods. Within a water buffer: only methods allowed near water. Restricted sites: no
+/// drift-prone method unless the catalogue allows it there; the rest stay eligible and are
+/// flagged by the caution codes. Trap-tree methods (with `sink_kill`) only when `trap_trees`
+/// is on.
 pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Vec<Choice> {
-    if patch.site.access == Access::Denied {
-        return Vec::new();
-    }
     catalogue
         .methods
         .iter()
         .enumerate()
-        .filter(|(_, m)| !(m.herbicide && patch.site.herbicide == Herbicide::Prohibited))
+        .filter(|(_, m)| m.allowed_on(&patch.site))
         .filter(|(_, m)| m.effectiveness > 0.0)
         .filter(|(_, m)| trap_trees || m.sink_kill.is_none())
         .map(|(k, m)| Choice {
@@ -219,15 +249,25 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Ve
         .collect()
 }
 
-/// Caution codes for one treated patch: the method's own plus the site's.
+/// Caution codes for one treated patch: the method's own, with WATER by site — WATER where the
+/// site is within a water buffer, WATER_UNCHECKED for herbicide work where no water layer was
+/// given — plus the site's own codes (NO_HERBICIDE, RESTRICTED_SITE, PERMISSION).
 pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
     let mut codes: Vec<&'static str> = method
         .cautions
         .iter()
         .filter_map(|c| cautions::lookup(c).map(|c| c.code))
+        .filter(|c| *c != "WATER")
         .collect();
-    if method.herbicide && patch.site.herbicide == Herbicide::Restricted {
-        codes.push("RESTRICTED_SITE");
+    match patch.site.water {
+        Water::Near(_) => codes.push("WATER"),
+        Water::Unchecked if method.herbicide => codes.push("WATER_UNCHECKED"),
+        _ => {}
+    }
+    match patch.site.herbicide {
+        Herbicide::Restricted if method.herbicide => codes.push("RESTRICTED_SITE"),
+        Herbicide::Prohibited => codes.push("NO_HERBICIDE"),
+        _ => {}
     }
     if patch.site.access == Access::Permission {
         codes.push("PERMISSION");
@@ -240,7 +280,7 @@ pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::patches::{PatchId, Site};
+    use crate::patches::PatchId;
 
     fn patch(access: Access, herbicide: Herbicide, cost_factor: f64) -> Patch {
         Patch {
@@ -252,11 +292,10 @@ mod tests {
             area_ha: None,
             outline: None,
             site: Site {
-                parcel: String::new(),
                 access,
                 herbicide,
                 cost_factor,
-                contact: String::new(),
+                ..Site::default()
             },
             pressure_override: None,
             suitability: None,

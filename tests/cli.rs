@@ -220,33 +220,31 @@ fn non_empty_out_is_refused_without_force() {
     let dir = fixture();
     std::fs::create_dir(dir.path().join("out")).unwrap();
     write(&dir.path().join("out"), "keep.txt", "x");
-    let o = plan(
-        dir.path(),
-        &[
-            "--inventory",
-            "stands.csv",
-            "--crs",
-            "EPSG:32618",
-            "--budget",
-            "500",
-        ],
-    );
+    let args = [
+        "--inventory",
+        "stands.csv",
+        "--crs",
+        "EPSG:32618",
+        "--budget",
+        "500",
+    ];
+    let o = plan(dir.path(), &args);
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("not empty"));
-    let o = plan(
-        dir.path(),
-        &[
-            "--inventory",
-            "stands.csv",
-            "--crs",
-            "EPSG:32618",
-            "--budget",
-            "500",
-            "--force",
-        ],
-    );
+    // `--force` replaces only a folder hostcut wrote: the user's own folder is refused and
+    // left exactly as it was (issue 18).
+    let o = plan(dir.path(), &[&args[..], &["--force"]].concat());
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("not written by hostcut"), "{}", stderr(&o));
+    assert!(dir.path().join("out/keep.txt").exists() && !dir.path().join("out/plan.csv").exists());
+    // An earlier plan folder is replaced whole: nothing of the earlier run survives.
+    std::fs::remove_dir_all(dir.path().join("out")).unwrap();
+    let o = plan(dir.path(), &args);
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(dir.path().join("out/keep.txt").exists() && dir.path().join("out/plan.csv").exists());
+    write(&dir.path().join("out"), "stale.csv", "from an earlier run");
+    let o = plan(dir.path(), &[&args[..], &["--force"]].concat());
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(dir.path().join("out/plan.csv").exists() && !dir.path().join("out/stale.csv").exists());
 }
 
 fn inventory_case(csv: &str, needles: &[&str]) {

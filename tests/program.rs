@@ -46,7 +46,7 @@ fn instance(seed: u64, n: usize) -> Instance {
                     Herbicide::Allowed
                 },
                 cost_factor: rng.gen_range(0.8..1.4),
-                contact: String::new(),
+                ..Site::default()
             },
             pressure_override: None,
             suitability: None,

@@ -178,6 +178,7 @@ fn ids_never_become_paths_and_time_limits_are_results() {
     assert_eq!(
         names,
         [
+            ".hostcut-folder",
             "cautions.txt",
             "patches.csv",
             "plan.csv",

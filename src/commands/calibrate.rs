@@ -362,7 +362,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
 
     let out =
         std::path::absolute(&settings.out).map_err(|e| Error::io("resolve", &settings.out, e))?;
-    let staging = Staging::new(&out, settings.force)?;
+    let staging = Staging::new(&out, settings.force, "calibrate")?;
     let last_year = obs.first_year + obs.states.len() as i32 - 1;
     let calibration = CalibrationFile {
         robust: Robust::Mean,

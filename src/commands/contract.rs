@@ -27,7 +27,7 @@ fn money(code: &str, cents: i64) -> String {
 pub fn run_contract(args: &ContractArgs) -> Result<String> {
     let folder = PlanFolder::read(&args.plan_dir)?;
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force)?;
+    let staging = Staging::new(&out, args.force, "contract")?;
     let currency = folder.catalogue.currency.clone();
     let items = contract::line_items(&folder);
     let total: i64 = items.iter().map(|i| i.cents).sum();
@@ -144,6 +144,46 @@ fn scope_of_work(
             "Cutting a live tree-of-heaven without a systemic treatment first is not acceptable work: it makes the tree sprout from the stump and sucker from the roots. Treated stems may be felled only 30 days or more after treatment.".into(),
         ],
     ));
+    // Site rules first, where no bidder can miss them.
+    let mut rules = Vec::new();
+    let ids = |f: &dyn Fn(&contract::PlannedPatch) -> bool| {
+        folder
+            .planned
+            .iter()
+            .filter(|p| f(p))
+            .map(|p| p.patch_id.clone())
+            .collect::<Vec<_>>()
+    };
+    let no_herbicide = ids(&|p| p.no_herbicide());
+    if !no_herbicide.is_empty() {
+        rules.push(format!(
+            "NO HERBICIDE ON THESE SITES: {}. Only the mechanical method planned; no herbicide may be brought onto them.",
+            no_herbicide.join(", ")
+        ));
+    }
+    for p in folder.planned.iter().filter(|p| p.restriction().is_some()) {
+        rules.push(format!(
+            "Restricted site {}: {}. Herbicide only under the site's conditions, confirmed in writing with the site manager before work; no drift-prone method.",
+            p.patch_id,
+            p.restriction().unwrap_or_default()
+        ));
+    }
+    for p in folder.planned.iter().filter(|p| p.near_water().is_some()) {
+        rules.push(format!(
+            "Site {} is {}: only the method planned, with a product labelled for aquatic sites where herbicide is used, and the label's buffer from the water.",
+            p.patch_id,
+            p.near_water().unwrap_or_default()
+        ));
+    }
+    let water_checked = folder.summary["site_rules"]["water_checked"]
+        .as_bool()
+        .unwrap_or(false);
+    if !water_checked {
+        rules.push("No water layer was given when this plan was made: the contractor checks every site for streams, ponds, wells and wetlands before herbicide work and keeps the label's buffers.".into());
+    }
+    if !rules.is_empty() {
+        sections.push(("Site rules".into(), rules));
+    }
     for item in items {
         let method = folder
             .method(&item.method)
@@ -235,7 +275,7 @@ pub fn run_record(args: &RecordArgs) -> Result<String> {
     let folder = PlanFolder::read(&args.plan_dir)?;
     let done = contract::check_completion(&folder, &args.completed)?;
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force)?;
+    let staging = Staging::new(&out, args.force, "record")?;
     let by_patch: std::collections::HashMap<&str, &contract::Done> =
         done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
     let mut rows = Vec::new();

@@ -93,7 +93,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
             "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
         ));
     }
-    let staging = Staging::new(&settings.out, settings.force)?;
+    let staging = Staging::new(&settings.out, settings.force, "curve")?;
     let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;
     let money = Money::new(
@@ -134,13 +134,19 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     let page = Page::new(&prepared, &points, &analysis, &money, s);
     staging.write("justification.md", page.markdown())?;
     staging.write("justification.html", page.html(&svg))?;
-    staging.write("cautions.txt", cautions::standing_text())?;
-    let mut inputs_only = s.clone();
+    staging.write(
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(prepared.patches.water_checked)
+        ),
+    )?;
+    let mut inputs_only = prepared.resolved.clone();
     inputs_only.plan.budget = None;
     output::write_provenance(
         &staging,
         &inputs_only,
-        &settings.out,
         &prepared.catalogue_text,
         "Inputs and settings of this curve; its budgets are in curve.csv.",
     )?;

@@ -1,43 +1,33 @@
 //! `hostcut demo`: make the invented landscape in `OUT/inputs` and plan it like any other run,
-//! so `OUT` is an ordinary plan folder.
+//! so `OUT` is an ordinary plan folder. The inputs and the plan are built in one staging folder
+//! and swapped in whole (see [`crate::output::Staging`]): `--force` replaces only an earlier
+//! demo folder, never a folder of the user's.
 
 use crate::cli::{DemoArgs, PlanArgs};
 use crate::demo;
 use crate::error::{Error, Result};
+use crate::output::Staging;
 use crate::settings;
 
 use super::plan::RunReport;
 
 pub fn run(args: &DemoArgs) -> Result<RunReport> {
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    if out.exists()
-        && std::fs::read_dir(&out)
-            .map(|mut d| d.next().is_some())
-            .unwrap_or(false)
-        && !args.force
-    {
-        return Err(Error::input_with_hint(
-            format!("output folder `{}` is not empty", out.display()),
-            "give a new folder, or add `--force` to replace it",
-        ));
-    }
-    if args.force && out.exists() {
-        std::fs::remove_dir_all(&out).map_err(|e| Error::io("replace", &out, e))?;
-    }
-    let inputs = out.join("inputs");
-    demo::write_inputs(&inputs)?;
+    let staging = Staging::new(&out, args.force, "demo")?;
+    let staged_inputs = staging.path("inputs");
+    demo::write_inputs(&staged_inputs)?;
     let plan_args = PlanArgs {
-        scenario: Some(inputs.join("scenario.toml")),
+        scenario: Some(staged_inputs.join("scenario.toml")),
         out: Some(out.clone()),
-        force: true,
         quiet: args.quiet,
         ..Default::default()
     };
     let settings = settings::resolve(&plan_args)?;
-    let mut report = super::plan::run(&settings)?;
-    report.text.push_str(&format!(
+    let mut text = super::plan::run_into(&settings, &staging, None)?;
+    let out = staging.commit()?;
+    text.push_str(&format!(
         "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\n",
-        inputs.display()
+        out.join("inputs").display()
     ));
-    Ok(report)
+    Ok(RunReport { out, text })
 }

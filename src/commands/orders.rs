@@ -201,7 +201,7 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
     let plan_map = args.plan_dir.join("plan.geojson");
     let mut outlines = HashMap::new();
     if plan_map.is_file() {
-        let layer = gis::read_vector(&plan_map, None, &crs, None, "the plan's map")?;
+        let layer = gis::read_vector(&plan_map, None, &crs, None, "the plan's map", "--plan")?;
         for f in layer.features {
             if let Some(id) = f.fields.get("patch_id") {
                 outlines.insert(id.as_text(), f.geometry);
@@ -225,7 +225,7 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
     };
 
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force)?;
+    let staging = Staging::new(&out, args.force, "orders")?;
     staging.write("orders.csv", orders_csv(&ctx)?)?;
     write_maps(&ctx, &staging)?;
     // Overview, schedule at a glance, cautions, and the budget curve when there is one.
@@ -391,7 +391,9 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
         "parcel",
         "contact",
         "access",
+        "herbicide",
         "cautions",
+        "site_notes",
         "fell_after",
         "follow_up",
         "instructions",
@@ -429,7 +431,9 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
                 p.parcel.clone(),
                 p.contact.clone(),
                 p.access.clone(),
+                p.herbicide.clone(),
                 p.cautions.clone(),
+                p.site_notes.clone(),
                 ins.fell_after.map(|x| x.to_string()).unwrap_or_default(),
                 ins.follow_up.unwrap_or_default(),
                 ins.text,
@@ -673,6 +677,10 @@ td.n { text-align: right; white-space: nowrap; }
 .cautions p { margin: 2px 0; }
 svg { display: block; }
 .curve svg { max-width: 7.4in; height: auto; }
+.flag { font-weight: bold; font-size: 10.5pt; margin: 1px 0 3px 0; padding: 1px 4px; border: 2px solid #000; white-space: normal; }
+.flag.noherb { background: #000; color: #fff; }
+.siterules { border: 3px solid #000; padding: 4px 8px; margin: 6px 0; font-size: 10pt; }
+.siterules ul { margin: 2px 0 0 16px; padding: 0; }
 .sign { margin-top: 8px; }
 table.stops td { padding: 1px 3px; }
 table.stops td.nw { white-space: nowrap; }
@@ -1005,6 +1013,29 @@ fn report_html(ctx: &Ctx, curve_svg: Option<&str>) -> Result<String> {
     Ok(h)
 }
 
+/// The site's rules in large type above the method: a crew must not miss them.
+fn site_rule_flags(p: &crate::contract::PlannedPatch) -> String {
+    let mut flags = String::new();
+    if p.no_herbicide() {
+        flags.push_str("<div class=\"flag noherb\">NO HERBICIDE ON THIS SITE</div>");
+    }
+    if let Some(r) = p.restriction() {
+        let _ = write!(
+            flags,
+            "<div class=\"flag restricted\">RESTRICTED SITE: {}</div>",
+            escape(r.trim_start_matches("restricted site: "))
+        );
+    }
+    if let Some(w) = p.near_water() {
+        let _ = write!(
+            flags,
+            "<div class=\"flag water\">NEAR WATER: {}</div>",
+            escape(w.trim_start_matches("near water: "))
+        );
+    }
+    flags
+}
+
 fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
     let folder = ctx.folder;
     let _ = write!(
@@ -1023,6 +1054,23 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
         ctx.options.day_hours
     );
     h.push_str(&day_map(ctx, d));
+    let ruled: Vec<String> = d
+        .stops
+        .iter()
+        .enumerate()
+        .filter_map(|(k, s)| {
+            let p = &folder.planned[s.row];
+            (!p.site_notes.is_empty() && p.access != "permission" || p.no_herbicide())
+                .then(|| format!("stop {} ({}): {}", k + 1, escape(&s.patch_id), escape(&p.site_notes)))
+        })
+        .collect();
+    if !ruled.is_empty() {
+        let _ = write!(
+            h,
+            "<div class=\"siterules\"><b>Site rules today:</b><ul><li>{}</li></ul></div>",
+            ruled.join("</li><li>")
+        );
+    }
     let to = gis::ToLonLat::new(&ctx.crs).ok();
     h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
     let mut codes: BTreeSet<String> = BTreeSet::new();
@@ -1060,7 +1108,7 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
             } else {
                 format!(" &middot; {}", escape(&p.parcel))
             },
-            escape(&s.method.replace('_', " ")),
+            format!("{}{}", site_rule_flags(p), escape(&s.method.replace('_', " "))),
             s.stems,
             s.work_hours,
             escape(&getting_in),

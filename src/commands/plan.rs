@@ -29,8 +29,22 @@ pub fn run(settings: &Settings) -> Result<RunReport> {
 
 /// As [`run`], also writing the exact MIP in MPS to `mps` when given.
 pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<RunReport> {
+    if let Some(path) = mps {
+        output::check_new_file(path, "--write-mps")?;
+    }
+    let staging = Staging::new(&settings.out, settings.force, "plan")?;
+    let text = run_into(settings, &staging, mps)?;
+    let out = staging.commit()?;
+    Ok(RunReport { out, text })
+}
+
+/// Plan into a staging folder (not yet committed); returns the text for stdout.
+pub fn run_into(
+    settings: &Settings,
+    staging: &Staging,
+    mps: Option<&std::path::Path>,
+) -> Result<String> {
     let s = &settings.scenario;
-    let staging = Staging::new(&settings.out, settings.force)?;
     let progress = |msg: &str| settings.progress(msg);
     let mut prepared = pipeline::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
@@ -68,7 +82,9 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
             ));
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
-        optimise::write_mps(&problem, &path, optimise::Formulation::Transport)?;
+        output::write_new_file(&path, "--write-mps", |temporary| {
+            optimise::write_mps(&problem, temporary, optimise::Formulation::Transport)
+        })?;
     }
     let solved = match &ensemble {
         Some(e) => e.chosen.clone(),
@@ -103,7 +119,7 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
         plan: &plan,
         eligible,
     };
-    output::write_tables(&staging, &outputs)?;
+    output::write_tables(staging, &outputs)?;
     let mut summary = output::summary(
         &outputs,
         budget,
@@ -141,15 +157,12 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
     staging.write("summary.json", json + "\n")?;
     // The plan folder is self-contained: it keeps the catalogue it used.
     output::write_provenance(
-        &staging,
-        s,
-        &settings.out,
+        staging,
+        &prepared.resolved,
         catalogue_text,
         "Every input and parameter this plan used; repeat it with `hostcut plan --scenario scenario.resolved.toml --out NEW`.",
     )?;
-    let out = staging.commit()?;
-
-    let mut text = human_summary(&summary, &plan, patches, catalogue, &out);
+    let mut text = human_summary(&summary, &plan, patches, catalogue, staging.out());
     if let Some(e) = &ensemble {
         text = text.replacen("\noutputs in", &format!("\n{}outputs in", e.text), 1);
         text = text.replacen(
@@ -163,7 +176,7 @@ pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<Ru
     {
         text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
     }
-    Ok(RunReport { out, text })
+    Ok(text)
 }
 
 /// Why the required patches cannot all be treated: their cheapest methods against the limits.

@@ -71,7 +71,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     } else {
         s.plan.crew_hours.map(|h| vec![h; args.seasons])
     };
-    let staging = Staging::new(&settings.out, settings.force)?;
+    let staging = Staging::new(&settings.out, settings.force, "program")?;
     let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;
     let horizon = Horizon {
@@ -266,11 +266,17 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
             .map_err(|e| Error::Internal(format!("summary: {e}")))?
             + "\n",
     )?;
-    staging.write("cautions.txt", cautions::standing_text())?;
+    staging.write(
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(prepared.patches.water_checked)
+        ),
+    )?;
     output::write_provenance(
         &staging,
-        s,
-        &settings.out,
+        &prepared.resolved,
         &prepared.catalogue_text,
         "Every input and parameter this programme used.",
     )?;
@@ -424,6 +430,7 @@ fn write_season(
             p.site.contact.clone(),
             prepared.pressure.corridors[r.i].join(";"),
             treatments::caution_codes(method, p).join(";"),
+            p.site.notes(),
             match r.visit.action {
                 Action::New => "new".to_string(),
                 Action::FollowUp => "follow-up".to_string(),
@@ -464,6 +471,8 @@ fn write_season(
                 .unwrap_or_default(),
             format!("{}", prepared.suitability[i]),
             format!("{:.4}", host[i]),
+            p.site.water.as_str().to_string(),
+            p.site.notes(),
         ]);
     }
     staging.write(
@@ -486,6 +495,8 @@ fn write_season(
                 "method",
                 "suitability",
                 "host",
+                "water",
+                "site_notes",
             ],
             &patch_rows,
         )?,

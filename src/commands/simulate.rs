@@ -220,7 +220,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             "give one kernel, e.g. `--kernel exp:200`, to simulate each scenario in turn",
         ));
     }
-    let staging = Staging::new(&settings.out, settings.force)?;
+    let staging = Staging::new(&settings.out, settings.force, "simulate")?;
     let progress = |msg: &str| settings.progress(msg);
     let prepared = pipeline::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
