@@ -102,7 +102,7 @@ pub fn standing_text() -> String {
             out.push_str(&format!("[{}] {}\n", c.code, c.text));
         }
     }
-    out.push_str("\nSite codes used in plan.csv:\n");
+    out.push_str("\nSite codes that can appear in plan.csv:\n");
     for c in ALL.iter().filter(|c| !STANDING.contains(&c.code)) {
         out.push_str(&format!("[{}] {}\n", c.code, c.text));
     }

@@ -239,7 +239,7 @@ pub struct PlanArgs {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
-    /// Replace the outputs in a non-empty `--out`
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
     /// Print only errors and the standing cautions
@@ -285,7 +285,7 @@ pub struct ContractArgs {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
-    /// Replace the outputs in a non-empty `--out`
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
 }
@@ -302,7 +302,7 @@ pub struct RecordArgs {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
-    /// Replace the outputs in a non-empty `--out`
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
 }
@@ -474,7 +474,7 @@ pub struct OrdersArgs {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
-    /// Replace the outputs in a non-empty `--out`
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
     /// Crews' depot in the plan's CRS [default: centroid of the treated patches]
@@ -523,7 +523,7 @@ pub struct DemoArgs {
     /// Output folder for the demo's inputs and plan
     #[arg(long, value_name = "DIR", default_value = "demo-out")]
     pub out: PathBuf,
-    /// Replace the outputs in a non-empty `--out`
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
     /// Print only errors and the standing cautions

@@ -324,6 +324,26 @@ fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
 pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
     let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    // An empty file, or a header with no rows, is not "nothing done": the template lists every
+    // planned patch, and work not done is a row with an empty `treated_stems`.
+    let rows = bytes
+        .split(|b| *b == b'\n')
+        .filter(|l| !l.iter().all(u8::is_ascii_whitespace))
+        .count();
+    if rows < 2 {
+        return Err(Error::input_with_hint(
+            format!(
+                "completion file `{}` has no rows{}",
+                path.display(),
+                if rows == 0 {
+                    " (it is empty)"
+                } else {
+                    " below its header"
+                }
+            ),
+            "fill in the plan folder's completion_template.csv: one row per planned patch, `treated_stems` left empty where nothing was done",
+        ));
+    }
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
         .from_reader(bytes);

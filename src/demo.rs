@@ -39,6 +39,26 @@ fn highway() -> Vec<(f64, f64)> {
     ]
 }
 
+/// Hollin Run, a stream crossing the county from north to south (invented).
+fn stream() -> Vec<(f64, f64)> {
+    vec![
+        (X0 + 4_000.0, Y0 + 4_000.0),
+        (X0 + 3_700.0, Y0 + 3_000.0),
+        (X0 + 3_600.0, Y0 + 2_500.0),
+        (X0 + 3_900.0, Y0 + 2_100.0),
+        (X0 + 4_500.0, Y0 + 1_300.0),
+        (X0 + 4_300.0, Y0),
+    ]
+}
+
+/// Sensitive sites (invented): a primary school and a public well.
+fn sensitive_sites() -> Vec<((f64, f64), &'static str)> {
+    vec![
+        ((X0 + 950.0, Y0 + 3_240.0), "Hollin Primary School"),
+        ((X0 + 2_600.0, Y0 + 1_500.0), "Township well no. 2"),
+    ]
+}
+
 fn distance_to_polyline(p: (f64, f64), line: &[(f64, f64)]) -> f64 {
     line.windows(2)
         .map(|w| {
@@ -240,6 +260,16 @@ buffer_m = 300.0
 path = "detections.gpkg"
 weight = 1.0
 
+[[water]]
+path = "water.gpkg"
+buffer_m = 15.0
+name_field = "name"
+
+[[sensitive]]
+path = "sensitive.gpkg"
+buffer_m = 30.0
+name_field = "name"
+
 [model]
 kernel = "exp"
 alpha_m = 200.0
@@ -307,6 +337,31 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
         &name,
         &[(line(highway()), vec![Property::Text("Route 17".into())])],
     )?;
+    gis::write_vector(
+        &dir.join("water.gpkg"),
+        "GPKG",
+        "water",
+        &crs,
+        &name,
+        &[(line(stream()), vec![Property::Text("Hollin Run".into())])],
+    )?;
+    let sites: Vec<_> = sensitive_sites()
+        .into_iter()
+        .map(|((x, y), n)| {
+            (
+                geo::Geometry::Point(Point::new(x, y)),
+                vec![Property::Text(n.into())],
+            )
+        })
+        .collect();
+    gis::write_vector(
+        &dir.join("sensitive.gpkg"),
+        "GPKG",
+        "sensitive",
+        &crs,
+        &name,
+        &sites,
+    )?;
     let fields = [("year", Property::Integer(0))];
     let points: Vec<_> = detections()
         .into_iter()
@@ -339,6 +394,8 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
          - host.tif: tree-of-heaven stems per hectare, 20 m cells, EPSG:32618, nodata = -9999 (a reservoir)\n\
          - parcels.gpkg: 24 parcels with access (open/permission/denied), herbicide (allowed/restricted/prohibited), cost_factor, contact\n\
          - rail.gpkg, highway.gpkg: transport corridors\n\
+         - water.gpkg: Hollin Run, a stream (patches within 15 m get only methods the catalogue allows near water)\n\
+         - sensitive.gpkg: a school and a public well (patches within 30 m are restricted sites)\n\
          - detections.gpkg: known lanternfly populations\n\
          - stands.csv: a point stand inventory of the same county (use with `--inventory stands.csv --crs EPSG:32618`)\n\
          - scenario.toml: the demo plan's settings\n\

@@ -506,7 +506,9 @@ impl VectorLayer {
                     self.field_names.join(", ")
                 }
             ),
-            format!("name the right field with `{flag}` (or in the scenario), or rename the field in the layer"),
+            format!(
+                "name the right field with `{flag}` (or in the scenario), or rename the field in the layer"
+            ),
         ))
     }
 
@@ -558,12 +560,7 @@ fn pick_layer<'a>(
     let spatial: Vec<usize> = dataset
         .layers()
         .enumerate()
-        .filter(|(_, l)| {
-            l.defn()
-                .geom_fields()
-                .next()
-                .is_some()
-        })
+        .filter(|(_, l)| l.defn().geom_fields().next().is_some())
         .map(|(k, _)| k)
         .collect();
     if spatial.len() == 1 {

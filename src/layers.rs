@@ -211,11 +211,8 @@ pub fn load(s: &Scenario) -> Result<Layers> {
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);
         bindings.host_layer = Some(layer.layer_name.clone());
-        bindings.stems_field = Some(layer.require_field(
-            &s.host.stems_field,
-            "host layer",
-            "--stems-field",
-        )?);
+        bindings.stems_field =
+            Some(layer.require_field(&s.host.stems_field, "host layer", "--stems-field")?);
         if let Some(id) = &s.host.id_field {
             bindings.id_field = Some(layer.require_field(id, "host layer", "--id-field")?);
         }
@@ -327,7 +324,10 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             "detections layer",
             "--detections-layer",
         )?;
-        skipped.add("detection_features_without_geometry", layer.without_geometry);
+        skipped.add(
+            "detection_features_without_geometry",
+            layer.without_geometry,
+        );
         bindings.detections_layer = Some(layer.layer_name.clone());
         for f in &layer.features {
             match &f.geometry {
@@ -424,13 +424,16 @@ fn read_site_layer(
         layer_flag,
     )?;
     skipped.add(
-        &format!("{}_features_without_geometry", what.split(' ').next().unwrap_or(what).replace('-', "_")),
+        &format!(
+            "{}_features_without_geometry",
+            what.split(' ').next().unwrap_or(what).replace('-', "_")
+        ),
         layer.without_geometry,
     );
     if layer.features.is_empty() {
         return Err(Error::input_with_hint(
             format!("{what} `{}` has no features", section.path.display()),
-            format!("give a layer with features, or leave it out"),
+            "give a layer with features, or leave it out".to_string(),
         ));
     }
     let buffer_m = section.buffer_m.unwrap_or(default_buffer_m);
@@ -715,7 +718,9 @@ fn read_parcels(
         }
     }
     if field_of("cost_factor").is_none() {
-        notes.push("the access layer has no cost_factor field: cost factor 1 on every parcel".into());
+        notes.push(
+            "the access layer has no cost_factor field: cost factor 1 on every parcel".into(),
+        );
     }
     Ok((parcels, notes))
 }

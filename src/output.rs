@@ -18,18 +18,24 @@ use crate::treatments::Catalogue;
 /// it, and only with a run of the same command, so no user's own folder is ever emptied.
 pub const MARKER: &str = ".hostcut-folder";
 
-/// Test hook (tests/safety.rs): `HOSTCUT_TEST_HOOK=kill:STEP` makes the process kill itself
-/// with SIGKILL at that step of [`Staging::commit`] (`staged`, `swapped`, `moved-old`), and
-/// `no-exchange` forces the two-rename fallback used where the file system cannot swap folders.
+/// Test hook (tests/safety.rs), a comma-separated list: `kill:STEP` makes the process kill
+/// itself with SIGKILL at that step of [`Staging::commit`] (`staged`, `swapped`, `moved-old`),
+/// `pause:STEP` waits there for three seconds (holding the folder's lock), and `no-exchange`
+/// forces the two-rename fallback used where the file system cannot swap folders. Documented in
+/// DEVELOPERS.md; it changes nothing unless set.
 const TEST_HOOK: &str = "HOSTCUT_TEST_HOOK";
 
 fn test_hook_is(value: &str) -> bool {
-    std::env::var(TEST_HOOK).is_ok_and(|v| v == value)
+    std::env::var(TEST_HOOK).is_ok_and(|v| v.split(',').any(|part| part.trim() == value))
 }
 
 fn checkpoint(step: &str) {
+    if test_hook_is(&format!("pause:{step}")) {
+        std::thread::sleep(std::time::Duration::from_secs(3));
+    }
     if test_hook_is(&format!("kill:{step}")) {
-        let _ = rustix::process::kill_process(rustix::process::getpid(), rustix::process::Signal::KILL);
+        let _ =
+            rustix::process::kill_process(rustix::process::getpid(), rustix::process::Signal::KILL);
         // SIGKILL cannot be caught; the process ends here.
         std::thread::sleep(std::time::Duration::from_secs(60));
     }
@@ -346,7 +352,10 @@ pub fn write_new_file(
         std::fs::hard_link(&temporary, path).map_err(|e| {
             if e.kind() == std::io::ErrorKind::AlreadyExists {
                 Error::input_with_hint(
-                    format!("`{flag} {}`: the file appeared while this run was working", path.display()),
+                    format!(
+                        "`{flag} {}`: the file appeared while this run was working",
+                        path.display()
+                    ),
                     "give a new file name",
                 )
             } else {
@@ -395,7 +404,7 @@ pub fn write_provenance(
     staging.write("treatments.used.toml", catalogue_text)?;
     let mut resolved = scenario.clone();
     resolved.plan.treatments = Some(staging.path("treatments.used.toml"));
-    resolved.relative_to(&[staging.dir(), staging.out()]);
+    resolved.relative_to(staging.dir(), staging.out());
     staging.write(
         "scenario.resolved.toml",
         format!("# {header}\n{}", resolved.to_toml()?),

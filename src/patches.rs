@@ -140,7 +140,9 @@ impl Site {
             Herbicide::Prohibited => notes.push("NO HERBICIDE ON THIS SITE".to_string()),
             Herbicide::Restricted => notes.push(format!(
                 "restricted site: herbicide only under the site's conditions ({})",
-                self.restriction.as_deref().unwrap_or("confirm them with the site manager")
+                self.restriction
+                    .as_deref()
+                    .unwrap_or("confirm them with the site manager")
             )),
             Herbicide::Allowed => {}
         }

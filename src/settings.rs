@@ -543,10 +543,12 @@ impl Scenario {
     /// the record and its inputs (a plan folder with its catalogue, the demo with its inputs) can
     /// be moved or copied and still repeats; paths elsewhere stay absolute, so moving the
     /// folder does not lose them.
-    pub fn relative_to(&mut self, folders: &[&Path]) {
+    pub fn relative_to(&mut self, staging: &Path, out: &Path) {
         for p in self.paths_mut() {
-            if let Some(rel) = folders.iter().find_map(|f| p.strip_prefix(f).ok()) {
+            if let Ok(rel) = p.strip_prefix(staging) {
                 *p = rel.to_path_buf();
+            } else if let Some(rel) = relative_path(out, p) {
+                *p = rel;
             }
         }
     }
@@ -556,6 +558,31 @@ impl Scenario {
         toml::to_string_pretty(self)
             .map_err(|e| Error::Internal(format!("cannot write the resolved scenario: {e}")))
     }
+}
+
+/// `to` as a path relative to the folder `from` (both absolute), when they share a folder below
+/// the file-system root: a project folder holding its inputs and its plan folders can then be
+/// moved or copied whole. Paths with nothing in common but the root stay absolute.
+fn relative_path(from: &Path, to: &Path) -> Option<PathBuf> {
+    use std::path::Component;
+    if !(from.is_absolute() && to.is_absolute()) {
+        return None;
+    }
+    let a: Vec<Component> = from.components().collect();
+    let b: Vec<Component> = to.components().collect();
+    let common = a.iter().zip(&b).take_while(|(x, y)| x == y).count();
+    // Only the root (and, on some systems, a prefix) in common: keep the absolute path.
+    if common <= 1 {
+        return None;
+    }
+    let mut rel = PathBuf::new();
+    for _ in common..a.len() {
+        rel.push("..");
+    }
+    for c in &b[common..] {
+        rel.push(c.as_os_str());
+    }
+    Some(rel)
 }
 
 /// Merge flags over the scenario file over defaults, and validate (a budget is required).
@@ -625,7 +652,11 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
         ("parcel", &args.parcel_field, "--parcel-field"),
         ("access", &args.access_field, "--access-field"),
         ("herbicide", &args.herbicide_field, "--herbicide-field"),
-        ("cost_factor", &args.cost_factor_field, "--cost-factor-field"),
+        (
+            "cost_factor",
+            &args.cost_factor_field,
+            "--cost-factor-field",
+        ),
         ("contact", &args.contact_field, "--contact-field"),
     ];
     for (rule, value, flag) in field_flags {
@@ -634,7 +665,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
             Some(slot) => *slot = Some(value.trim().to_string()),
             None => {
                 return Err(Error::input_with_hint(
-                    format!("`{flag}` names a field of the access layer, but no access layer is given"),
+                    format!(
+                        "`{flag}` names a field of the access layer, but no access layer is given"
+                    ),
                     "add `--access parcels.gpkg` (or `[access]` in the scenario)",
                 ));
             }
@@ -949,7 +982,9 @@ fn per_layer<T: Clone>(values: &[T], n: usize, flag: &str, layer_flag: &str) -> 
         m if m == n => Ok(values.to_vec()),
         m => Err(Error::input_with_hint(
             format!("{m} values of `{flag}` for {n} `{layer_flag}` layers"),
-            format!("give one `{flag}` for all of them or one per `{layer_flag}`, in the same order"),
+            format!(
+                "give one `{flag}` for all of them or one per `{layer_flag}`, in the same order"
+            ),
         )),
     }
 }

@@ -86,8 +86,8 @@ impl Method {
     pub fn allowed_on(&self, site: &Site) -> bool {
         site.access != Access::Denied
             && !(self.herbicide && site.herbicide == Herbicide::Prohibited)
-            && !(matches!(site.water, Water::Near(_)) && !self.allowed_near_water())
-            && !(site.herbicide == Herbicide::Restricted && !self.allowed_at_restricted_sites())
+            && (!matches!(site.water, Water::Near(_)) || self.allowed_near_water())
+            && (site.herbicide != Herbicide::Restricted || self.allowed_at_restricted_sites())
     }
 }
 

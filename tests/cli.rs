@@ -235,7 +235,11 @@ fn non_empty_out_is_refused_without_force() {
     // left exactly as it was (issue 18).
     let o = plan(dir.path(), &[&args[..], &["--force"]].concat());
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    assert!(stderr(&o).contains("not written by hostcut"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("not written by hostcut"),
+        "{}",
+        stderr(&o)
+    );
     assert!(dir.path().join("out/keep.txt").exists() && !dir.path().join("out/plan.csv").exists());
     // An earlier plan folder is replaced whole: nothing of the earlier run survives.
     std::fs::remove_dir_all(dir.path().join("out")).unwrap();

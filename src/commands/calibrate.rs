@@ -222,6 +222,56 @@ fn opt(v: Option<f64>) -> String {
     v.map(|x| format!("{x:.6}")).unwrap_or_default()
 }
 
+/// Move survey points into the patches' CRS. A point the projection cannot take (metre
+/// coordinates read as degrees, say) is an input error naming the file and the line.
+fn reproject_surveys(
+    file: &std::path::Path,
+    def: &str,
+    from: &str,
+    to: &str,
+    pts: &[(f64, f64)],
+    lines: &[usize],
+) -> Result<Vec<(f64, f64)>> {
+    let bad = |i: usize| {
+        let (x, y) = pts[i];
+        Error::input_with_hint(
+            format!(
+                "surveys `{}`, line {}: x {x}, y {y} cannot be moved from `{def}` into the patches' CRS",
+                file.display(),
+                lines[i]
+            ),
+            "check `--surveys-crs`: lon/lat surveys are EPSG:4326 (x = longitude, y = latitude); metre coordinates need the projected CRS they were taken in",
+        )
+    };
+    let moved = match gis::transform_points(from, to, pts) {
+        Ok(m) => m,
+        Err(Error::Internal(_)) => {
+            // Find the first point that fails, to name its line.
+            for (i, p) in pts.iter().enumerate() {
+                if !matches!(gis::transform_points(from, to, &[*p]), Ok(m) if m[0].0.is_finite() && m[0].1.is_finite())
+                {
+                    return Err(bad(i));
+                }
+            }
+            return Err(Error::input_with_hint(
+                format!(
+                    "surveys `{}`: cannot be moved from `{def}` into the patches' CRS",
+                    file.display()
+                ),
+                "check `--surveys-crs`",
+            ));
+        }
+        Err(e) => return Err(e),
+    };
+    if let Some(i) = moved
+        .iter()
+        .position(|p| !(p.0.is_finite() && p.1.is_finite()))
+    {
+        return Err(bad(i));
+    }
+    Ok(moved)
+}
+
 pub fn run(args: &CalibrateArgs) -> Result<String> {
     let mut inputs = args.inputs.clone();
     let mut surveys_crs = args.surveys_crs.clone();
@@ -257,7 +307,14 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
             })
         })?;
         let pts: Vec<(f64, f64)> = surveys.iter().map(|s| (s.x, s.y)).collect();
-        let moved = gis::transform_points(&from.wkt, &crs.wkt, &pts)?;
+        let moved = reproject_surveys(
+            &args.surveys,
+            def,
+            &from.wkt,
+            &crs.wkt,
+            &pts,
+            &surveys.iter().map(|s| s.line).collect::<Vec<_>>(),
+        )?;
         for (s, p) in surveys.iter_mut().zip(moved) {
             s.x = p.0;
             s.y = p.1;

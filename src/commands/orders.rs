@@ -144,6 +144,9 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
         }
         (None, None) => None,
     };
+    // A depot is a yard, not a survey mark: to the centimetre, so the same place given as x,y
+    // or as lon/lat (a round trip through PROJ moves it by micrometres) gives the same orders.
+    let depot = depot.map(|(x, y)| ((x * 100.0).round() / 100.0, (y * 100.0).round() / 100.0));
     let workdays = Workdays::parse(&args.workdays).ok_or_else(|| {
         Error::input_with_hint(
             format!("`--workdays {}` names no days of the week", args.workdays),
@@ -1060,8 +1063,14 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
         .enumerate()
         .filter_map(|(k, s)| {
             let p = &folder.planned[s.row];
-            (!p.site_notes.is_empty() && p.access != "permission" || p.no_herbicide())
-                .then(|| format!("stop {} ({}): {}", k + 1, escape(&s.patch_id), escape(&p.site_notes)))
+            (!p.site_notes.is_empty() && p.access != "permission" || p.no_herbicide()).then(|| {
+                format!(
+                    "stop {} ({}): {}",
+                    k + 1,
+                    escape(&s.patch_id),
+                    escape(&p.site_notes)
+                )
+            })
         })
         .collect();
     if !ruled.is_empty() {
@@ -1108,7 +1117,11 @@ fn day_page(ctx: &Ctx, d: &CrewDay, h: &mut String) {
             } else {
                 format!(" &middot; {}", escape(&p.parcel))
             },
-            format!("{}{}", site_rule_flags(p), escape(&s.method.replace('_', " "))),
+            format!(
+                "{}{}",
+                site_rule_flags(p),
+                escape(&s.method.replace('_', " "))
+            ),
             s.stems,
             s.work_hours,
             escape(&getting_in),

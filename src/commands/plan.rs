@@ -444,6 +444,9 @@ fn human_summary(
     );
     t.push('\n');
     t.push_str(&cautions::standing_text());
+    t.push('\n');
+    t.push_str(cautions::site_check_text(patches.water_checked));
+    t.push('\n');
     t
 }
 

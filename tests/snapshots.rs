@@ -1,0 +1,124 @@
+//! The demo's outputs, byte for byte: a guard for refactors that must not change behaviour.
+//! The expected files are in `tests/snapshots/`; after a deliberate change of an output,
+//! remake them with `HOSTCUT_UPDATE_SNAPSHOTS=1 cargo test --release --test snapshots` and
+//! read the diff before committing it.
+//!
+//! Only the measured solve time (`solve_seconds` in summary.json, "N s" in text) varies between
+//! runs; it is masked. Dates are fixed with `--start-date`.
+
+mod common;
+
+use std::path::Path;
+
+use common::*;
+
+/// Mask what legitimately varies between runs: measured seconds.
+fn masked(name: &str, bytes: Vec<u8>) -> Vec<u8> {
+    let Ok(text) = String::from_utf8(bytes.clone()) else {
+        return bytes;
+    };
+    let mut out = String::with_capacity(text.len());
+    for line in text.split_inclusive('\n') {
+        if name.ends_with(".json") && line.contains("\"solve_seconds\"") {
+            let indent: String = line.chars().take_while(|c| c.is_whitespace()).collect();
+            let comma = if line.trim_end().ends_with(',') {
+                ","
+            } else {
+                ""
+            };
+            out.push_str(&format!("{indent}\"solve_seconds\": \"(masked)\"{comma}\n"));
+        } else {
+            out.push_str(line);
+        }
+    }
+    out.into_bytes()
+}
+
+fn check(folder: &Path, files: &[&str], snapshot: &str) {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/snapshots")
+        .join(snapshot);
+    let update = std::env::var_os("HOSTCUT_UPDATE_SNAPSHOTS").is_some();
+    let mut differ = Vec::new();
+    for f in files {
+        let got = masked(
+            f,
+            std::fs::read(folder.join(f)).unwrap_or_else(|e| panic!("{f}: {e}")),
+        );
+        let path = dir.join(f);
+        if update {
+            std::fs::create_dir_all(&dir).unwrap();
+            std::fs::write(&path, &got).unwrap();
+            continue;
+        }
+        let want = std::fs::read(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        if want != got {
+            differ.push(f.to_string());
+        }
+    }
+    assert!(
+        differ.is_empty(),
+        "outputs differ from tests/snapshots/{snapshot}: {differ:?} (remake with HOSTCUT_UPDATE_SNAPSHOTS=1 if the change is meant)"
+    );
+}
+
+#[test]
+fn the_demo_outputs_are_unchanged() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let o = run(d, &["demo", "--out", "demo", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("demo"),
+        &[
+            "plan.csv",
+            "patches.csv",
+            "plan.geojson",
+            "summary.json",
+            "cautions.txt",
+            "scenario.resolved.toml",
+            "treatments.used.toml",
+        ],
+        "plan",
+    );
+    let o = run(
+        d,
+        &[
+            "orders",
+            "--plan",
+            "demo",
+            "--out",
+            "orders",
+            "--start-date",
+            "2027-04-01",
+            "--crews",
+            "2",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("orders"),
+        &[
+            "orders.csv",
+            "orders.json",
+            "orders.geojson",
+            "report.html",
+            "cautions.txt",
+        ],
+        "orders",
+    );
+    let o = run(d, &["contract", "--plan", "demo", "--out", "bid"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("bid"),
+        &[
+            "bid_schedule.csv",
+            "completion_template.csv",
+            "scope_of_work.md",
+            "scope_of_work.html",
+            "cautions.txt",
+        ],
+        "contract",
+    );
+}
