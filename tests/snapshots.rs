@@ -47,7 +47,7 @@ fn check(folder: &Path, files: &[&str], snapshot: &str) {
         );
         let path = dir.join(f);
         if update {
-            std::fs::create_dir_all(&dir).unwrap();
+            std::fs::create_dir_all(path.parent().unwrap()).unwrap();
             std::fs::write(&path, &got).unwrap();
             continue;
         }
@@ -120,5 +120,121 @@ fn the_demo_outputs_are_unchanged() {
             "cautions.txt",
         ],
         "contract",
+    );
+    let o = run(
+        d,
+        &[
+            "curve",
+            "--plan",
+            "demo",
+            "--budgets",
+            "10000,20000",
+            "--out",
+            "curve",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("curve"),
+        &[
+            "curve.csv",
+            "curve.svg",
+            "justification.md",
+            "justification.html",
+            "cautions.txt",
+            "scenario.resolved.toml",
+        ],
+        "curve",
+    );
+    let o = run(
+        d,
+        &[
+            "simulate", "--plan", "demo", "--runs", "50", "--years", "5", "--out", "sim", "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("sim"),
+        &[
+            "sim.csv",
+            "sim.json",
+            "sim.svg",
+            "patch_occupancy.csv",
+            "cautions.txt",
+        ],
+        "simulate",
+    );
+    let surveys = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-inputs/surveys.csv");
+    let o = run(
+        d,
+        &[
+            "calibrate",
+            "--plan",
+            "demo",
+            "--surveys",
+            surveys.to_str().unwrap(),
+            "--out",
+            "cal",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    check(
+        &d.join("cal"),
+        &[
+            "calibration.csv",
+            "calibration.toml",
+            "likelihood.svg",
+            "surveys_assigned.csv",
+            "unassigned_surveys.csv",
+            "cautions.txt",
+        ],
+        "calibrate",
+    );
+}
+
+/// `program` on the demo's stand inventory (the raster demo's course MIP runs to the time
+/// limit, so its plan would depend on the machine's speed).
+#[test]
+fn the_demo_inventory_program_is_unchanged() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let stands = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-inputs/stands.csv");
+    let o = run(
+        d,
+        &[
+            "program",
+            "--inventory",
+            stands.to_str().unwrap(),
+            "--crs",
+            "EPSG:32618",
+            "--seasons",
+            "2",
+            "--budgets",
+            "8000,4000",
+            "--out",
+            "prog",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let s = summary(&d.join("prog"));
+    assert_ne!(
+        s["status"], "time_limit",
+        "the snapshot needs a run that ends on its own"
+    );
+    check(
+        &d.join("prog"),
+        &[
+            "program.csv",
+            "program.svg",
+            "summary.json",
+            "cautions.txt",
+            "scenario.resolved.toml",
+            "season_1/plan.csv",
+            "season_2/plan.csv",
+        ],
+        "program",
     );
 }
