@@ -142,6 +142,20 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
             "check the suitability layer covers the programme area with values above 0",
         ));
     }
+    // Patches with no host the insect can establish on (suitability 0, or 0 stems) carry no
+    // risk: they stay in patches.csv with risk 0, their links leave the model, and no budget
+    // is spent on them unless they are required.
+    let without_host = host.iter().filter(|&&h| h <= 0.0).count();
+    if without_host > 0 {
+        for (i, &h) in host.iter().enumerate() {
+            if h <= 0.0 && !required[i] {
+                excluded[i] = true;
+            }
+        }
+        eprintln!(
+            "note: {without_host} patches have no host the insect can establish on (suitability 0 or 0 stems): kept in patches.csv with risk 0, not planned for treatment unless required"
+        );
+    }
     let model = RiskModel::new(&host, &pressure.values, &graph);
     progress(&format!(
         "{} links within the kernel cutoff ({:.0} m)",
