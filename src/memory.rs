@@ -53,7 +53,8 @@ pub const BYTES_PER_OUTLINE_PIECE: f64 = 5_000.0;
 pub const UNION_BYTES_PER_RUN: f64 = 10_000.0;
 
 /// Peak bytes per link over a whole `plan` run (edge, model link, adjacency both ways,
-/// relaxation and search state). Measured: 173 B per link between 1.0 and 3.9 million links.
+/// relaxation and search state). Measured: 141 B per link between 1.0 and 3.9 million links
+/// (173 B before the edge list was sized by the counting pass).
 pub const BYTES_PER_LINK: f64 = 200.0;
 
 /// Labeller bytes per run of host cells in one row: the run with its provisional label, then
