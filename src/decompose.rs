@@ -128,7 +128,8 @@ pub fn frontier(problem: &Problem, members: &[usize]) -> Vec<Point> {
     for (k, &i) in members.iter().enumerate() {
         local.insert(i, k);
     }
-    // Links inside the component, by local index.
+    // Links inside the component, by local index. A link of weight 0 does not join
+    // components, so its other end may lie outside; it adds nothing to R and is skipped.
     let links: Vec<(usize, usize, f64)> = members
         .iter()
         .flat_map(|&i| {
@@ -136,7 +137,9 @@ pub fn frontier(problem: &Problem, members: &[usize]) -> Vec<Point> {
             model.adjacency[i]
                 .iter()
                 .filter(move |&&(j, _)| j > i)
-                .map(move |&(j, l)| (local[&i], local[&j], model.links[l].weight))
+                .filter_map(move |&(j, l)| {
+                    Some((local[&i], *local.get(&j)?, model.links[l].weight))
+                })
         })
         .collect();
     let hours_limit = problem.crew_hours.unwrap_or(f64::INFINITY);

@@ -1,6 +1,7 @@
 //! The patch graph: which patches can exchange insects (links found with an R*-tree, never by
 //! testing all pairs), the kernel weight of each link, and each patch's introduction pressure
-//! from corridors and detections.
+//! from corridors and detections. Links are counted before any is stored, so a graph too large
+//! for the memory budget is refused before it is built ([`build_graph_within`]).
 //!
 //! # Units
 //! Distances in metres between stem-weighted centroids (working CRS); the kernel is
@@ -11,7 +12,9 @@ use rstar::primitives::{GeomWithData, Line as RLine};
 use rstar::{AABB, RTree};
 
 use crate::cli::KernelKind;
+use crate::error::Result;
 use crate::layers::Corridor;
+use crate::memory::{Budget, LinkCount, RasterCost};
 use crate::patches::{PatchId, Patches};
 
 /// A dispersal kernel k(d) with k(0) = 1.
@@ -77,43 +80,156 @@ impl PatchGraph {
     }
 }
 
-/// Link every pair of points whose kernel value is at least `epsilon`.
-pub fn build_graph(points: &[(f64, f64)], kernel: Kernel, epsilon: f64) -> PatchGraph {
-    let tree = RTree::bulk_load(
-        points
-            .iter()
-            .enumerate()
-            .map(|(i, &(x, y))| GeomWithData::new([x, y], i))
-            .collect(),
-    );
-    // Query slightly past the cutoff and test k itself, so rounding never drops a link.
-    let radius = kernel.cutoff(epsilon) * (1.0 + 1e-9) + 1e-9;
-    let mut edges = Vec::new();
-    for (i, &(x, y)) in points.iter().enumerate() {
-        let mut near: Vec<usize> = tree
-            .locate_within_distance([x, y], radius * radius)
-            .map(|g| g.data)
-            .filter(|&j| j > i)
-            .collect();
-        near.sort_unstable();
-        for j in near {
-            let (xj, yj) = points[j];
+/// Finds the links between points: an R*-tree over them, queried once per point to count the
+/// links (without storing any) and once more to build them.
+pub struct LinkFinder<'a> {
+    points: &'a [(f64, f64)],
+    tree: RTree<GeomWithData<[f64; 2], usize>>,
+    kernel: Kernel,
+    epsilon: f64,
+    /// Query radius: slightly past the cutoff, so rounding never drops a link (k itself decides).
+    radius: f64,
+}
+
+impl<'a> LinkFinder<'a> {
+    pub fn new(points: &'a [(f64, f64)], kernel: Kernel, epsilon: f64) -> LinkFinder<'a> {
+        let tree = RTree::bulk_load(
+            points
+                .iter()
+                .enumerate()
+                .map(|(i, &(x, y))| GeomWithData::new([x, y], i))
+                .collect(),
+        );
+        LinkFinder {
+            points,
+            tree,
+            kernel,
+            epsilon,
+            radius: kernel.cutoff(epsilon) * (1.0 + 1e-9) + 1e-9,
+        }
+    }
+
+    /// The links of point `i` to points `j > i`, as (j, distance, kernel), in order of j.
+    fn links_of(&self, i: usize, mut each: impl FnMut(usize, f64, f64)) {
+        let (x, y) = self.points[i];
+        for g in self
+            .tree
+            .locate_within_distance([x, y], self.radius * self.radius)
+        {
+            let j = g.data;
+            if j <= i {
+                continue;
+            }
+            let (xj, yj) = self.points[j];
             let d = ((x - xj).powi(2) + (y - yj).powi(2)).sqrt();
-            let k = kernel.value(d);
-            if k >= epsilon {
-                edges.push(Edge {
-                    a: PatchId(i as u32),
-                    b: PatchId(j as u32),
-                    distance: d,
-                    kernel: k,
-                });
+            let k = self.kernel.value(d);
+            if k >= self.epsilon {
+                each(j, d, k);
             }
         }
     }
-    PatchGraph {
-        n: points.len(),
-        edges,
+
+    /// Count the links without storing one. Points are visited in a scattered order (a stride
+    /// coprime with n), so once more than `stop_above` links are certain the pass stops and
+    /// extrapolates from the points visited: each link is found from its lower end, so the
+    /// visited share of points finds about that share of links.
+    pub fn count(&self, stop_above: usize) -> LinkCount {
+        let n = self.points.len();
+        let stride = scatter_stride(n);
+        let mut found = 0usize;
+        for visited in 0..n {
+            let i = ((visited as u128 * stride as u128) % n as u128) as usize;
+            self.links_of(i, |_, _, _| found += 1);
+            if found > stop_above && visited + 1 < n {
+                let estimate = found as f64 * n as f64 / (visited + 1) as f64;
+                return LinkCount {
+                    links: (estimate.round() as usize).max(found),
+                    exact: false,
+                    visited: visited + 1,
+                    at_least: found,
+                };
+            }
+        }
+        LinkCount {
+            links: found,
+            exact: true,
+            visited: n,
+            at_least: found,
+        }
     }
+
+    /// Build the graph, its edge list allocated once at `capacity` (the counted links).
+    pub fn build(&self, capacity: usize) -> PatchGraph {
+        let mut edges = Vec::with_capacity(capacity);
+        let mut near: Vec<(usize, f64, f64)> = Vec::new();
+        for i in 0..self.points.len() {
+            near.clear();
+            self.links_of(i, |j, d, k| near.push((j, d, k)));
+            near.sort_unstable_by_key(|l| l.0);
+            edges.extend(near.iter().map(|&(j, distance, kernel)| Edge {
+                a: PatchId(i as u32),
+                b: PatchId(j as u32),
+                distance,
+                kernel,
+            }));
+        }
+        PatchGraph {
+            n: self.points.len(),
+            edges,
+        }
+    }
+}
+
+/// A stride near n / golden ratio and coprime with n: visiting k * stride mod n for k = 0..n
+/// reaches every point once, spread over the whole list.
+fn scatter_stride(n: usize) -> usize {
+    if n <= 2 {
+        return 1;
+    }
+    fn gcd(a: usize, b: usize) -> usize {
+        if b == 0 { a } else { gcd(b, a % b) }
+    }
+    let mut s = ((n as f64) * 0.618_033_988_75).round() as usize;
+    s = s.clamp(1, n - 1);
+    while gcd(s, n) != 1 {
+        s += 1;
+    }
+    s
+}
+
+/// Link every pair of points whose kernel value is at least `epsilon` (no memory check: for
+/// small landscapes and tests; planning goes through [`build_graph_within`]).
+pub fn build_graph(points: &[(f64, f64)], kernel: Kernel, epsilon: f64) -> PatchGraph {
+    let finder = LinkFinder::new(points, kernel, epsilon);
+    let count = finder.count(usize::MAX);
+    finder.build(count.links)
+}
+
+/// [`build_graph`] after a counting pass: refused (exit 2) before any link is stored when the
+/// links exceed [`crate::memory::MAX_LINKS`] or, with the patches, the memory budget. `what`
+/// names the graph in the message; `raster` and `suitability` say what else the run
+/// holds.
+pub fn build_graph_within(
+    points: &[(f64, f64)],
+    kernel: Kernel,
+    epsilon: f64,
+    budget: &Budget,
+    what: &str,
+    raster: RasterCost,
+    suitability: bool,
+) -> Result<PatchGraph> {
+    let finder = LinkFinder::new(points, kernel, epsilon);
+    let allowed = budget.links_allowed(points.len(), raster, suitability);
+    let count = finder.count(allowed);
+    budget.check_links(
+        what,
+        count,
+        points.len(),
+        raster,
+        suitability,
+        kernel.cutoff(epsilon),
+    )?;
+    Ok(finder.build(count.links))
 }
 
 /// Introduction pressure of each patch and the corridors within reach of it.

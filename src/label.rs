@@ -13,6 +13,8 @@
 //! Values are stems per hectare; cells are counted; positions are (column, row) in cell units
 //! from the raster's corner, converted to the working CRS by the caller.
 
+use crate::memory::Labelling;
+
 /// A run of host cells in one row: columns `c0..c1` (end exclusive).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Run {
@@ -80,6 +82,8 @@ pub struct Labeller {
     /// Every run with its provisional label, in row-major order.
     runs: Vec<(Run, u32)>,
     max_value: f64,
+    /// Components so far (provisional labels less the merges between them).
+    roots: usize,
 }
 
 impl Labeller {
@@ -96,6 +100,7 @@ impl Labeller {
             sums: Vec::new(),
             runs: Vec::new(),
             max_value: f64::NAN,
+            roots: 0,
         }
     }
 
@@ -112,8 +117,21 @@ impl Labeller {
         let (a, b) = (self.find(a), self.find(b));
         if a != b {
             self.parent[a.max(b) as usize] = a.min(b);
+            self.roots -= 1;
         }
         a.min(b)
+    }
+
+    /// What the labeller holds after the rows pushed so far, for the memory budget. `closed`
+    /// counts the components no later row can reach: only a component with a run in the last
+    /// row can still grow or merge.
+    pub fn held(&self) -> Labelling {
+        Labelling {
+            rows: self.row,
+            runs: self.runs.len(),
+            labels: self.parent.len(),
+            closed: self.roots.saturating_sub(self.current.len()),
+        }
     }
 
     /// The largest finite value seen so far (NaN if none).
@@ -199,6 +217,7 @@ impl Labeller {
                 None => {
                     let l = self.parent.len() as u32;
                     self.parent.push(l);
+                    self.roots += 1;
                     self.sums.push(Sums {
                         cells: 0,
                         sum: 0.0,

@@ -10,6 +10,7 @@ use geo::{BoundingRect, Intersects, MultiLineString, MultiPolygon, Point, Rect};
 
 use crate::error::{Error, Result};
 use crate::gis::{self, Crs, RasterFile, VectorLayer};
+use crate::memory::Budget;
 use crate::patches::{Access, Herbicide, Site};
 use crate::settings::{self, NO_FIELD, Scenario, SiteLayerSection};
 
@@ -173,8 +174,9 @@ pub struct Layers {
     pub bindings: Bindings,
 }
 
-/// Read every layer the scenario names.
-pub fn load(s: &Scenario) -> Result<Layers> {
+/// Read every layer the scenario names; a host raster too large for `budget` is refused from
+/// its header.
+pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
     let assume = match &s.host.assume_crs {
         Some(def) => Some(Crs::parse(def, "`--assume-crs`")?),
         None => None,
@@ -201,7 +203,7 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             assume.as_ref(),
             &s.host.stems_field,
             s.host.id_field.as_deref(),
-            s.solver.max_memory_gb,
+            budget,
         )?
     };
     let host_extent = host_extent(&host);
@@ -482,7 +484,7 @@ fn open_host(
     assume: Option<&Crs>,
     stems_field: &str,
     id_field: Option<&str>,
-    max_gb: f64,
+    budget: &Budget,
 ) -> Result<(Crs, Host)> {
     if !path.exists() {
         return Err(Error::input_with_hint(
@@ -493,7 +495,7 @@ fn open_host(
     let dataset = gdal::Dataset::open(path).map_err(|e| Error::gdal("open", path, e))?;
     if dataset.raster_count() > 0 {
         drop(dataset);
-        let raster = gis::open_raster(path, assume, max_gb)?;
+        let raster = gis::open_raster(path, assume, budget)?;
         return Ok((raster.crs.clone(), Host::Raster(raster)));
     }
     if dataset.layer_count() == 0 {

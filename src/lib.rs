@@ -23,6 +23,7 @@ pub mod graph;
 pub mod label;
 pub mod layers;
 pub mod map;
+pub mod memory;
 pub mod model;
 pub mod optimise;
 pub mod orders;
@@ -49,6 +50,7 @@ pub fn run(cli: Cli) -> Result<String> {
     // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
     // default handler from printing them a second time.
     gdal::config::set_error_handler(|_, _, _| {});
+    memory::cap_gdal_cache();
     progress::init(match &cli.command {
         Command::Plan(a) => a.inputs.quiet,
         Command::Curve(a) => a.inputs.quiet,

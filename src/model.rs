@@ -45,14 +45,17 @@ pub struct Capacity {
 }
 
 impl RiskModel {
-    /// Build from stems, pressure and the graph.
+    /// Build from stems, pressure and the graph. Links to a patch without host (share 0:
+    /// suitability 0 or no stems) carry nothing in R, lambda_M or the simulation and are left
+    /// out, so the link indices here are not the graph's.
     pub fn new(stems: &[f64], pressure: &[f64], graph: &PatchGraph) -> RiskModel {
         let total: f64 = stems.iter().sum();
         let share: Vec<f64> = stems.iter().map(|s| s / total).collect();
         let own = share.iter().zip(pressure).map(|(a, p)| p * a * a).collect();
-        let links = graph
+        let links: Vec<Link> = graph
             .edges
             .iter()
+            .filter(|e| share[e.a.index()] > 0.0 && share[e.b.index()] > 0.0)
             .map(|e| {
                 let (a, b) = (e.a.index(), e.b.index());
                 Link {
@@ -63,12 +66,17 @@ impl RiskModel {
                 }
             })
             .collect();
+        let mut adjacency = vec![Vec::new(); share.len()];
+        for (k, l) in links.iter().enumerate() {
+            adjacency[l.a].push((l.b, k));
+            adjacency[l.b].push((l.a, k));
+        }
         RiskModel {
             share,
             pressure: pressure.to_vec(),
             own,
             links,
-            adjacency: graph.adjacency(),
+            adjacency,
         }
     }
 

@@ -459,6 +459,9 @@ pub struct Summary {
     pub ensemble: Option<serde_json::Value>,
     /// Cells, features and patches skipped while reading, by reason.
     pub skipped: crate::layers::Skipped,
+    /// Patches kept with no host the insect can establish on (suitability 0 or 0 stems): risk
+    /// 0, not planned for treatment unless required (patches.csv lists them).
+    pub patches_without_host: usize,
     /// How the site rules were read and checked.
     pub site_rules: SiteRules,
 }
@@ -790,6 +793,13 @@ pub fn summary(
         suitability_layer: None,
         ensemble: None,
         skipped: o.patches.skipped.clone(),
+        patches_without_host: o
+            .patches
+            .items
+            .iter()
+            .zip(o.suitability)
+            .filter(|(p, s)| p.stems * **s <= 0.0)
+            .count(),
         site_rules: SiteRules::of(o.patches),
     }
 }

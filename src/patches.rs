@@ -17,6 +17,7 @@ use crate::error::{Error, Result};
 use crate::gis::{self, Crs, Frame, Grid};
 use crate::label::{Blob, Labeller, Rules, Run};
 use crate::layers::{Host, Layers, Parcel, SiteFeature, Skipped, Stand};
+use crate::memory::{Budget, RasterCost};
 use crate::settings::HostSection;
 
 /// Dense index of a patch, 0..n, shared by every stage after this one.
@@ -255,11 +256,34 @@ pub fn label_strips(
     frame: &Frame,
     options: LabelOptions,
     strip: usize,
+    read: impl FnMut(usize, usize) -> Result<(Vec<f32>, Vec<u32>)>,
+) -> Result<(Vec<Blob>, usize, f64)> {
+    label_strips_within(
+        frame,
+        options,
+        strip,
+        &Budget::unlimited(),
+        "host raster",
+        read,
+    )
+}
+
+/// [`label_strips`], checking after every strip that what the labeller holds stays within
+/// `budget` and that fewer than [`crate::memory::MAX_PATCHES`] patches are certain
+/// ([`Budget::check_labelling`]); `what` names the raster in the refusal.
+pub fn label_strips_within(
+    frame: &Frame,
+    options: LabelOptions,
+    strip: usize,
+    budget: &Budget,
+    what: &str,
     mut read: impl FnMut(usize, usize) -> Result<(Vec<f32>, Vec<u32>)>,
 ) -> Result<(Vec<Blob>, usize, f64)> {
     let (w, h) = (frame.width, frame.height);
     let cell_ha = frame.cell_area_ha();
     let mut labeller = Labeller::new(w, options.rules(cell_ha));
+    // Every component has a cell, so closed components are kept patches unless slivers go.
+    let closed_are_kept = options.min_patch_ha <= cell_ha;
     let strip = strip.max(1);
     let mut row0 = 0;
     let bar = crate::progress::Stage::bar("labelling host cells", h as u64, "rows");
@@ -276,6 +300,11 @@ pub fn label_strips(
             labeller.push_row(&values[r * w..(r + 1) * w], parcels);
         }
         row0 += rows;
+        let mut held = labeller.held();
+        if !closed_are_kept {
+            held.closed = 0;
+        }
+        budget.check_labelling(what, held, w, h)?;
     }
     let max = labeller.max_value();
     let mut blobs = labeller.finish();
@@ -310,6 +339,59 @@ pub fn label_cells(
     (blobs, dropped)
 }
 
+/// The polygons the outline of a component will have: its runs (in row-major order) joined
+/// where they share an edge, as the union in [`outline`] joins them (runs touching only at a
+/// corner stay apart).
+pub fn outline_pieces(runs: &[Run]) -> usize {
+    fn find(parent: &mut [usize], mut i: usize) -> usize {
+        while parent[i] != i {
+            parent[i] = parent[parent[i]];
+            i = parent[i];
+        }
+        i
+    }
+    let mut parent: Vec<usize> = (0..runs.len()).collect();
+    let mut pieces = runs.len();
+    // The previous row's runs and this row's, as index ranges into `runs`.
+    let (mut previous, mut start) = (0..0, 0);
+    while start < runs.len() {
+        let row = runs[start].row;
+        let end = start + runs[start..].partition_point(|r| r.row == row);
+        if previous.end > previous.start && runs[previous.start].row + 1 == row {
+            let mut p = previous.start;
+            for k in start..end {
+                // Previous runs that end before this one starts can touch no later run.
+                while p < previous.end && runs[p].c1 <= runs[k].c0 {
+                    p += 1;
+                }
+                let mut q = p;
+                while q < previous.end && runs[q].c0 < runs[k].c1 {
+                    let (a, b) = (find(&mut parent, q), find(&mut parent, k));
+                    if a != b {
+                        parent[a.max(b)] = a.min(b);
+                        pieces -= 1;
+                    }
+                    q += 1;
+                }
+            }
+        }
+        previous = start..end;
+        start = end;
+    }
+    pieces
+}
+
+/// The memory cost of raster patches with these runs ([`RasterCost`]).
+pub fn raster_cost<'a>(runs: impl IntoIterator<Item = &'a Vec<Run>>) -> RasterCost {
+    let mut cost = RasterCost::default();
+    for r in runs {
+        cost.runs += r.len();
+        cost.pieces += outline_pieces(r);
+        cost.largest_runs = cost.largest_runs.max(r.len());
+    }
+    cost
+}
+
 /// The outline of a component: the union of its row runs.
 pub fn outline(frame: &Frame, runs: &[Run]) -> MultiPolygon<f64> {
     let polygons: Vec<Polygon<f64>> = runs
@@ -341,20 +423,9 @@ pub fn outline(frame: &Frame, runs: &[Run]) -> MultiPolygon<f64> {
 }
 
 /// Rows per strip for the streaming read: a multiple of GDAL's block height, about 256 rows,
-/// at most 64 MB of values and parcel indices.
+/// at most [`crate::memory::STRIP_BYTES`] of values and parcel indices (4 + 4 bytes a cell).
 pub fn strip_rows(raster: &gis::RasterFile) -> usize {
-    let block = raster.block_rows.max(1);
-    let cap = (64e6 / (8.0 * raster.frame.width.max(1) as f64))
-        .floor()
-        .max(1.0) as usize;
-    let want = 256usize.div_ceil(block) * block;
-    if want <= cap {
-        want
-    } else if block > cap {
-        cap
-    } else {
-        (cap / block) * block
-    }
+    Budget::strip_rows(raster.frame.width, 8, raster.block_rows)
 }
 
 /// Finds the parcel a point lies in.
@@ -397,7 +468,9 @@ impl<'a> ParcelIndex<'a> {
 }
 
 /// Build patches from the loaded layers.
-pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
+/// Raster patches are checked against `budget` while labelling and before their outlines are
+/// drawn.
+pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Patches> {
     let parcel_index = ParcelIndex::new(&layers.parcels);
     let site_at = |x: f64, y: f64| {
         parcel_index
@@ -434,8 +507,14 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                 max_patch_ha: host.max_patch_ha,
             };
             let dataset = raster.dataset()?;
-            let (components, dropped, max) =
-                label_strips(frame, options, strip_rows(raster), |row0, rows| {
+            let what = format!("host raster `{}`", raster.path.display());
+            let (components, dropped, max) = label_strips_within(
+                frame,
+                options,
+                strip_rows(raster),
+                budget,
+                &what,
+                |row0, rows| {
                     let (values, bad) = raster.read_rows_counted(&dataset, row0, rows)?;
                     non_finite.set(non_finite.get() + bad);
                     let strip = frame.rows(row0, rows);
@@ -456,7 +535,8 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                         gis::rasterize_index(&strip, &reaching)?
                     };
                     Ok((values, index))
-                })?;
+                },
+            )?;
             dropped_slivers = dropped;
             skipped.add("host_cells_not_finite", non_finite.get());
             skipped.add("host_patches_below_min_patch_ha", dropped);
@@ -482,6 +562,12 @@ pub fn build(layers: &Layers, host: &HostSection) -> Result<Patches> {
                     "check that band 1 holds stems per hectare, or lower `--min-density` / `--min-patch-ha`",
                 ));
             }
+            // Before any outline is drawn: outlines cost memory by the run and the polygon.
+            budget.check_patches(
+                components.len(),
+                raster_cost(components.iter().map(|c| &c.runs)),
+                host.suitability.is_some(),
+            )?;
             let cell_ha = frame.cell_area_ha();
             let width = components.len().to_string().len().max(4);
             for (k, c) in components.iter().enumerate() {

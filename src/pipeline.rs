@@ -4,6 +4,7 @@
 use crate::error::{Error, Result};
 use crate::graph::{self, Kernel, PatchGraph, Pressure};
 use crate::layers;
+use crate::memory::{Budget, RasterCost};
 use crate::model::RiskModel;
 use crate::optimise::Problem;
 use crate::patches::{self, Patches};
@@ -39,14 +40,17 @@ pub struct Prepared {
     pub detections: Vec<(f64, f64)>,
     pub detection_weight: f64,
     pub epsilon: f64,
+    /// The run's memory budget, for graphs built later (other kernels).
+    pub budget: Budget,
 }
 
 /// Run the stages for `s`; `progress` receives one line per stage.
 pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     let (catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
+    let budget = Budget::new(s.solver.max_memory_gb);
     progress("reading layers");
-    let layers = layers::load(s)?;
-    let patches = patches::build(&layers, &s.host)?;
+    let layers = layers::load(s, &budget)?;
+    let patches = patches::build(&layers, &s.host, &budget)?;
     progress(&format!(
         "{} patches from the {} host layer",
         patches.len(),
@@ -92,29 +96,20 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         kind: s.model.kernel,
         alpha_m: s.model.alpha_m,
     };
+    // Patches, then links, are checked against the budget before the graph is built.
+    let raster = patches::raster_cost(&patches.runs);
+    let with_suitability = s.host.suitability.is_some();
+    budget.check_patches(patches.len(), raster, with_suitability)?;
     let points: Vec<(f64, f64)> = patches.items.iter().map(|p| (p.x, p.y)).collect();
-    let graph = graph::build_graph(&points, kernel, s.model.epsilon);
-    const MAX_PATCHES: usize = 500_000;
-    if patches.len() > MAX_PATCHES {
-        return Err(Error::input_with_hint(
-            format!(
-                "{} patches: more than this version plans ({MAX_PATCHES})",
-                patches.len()
-            ),
-            "raise `--min-density` or `--min-patch-ha`, lower the resolution, or plan the area in parts",
-        ));
-    }
-    const MAX_LINKS: usize = 5_000_000;
-    if graph.edges.len() > MAX_LINKS {
-        return Err(Error::input_with_hint(
-            format!(
-                "{} links between {} patches: more than this version plans ({MAX_LINKS})",
-                graph.edges.len(),
-                patches.len()
-            ),
-            "raise `--epsilon` or lower `--alpha-m` (fewer, stronger links), raise `--min-patch-ha`, or plan the area in parts",
-        ));
-    }
+    let graph = graph::build_graph_within(
+        &points,
+        kernel,
+        s.model.epsilon,
+        &budget,
+        "the patch graph",
+        raster,
+        with_suitability,
+    )?;
     let pressure = graph::pressure(
         &patches,
         &layers.corridors,
@@ -141,6 +136,20 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
             "suitability is 0 over every patch: no host can carry the insect",
             "check the suitability layer covers the programme area with values above 0",
         ));
+    }
+    // Patches with no host the insect can establish on (suitability 0, or 0 stems) carry no
+    // risk: they stay in patches.csv with risk 0, their links leave the model, and no budget
+    // is spent on them unless they are required.
+    let without_host = host.iter().filter(|&&h| h <= 0.0).count();
+    if without_host > 0 {
+        for (i, &h) in host.iter().enumerate() {
+            if h <= 0.0 && !required[i] {
+                excluded[i] = true;
+            }
+        }
+        eprintln!(
+            "note: {without_host} patches have no host the insect can establish on (suitability 0 or 0 stems): kept in patches.csv with risk 0, not planned for treatment unless required"
+        );
     }
     let model = RiskModel::new(&host, &pressure.values, &graph);
     progress(&format!(
@@ -192,14 +201,28 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         detections: layers.detections.clone(),
         detection_weight: layers.detection_weight,
         epsilon: s.model.epsilon,
+        budget,
     })
 }
 
 impl Prepared {
-    /// The graph, pressure and risk model of the same patches under another kernel.
-    pub fn model_for(&self, kernel: Kernel) -> (PatchGraph, Pressure, RiskModel) {
+    /// The graph, pressure and risk model of the same patches under another kernel, refused
+    /// like the plan's own graph when its links do not fit the budget.
+    pub fn model_for(&self, kernel: Kernel) -> Result<(PatchGraph, Pressure, RiskModel)> {
         let points: Vec<(f64, f64)> = self.patches.items.iter().map(|p| (p.x, p.y)).collect();
-        let graph = graph::build_graph(&points, kernel, self.epsilon);
+        let graph = graph::build_graph_within(
+            &points,
+            kernel,
+            self.epsilon,
+            &self.budget,
+            &format!(
+                "the patch graph of scenario {}:{}",
+                kernel.kind.as_str(),
+                kernel.alpha_m
+            ),
+            self.raster_cost(),
+            self.resolved.host.suitability.is_some(),
+        )?;
         let pressure = graph::pressure(
             &self.patches,
             &self.corridors,
@@ -209,7 +232,12 @@ impl Prepared {
             self.epsilon,
         );
         let model = RiskModel::new(&self.host, &pressure.values, &graph);
-        (graph, pressure, model)
+        Ok((graph, pressure, model))
+    }
+
+    /// What the raster patches cost in memory beyond their count (runs and outlines).
+    pub fn raster_cost(&self) -> RasterCost {
+        patches::raster_cost(&self.patches.runs)
     }
 
     /// The optimiser's problem at `budget` and `crew_hours`.

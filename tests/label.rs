@@ -218,7 +218,8 @@ fn rows_read_from_a_blocked_geotiff_equal_the_whole_band() {
         let mut buffer = gdal::raster::Buffer::new((w, h), values.clone());
         band.write((0, 0), (w, h), &mut buffer).unwrap();
     }
-    let raster = hostcut::gis::open_raster(&path, None, 1.0).unwrap();
+    let raster =
+        hostcut::gis::open_raster(&path, None, &hostcut::memory::Budget::new(1.0)).unwrap();
     assert_eq!(raster.block_rows, 5, "the file's blocks are 5 rows");
     let whole = read_raster(&path, None).unwrap();
     let mut streamed: Vec<f32> = Vec::new();

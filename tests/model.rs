@@ -202,3 +202,24 @@ fn kernel_values_and_cutoffs() {
     assert!((c.value(200.0) - 0.5).abs() < 1e-15);
     assert!((c.value(c.cutoff(0.001)) - 0.001).abs() < 1e-12);
 }
+
+#[test]
+fn links_to_a_patch_without_host_leave_the_model() {
+    // A patch with no host (suitability 0 or 0 stems) has share 0: its links weigh 0 in R and
+    // in M (methods notes §1), so the model leaves them out and R is unchanged.
+    let graph = build_graph(
+        &[(0.0, 0.0), (100.0, 0.0), (200.0, 0.0)],
+        exp_kernel(300.0),
+        0.001,
+    );
+    assert_eq!(graph.edges.len(), 3);
+    let model = RiskModel::new(&[1.0, 0.0, 3.0], &[1.0, 1.0, 1.0], &graph);
+    assert_eq!(model.links.len(), 1);
+    assert_eq!((model.links[0].a, model.links[0].b), (0, 2));
+    assert!(model.adjacency[1].is_empty());
+    assert_eq!(model.adjacency[0], vec![(2, 0)]);
+    // R by hand: own terms a^2 (pi = 1) plus the one link 2 a0 a2 k(200).
+    let (a0, a2) = (0.25, 0.75);
+    let expected = a0 * a0 + a2 * a2 + 2.0 * a0 * a2 * (-200.0f64 / 300.0).exp();
+    assert!((model.risk_before() - expected).abs() < 1e-15);
+}

@@ -191,10 +191,10 @@ fn raster(args: &BenchArgs, side: usize) -> Result<String> {
         let mut scenario = Scenario::default();
         scenario.host.path = Some(path.clone());
         scenario.model.alpha_m = args.alpha_m;
-        let max_gb = scenario.solver.max_memory_gb;
+        let budget = crate::memory::Budget::new(scenario.solver.max_memory_gb);
         // Baseline: every value read once through GDAL in the labeller's strips.
         let clock = std::time::Instant::now();
-        let file = crate::gis::open_raster(&path, None, max_gb)?;
+        let file = crate::gis::open_raster(&path, None, &budget)?;
         let dataset = file.dataset()?;
         let strip = crate::patches::strip_rows(&file);
         let (mut row0, mut host_cells) = (0, 0usize);

@@ -352,23 +352,25 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
 
     // Every pair within reach of the widest kernel searched (cauchy at the largest scale).
     let points: Vec<(f64, f64)> = prepared.patches.items.iter().map(|p| (p.x, p.y)).collect();
-    let wide = graph::build_graph(
+    let wide = graph::build_graph_within(
         &points,
         Kernel {
             kind: KernelKind::Cauchy,
             alpha_m: alpha_max,
         },
         prepared.epsilon,
-    );
-    if wide.edges.len() > 5_000_000 {
-        return Err(Error::input_with_hint(
-            format!(
-                "{} patch pairs within reach of the largest scale searched: too many to fit",
-                wide.edges.len()
-            ),
-            "lower the top of `--alpha-range`",
-        ));
-    }
+        &prepared.budget,
+        "the patch pairs within reach of the largest scale searched (`--alpha-range`)",
+        prepared.raster_cost(),
+        prepared.resolved.host.suitability.is_some(),
+    )
+    .map_err(|e| match e {
+        Error::Input { message, hint } => Error::Input {
+            message,
+            hint: hint.map(|h| format!("lower the top of `--alpha-range`; {h}")),
+        },
+        other => other,
+    })?;
     let geometry = Geometry {
         share: prepared.model.share.clone(),
         pairs: wide

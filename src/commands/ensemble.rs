@@ -6,7 +6,8 @@ use std::fmt::Write as _;
 
 use crate::ensemble;
 use crate::error::{Error, Result};
-use crate::graph::Kernel;
+use crate::graph::{Kernel, LinkFinder};
+use crate::memory::LinkCount;
 use crate::model::RiskModel;
 use crate::optimise::{self, Assignment, Limits, MinMax, Problem, Solved, Status};
 use crate::pipeline::Prepared;
@@ -40,16 +41,56 @@ pub fn solve(
         })
         .collect();
     progress(&format!("building {} dispersal scenarios", kernels.len()));
-    let models: Vec<RiskModel> = kernels.iter().map(|k| prepared.model_for(*k).2).collect();
-    let links: usize = models.iter().map(|m| m.links.len()).sum();
-    if links > 5_000_000 {
-        return Err(Error::input_with_hint(
-            format!(
-                "the scenarios have {links} links together, more than this version plans (5,000,000)"
-            ),
-            "use fewer scenarios, smaller scales, or a larger `--epsilon`",
-        ));
+    // The scenarios' links together are counted, and checked against the budget, before any
+    // scenario's graph is built.
+    let points: Vec<(f64, f64)> = prepared.patches.items.iter().map(|p| (p.x, p.y)).collect();
+    let with_suitability = prepared.resolved.host.suitability.is_some();
+    let allowed =
+        prepared
+            .budget
+            .links_allowed(points.len(), prepared.raster_cost(), with_suitability);
+    let mut total = LinkCount {
+        links: 0,
+        exact: true,
+        visited: points.len(),
+        at_least: 0,
+    };
+    for k in &kernels {
+        let finder = LinkFinder::new(&points, *k, prepared.epsilon);
+        let count = finder.count(allowed.saturating_sub(total.at_least));
+        total.links += count.links;
+        total.at_least += count.at_least;
+        if !count.exact {
+            total.exact = false;
+            total.visited = count.visited;
+            break;
+        }
     }
+    let widest = kernels
+        .iter()
+        .map(|k| k.cutoff(prepared.epsilon))
+        .fold(0.0, f64::max);
+    prepared
+        .budget
+        .check_links(
+            &format!("the {} dispersal scenarios' graphs together", kernels.len()),
+            total,
+            points.len(),
+            prepared.raster_cost(),
+            with_suitability,
+            widest,
+        )
+        .map_err(|e| match e {
+            Error::Input { message, hint } => Error::Input {
+                message,
+                hint: hint.map(|h| format!("use fewer scenarios or smaller scales; {h}")),
+            },
+            other => other,
+        })?;
+    let models: Vec<RiskModel> = kernels
+        .iter()
+        .map(|k| prepared.model_for(*k).map(|m| m.2))
+        .collect::<Result<_>>()?;
     let weights: Vec<f64> = e.members.iter().map(|m| m.weight).collect();
     let total_weight: f64 = weights.iter().sum();
     prepared.model = ensemble::combine(&models, &weights);

@@ -255,11 +255,19 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
                 kind: prepared.kernel.kind,
                 alpha_m: prepared.kernel.alpha_m * ld.multiple,
             };
-            graph::build_graph(&points, far, prepared.epsilon)
-                .edges
-                .iter()
-                .map(|e| (e.a.index(), e.b.index(), e.kernel))
-                .collect()
+            graph::build_graph_within(
+                &points,
+                far,
+                prepared.epsilon,
+                &prepared.budget,
+                "the long-distance links of the simulation",
+                prepared.raster_cost(),
+                prepared.resolved.host.suitability.is_some(),
+            )?
+            .edges
+            .iter()
+            .map(|e| (e.a.index(), e.b.index(), e.kernel))
+            .collect()
         }
         None => Vec::new(),
     };
