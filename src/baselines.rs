@@ -12,8 +12,9 @@
 //! # Units
 //! Depot coordinates in the working CRS (metres).
 
-use crate::optimise::{Assignment, Problem, greedy};
+use crate::optimise::greedy;
 use crate::patches::Patches;
+use crate::solve::problem::{Assignment, Problem};
 
 /// One baseline plan and its result.
 #[derive(Debug, Clone)]

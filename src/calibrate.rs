@@ -23,7 +23,7 @@
 use argmin::core::{CostFunction, Executor};
 use argmin::solver::neldermead::NelderMead;
 
-use crate::cli::KernelKind;
+use crate::core::kernel::{Kernel, KernelKind};
 
 /// Largest landscape for the exact (2^n-state) likelihood.
 pub const EXACT_MAX_PATCHES: usize = 10;
@@ -80,11 +80,13 @@ pub struct Theta {
     pub introduction: f64,
 }
 
+/// k(d) of the family at scale `alpha` (metres): the one formula in [`Kernel::value`].
 pub fn kernel(family: KernelKind, d: f64, alpha: f64) -> f64 {
-    match family {
-        KernelKind::Exp => (-d / alpha).exp(),
-        KernelKind::Cauchy => 1.0 / (1.0 + (d / alpha).powi(2)),
+    Kernel {
+        kind: family,
+        alpha_m: alpha,
     }
+    .value(d)
 }
 
 fn links(g: &Geometry, family: KernelKind, alpha: f64) -> Vec<(usize, usize, f64)> {

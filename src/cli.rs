@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use clap::{Args, Parser, Subcommand, ValueEnum};
+use clap::{Args, Parser, Subcommand};
 
 /// Plan which tree-of-heaven patches to treat this season, and how, to cut spotted lanternfly
 /// establishment risk the most for a fixed budget.
@@ -38,25 +38,6 @@ pub enum Command {
     Demo(DemoArgs),
     /// Write the demo landscape's input files into a folder (deterministic)
     MakeDemoInputs(MakeDemoArgs),
-}
-
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, serde::Serialize, serde::Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum KernelKind {
-    /// k(d) = exp(-d / alpha)
-    Exp,
-    /// k(d) = 1 / (1 + (d / alpha)^2)
-    Cauchy,
-}
-
-impl KernelKind {
-    /// The name used in flags and outputs.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            KernelKind::Exp => "exp",
-            KernelKind::Cauchy => "cauchy",
-        }
-    }
 }
 
 /// `hostcut plan`: the shared planning flags plus the ones only a single plan has.
@@ -202,7 +183,7 @@ pub struct PlanArgs {
     pub ensemble: Option<PathBuf>,
     /// With scenarios: minimise the weighted mean R, the worst-case R, or the largest regret
     #[arg(long, value_enum, value_name = "HOW")]
-    pub robust: Option<crate::settings::Robust>,
+    pub robust: Option<crate::core::scenario::Robust>,
     /// Dispersal kernel scale alpha in metres
     #[arg(long, allow_negative_numbers = true, value_name = "METRES")]
     pub alpha_m: Option<f64>,

@@ -7,8 +7,9 @@
 
 use crate::baselines;
 use crate::error::{Error, Result};
-use crate::optimise::{Assignment, Limits, Status, greedy, solve_from};
+use crate::optimise::{greedy, solve_from};
 use crate::pipeline::Prepared;
+use crate::solve::problem::{Assignment, Limits, Status};
 
 /// One budget level.
 #[derive(Debug, Clone)]
@@ -217,7 +218,7 @@ pub fn make_monotone(prepared: &Prepared, points: &mut [Point], crew_hours: Opti
             } else {
                 0.0
             };
-            if point.gap <= crate::optimise::OPTIMAL_GAP {
+            if point.gap <= crate::solve::problem::OPTIMAL_GAP {
                 point.status = Status::Optimal;
             }
             fill_totals(prepared, point, crew_hours);

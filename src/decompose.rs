@@ -15,7 +15,9 @@ use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::Result;
-use crate::optimise::{Assignment, Built, Problem};
+use crate::solve::components::component_members;
+use crate::solve::highs::Built;
+use crate::solve::problem::{Assignment, Problem};
 
 /// Components with more plans than this are not enumerated (the problem is then solved whole).
 pub const PLANS_PER_COMPONENT: usize = 4096;
@@ -38,17 +40,6 @@ pub struct Point {
 pub struct Piece {
     pub members: Vec<usize>,
     pub points: Vec<Point>,
-}
-
-/// The patches of each connected component (union-find over links with positive weight), in
-/// order of their lowest patch.
-pub fn component_members(problem: &Problem) -> Vec<Vec<usize>> {
-    let (of, count) = crate::relax::components(problem);
-    let mut members = vec![Vec::new(); count];
-    for (i, &c) in of.iter().enumerate() {
-        members[c].push(i);
-    }
-    members
 }
 
 /// Every component's frontier, or None when some component has more than
@@ -257,7 +248,7 @@ fn pareto(mut all: Vec<Point>, hours_matter: bool) -> Vec<Point> {
 
 /// The merge MIP: y binary per frontier point, one point per component, the budget and hours
 /// rows, objective R (scaled). `x_columns` maps each patch's choice to the columns of the
-/// points that give it, so [`crate::optimise::run_highs`] reads the plan back as usual.
+/// points that give it, so [`crate::solve::highs::run_highs`] reads the plan back as usual.
 pub(crate) fn build_merge(
     problem: &Problem,
     pieces: &[Piece],

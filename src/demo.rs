@@ -409,7 +409,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 /// few visits outside the county for the unassigned list.
 fn surveys_csv(dir: &Path) -> Result<String> {
     use crate::simulate::{self, Landscape, Params};
-    let scenario = crate::settings::parse_scenario(SCENARIO, "demo scenario", dir)?;
+    let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
     let prepared = crate::pipeline::prepare(&scenario, &|_| {})?;
     let landscape = Landscape::of(&prepared);
     let truth = Params {

@@ -56,8 +56,8 @@ pub fn combine(models: &[RiskModel], weights: &[f64]) -> RiskModel {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::core::site::PatchId;
     use crate::graph::{Edge, PatchGraph};
-    use crate::patches::PatchId;
 
     fn model(kernels: &[(usize, usize, f64)], pressure: &[f64]) -> RiskModel {
         let edges = kernels

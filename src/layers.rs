@@ -8,10 +8,12 @@ use std::path::{Path, PathBuf};
 
 use geo::{BoundingRect, Intersects, MultiLineString, MultiPolygon, Point, Rect};
 
+use crate::core::scenario;
+use crate::core::scenario::{NO_FIELD, Scenario, SiteLayerSection};
+use crate::core::site::{Access, Herbicide, Site};
 use crate::error::{Error, Result};
 use crate::gis::{self, Crs, RasterFile, VectorLayer};
-use crate::patches::{Access, Herbicide, Site};
-use crate::settings::{self, NO_FIELD, Scenario, SiteLayerSection};
+use crate::input::inventory::Stand;
 
 /// Counts of what a run skipped, by reason (`host_cells_not_finite`,
 /// `parcel_features_without_geometry`, ...): shown on stderr and in summary.json, so nothing is
@@ -122,21 +124,6 @@ pub struct Corridor {
     pub buffer_m: f64,
 }
 
-/// One row of a stand inventory, already checked.
-#[derive(Debug, Clone)]
-pub struct Stand {
-    pub id: String,
-    pub x: f64,
-    pub y: f64,
-    pub stems: f64,
-    pub area_ha: Option<f64>,
-    pub access: Option<Access>,
-    pub herbicide: Option<Herbicide>,
-    pub cost_factor: Option<f64>,
-    pub pressure: Option<f64>,
-    pub suitability: Option<f64>,
-}
-
 /// The host layer in whichever form it came.
 #[derive(Debug, Clone)]
 pub enum Host {
@@ -181,7 +168,7 @@ pub fn load(s: &Scenario) -> Result<Layers> {
     };
     let (crs, host) = if let Some(path) = &s.host.inventory {
         let crs = Crs::parse(s.host.crs.as_deref().unwrap_or_default(), "`--crs`")?;
-        let stands = crate::patches::read_inventory(path)?;
+        let stands = crate::input::inventory::read_inventory(path)?;
         (
             crs,
             Host::Inventory {
@@ -364,7 +351,7 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             host_extent,
             "water layer",
             "--water-layer",
-            settings::DEFAULT_WATER_BUFFER_M,
+            scenario::DEFAULT_WATER_BUFFER_M,
             &mut skipped,
         )?;
         water.extend(features);
@@ -379,7 +366,7 @@ pub fn load(s: &Scenario) -> Result<Layers> {
             host_extent,
             "sensitive-site layer",
             "--sensitive-layer",
-            settings::DEFAULT_SENSITIVE_BUFFER_M,
+            scenario::DEFAULT_SENSITIVE_BUFFER_M,
             &mut skipped,
         )?;
         sensitive.extend(features);
@@ -560,11 +547,11 @@ fn check_overlap(layer: &VectorLayer, host: Option<Rect<f64>>, what: &str) -> Re
 /// allowed" without a word. A missing default field is stated in the run's notes.
 fn access_fields(
     layer: &VectorLayer,
-    a: &settings::AccessSection,
+    a: &scenario::AccessSection,
 ) -> Result<Vec<(&'static str, Option<String>)>> {
     let mut out = Vec::new();
     let mut said_none = false;
-    for (rule, default) in settings::ACCESS_FIELDS {
+    for (rule, default) in scenario::ACCESS_FIELDS {
         let flag = format!("--{}-field", rule.replace('_', "-"));
         let found = match a.field(rule) {
             Some(f) if f.eq_ignore_ascii_case(NO_FIELD) => {

@@ -21,168 +21,12 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
+use crate::solve::highs::{Built, run_highs};
+use crate::solve::problem::{
+    Assignment, Formulation, Limits, OPTIMAL_GAP, Problem, Solved, Status,
+};
 use crate::treatments::Choice;
 use crate::{decompose, relax};
-
-/// What the optimiser is asked: the model, each patch's eligible choices and the limits.
-#[derive(Debug, Clone)]
-pub struct Problem<'a> {
-    pub model: &'a RiskModel,
-    pub choices: Vec<Vec<Choice>>,
-    pub budget: f64,
-    pub crew_hours: Option<f64>,
-    pub required: Vec<bool>,
-    pub excluded: Vec<bool>,
-}
-
-/// For each patch, the index into its `choices` it gets, or None.
-pub type Assignment = Vec<Option<usize>>;
-
-/// How the solve ended.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Status {
-    /// Proven optimal: the bound equals the plan's risk to within [`OPTIMAL_GAP`] (the
-    /// solver's numerical tolerance).
-    Optimal,
-    /// Stopped when the proven gap reached `--gap`.
-    GapLimit,
-    /// Stopped at `--time-limit-s`; the gap says how far from optimal it may be.
-    TimeLimit,
-    /// No plan satisfies the required patches within the budget and hours.
-    Infeasible,
-}
-
-impl Status {
-    pub fn as_str(self) -> &'static str {
-        match self {
-            Status::Optimal => "optimal",
-            Status::GapLimit => "gap_limit",
-            Status::TimeLimit => "time_limit",
-            Status::Infeasible => "infeasible",
-        }
-    }
-}
-
-/// The optimiser's answer.
-#[derive(Debug, Clone)]
-pub struct Solved {
-    pub assignment: Assignment,
-    pub risk_after: f64,
-    /// A proven lower bound on the least achievable R.
-    pub bound: f64,
-    /// (risk_after - bound) / risk_after.
-    pub gap: f64,
-    pub status: Status,
-    pub seconds: f64,
-    /// The better of adaptive benefit/cost greedy and the best single item.
-    pub greedy: Option<(Assignment, f64)>,
-    /// How the plan was searched for, e.g. `transport MIP`, `component merge MIP`,
-    /// `relaxation and local search` (see docs/model.md).
-    pub path: &'static str,
-    /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
-    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/relax.rs) or
-    /// `HiGHS dual bound`.
-    pub bound_from: &'static str,
-}
-
-const FEASIBILITY: f64 = 1e-9;
-
-/// A gap this small is numerical noise of the LP tolerances: the plan is optimal.
-pub const OPTIMAL_GAP: f64 = 1e-7;
-
-impl Problem<'_> {
-    pub fn len(&self) -> usize {
-        self.choices.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.choices.is_empty()
-    }
-
-    /// r_i for every patch under `assignment`.
-    pub fn remaining(&self, assignment: &Assignment) -> Vec<f64> {
-        assignment
-            .iter()
-            .enumerate()
-            .map(|(i, a)| a.map(|o| self.choices[i][o].remaining).unwrap_or(1.0))
-            .collect()
-    }
-
-    pub fn risk(&self, assignment: &Assignment) -> f64 {
-        self.model.risk(&self.remaining(assignment))
-    }
-
-    pub fn cost(&self, assignment: &Assignment) -> f64 {
-        assignment
-            .iter()
-            .enumerate()
-            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].cost))
-            .sum()
-    }
-
-    pub fn hours(&self, assignment: &Assignment) -> f64 {
-        assignment
-            .iter()
-            .enumerate()
-            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].hours))
-            .sum()
-    }
-
-    /// `used` fits `limit`, to the optimiser's feasibility tolerance.
-    pub(crate) fn within(limit: f64, used: f64) -> bool {
-        used <= limit + FEASIBILITY * limit.abs().max(1.0)
-    }
-
-    /// Budget, hours, required and excluded all respected.
-    pub fn feasible(&self, assignment: &Assignment) -> bool {
-        let rules = assignment.iter().enumerate().all(|(i, a)| match a {
-            Some(o) => !self.excluded[i] && *o < self.choices[i].len(),
-            None => !self.required[i],
-        });
-        rules
-            && Self::within(self.budget, self.cost(assignment))
-            && self
-                .crew_hours
-                .is_none_or(|h| Self::within(h, self.hours(assignment)))
-    }
-
-    /// R(current) - R(current with patch i switched to choice o), where `remaining[i]` is the
-    /// patch's current r (1 when untreated).
-    pub fn gain(&self, remaining: &[f64], i: usize, o: usize) -> f64 {
-        let (now, r) = (remaining[i], self.choices[i][o].remaining);
-        let mut gain = self.model.own[i] * (now * now - r * r);
-        for &(j, l) in &self.model.adjacency[i] {
-            gain += self.model.links[l].weight * remaining[j] * (now - r);
-        }
-        gain
-    }
-
-    /// The assignment that treats every eligible patch with its most effective choice, and
-    /// its risk: a lower bound on R at any budget (R only grows with each r_i).
-    pub fn everything(&self) -> (Assignment, f64) {
-        let assignment: Assignment = (0..self.len())
-            .map(|i| {
-                if self.excluded[i] {
-                    None
-                } else {
-                    self.most_effective(i)
-                }
-            })
-            .collect();
-        let risk = self.risk(&assignment);
-        (assignment, risk)
-    }
-
-    /// The index of patch i's most effective choice (ties: the cheaper, then the earlier).
-    pub fn most_effective(&self, i: usize) -> Option<usize> {
-        (0..self.choices[i].len()).min_by(|&a, &b| {
-            let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
-            ca.remaining
-                .total_cmp(&cb.remaining)
-                .then(ca.cost.total_cmp(&cb.cost))
-        })
-    }
-}
 
 /// Adaptive greedy by risk reduction per unit cost from the feasible plan `start`: treat an
 /// untreated patch or upgrade a treated one while anything fits and lowers R.
@@ -529,54 +373,6 @@ pub fn improve(
     }
 }
 
-/// Solver limits.
-#[derive(Debug, Clone, Copy)]
-pub struct Limits {
-    pub time_limit_s: f64,
-    /// Relative gap on the remaining risk at which to stop.
-    pub gap: f64,
-    /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
-    pub threads: Option<u32>,
-    pub formulation: Formulation,
-    /// Refuse to build a model estimated to need more than this many GB.
-    pub max_memory_gb: f64,
-    /// Use the relaxation bound, its rounded plan and local search beside HiGHS (off only for
-    /// the benchmark's plain-HiGHS baseline).
-    pub assist: bool,
-}
-
-/// Which exact linearisation of the link products to build (docs/model.md).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Formulation {
-    /// One z per pair of options at each link, with transportation marginals (default).
-    Transport,
-    /// One u per link and choice of one end, plus McCormick's envelope row.
-    Compact,
-    /// The textbook baseline: one binary per patch and method, one product variable per link
-    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (for benchmarks).
-    Direct,
-}
-
-impl Limits {
-    /// Limits with the default formulation; `HOSTCUT_FORMULATION=compact` picks the compact
-    /// one (for developers comparing the two).
-    pub fn new(time_limit_s: f64, gap: f64) -> Limits {
-        let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
-            Ok("compact") => Formulation::Compact,
-            Ok("direct") => Formulation::Direct,
-            _ => Formulation::Transport,
-        };
-        Limits {
-            time_limit_s,
-            gap,
-            threads: None,
-            formulation,
-            max_memory_gb: f64::INFINITY,
-            assist: true,
-        }
-    }
-}
-
 /// Solve the MIP exactly (or to `limits`), warm-started from the greedy plan.
 pub fn solve(problem: &Problem, limits: Limits) -> Result<Solved> {
     solve_from(problem, limits, None)
@@ -809,75 +605,6 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     })
 }
 
-/// What HiGHS returned: the status (never infeasible: that is `None` from [`run_highs`]), the
-/// assignment read from the x columns, and its dual bound on the (scaled) objective.
-pub(crate) struct HighsRun {
-    pub(crate) status: Status,
-    pub(crate) assignment: Assignment,
-    pub(crate) has_solution: bool,
-    pub(crate) objective_bound: f64,
-}
-
-/// Solve a built model with the run's limits, a fixed seed and thread count. `None` when HiGHS
-/// proves it infeasible.
-pub(crate) fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option<HighsRun>> {
-    let Built {
-        mut model,
-        x_columns,
-    } = built;
-    // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
-    let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
-    model.set_option("output_flag", log);
-    model.set_option("log_to_console", log);
-    model.set_option("time_limit", limits.time_limit_s.max(0.01));
-    model.set_option("mip_rel_gap", limits.gap);
-    model.set_option("mip_abs_gap", 1e-9);
-    // Fixed seed and thread count, so the same problem gives the same plan on any machine
-    // (HiGHS's MIP is deterministic for a given thread count).
-    model.set_option("random_seed", 0);
-    model.set_option("threads", limits.threads.unwrap_or(2) as i32);
-    let solved = model
-        .try_solve()
-        .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
-    use highs::HighsModelStatus as S;
-    let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
-    let status = match solved.status() {
-        S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
-        S::Infeasible | S::UnboundedOrInfeasible => return Ok(None),
-        S::ReachedTimeLimit
-        | S::ReachedIterationLimit
-        | S::ReachedSolutionLimit
-        | S::ReachedInterrupt
-        | S::ReachedMemoryLimit => Status::TimeLimit,
-        other => {
-            return Err(Error::Internal(format!(
-                "HiGHS ended with status {other:?}"
-            )));
-        }
-    };
-    let mut assignment: Assignment = vec![None; n];
-    if has_solution {
-        let values = solved.get_solution();
-        let values = values.columns();
-        for i in 0..n {
-            for &(o, col) in &x_columns[i] {
-                if values[col] > 0.5 {
-                    assignment[i] = Some(o);
-                }
-            }
-        }
-    }
-    let objective_bound = solved
-        .double_info_value(c"mip_dual_bound")
-        .unwrap_or(f64::NEG_INFINITY);
-    Ok(Some(HighsRun {
-        status,
-        assignment,
-        has_solution,
-        objective_bound,
-    }))
-}
-
 /// Write the exact MIP in the given formulation (no warm start) to an MPS file through HiGHS's own writer. The objective is R x 1000 / R before, with the constant
 /// carried by a column fixed at 1, so its optimum times R before / 1000 is the least achievable R.
 pub fn write_mps(
@@ -1063,13 +790,6 @@ fn prune_worthless(problem: &Problem, assignment: &mut Assignment) {
             assignment[i] = None;
         }
     }
-}
-
-/// A built HiGHS model and, per patch, (choice index, column) of each x_io.
-pub(crate) struct Built {
-    pub(crate) model: highs::Model,
-    /// Per patch: (option index, column of its binary).
-    pub(crate) x_columns: Vec<Vec<(usize, usize)>>,
 }
 
 /// Choice `o` of patch `i` is dominated when another choice costs no more, takes no more crew

@@ -397,7 +397,7 @@ pub fn check_new_file(path: &Path, flag: &str) -> Result<()> {
 /// output folder are written relative to it, so the folder can be moved or copied.
 pub fn write_provenance(
     staging: &Staging,
-    scenario: &crate::settings::Scenario,
+    scenario: &crate::core::scenario::Scenario,
     catalogue_text: &str,
     header: &str,
 ) -> Result<()> {
@@ -479,8 +479,8 @@ pub struct SiteRules {
 
 impl SiteRules {
     pub fn of(patches: &Patches) -> SiteRules {
-        use crate::patches::{Access, Herbicide, Water};
-        let count = |f: &dyn Fn(&crate::patches::Site) -> bool| {
+        use crate::core::site::{Access, Herbicide, Water};
+        let count = |f: &dyn Fn(&crate::core::site::Site) -> bool| {
             patches.items.iter().filter(|p| f(&p.site)).count()
         };
         SiteRules {
@@ -737,7 +737,7 @@ pub fn summary(
     budget: f64,
     crew_hours_limit: Option<f64>,
     n_edges: usize,
-    model: &crate::settings::ModelSection,
+    model: &crate::core::scenario::ModelSection,
 ) -> Summary {
     let plan = o.plan;
     let finite = |v: f64| if v.is_finite() { Some(v) } else { None };

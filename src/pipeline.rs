@@ -1,13 +1,14 @@
 //! The stages from resolved settings to the optimiser's input, shared by every command that
 //! plans: layers in → patches → graph and pressure → risk model → eligible choices.
 
+use crate::core::kernel::Kernel;
+use crate::core::scenario::Scenario;
 use crate::error::{Error, Result};
-use crate::graph::{self, Kernel, PatchGraph, Pressure};
+use crate::graph::{self, PatchGraph, Pressure};
 use crate::layers;
 use crate::model::RiskModel;
-use crate::optimise::Problem;
 use crate::patches::{self, Patches};
-use crate::settings::Scenario;
+use crate::solve::problem::Problem;
 use crate::suitability;
 use crate::treatments::{self, Catalogue, Choice};
 

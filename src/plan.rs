@@ -5,10 +5,11 @@
 //! Money in catalogue currency; `value_per_cost` is the risk reduction, in percent of R before
 //! treatment, per 1,000 currency units, at the row's place in the priority order.
 
+use crate::core::scenario::ModelSection;
+use crate::core::site::PatchId;
 use crate::model::RiskModel;
-use crate::optimise::{Problem, Solved, Status};
-use crate::patches::{PatchId, Patches};
-use crate::settings::ModelSection;
+use crate::patches::Patches;
+use crate::solve::problem::{Problem, Solved, Status};
 use crate::treatments::{self, Catalogue, Choice, MethodId};
 
 /// One treated patch.

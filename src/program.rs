@@ -28,8 +28,9 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::error::{Error, Result};
 use crate::model::RiskModel;
-use crate::optimise::{Assignment, Built, Limits, OPTIMAL_GAP, Status, run_highs};
 use crate::patches::Patch;
+use crate::solve::highs::{Built, run_highs};
+use crate::solve::problem::{Assignment, Limits, OPTIMAL_GAP, Status};
 use crate::treatments::{Catalogue, Choice};
 
 /// What a course does in one season.
@@ -305,7 +306,7 @@ pub struct ProgramSolved {
 /// proven bound the single-season MIP gives (R is homogeneous of degree 2 in the host, and every
 /// untreated patch stands at U_t).
 pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
-    use crate::optimise::Problem;
+    use crate::solve::problem::Problem;
     use crate::treatments::{Choice, MethodId};
     let n = p.len();
     let mut floor = 0.0;

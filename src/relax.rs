@@ -32,7 +32,8 @@
 use std::time::Instant;
 
 use crate::decompose::{Piece, Point};
-use crate::optimise::{Assignment, Problem};
+use crate::solve::components::components;
+use crate::solve::problem::{Assignment, Problem};
 
 /// One option of a patch in the relaxation: untreated (choice None) or a choice.
 #[derive(Debug, Clone, Copy)]
@@ -66,41 +67,6 @@ pub struct Stop {
     pub gap: f64,
     pub max_iterations: usize,
     pub time_limit_s: f64,
-}
-
-/// Connected components by union-find over the links: (component of each patch, count).
-/// Components are numbered in order of their lowest patch.
-pub fn components(problem: &Problem) -> (Vec<usize>, usize) {
-    let n = problem.len();
-    let mut parent: Vec<usize> = (0..n).collect();
-    fn find(parent: &mut [usize], mut i: usize) -> usize {
-        while parent[i] != i {
-            parent[i] = parent[parent[i]];
-            i = parent[i];
-        }
-        i
-    }
-    for l in &problem.model.links {
-        if l.weight <= 0.0 {
-            continue;
-        }
-        let (a, b) = (find(&mut parent, l.a), find(&mut parent, l.b));
-        if a != b {
-            parent[a.max(b)] = a.min(b);
-        }
-    }
-    let mut label = vec![usize::MAX; n];
-    let mut count = 0;
-    let mut of = vec![0; n];
-    for i in 0..n {
-        let root = find(&mut parent, i);
-        if label[root] == usize::MAX {
-            label[root] = count;
-            count += 1;
-        }
-        of[i] = label[root];
-    }
-    (of, count)
 }
 
 /// The smallest eigenvalue of a symmetric sparse matrix (diagonal `diag`, off-diagonal entries
@@ -798,8 +764,10 @@ fn lagrangian(
         return None;
     }
     let hours_limit = problem.crew_hours.filter(|h| h.is_finite());
-    let pieces =
-        crate::decompose::small_pieces(problem, crate::decompose::component_members(problem));
+    let pieces = crate::decompose::small_pieces(
+        problem,
+        crate::solve::components::component_members(problem),
+    );
     if pieces.iter().any(|p| p.points.is_empty()) {
         // A component has no plan within the budget: no plan at all.
         return None;
@@ -811,7 +779,7 @@ fn lagrangian(
         }
     }
     if std::env::var_os("HOSTCUT_RELAX_LOG").is_some() {
-        let members = crate::decompose::component_members(problem);
+        let members = crate::solve::components::component_members(problem);
         let mut sizes: Vec<usize> = members.iter().map(Vec::len).collect();
         sizes.sort_unstable();
         let exact_patches: usize = pieces.iter().map(|p| p.members.len()).sum();

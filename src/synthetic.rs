@@ -2,9 +2,11 @@
 //! a corridor raising the pressure of the patches near it, deterministic by seed. Invented
 //! data: never a real place.
 
-use crate::graph::{Kernel, PatchGraph, build_graph};
+use crate::core::kernel::Kernel;
+use crate::core::site::{Access, Herbicide, PatchId, Site};
+use crate::graph::{PatchGraph, build_graph};
 use crate::model::RiskModel;
-use crate::patches::{Access, Herbicide, Patch, PatchId, Site};
+use crate::patches::Patch;
 use crate::rng::SplitMix;
 
 /// What to generate.
@@ -236,7 +238,7 @@ fn write_raster_to(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::cli::KernelKind;
+    use crate::core::kernel::KernelKind;
 
     #[test]
     fn same_seed_same_landscape() {

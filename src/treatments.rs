@@ -11,8 +11,9 @@ use std::path::Path;
 use serde::{Deserialize, Serialize};
 
 use crate::cautions;
+use crate::core::site::{Access, Herbicide, Site, Water};
 use crate::error::{Error, Result};
-use crate::patches::{Access, Herbicide, Patch, Site, Water};
+use crate::patches::Patch;
 
 /// The built-in catalogue, `models/treatments.toml`.
 pub const BUILTIN: &str = include_str!("../models/treatments.toml");
@@ -280,7 +281,7 @@ pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::patches::PatchId;
+    use crate::core::site::PatchId;
 
     fn patch(access: Access, herbicide: Herbicide, cost_factor: f64) -> Patch {
         Patch {

@@ -3,12 +3,15 @@
 //! brute-force enumeration).
 
 use hostcut::baselines::{self, fill_in_order};
-use hostcut::cli::KernelKind;
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::core::site::{PatchId, Site};
 use hostcut::gis::Crs;
-use hostcut::graph::{Kernel, build_graph};
+use hostcut::graph::build_graph;
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, brute_force, solve};
-use hostcut::patches::{Patch, PatchId, Patches, Site};
+use hostcut::optimise::{brute_force, solve};
+use hostcut::patches::{Patch, Patches};
+use hostcut::solve::problem::{Limits, Problem};
 use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

@@ -7,7 +7,7 @@ mod common;
 use hostcut::calibrate::{
     self, Geometry, Observations, Theta, exact_log_likelihood, fit_family, log_likelihood,
 };
-use hostcut::cli::KernelKind;
+use hostcut::core::kernel::KernelKind;
 use hostcut::simulate::{self, Landscape, Params, SplitMix};
 
 fn random_geometry(n: usize, side: f64, seed: u64) -> (Geometry, Vec<(f64, f64)>) {
@@ -392,7 +392,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         date: String::new(),
         source: String::new(),
     };
-    let scenario = hostcut::settings::parse_scenario(
+    let scenario = hostcut::core::scenario::parse_scenario(
         "[host]\ninventory = \"stands.csv\"\ncrs = \"EPSG:32618\"\n",
         "test",
         dir.path(),
@@ -418,7 +418,8 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
     // Raster patches have outlines: a survey inside one is `Inside`.
     demo(dir.path());
     let prepared = hostcut::pipeline::prepare(
-        &hostcut::settings::read_scenario(&dir.path().join("demo/scenario.resolved.toml")).unwrap(),
+        &hostcut::core::scenario::read_scenario(&dir.path().join("demo/scenario.resolved.toml"))
+            .unwrap(),
         &|_| {},
     )
     .unwrap();

@@ -4,11 +4,13 @@
 mod common;
 
 use common::*;
-use hostcut::cli::KernelKind;
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
 use hostcut::ensemble::combine;
-use hostcut::graph::{Kernel, build_graph};
+use hostcut::graph::build_graph;
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Assignment, Limits, MinMax, Problem, solve, solve_minmax};
+use hostcut::optimise::{MinMax, solve, solve_minmax};
+use hostcut::solve::problem::{Assignment, Limits, Problem};
 use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

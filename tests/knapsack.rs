@@ -159,10 +159,11 @@ fn knapsack_instances_reach_their_optima_through_the_planner() {
 /// optimum's R.
 #[test]
 fn relaxation_equals_dantzig_bound_on_the_public_instances() {
-    use hostcut::graph::{Kernel, build_graph};
+    use hostcut::core::kernel::Kernel;
+    use hostcut::graph::build_graph;
     use hostcut::model::RiskModel;
-    use hostcut::optimise::Problem;
     use hostcut::relax::{Stop, bound};
+    use hostcut::solve::problem::Problem;
     use hostcut::treatments::{Choice, MethodId};
     for inst in INSTANCES {
         let n = inst.weights.len();
@@ -170,7 +171,7 @@ fn relaxation_equals_dantzig_bound_on_the_public_instances() {
         let graph = build_graph(
             &points,
             Kernel {
-                kind: hostcut::cli::KernelKind::Exp,
+                kind: hostcut::core::kernel::KernelKind::Exp,
                 alpha_m: 100.0,
             },
             0.001,

@@ -2,10 +2,12 @@
 //! per patch, checked for budget, hours, required and excluded, with R evaluated by its
 //! definition) on random small instances; and the greedy heuristic's plan against both.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::graph::build_graph;
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Formulation, Limits, Problem, Status, brute_force, greedy, solve};
+use hostcut::optimise::{brute_force, greedy, solve};
+use hostcut::solve::problem::{Formulation, Limits, Problem, Status};
 use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

@@ -2,12 +2,15 @@
 //! force on tiny multi-season instances, follow-ups are funded whenever the money allows, and
 //! the season-by-season (myopic) plan is never better over the horizon.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::core::site::{Access, Herbicide, PatchId, Site};
+use hostcut::graph::build_graph;
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Assignment, Limits, Problem, Status, solve};
-use hostcut::patches::{Access, Herbicide, Patch, PatchId, Site};
+use hostcut::optimise::solve;
+use hostcut::patches::Patch;
 use hostcut::program::{self, Horizon, ProgramProblem};
+use hostcut::solve::problem::{Assignment, Limits, Problem, Status};
 use hostcut::treatments::{Catalogue, choices_for};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

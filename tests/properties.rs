@@ -2,10 +2,12 @@
 //! hours, eligibility), never leaves more risk than doing nothing, and more budget never raises
 //! the optimal risk.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::graph::build_graph;
 use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, Status, solve};
+use hostcut::optimise::solve;
+use hostcut::solve::problem::{Limits, Problem, Status};
 use hostcut::treatments::{Choice, MethodId};
 use proptest::prelude::*;
 

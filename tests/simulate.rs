@@ -112,8 +112,8 @@ fn below_the_persistence_threshold_the_insect_dies_out() {
     let edges: Vec<hostcut::graph::Edge> = links
         .iter()
         .map(|&(a, b, k)| hostcut::graph::Edge {
-            a: hostcut::patches::PatchId(a as u32),
-            b: hostcut::patches::PatchId(b as u32),
+            a: hostcut::core::site::PatchId(a as u32),
+            b: hostcut::core::site::PatchId(b as u32),
             distance: 0.0,
             kernel: k,
         })

@@ -4,10 +4,12 @@
 
 use std::fmt::Write as _;
 
-use crate::cli::{BenchArgs, KernelKind};
+use crate::cli::BenchArgs;
+use crate::core::kernel::Kernel;
+use crate::core::kernel::KernelKind;
 use crate::error::{Error, Result};
-use crate::graph::Kernel;
-use crate::optimise::{self, Formulation, Limits, Problem};
+use crate::optimise;
+use crate::solve::problem::{Formulation, Limits, Problem};
 use crate::synthetic::{self, Spec};
 use crate::treatments::{self, Catalogue};
 
@@ -143,7 +145,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
 /// GDAL in the labeller's strips (the baseline: the I/O floor), then build the patches, graph
 /// and risk model from it as `hostcut plan` does.
 fn raster(args: &BenchArgs, side: usize) -> Result<String> {
-    use crate::settings::Scenario;
+    use crate::core::scenario::Scenario;
     use crate::synthetic::{RasterSpec, write_raster};
     if side == 0 || args.patches == 0 || args.cell_m.is_nan() || args.cell_m <= 0.0 {
         return Err(Error::input(

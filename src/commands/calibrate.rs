@@ -11,14 +11,18 @@ use geo::{BoundingRect, Contains, Point};
 use crate::calibrate::{self, FamilyFit, Geometry, Observations, PROFILE_DROP};
 use crate::cautions;
 use crate::chart::{self, Series, Style};
-use crate::cli::{CalibrateArgs, KernelKind};
+use crate::cli::CalibrateArgs;
+use crate::core::kernel::Kernel;
+use crate::core::kernel::KernelKind;
+use crate::core::scenario::Robust;
+use crate::core::scenario::{Calibration, CalibrationFile, EnsembleMember};
 use crate::error::{Error, Result};
 use crate::gis;
-use crate::graph::{self, Kernel};
+use crate::graph;
 use crate::output::Staging;
 use crate::patches::Patches;
 use crate::pipeline::{self, Prepared};
-use crate::settings::{self, Calibration, CalibrationFile, EnsembleMember, Robust};
+use crate::settings;
 
 /// One survey record.
 #[derive(Debug, Clone)]

@@ -8,12 +8,13 @@ use crate::baselines;
 use crate::cautions;
 use crate::chart::{self, Marker, Series, Style, escape, thousands};
 use crate::cli::CurveArgs;
+use crate::core::scenario;
 use crate::curve::{self, Point};
 use crate::error::{Error, Result};
-use crate::optimise::Limits;
 use crate::output::{self, Staging};
 use crate::pipeline::{self, Prepared};
 use crate::settings;
+use crate::solve::problem::Limits;
 
 /// A currency code and the symbol shown before amounts.
 #[derive(Debug, Clone)]
@@ -451,7 +452,7 @@ impl Page {
         points: &[Point],
         a: &Analysis,
         money: &Money,
-        s: &settings::Scenario,
+        s: &scenario::Scenario,
     ) -> Page {
         let patches = &prepared.patches;
         let total_stems: f64 = patches.items.iter().map(|p| p.stems).sum();
@@ -503,7 +504,7 @@ impl Page {
                         .map(|m| format!("{m:.2}"))
                         .unwrap_or_else(|| "-".into()),
                     match p.status {
-                        crate::optimise::Status::Optimal => "optimal".to_string(),
+                        crate::solve::problem::Status::Optimal => "optimal".to_string(),
                         other => format!("{} (within {:.3}%)", other.as_str(), 100.0 * p.gap),
                     },
                 ]

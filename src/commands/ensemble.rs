@@ -4,13 +4,15 @@
 
 use std::fmt::Write as _;
 
+use crate::core::kernel::Kernel;
+use crate::core::scenario::EnsembleSection;
+use crate::core::scenario::Robust;
 use crate::ensemble;
 use crate::error::{Error, Result};
-use crate::graph::Kernel;
 use crate::model::RiskModel;
-use crate::optimise::{self, Assignment, Limits, MinMax, Problem, Solved, Status};
+use crate::optimise::{self, MinMax};
 use crate::pipeline::Prepared;
-use crate::settings::{EnsembleSection, Robust};
+use crate::solve::problem::{Assignment, Limits, Problem, Solved, Status};
 
 /// What the plan command needs back.
 pub struct EnsembleRun {

@@ -6,12 +6,13 @@ use std::path::PathBuf;
 use crate::baselines;
 use crate::cautions;
 use crate::error::{Error, Result};
-use crate::optimise::{self, Limits, Problem, Status};
+use crate::optimise;
 use crate::output::{self, Outputs, Staging};
 use crate::patches;
 use crate::pipeline;
 use crate::plan;
 use crate::settings::Settings;
+use crate::solve::problem::{Limits, Problem, Status};
 use crate::treatments::Catalogue;
 
 /// What a finished run reports back to the caller.
@@ -83,7 +84,11 @@ pub fn run_into(
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
         output::write_new_file(&path, "--write-mps", |temporary| {
-            optimise::write_mps(&problem, temporary, optimise::Formulation::Transport)
+            optimise::write_mps(
+                &problem,
+                temporary,
+                crate::solve::problem::Formulation::Transport,
+            )
         })?;
     }
     let solved = match &ensemble {

@@ -12,11 +12,11 @@ use crate::chart::{self, Series, Style};
 use crate::cli::ProgramArgs;
 use crate::error::{Error, Result};
 use crate::gis::{self, Property};
-use crate::optimise::{Assignment, Limits, Status};
 use crate::output::{self, Staging};
 use crate::pipeline::{self, Prepared};
 use crate::program::{self, Action, Horizon, ProgramProblem, ProgramSolved};
 use crate::settings;
+use crate::solve::problem::{Assignment, Limits, Status};
 use crate::treatments;
 
 fn per_season(values: &[f64], seasons: usize, flag: &str) -> Result<Vec<f64>> {

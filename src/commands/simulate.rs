@@ -11,13 +11,16 @@ use crate::cautions;
 use crate::chart::{self, Series, Style};
 use crate::cli::SimulateArgs;
 use crate::contract::PlanFolder;
+use crate::core::kernel::Kernel;
+use crate::core::scenario;
 use crate::error::{Error, Result};
-use crate::graph::{self, Kernel};
-use crate::optimise::{self, Assignment, Limits, Problem};
+use crate::graph;
+use crate::optimise;
 use crate::output::Staging;
 use crate::pipeline::{self, Prepared};
 use crate::settings;
 use crate::simulate::{self, Landscape, LongDistance, Params, Trace, Treatment};
+use crate::solve::problem::{Assignment, Limits, Problem};
 
 const STRATEGIES: [(&str, &str, Style); 5] = [
     ("none", "no treatment", Style::LongDash),
@@ -63,7 +66,10 @@ struct SimJson {
     lambda_m_before: f64,
 }
 
-fn check(args: &SimulateArgs, fitted: Option<&crate::settings::Calibration>) -> Result<Params> {
+fn check(
+    args: &SimulateArgs,
+    fitted: Option<&crate::core::scenario::Calibration>,
+) -> Result<Params> {
     let d = Params::default();
     let pick = |flag: Option<f64>, fit: Option<f64>, default: f64| flag.or(fit).unwrap_or(default);
     let extinction = pick(args.extinction, fitted.map(|c| c.extinction), d.extinction);
@@ -210,7 +216,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     let settings = settings::resolve_with(&inputs, args.plan_dir.is_none())?;
     let s = &settings.scenario;
     let fitted = match &s.model.calibration {
-        Some(path) => Some(settings::read_calibration(path)?.calibration),
+        Some(path) => Some(scenario::read_calibration(path)?.calibration),
         None => None,
     };
     let params = check(args, fitted.as_ref())?;
@@ -234,7 +240,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
                 ..Limits::new(s.solver.time_limit_s, s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;
-            if solved.status == optimise::Status::Infeasible {
+            if solved.status == crate::solve::problem::Status::Infeasible {
                 return Err(Error::input(
                     "the required patches do not fit the budget and hours: there is no plan to simulate",
                 ));

@@ -1,0 +1,3 @@
+//! Stage 1: reading inputs.
+
+pub mod inventory;

@@ -1,0 +1,5 @@
+//! Stage 3: the optimiser.
+
+pub mod components;
+pub mod highs;
+pub mod problem;
