@@ -2,17 +2,17 @@
 //! feasible, and never beats the exact optimum (property test over random instances against
 //! brute-force enumeration).
 
-use hostcut::baselines::{self, fill_in_order};
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
 use hostcut::core::site::{PatchId, Site};
-use hostcut::gis::Crs;
-use hostcut::graph::build_graph;
-use hostcut::model::RiskModel;
-use hostcut::optimise::{brute_force, solve};
-use hostcut::patches::{Patch, Patches};
+use hostcut::input::gis::Crs;
+use hostcut::input::patches::{Patch, Patches};
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::planning::baselines::{self, fill_in_order};
+use hostcut::solve::optimise::{brute_force, solve};
 use hostcut::solve::problem::{Limits, Problem};
-use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -4,11 +4,11 @@
 
 mod common;
 
-use hostcut::calibrate::{
+use hostcut::core::kernel::KernelKind;
+use hostcut::model::calibrate::{
     self, Geometry, Observations, Theta, exact_log_likelihood, fit_family, log_likelihood,
 };
-use hostcut::core::kernel::KernelKind;
-use hostcut::simulate::{self, Landscape, Params, SplitMix};
+use hostcut::model::simulate::{self, Landscape, Params, SplitMix};
 
 fn random_geometry(n: usize, side: f64, seed: u64) -> (Geometry, Vec<(f64, f64)>) {
     let mut g = SplitMix::new(seed);
@@ -398,7 +398,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         dir.path(),
     )
     .unwrap();
-    let prepared = hostcut::pipeline::prepare(&scenario, &|_| {}).unwrap();
+    let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}).unwrap();
     let surveys = [
         sv(500050.0, 4480000.0, 2020, false),
         sv(500500.0, 4480000.0, 2020, true),
@@ -417,7 +417,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
     assert_eq!(obs.states[1], vec![Some(true), None]);
     // Raster patches have outlines: a survey inside one is `Inside`.
     demo(dir.path());
-    let prepared = hostcut::pipeline::prepare(
+    let prepared = hostcut::planning::prepare::prepare(
         &hostcut::core::scenario::read_scenario(&dir.path().join("demo/scenario.resolved.toml"))
             .unwrap(),
         &|_| {},

@@ -4,12 +4,12 @@
 
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
-use hostcut::decompose;
-use hostcut::graph::build_graph;
-use hostcut::model::RiskModel;
-use hostcut::optimise::{brute_force, solve};
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::decompose;
+use hostcut::solve::optimise::{brute_force, solve};
 use hostcut::solve::problem::{Limits, Problem, Status};
-use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -6,12 +6,12 @@ mod common;
 use common::*;
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
-use hostcut::ensemble::combine;
-use hostcut::graph::build_graph;
-use hostcut::model::RiskModel;
-use hostcut::optimise::{MinMax, solve, solve_minmax};
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::ensemble::combine;
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::optimise::{MinMax, solve, solve_minmax};
 use hostcut::solve::problem::{Assignment, Limits, Problem};
-use hostcut::treatments::{Choice, MethodId};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -160,11 +160,11 @@ fn knapsack_instances_reach_their_optima_through_the_planner() {
 #[test]
 fn relaxation_equals_dantzig_bound_on_the_public_instances() {
     use hostcut::core::kernel::Kernel;
-    use hostcut::graph::build_graph;
-    use hostcut::model::RiskModel;
-    use hostcut::relax::{Stop, bound};
+    use hostcut::input::treatments::{Choice, MethodId};
+    use hostcut::model::graph::build_graph;
+    use hostcut::model::risk::RiskModel;
     use hostcut::solve::problem::Problem;
-    use hostcut::treatments::{Choice, MethodId};
+    use hostcut::solve::relax::{Stop, bound};
     for inst in INSTANCES {
         let n = inst.weights.len();
         let points: Vec<(f64, f64)> = (0..n).map(|i| (i as f64 * 1e6, 0.0)).collect();

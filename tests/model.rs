@@ -5,8 +5,8 @@
 
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
-use hostcut::graph::{PatchGraph, build_graph};
-use hostcut::model::RiskModel;
+use hostcut::model::graph::{PatchGraph, build_graph};
+use hostcut::model::risk::RiskModel;
 use nalgebra::DMatrix;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

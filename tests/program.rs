@@ -5,13 +5,13 @@
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
 use hostcut::core::site::{Access, Herbicide, PatchId, Site};
-use hostcut::graph::build_graph;
-use hostcut::model::RiskModel;
-use hostcut::optimise::solve;
-use hostcut::patches::Patch;
-use hostcut::program::{self, Horizon, ProgramProblem};
+use hostcut::input::patches::Patch;
+use hostcut::input::treatments::{Catalogue, choices_for};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::planning::program::{self, Horizon, ProgramProblem};
+use hostcut::solve::optimise::solve;
 use hostcut::solve::problem::{Assignment, Limits, Problem, Status};
-use hostcut::treatments::{Catalogue, choices_for};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

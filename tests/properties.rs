@@ -4,11 +4,11 @@
 
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
-use hostcut::graph::build_graph;
-use hostcut::model::RiskModel;
-use hostcut::optimise::solve;
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::optimise::solve;
 use hostcut::solve::problem::{Limits, Problem, Status};
-use hostcut::treatments::{Choice, MethodId};
 use proptest::prelude::*;
 
 #[derive(Debug, Clone)]

@@ -4,16 +4,16 @@
 use std::fmt::Write as _;
 
 use super::plan::RunReport;
-use crate::baselines;
-use crate::cautions;
-use crate::chart::{self, Marker, Series, Style, escape, thousands};
-use crate::cli::CurveArgs;
+use crate::app::cli::CurveArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
 use crate::core::scenario;
-use crate::curve::{self, Point};
-use crate::error::{Error, Result};
-use crate::output::{self, Staging};
-use crate::pipeline::{self, Prepared};
-use crate::settings;
+use crate::planning::baselines;
+use crate::planning::curve::{self, Point};
+use crate::planning::prepare::{self, Prepared};
+use crate::report::chart::{self, Marker, Series, Style, escape, thousands};
+use crate::report::output::{self, Staging};
 use crate::solve::problem::Limits;
 
 /// A currency code and the symbol shown before amounts.
@@ -96,7 +96,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     }
     let staging = Staging::new(&settings.out, settings.force, "curve")?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let money = Money::new(
         args.currency
             .as_deref()

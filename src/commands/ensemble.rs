@@ -4,14 +4,14 @@
 
 use std::fmt::Write as _;
 
+use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::scenario::EnsembleSection;
 use crate::core::scenario::Robust;
-use crate::ensemble;
-use crate::error::{Error, Result};
-use crate::model::RiskModel;
-use crate::optimise::{self, MinMax};
-use crate::pipeline::Prepared;
+use crate::model::ensemble;
+use crate::model::risk::RiskModel;
+use crate::planning::prepare::Prepared;
+use crate::solve::optimise::{self, MinMax};
 use crate::solve::problem::{Assignment, Limits, Problem, Solved, Status};
 
 /// What the plan command needs back.

@@ -6,20 +6,20 @@ use std::fmt::Write as _;
 
 use serde::Serialize;
 
-use crate::baselines;
-use crate::cautions;
-use crate::chart::{self, Series, Style};
-use crate::cli::SimulateArgs;
-use crate::contract::PlanFolder;
+use crate::app::cli::SimulateArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::scenario;
-use crate::error::{Error, Result};
-use crate::graph;
-use crate::optimise;
-use crate::output::Staging;
-use crate::pipeline::{self, Prepared};
-use crate::settings;
-use crate::simulate::{self, Landscape, LongDistance, Params, Trace, Treatment};
+use crate::field::contract::PlanFolder;
+use crate::model::graph;
+use crate::model::simulate::{self, Landscape, LongDistance, Params, Trace, Treatment};
+use crate::planning::baselines;
+use crate::planning::prepare::{self, Prepared};
+use crate::report::chart::{self, Series, Style};
+use crate::report::output::Staging;
+use crate::solve::optimise;
 use crate::solve::problem::{Assignment, Limits, Problem};
 
 const STRATEGIES: [(&str, &str, Style); 5] = [
@@ -228,7 +228,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     }
     let staging = Staging::new(&settings.out, settings.force, "simulate")?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
     let problem = prepared.problem(budget, s.plan.crew_hours);
     let plan = match &args.plan_dir {

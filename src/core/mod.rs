@@ -1,5 +1,10 @@
-//! Stage 0: types and helpers every stage shares.
+//! Stage 0, shared by every later stage: errors, cautions, progress, the random stream, dispersal kernels,
+//! site rules and patch ids, and the scenario schema.
 
+pub mod cautions;
+pub mod error;
 pub mod kernel;
+pub mod progress;
+pub mod rng;
 pub mod scenario;
 pub mod site;

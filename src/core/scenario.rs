@@ -12,8 +12,8 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
+use crate::core::error::{Error, Result};
 use crate::core::kernel::KernelKind;
-use crate::error::{Error, Result};
 
 /// Default dispersal scale in metres; see docs/model.md for the reasoning.
 pub const DEFAULT_ALPHA_M: f64 = 200.0;

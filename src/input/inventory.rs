@@ -7,8 +7,8 @@
 use std::collections::HashMap;
 use std::path::Path;
 
+use crate::core::error::{Error, Result};
 use crate::core::site::{Access, Herbicide};
-use crate::error::{Error, Result};
 
 /// One row of a stand inventory, already checked.
 #[derive(Debug, Clone)]

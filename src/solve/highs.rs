@@ -2,7 +2,7 @@
 //! and read the assignment and the dual bound back. The formulations that build the model are
 //! in `optimise`.
 
-use crate::error::{Error, Result};
+use crate::core::error::{Error, Result};
 use crate::solve::problem::{Assignment, Limits, Status};
 
 /// A built HiGHS model and, per patch, (choice index, column) of each x_io.

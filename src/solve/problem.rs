@@ -6,8 +6,8 @@
 //! # Units
 //! Costs in catalogue currency, hours in crew hours, R in share-squared units.
 
-use crate::model::RiskModel;
-use crate::treatments::Choice;
+use crate::input::treatments::Choice;
+use crate::model::risk::RiskModel;
 
 /// What the optimiser is asked: the model, each patch's eligible choices and the limits.
 #[derive(Debug, Clone)]

@@ -11,10 +11,10 @@ use std::path::Path;
 
 use geo::{LineString, MultiPolygon, Point, Polygon};
 
-use crate::error::{Error, Result};
-use crate::gis::{self, Crs, Property};
+use crate::core::error::{Error, Result};
+use crate::input::gis::{self, Crs, Property};
 
-pub use crate::rng::SplitMix;
+pub use crate::core::rng::SplitMix;
 
 const X0: f64 = 500_000.0;
 const Y0: f64 = 4_470_000.0;
@@ -408,9 +408,9 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 /// with known parameters (exp kernel, alpha 200 m), about 60 % of patches visited each year, a
 /// few visits outside the county for the unassigned list.
 fn surveys_csv(dir: &Path) -> Result<String> {
-    use crate::simulate::{self, Landscape, Params};
+    use crate::model::simulate::{self, Landscape, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
-    let prepared = crate::pipeline::prepare(&scenario, &|_| {})?;
+    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {})?;
     let landscape = Landscape::of(&prepared);
     let truth = Params {
         extinction: 0.25,

@@ -11,9 +11,9 @@
 
 use std::path::Path;
 
-use crate::error::{Error, Result};
-use crate::gis::{self, Crs};
-use crate::patches::Patches;
+use crate::core::error::{Error, Result};
+use crate::input::gis::{self, Crs};
+use crate::input::patches::Patches;
 
 /// s_i for every patch: 1 without a layer or column.
 pub fn per_patch(

@@ -1,16 +1,16 @@
 //! The stages from resolved settings to the optimiser's input, shared by every command that
 //! plans: layers in → patches → graph and pressure → risk model → eligible choices.
 
+use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::scenario::Scenario;
-use crate::error::{Error, Result};
-use crate::graph::{self, PatchGraph, Pressure};
-use crate::layers;
-use crate::model::RiskModel;
-use crate::patches::{self, Patches};
+use crate::input::layers;
+use crate::input::patches::{self, Patches};
+use crate::input::suitability;
+use crate::input::treatments::{self, Catalogue, Choice};
+use crate::model::graph::{self, PatchGraph, Pressure};
+use crate::model::risk::RiskModel;
 use crate::solve::problem::Problem;
-use crate::suitability;
-use crate::treatments::{self, Catalogue, Choice};
 
 /// Everything a planning command needs, built once.
 pub struct Prepared {
@@ -36,7 +36,7 @@ pub struct Prepared {
     pub host: Vec<f64>,
     /// What the pressure was built from, kept so other kernels can be modelled on the same
     /// patches (ensembles) and so simulations can start where the insect was found.
-    pub corridors: Vec<crate::layers::Corridor>,
+    pub corridors: Vec<crate::input::layers::Corridor>,
     pub detections: Vec<(f64, f64)>,
     pub detection_weight: f64,
     pub epsilon: f64,
@@ -125,7 +125,7 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
         s.model.epsilon,
     );
     let assume = match &s.host.assume_crs {
-        Some(def) => Some(crate::gis::Crs::parse(def, "`--assume-crs`")?),
+        Some(def) => Some(crate::input::gis::Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
     let suitability =

@@ -6,13 +6,13 @@ use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
-use crate::cautions;
-use crate::error::{Error, Result};
-use crate::gis::{self, Property, ToLonLat};
-use crate::graph::Pressure;
-use crate::patches::Patches;
-use crate::plan::Plan;
-use crate::treatments::Catalogue;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::input::gis::{self, Property, ToLonLat};
+use crate::input::patches::Patches;
+use crate::input::treatments::Catalogue;
+use crate::model::graph::Pressure;
+use crate::planning::plan::Plan;
 
 /// The marker file in every folder hostcut writes. `--force` replaces only a folder that holds
 /// it, and only with a run of the same command, so no user's own folder is ever emptied.
@@ -458,7 +458,7 @@ pub struct Summary {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ensemble: Option<serde_json::Value>,
     /// Cells, features and patches skipped while reading, by reason.
-    pub skipped: crate::layers::Skipped,
+    pub skipped: crate::input::layers::Skipped,
     /// How the site rules were read and checked.
     pub site_rules: SiteRules,
 }

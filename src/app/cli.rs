@@ -1,5 +1,5 @@
 //! Command-line arguments as plain data. Nothing here validates or reads files: the resolve step
-//! in [`crate::settings`] merges these flags with a scenario file and defaults.
+//! in [`crate::app::settings`] merges these flags with a scenario file and defaults.
 
 use std::path::PathBuf;
 
@@ -488,7 +488,7 @@ pub struct OrdersArgs {
     #[arg(long, value_name = "DAYS", default_value = "mon-fri")]
     pub workdays: String,
     /// Most stops on one crew-day
-    #[arg(long, value_name = "N", default_value_t = crate::orders::DEFAULT_MAX_STOPS)]
+    #[arg(long, value_name = "N", default_value_t = crate::field::orders::DEFAULT_MAX_STOPS)]
     pub max_stops: usize,
     /// A `hostcut curve` output folder whose budget curve goes into the report [default: the
     /// plan folder's own curve.svg, if it has one]

@@ -3,11 +3,11 @@
 //! data: never a real place.
 
 use crate::core::kernel::Kernel;
+use crate::core::rng::SplitMix;
 use crate::core::site::{Access, Herbicide, PatchId, Site};
-use crate::graph::{PatchGraph, build_graph};
-use crate::model::RiskModel;
-use crate::patches::Patch;
-use crate::rng::SplitMix;
+use crate::input::patches::Patch;
+use crate::model::graph::{PatchGraph, build_graph};
+use crate::model::risk::RiskModel;
 
 /// What to generate.
 #[derive(Debug, Clone, Copy)]
@@ -185,8 +185,8 @@ impl RasterPainter {
 
 /// Write the raster of `spec` as a tiled Float32 GeoTIFF (256 x 256 blocks) in UTM zone 18N,
 /// painted and written 256 rows at a time.
-pub fn write_raster(path: &std::path::Path, spec: RasterSpec) -> crate::error::Result<()> {
-    use crate::error::Error;
+pub fn write_raster(path: &std::path::Path, spec: RasterSpec) -> crate::core::error::Result<()> {
+    use crate::core::error::Error;
     // Written beside the target and renamed when complete, so a failed or interrupted run
     // never leaves a partial raster that a later run would reuse.
     let mut partial = path.as_os_str().to_owned();
@@ -204,8 +204,8 @@ fn write_raster_to(
     partial: &std::path::Path,
     path: &std::path::Path,
     spec: RasterSpec,
-) -> crate::error::Result<()> {
-    use crate::error::Error;
+) -> crate::core::error::Result<()> {
+    use crate::core::error::Error;
     use gdal::DriverManager;
     let fail = |e| Error::gdal("write", path, e);
     let driver = DriverManager::get_driver_by_name("GTiff").map_err(fail)?;

@@ -7,10 +7,10 @@
 
 use crate::core::scenario::ModelSection;
 use crate::core::site::PatchId;
-use crate::model::RiskModel;
-use crate::patches::Patches;
+use crate::input::patches::Patches;
+use crate::input::treatments::{self, Catalogue, Choice, MethodId};
+use crate::model::risk::RiskModel;
 use crate::solve::problem::{Problem, Solved, Status};
-use crate::treatments::{self, Catalogue, Choice, MethodId};
 
 /// One treated patch.
 #[derive(Debug, Clone)]

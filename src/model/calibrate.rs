@@ -1,4 +1,4 @@
-//! Fitting the simulation's occupancy model (see [`crate::simulate`]) to survey history by
+//! Fitting the simulation's occupancy model (see [`crate::model::simulate`]) to survey history by
 //! maximum likelihood: the kernel scale alpha (profiled on a grid, refined by golden-section
 //! search), colonisation c, extinction e and introduction weight iota (Nelder–Mead from the
 //! `argmin` crate, on log scale), for each kernel family; profile-likelihood intervals for alpha,

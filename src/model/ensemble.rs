@@ -2,11 +2,11 @@
 //! same patches. The weighted-mean objective is one combined risk model (R is linear in its
 //! weights, so sum_s w_s R_s has own terms sum_s w_s pi_i^s a_i^2 and link weights
 //! sum_s w_s w_ij^s over the union of links); the worst-case and largest-regret objectives are
-//! solved exactly by [`crate::optimise::solve_minmax`].
+//! solved exactly by [`crate::solve::optimise::solve_minmax`].
 
 use std::collections::BTreeMap;
 
-use crate::model::{Link, RiskModel};
+use crate::model::risk::{Link, RiskModel};
 
 /// The weighted mean of risk models over the same patches (weights are normalised to sum to 1).
 pub fn combine(models: &[RiskModel], weights: &[f64]) -> RiskModel {
@@ -57,7 +57,7 @@ pub fn combine(models: &[RiskModel], weights: &[f64]) -> RiskModel {
 mod tests {
     use super::*;
     use crate::core::site::PatchId;
-    use crate::graph::{Edge, PatchGraph};
+    use crate::model::graph::{Edge, PatchGraph};
 
     fn model(kernels: &[(usize, usize, f64)], pressure: &[f64]) -> RiskModel {
         let edges = kernels

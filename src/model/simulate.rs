@@ -81,7 +81,7 @@ pub struct Landscape {
 impl Landscape {
     /// The prepared model's patches and links; year 0 occupied where the detections are (the
     /// patch each detection falls nearest to, within the kernel cutoff); no long-distance links.
-    pub fn of(prepared: &crate::pipeline::Prepared) -> Landscape {
+    pub fn of(prepared: &crate::planning::prepare::Prepared) -> Landscape {
         let items = &prepared.patches.items;
         let mut initial = vec![false; items.len()];
         let reach = prepared.kernel.cutoff(prepared.epsilon);
@@ -124,7 +124,7 @@ pub struct Trace {
     pub final_occupied: Vec<u32>,
 }
 
-pub use crate::rng::SplitMix;
+pub use crate::core::rng::SplitMix;
 
 /// The generator of one (seed, run, year, purpose) stream.
 pub fn stream(seed: u64, run: u64, year: u64, purpose: u64) -> SplitMix {

@@ -12,12 +12,12 @@ use geo::{Area, Centroid, Contains, MultiPolygon, Point, Polygon};
 use rstar::RTree;
 use rstar::primitives::{GeomWithData, Rectangle};
 
+use crate::core::error::{Error, Result};
 use crate::core::scenario::HostSection;
 use crate::core::site::{Herbicide, PatchId, Site, Water};
-use crate::error::{Error, Result};
-use crate::gis::{self, Crs, Frame, Grid};
-use crate::label::{Blob, Labeller, Rules, Run};
-use crate::layers::{Host, Layers, Parcel, SiteFeature, Skipped};
+use crate::input::gis::{self, Crs, Frame, Grid};
+use crate::input::label::{Blob, Labeller, Rules, Run};
+use crate::input::layers::{Host, Layers, Parcel, SiteFeature, Skipped};
 
 /// One patch of tree-of-heaven.
 #[derive(Debug, Clone)]
@@ -125,7 +125,7 @@ pub fn label_strips(
     let mut labeller = Labeller::new(w, options.rules(cell_ha));
     let strip = strip.max(1);
     let mut row0 = 0;
-    let bar = crate::progress::Stage::bar("labelling host cells", h as u64, "rows");
+    let bar = crate::core::progress::Stage::bar("labelling host cells", h as u64, "rows");
     while row0 < h {
         bar.set(row0 as u64);
         let rows = strip.min(h - row0);

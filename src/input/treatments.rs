@@ -10,13 +10,13 @@ use std::path::Path;
 
 use serde::{Deserialize, Serialize};
 
-use crate::cautions;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
 use crate::core::site::{Access, Herbicide, Site, Water};
-use crate::error::{Error, Result};
-use crate::patches::Patch;
+use crate::input::patches::Patch;
 
 /// The built-in catalogue, `models/treatments.toml`.
-pub const BUILTIN: &str = include_str!("../models/treatments.toml");
+pub const BUILTIN: &str = include_str!("../../models/treatments.toml");
 
 /// Index of a method in the catalogue.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]

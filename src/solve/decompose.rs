@@ -14,7 +14,7 @@
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
-use crate::error::Result;
+use crate::core::error::Result;
 use crate::solve::components::component_members;
 use crate::solve::highs::Built;
 use crate::solve::problem::{Assignment, Problem};

@@ -8,11 +8,11 @@ use std::path::{Path, PathBuf};
 
 use geo::{BoundingRect, Intersects, MultiLineString, MultiPolygon, Point, Rect};
 
+use crate::core::error::{Error, Result};
 use crate::core::scenario;
 use crate::core::scenario::{NO_FIELD, Scenario, SiteLayerSection};
 use crate::core::site::{Access, Herbicide, Site};
-use crate::error::{Error, Result};
-use crate::gis::{self, Crs, RasterFile, VectorLayer};
+use crate::input::gis::{self, Crs, RasterFile, VectorLayer};
 use crate::input::inventory::Stand;
 
 /// Counts of what a run skipped, by reason (`host_cells_not_finite`,

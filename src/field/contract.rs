@@ -13,8 +13,8 @@ use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
-use crate::error::{Error, Result};
-use crate::treatments::{Catalogue, Method};
+use crate::core::error::{Error, Result};
+use crate::input::treatments::{Catalogue, Method};
 
 /// One treated patch as plan.csv records it.
 #[derive(Debug, Clone, Deserialize)]
@@ -316,7 +316,7 @@ pub struct Done {
 }
 
 fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
-    crate::calendar::Date::parse(text).map(|d| (d.year, d.month, d.day))
+    crate::field::calendar::Date::parse(text).map(|d| (d.year, d.month, d.day))
 }
 
 /// Check a filled completion file against the plan. Every problem row is reported, each with

@@ -26,12 +26,12 @@
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
-use crate::error::{Error, Result};
-use crate::model::RiskModel;
-use crate::patches::Patch;
+use crate::core::error::{Error, Result};
+use crate::input::patches::Patch;
+use crate::input::treatments::{Catalogue, Choice};
+use crate::model::risk::RiskModel;
 use crate::solve::highs::{Built, run_highs};
 use crate::solve::problem::{Assignment, Limits, OPTIMAL_GAP, Status};
-use crate::treatments::{Catalogue, Choice};
 
 /// What a course does in one season.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -306,8 +306,8 @@ pub struct ProgramSolved {
 /// proven bound the single-season MIP gives (R is homogeneous of degree 2 in the host, and every
 /// untreated patch stands at U_t).
 pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
+    use crate::input::treatments::{Choice, MethodId};
     use crate::solve::problem::Problem;
-    use crate::treatments::{Choice, MethodId};
     let n = p.len();
     let mut floor = 0.0;
     for t in 0..p.weights.len() {
@@ -337,7 +337,7 @@ pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
             required: vec![false; n],
             excluded: vec![false; n],
         };
-        let solved = crate::optimise::solve(&relaxed, limits)?;
+        let solved = crate::solve::optimise::solve(&relaxed, limits)?;
         if !solved.bound.is_finite() {
             return Ok(0.0);
         }

@@ -17,10 +17,10 @@
 
 use std::collections::BTreeMap;
 
-use crate::calendar::{Date, Workdays};
-use crate::contract::{self, PlanFolder};
-use crate::error::{Error, Result};
-use crate::routing::{self, Matrix};
+use crate::core::error::{Error, Result};
+use crate::field::calendar::{Date, Workdays};
+use crate::field::contract::{self, PlanFolder};
+use crate::field::routing::{self, Matrix};
 
 /// Common practice (from memory): about 2 stops of patch work per hour is already brisk; a crew
 /// sheet with more than a dozen sites is hard to follow.

@@ -19,14 +19,14 @@ use std::time::Instant;
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
-use crate::error::{Error, Result};
-use crate::model::RiskModel;
+use crate::core::error::{Error, Result};
+use crate::input::treatments::Choice;
+use crate::model::risk::RiskModel;
 use crate::solve::highs::{Built, run_highs};
 use crate::solve::problem::{
     Assignment, Formulation, Limits, OPTIMAL_GAP, Problem, Solved, Status,
 };
-use crate::treatments::Choice;
-use crate::{decompose, relax};
+use crate::{solve::decompose, solve::relax};
 
 /// Adaptive greedy by risk reduction per unit cost from the feasible plan `start`: treat an
 /// untreated patch or upgrade a treated one while anything fits and lowers R.

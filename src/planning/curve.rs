@@ -5,10 +5,10 @@
 //! # Units
 //! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
 
-use crate::baselines;
-use crate::error::{Error, Result};
-use crate::optimise::{greedy, solve_from};
-use crate::pipeline::Prepared;
+use crate::core::error::{Error, Result};
+use crate::planning::baselines;
+use crate::planning::prepare::Prepared;
+use crate::solve::optimise::{greedy, solve_from};
 use crate::solve::problem::{Assignment, Limits, Status};
 
 /// One budget level.
@@ -95,8 +95,11 @@ pub fn trace(
         ..limits
     };
     let budgets = &budgets;
-    let bar =
-        crate::progress::Stage::bar("solving the budget curve", budgets.len() as u64, "budgets");
+    let bar = crate::core::progress::Stage::bar(
+        "solving the budget curve",
+        budgets.len() as u64,
+        "budgets",
+    );
     let bar = &bar;
     let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
         let handles: Vec<_> = (0..jobs)

@@ -7,7 +7,7 @@
 //! a_i is a share of all stems (sums to 1); R and lambda_M are in units of share squared;
 //! treatment enters as r_i, the share of a patch's host left (1 = untreated).
 
-use crate::graph::PatchGraph;
+use crate::model::graph::PatchGraph;
 
 /// A link with its risk weight w_ij = (pi_i + pi_j) a_i a_j k_ij.
 #[derive(Debug, Clone, Copy, PartialEq)]

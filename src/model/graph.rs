@@ -12,8 +12,8 @@ use rstar::{AABB, RTree};
 
 use crate::core::kernel::Kernel;
 use crate::core::site::PatchId;
-use crate::layers::Corridor;
-use crate::patches::Patches;
+use crate::input::layers::Corridor;
+use crate::input::patches::Patches;
 
 /// A link between two patches, `a < b`.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -5,7 +5,7 @@ use std::fmt::Write as _;
 
 use geo::{BoundingRect, Geometry, Rect};
 
-use crate::chart::escape;
+use crate::report::chart::escape;
 
 /// A map frame: a projected rectangle drawn into `width` x `height` pixels at one scale.
 #[derive(Debug, Clone, Copy)]

@@ -16,7 +16,7 @@ use gdal::vector::{Geometry, LayerAccess, ToGdal};
 use gdal::{Dataset, DriverManager};
 use geo::{BoundingRect, MultiPolygon, Rect};
 
-use crate::error::{Error, Result};
+use crate::core::error::{Error, Result};
 
 /// A coordinate reference system the tool works in: projected, metres.
 #[derive(Debug, Clone)]

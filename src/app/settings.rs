@@ -9,9 +9,9 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::cli::PlanArgs;
+use crate::app::cli::PlanArgs;
+use crate::core::error::{Error, Result};
 use crate::core::scenario::*;
-use crate::error::{Error, Result};
 
 /// Settings for one `plan` run: the resolved scenario plus run-only switches.
 #[derive(Debug, Clone)]

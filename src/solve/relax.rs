@@ -31,8 +31,8 @@
 
 use std::time::Instant;
 
-use crate::decompose::{Piece, Point};
 use crate::solve::components::components;
+use crate::solve::decompose::{Piece, Point};
 use crate::solve::problem::{Assignment, Problem};
 
 /// One option of a patch in the relaxation: untreated (choice None) or a choice.
@@ -90,7 +90,7 @@ pub fn smallest_eigenvalue(diag: &[f64], off: &[(usize, usize, f64)]) -> (f64, f
         }
     };
     let max_steps = n.min(400);
-    let mut rng = crate::rng::SplitMix::new(0x5eed);
+    let mut rng = crate::core::rng::SplitMix::new(0x5eed);
     let mut v: Vec<f64> = (0..n).map(|_| rng.unit() - 0.5).collect();
     let norm = dot(&v, &v).sqrt();
     v.iter_mut().for_each(|x| *x /= norm);
@@ -764,7 +764,7 @@ fn lagrangian(
         return None;
     }
     let hours_limit = problem.crew_hours.filter(|h| h.is_finite());
-    let pieces = crate::decompose::small_pieces(
+    let pieces = crate::solve::decompose::small_pieces(
         problem,
         crate::solve::components::component_members(problem),
     );
