@@ -193,7 +193,6 @@ fn every_source_file_is_in_a_stage_folder() {
 }
 
 #[test]
-#[ignore = "model/simulate.rs still takes a planning::prepare::Prepared (next commit)"]
 fn no_stage_uses_a_later_stage() {
     let mut wrong = Vec::new();
     for (file, uses) in graph() {

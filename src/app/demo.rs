@@ -408,10 +408,10 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 /// with known parameters (exp kernel, alpha 200 m), about 60 % of patches visited each year, a
 /// few visits outside the county for the unassigned list.
 fn surveys_csv(dir: &Path) -> Result<String> {
-    use crate::model::simulate::{self, Landscape, Params};
+    use crate::model::simulate::{self, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
     let prepared = crate::planning::prepare::prepare(&scenario, &|_| {})?;
-    let landscape = Landscape::of(&prepared);
+    let landscape = prepared.landscape();
     let truth = Params {
         extinction: 0.25,
         colonisation: 0.5,

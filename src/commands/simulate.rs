@@ -271,7 +271,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     };
     let landscape = Landscape {
         long_links,
-        ..Landscape::of(&prepared)
+        ..prepared.landscape()
     };
     let seed = args.seed;
     let random = |run: u64| random_plan(&problem, seed, run);

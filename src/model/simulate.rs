@@ -78,36 +78,6 @@ pub struct Landscape {
     pub initial: Vec<bool>,
 }
 
-impl Landscape {
-    /// The prepared model's patches and links; year 0 occupied where the detections are (the
-    /// patch each detection falls nearest to, within the kernel cutoff); no long-distance links.
-    pub fn of(prepared: &crate::planning::prepare::Prepared) -> Landscape {
-        let items = &prepared.patches.items;
-        let mut initial = vec![false; items.len()];
-        let reach = prepared.kernel.cutoff(prepared.epsilon);
-        for &(x, y) in &prepared.detections {
-            let nearest = (0..items.len()).min_by(|&a, &b| {
-                let da = (items[a].x - x).hypot(items[a].y - y);
-                let db = (items[b].x - x).hypot(items[b].y - y);
-                da.total_cmp(&db)
-            });
-            if let Some(i) = nearest
-                && (items[i].x - x).hypot(items[i].y - y) <= reach
-            {
-                initial[i] = true;
-            }
-        }
-        let m = &prepared.model;
-        Landscape {
-            share: m.share.clone(),
-            pressure: m.pressure.clone(),
-            links: m.links.iter().map(|l| (l.a, l.b, l.kernel)).collect(),
-            long_links: Vec::new(),
-            initial,
-        }
-    }
-}
-
 /// What a strategy leaves of each patch's host in year 1 (r_i), fixed or drawn per run.
 pub enum Treatment<'a> {
     Fixed(Vec<f64>),

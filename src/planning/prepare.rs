@@ -10,6 +10,7 @@ use crate::input::suitability;
 use crate::input::treatments::{self, Catalogue, Choice};
 use crate::model::graph::{self, PatchGraph, Pressure};
 use crate::model::risk::RiskModel;
+use crate::model::simulate::Landscape;
 use crate::solve::problem::Problem;
 
 /// Everything a planning command needs, built once.
@@ -197,6 +198,34 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
 }
 
 impl Prepared {
+    /// The prepared model's patches and links; year 0 occupied where the detections are (the
+    /// patch each detection falls nearest to, within the kernel cutoff); no long-distance links.
+    pub fn landscape(&self) -> Landscape {
+        let prepared = self;
+        let items = &prepared.patches.items;
+        let mut initial = vec![false; items.len()];
+        let reach = prepared.kernel.cutoff(prepared.epsilon);
+        for &(x, y) in &prepared.detections {
+            let nearest = (0..items.len()).min_by(|&a, &b| {
+                let da = (items[a].x - x).hypot(items[a].y - y);
+                let db = (items[b].x - x).hypot(items[b].y - y);
+                da.total_cmp(&db)
+            });
+            if let Some(i) = nearest
+                && (items[i].x - x).hypot(items[i].y - y) <= reach
+            {
+                initial[i] = true;
+            }
+        }
+        let m = &prepared.model;
+        Landscape {
+            share: m.share.clone(),
+            pressure: m.pressure.clone(),
+            links: m.links.iter().map(|l| (l.a, l.b, l.kernel)).collect(),
+            long_links: Vec::new(),
+            initial,
+        }
+    }
     /// The graph, pressure and risk model of the same patches under another kernel.
     pub fn model_for(&self, kernel: Kernel) -> (PatchGraph, Pressure, RiskModel) {
         let points: Vec<(f64, f64)> = self.patches.items.iter().map(|p| (p.x, p.y)).collect();
