@@ -920,3 +920,44 @@ fn a_plan_folder_moved_with_its_inputs_can_be_repeated() {
         std::fs::read(moved.join("again/plan.csv")).unwrap()
     );
 }
+
+#[test]
+fn program_force_never_clears_a_users_season_folder() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    stands(d);
+    std::fs::create_dir_all(d.join("prog/season_1")).unwrap();
+    write(
+        &d.join("prog/season_1"),
+        "field notes.txt",
+        "stand S2 has a wasp nest",
+    );
+    let o = run(
+        d,
+        &[
+            "program",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            CRS,
+            "--seasons",
+            "2",
+            "--budgets",
+            "2000,1000",
+            "--out",
+            "prog",
+            "--force",
+            "--quiet",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("not written by hostcut"),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(
+        std::fs::read_to_string(d.join("prog/season_1/field notes.txt")).unwrap(),
+        "stand S2 has a wasp nest"
+    );
+}
