@@ -443,7 +443,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             "raise `--epsilon` or lower `--alpha-m` to keep fewer links, split the area, or raise `--max-memory-gb` if the machine has the memory",
         ));
     }
-    // A convex relaxation bound (src/relax.rs) and its rounded plan, cheap next to the MIP.
+    // A convex relaxation bound (src/solve/relax.rs) and its rounded plan, cheap next to the MIP.
     // Large problems, whose exact model HiGHS cannot take in (or would not get through its
     // root LP) within the limits, are solved by relaxation and local search alone.
     let large = limits.assist && need_gb > limits.max_memory_gb.min(LARGE_MODEL_GB);
@@ -491,7 +491,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         }
     };
     // Components that cannot interact, each small enough to enumerate, are merged exactly
-    // under the one budget (src/decompose.rs) instead of the monolithic formulation.
+    // under the one budget (src/solve/decompose.rs) instead of the monolithic formulation.
     let early = limits.assist
         && warm
             .as_ref()

@@ -65,7 +65,7 @@ pub struct Solved {
     /// `relaxation and local search` (see docs/model.md).
     pub path: &'static str,
     /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
-    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/relax.rs) or
+    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/solve/relax.rs) or
     /// `HiGHS dual bound`.
     pub bound_from: &'static str,
 }

@@ -564,7 +564,7 @@ impl<'a> Relaxed<'a> {
     }
 }
 
-/// The small components whose plans are enumerated (src/decompose.rs) and, per patch,
+/// The small components whose plans are enumerated (src/solve/decompose.rs) and, per patch,
 /// whether it lies in one.
 struct Exact {
     pieces: Vec<Piece>,
