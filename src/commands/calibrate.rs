@@ -364,7 +364,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         },
         prepared.epsilon,
     );
-    if wide.edges.len() > 5_000_000 {
+    if wide.edges.len() > crate::model::graph::MAX_LINKS {
         return Err(Error::input_with_hint(
             format!(
                 "{} patch pairs within reach of the largest scale searched: too many to fit",

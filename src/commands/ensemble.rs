@@ -44,7 +44,8 @@ pub fn solve(
     progress(&format!("building {} dispersal scenarios", kernels.len()));
     let models: Vec<RiskModel> = kernels.iter().map(|k| prepared.model_for(*k).2).collect();
     let links: usize = models.iter().map(|m| m.links.len()).sum();
-    if links > 5_000_000 {
+    // The message spells graph::MAX_LINKS with separators, as it always has.
+    if links > crate::model::graph::MAX_LINKS {
         return Err(Error::input_with_hint(
             format!(
                 "the scenarios have {links} links together, more than this version plans (5,000,000)"

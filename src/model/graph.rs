@@ -15,6 +15,10 @@ use crate::core::site::PatchId;
 use crate::input::layers::Corridor;
 use crate::input::patches::Patches;
 
+/// The most links this version plans with (one graph, the scenarios of an ensemble together,
+/// or the widest graph a calibration searches): beyond it the models no longer fit in memory.
+pub const MAX_LINKS: usize = 5_000_000;
+
 /// A link between two patches, `a < b`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Edge {

@@ -106,13 +106,13 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
             "raise `--min-density` or `--min-patch-ha`, lower the resolution, or plan the area in parts",
         ));
     }
-    const MAX_LINKS: usize = 5_000_000;
-    if graph.edges.len() > MAX_LINKS {
+    if graph.edges.len() > graph::MAX_LINKS {
         return Err(Error::input_with_hint(
             format!(
-                "{} links between {} patches: more than this version plans ({MAX_LINKS})",
+                "{} links between {} patches: more than this version plans ({})",
                 graph.edges.len(),
-                patches.len()
+                patches.len(),
+                graph::MAX_LINKS
             ),
             "raise `--epsilon` or lower `--alpha-m` (fewer, stronger links), raise `--min-patch-ha`, or plan the area in parts",
         ));
