@@ -1,56 +1,32 @@
 //! hostcut: plan which tree-of-heaven patches to treat this season, and how, to cut spotted
 //! lanternfly establishment risk the most for a fixed budget.
 //!
-//! Data flow (one module per stage): [`settings`] → [`layers`] → [`patches`] → [`graph`] →
-//! [`model`] → [`optimise`] → [`plan`] → [`output`]. GDAL lives in [`gis`]; HiGHS in
-//! [`optimise`].
+//! The folders are the pipeline's stages, each using only the ones before it (docs/ARCHITECTURE.md):
+//! [`core`] → [`input`] → [`model`] → [`solve`] → [`planning`] → [`field`] → [`report`] → [`app`]
+//! → [`commands`]. GDAL lives in [`input::gis`]; HiGHS in [`solve`].
 
-pub mod baselines;
-pub mod calendar;
-pub mod calibrate;
-pub mod cautions;
-pub mod chart;
-pub mod cli;
+pub mod app;
 pub mod commands;
-pub mod contract;
-pub mod curve;
-pub mod decompose;
-pub mod demo;
-pub mod ensemble;
-pub mod error;
-pub mod gis;
-pub mod graph;
-pub mod label;
-pub mod layers;
-pub mod map;
-pub mod memory;
+pub mod core;
+pub mod field;
+pub mod input;
 pub mod model;
-pub mod optimise;
-pub mod orders;
-pub mod output;
-pub mod patches;
-pub mod pipeline;
-pub mod plan;
-pub mod program;
-pub mod progress;
-pub mod relax;
-pub mod rng;
-pub mod routing;
-pub mod settings;
-pub mod simulate;
-pub mod suitability;
-pub mod synthetic;
-pub mod treatments;
+pub mod planning;
+pub mod report;
+pub mod solve;
 
-use cli::{Cli, Command};
-pub use error::{Error, Result};
+use crate::app::cli::{Cli, Command};
+use crate::app::{demo, settings};
+pub use crate::core::error::{Error, Result};
+use crate::core::progress;
+use crate::report::output;
 
 /// Run one command; returns the text for stdout.
 pub fn run(cli: Cli) -> Result<String> {
     // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
     // default handler from printing them a second time.
     gdal::config::set_error_handler(|_, _, _| {});
-    memory::cap_gdal_cache();
+    crate::core::memory::cap_gdal_cache();
     progress::init(match &cli.command {
         Command::Plan(a) => a.inputs.quiet,
         Command::Curve(a) => a.inputs.quiet,

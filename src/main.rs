@@ -3,7 +3,7 @@ use std::process::ExitCode;
 use clap::Parser;
 
 fn main() -> ExitCode {
-    let cli = hostcut::cli::Cli::parse();
+    let cli = hostcut::app::cli::Cli::parse();
     match hostcut::run(cli) {
         Ok(text) => {
             print!("{text}");

@@ -2,14 +2,17 @@
 //! feasible, and never beats the exact optimum (property test over random instances against
 //! brute-force enumeration).
 
-use hostcut::baselines::{self, fill_in_order};
-use hostcut::cli::KernelKind;
-use hostcut::gis::Crs;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, brute_force, solve};
-use hostcut::patches::{Patch, PatchId, Patches, Site};
-use hostcut::treatments::{Choice, MethodId};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::core::site::{PatchId, Site};
+use hostcut::input::gis::Crs;
+use hostcut::input::patches::{Patch, Patches};
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::planning::baselines::{self, fill_in_order};
+use hostcut::solve::optimise::{brute_force, solve};
+use hostcut::solve::problem::{Limits, Problem};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

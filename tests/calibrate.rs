@@ -4,11 +4,11 @@
 
 mod common;
 
-use hostcut::calibrate::{
+use hostcut::core::kernel::KernelKind;
+use hostcut::model::calibrate::{
     self, Geometry, Observations, Theta, exact_log_likelihood, fit_family, log_likelihood,
 };
-use hostcut::cli::KernelKind;
-use hostcut::simulate::{self, Landscape, Params, SplitMix};
+use hostcut::model::simulate::{self, Landscape, Params, SplitMix};
 
 fn random_geometry(n: usize, side: f64, seed: u64) -> (Geometry, Vec<(f64, f64)>) {
     let mut g = SplitMix::new(seed);
@@ -392,13 +392,13 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         date: String::new(),
         source: String::new(),
     };
-    let scenario = hostcut::settings::parse_scenario(
+    let scenario = hostcut::core::scenario::parse_scenario(
         "[host]\ninventory = \"stands.csv\"\ncrs = \"EPSG:32618\"\n",
         "test",
         dir.path(),
     )
     .unwrap();
-    let prepared = hostcut::pipeline::prepare(&scenario, &|_| {}).unwrap();
+    let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}).unwrap();
     let surveys = [
         sv(500050.0, 4480000.0, 2020, false),
         sv(500500.0, 4480000.0, 2020, true),
@@ -417,8 +417,9 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
     assert_eq!(obs.states[1], vec![Some(true), None]);
     // Raster patches have outlines: a survey inside one is `Inside`.
     demo(dir.path());
-    let prepared = hostcut::pipeline::prepare(
-        &hostcut::settings::read_scenario(&dir.path().join("demo/scenario.resolved.toml")).unwrap(),
+    let prepared = hostcut::planning::prepare::prepare(
+        &hostcut::core::scenario::read_scenario(&dir.path().join("demo/scenario.resolved.toml"))
+            .unwrap(),
         &|_| {},
     )
     .unwrap();

@@ -202,10 +202,11 @@ fn a_full_round_trip_gives_the_expected_remaining_stems() {
             .status
             .success()
     );
-    let catalogue =
-        hostcut::treatments::Catalogue::load(Some(&dir.path().join("plan/treatments.used.toml")))
-            .unwrap()
-            .0;
+    let catalogue = hostcut::input::treatments::Catalogue::load(Some(
+        &dir.path().join("plan/treatments.used.toml"),
+    ))
+    .unwrap()
+    .0;
     let template = rows(&dir.path().join("con/completion_template.csv"));
     let mut csv = String::from(
         "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n",

@@ -2,12 +2,14 @@
 //! tiny instances and against the monolithic transportation MIP on larger random ones: patch
 //! clusters far enough apart share no link, so the merge must find the same optimum.
 
-use hostcut::cli::KernelKind;
-use hostcut::decompose;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, Status, brute_force, solve};
-use hostcut::treatments::{Choice, MethodId};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::decompose;
+use hostcut::solve::optimise::{brute_force, solve};
+use hostcut::solve::problem::{Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -58,7 +58,7 @@ fn demo_writes_a_full_plan_folder_at_least_as_good_as_greedy() {
 #[test]
 fn committed_demo_inputs_match_the_generator() {
     let dir = tempfile::tempdir().unwrap();
-    hostcut::demo::write_inputs(dir.path()).unwrap();
+    hostcut::app::demo::write_inputs(dir.path()).unwrap();
     let repo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-inputs");
     for f in ["stands.csv", "scenario.toml", "README.md"] {
         assert_eq!(
@@ -67,7 +67,7 @@ fn committed_demo_inputs_match_the_generator() {
             "{f} differs: remake demo-inputs"
         );
     }
-    let read = |p: std::path::PathBuf| hostcut::gis::read_raster(&p, None).unwrap();
+    let read = |p: std::path::PathBuf| hostcut::input::gis::read_raster(&p, None).unwrap();
     let (a, b) = (
         read(repo.join("host.tif")),
         read(dir.path().join("host.tif")),

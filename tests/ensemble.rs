@@ -4,12 +4,14 @@
 mod common;
 
 use common::*;
-use hostcut::cli::KernelKind;
-use hostcut::ensemble::combine;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Assignment, Limits, MinMax, Problem, solve, solve_minmax};
-use hostcut::treatments::{Choice, MethodId};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::ensemble::combine;
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::optimise::{MinMax, solve, solve_minmax};
+use hostcut::solve::problem::{Assignment, Limits, Problem};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

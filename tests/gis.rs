@@ -3,8 +3,8 @@
 mod common;
 
 use common::*;
-use hostcut::gis::{Crs, Grid, transform_points};
-use hostcut::patches::{LabelOptions, label_cells};
+use hostcut::input::gis::{Crs, Grid, transform_points};
+use hostcut::input::patches::{LabelOptions, label_cells};
 
 /// Strips of two rows, so every test also crosses strip edges.
 const STRIP: usize = 2;
@@ -197,7 +197,7 @@ fn known_points_reproject_to_published_values() {
     );
     // And back: the tool's lon/lat conversion inverts it.
     let crs = Crs::parse("EPSG:32618", "test").unwrap();
-    let back = hostcut::gis::ToLonLat::new(&crs)
+    let back = hostcut::input::gis::ToLonLat::new(&crs)
         .unwrap()
         .points(&[(500_000.0, 0.0)])
         .unwrap();

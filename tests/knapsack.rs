@@ -159,18 +159,19 @@ fn knapsack_instances_reach_their_optima_through_the_planner() {
 /// optimum's R.
 #[test]
 fn relaxation_equals_dantzig_bound_on_the_public_instances() {
-    use hostcut::graph::{Kernel, build_graph};
-    use hostcut::model::RiskModel;
-    use hostcut::optimise::Problem;
-    use hostcut::relax::{Stop, bound};
-    use hostcut::treatments::{Choice, MethodId};
+    use hostcut::core::kernel::Kernel;
+    use hostcut::input::treatments::{Choice, MethodId};
+    use hostcut::model::graph::build_graph;
+    use hostcut::model::risk::RiskModel;
+    use hostcut::solve::problem::Problem;
+    use hostcut::solve::relax::{Stop, bound};
     for inst in INSTANCES {
         let n = inst.weights.len();
         let points: Vec<(f64, f64)> = (0..n).map(|i| (i as f64 * 1e6, 0.0)).collect();
         let graph = build_graph(
             &points,
             Kernel {
-                kind: hostcut::cli::KernelKind::Exp,
+                kind: hostcut::core::kernel::KernelKind::Exp,
                 alpha_m: 100.0,
             },
             0.001,

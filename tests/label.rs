@@ -5,8 +5,8 @@
 //! block limits and slivers, in strips of 1 to all rows so components cross strip edges; and
 //! the GDAL row reader against a whole-band read across the file's own block edges.
 
-use hostcut::gis::{Crs, Grid, read_raster};
-use hostcut::patches::{LabelOptions, label_cells, label_strips};
+use hostcut::input::gis::{Crs, Grid, read_raster};
+use hostcut::input::patches::{LabelOptions, label_cells, label_strips};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
@@ -219,7 +219,7 @@ fn rows_read_from_a_blocked_geotiff_equal_the_whole_band() {
         band.write((0, 0), (w, h), &mut buffer).unwrap();
     }
     let raster =
-        hostcut::gis::open_raster(&path, None, &hostcut::memory::Budget::new(1.0)).unwrap();
+        hostcut::input::gis::open_raster(&path, None, &hostcut::core::memory::Budget::new(1.0)).unwrap();
     assert_eq!(raster.block_rows, 5, "the file's blocks are 5 rows");
     let whole = read_raster(&path, None).unwrap();
     let mut streamed: Vec<f32> = Vec::new();

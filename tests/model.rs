@@ -3,9 +3,10 @@
 //! Identities: methods notes §1 (Hanski & Ovaskainen 2000; two-patch and equal-patch values
 //! derived there from the definition of M).
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, PatchGraph, build_graph};
-use hostcut::model::RiskModel;
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::model::graph::{PatchGraph, build_graph};
+use hostcut::model::risk::RiskModel;
 use nalgebra::DMatrix;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

@@ -2,11 +2,13 @@
 //! per patch, checked for budget, hours, required and excluded, with R evaluated by its
 //! definition) on random small instances; and the greedy heuristic's plan against both.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Formulation, Limits, Problem, Status, brute_force, greedy, solve};
-use hostcut::treatments::{Choice, MethodId};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::optimise::{brute_force, greedy, solve};
+use hostcut::solve::problem::{Formulation, Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
@@ -237,7 +239,7 @@ fn zero_budget_gives_the_empty_plan() {
 /// instances (the floor ignores the budget).
 #[test]
 fn relaxation_bound_never_exceeds_the_brute_force_optimum() {
-    use hostcut::relax::{Stop, bound};
+    use hostcut::solve::relax::{Stop, bound};
     let (mut compared, mut sharper) = (0, 0);
     let mut closed = 0.0;
     for seed in 0..40 {
@@ -332,7 +334,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
         .iter()
         .cloned()
         .fold(f64::INFINITY, f64::min);
-    let (theta, residual) = hostcut::relax::smallest_eigenvalue(diag, off);
+    let (theta, residual) = hostcut::solve::relax::smallest_eigenvalue(diag, off);
     assert!(
         (theta - reference).abs() <= 1e-8 * (1.0 + reference.abs()),
         "case {case} (n {n}): Lanczos {theta} vs nalgebra {reference}"
@@ -351,7 +353,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
 #[test]
 fn message_passing_bound_is_below_the_local_polytope_lp_and_close_to_it() {
     use good_lp::{Expression, ProblemVariables, Solution, SolverModel, constraint, variable};
-    use hostcut::relax::{Stop, local_polytope_bound};
+    use hostcut::solve::relax::{Stop, local_polytope_bound};
     let (mut compared, mut ratio_sum) = (0, 0.0);
     for seed in 100..140 {
         let inst = instance(seed);

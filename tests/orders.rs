@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 
 use common::*;
 use gdal::vector::LayerAccess;
-use hostcut::calendar::Date;
+use hostcut::field::calendar::Date;
 
 /// The demo plan (invented Hollin County), made once per test in its own folder.
 fn demo_plan(dir: &Path) -> PathBuf {
@@ -406,7 +406,8 @@ fn same_inputs_same_orders_and_lonlat_depot_matches_xy() {
     let dir = tempfile::tempdir().unwrap();
     demo_plan(dir.path());
     let (x, y) = (502_500.0, 4_472_000.0);
-    let ll = hostcut::gis::transform_points("EPSG:32618", "EPSG:4326", &[(x, y)]).unwrap()[0];
+    let ll =
+        hostcut::input::gis::transform_points("EPSG:32618", "EPSG:4326", &[(x, y)]).unwrap()[0];
     let go = |out: &str, depot: &[&str]| {
         let mut args = vec![
             "orders",

@@ -2,13 +2,16 @@
 //! force on tiny multi-season instances, follow-ups are funded whenever the money allows, and
 //! the season-by-season (myopic) plan is never better over the horizon.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Assignment, Limits, Problem, Status, solve};
-use hostcut::patches::{Access, Herbicide, Patch, PatchId, Site};
-use hostcut::program::{self, Horizon, ProgramProblem};
-use hostcut::treatments::{Catalogue, choices_for};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::core::site::{Access, Herbicide, PatchId, Site};
+use hostcut::input::patches::Patch;
+use hostcut::input::treatments::{Catalogue, choices_for};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::planning::program::{self, Horizon, ProgramProblem};
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Assignment, Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

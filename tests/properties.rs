@@ -2,11 +2,13 @@
 //! hours, eligibility), never leaves more risk than doing nothing, and more budget never raises
 //! the optimal risk.
 
-use hostcut::cli::KernelKind;
-use hostcut::graph::{Kernel, build_graph};
-use hostcut::model::RiskModel;
-use hostcut::optimise::{Limits, Problem, Status, solve};
-use hostcut::treatments::{Choice, MethodId};
+use hostcut::core::kernel::Kernel;
+use hostcut::core::kernel::KernelKind;
+use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::model::graph::build_graph;
+use hostcut::model::risk::RiskModel;
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Limits, Problem, Status};
 use proptest::prelude::*;
 
 #[derive(Debug, Clone)]

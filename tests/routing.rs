@@ -1,7 +1,7 @@
 //! Crew-day routes against exact tours: brute force on small random instances and a published
 //! TSP instance with its proven optimum.
 
-use hostcut::routing::{self, Matrix};
+use hostcut::field::routing::{self, Matrix};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -4,7 +4,7 @@
 mod common;
 
 use common::*;
-use hostcut::simulate::{self, Landscape, Params, Treatment};
+use hostcut::model::simulate::{self, Landscape, Params, Treatment};
 
 fn landscape(n: usize, links: Vec<(usize, usize, f64)>, sizes: &[f64]) -> Landscape {
     let total: f64 = sizes.iter().sum();
@@ -109,17 +109,17 @@ fn below_the_persistence_threshold_the_insect_dies_out() {
     let mut l = landscape(n, links.clone(), &stems);
     l.initial = vec![true; n];
     // lambda_M of the landscape matrix m_ij = k_ij a_i a_j, through the tool's model.
-    let edges: Vec<hostcut::graph::Edge> = links
+    let edges: Vec<hostcut::model::graph::Edge> = links
         .iter()
-        .map(|&(a, b, k)| hostcut::graph::Edge {
-            a: hostcut::patches::PatchId(a as u32),
-            b: hostcut::patches::PatchId(b as u32),
+        .map(|&(a, b, k)| hostcut::model::graph::Edge {
+            a: hostcut::core::site::PatchId(a as u32),
+            b: hostcut::core::site::PatchId(b as u32),
             distance: 0.0,
             kernel: k,
         })
         .collect();
-    let graph = hostcut::graph::PatchGraph { n, edges };
-    let model = hostcut::model::RiskModel::new(&stems, &vec![1.0; n], &graph);
+    let graph = hostcut::model::graph::PatchGraph { n, edges };
+    let model = hostcut::model::risk::RiskModel::new(&stems, &vec![1.0; n], &graph);
     let lambda = model.capacity(&vec![1.0; n]).lambda;
     let e = 0.3;
     let c_at = |ratio: f64| ratio * e / ((n * n) as f64 * lambda);

@@ -227,16 +227,16 @@ fn patch_means_match_gdalwarp_onto_the_host_grid() {
         .status()
         .expect("gdalwarp (Debian gdal-bin) must be installed");
     assert!(status.success());
-    let grid = hostcut::gis::read_raster(&warped, None).unwrap();
-    let hostgrid = hostcut::gis::read_raster(&dir.path().join("host.tif"), None).unwrap();
+    let grid = hostcut::input::gis::read_raster(&warped, None).unwrap();
+    let hostgrid = hostcut::input::gis::read_raster(&dir.path().join("host.tif"), None).unwrap();
     // Label the host cells the same way the tool does (8-connected, >= 20 stems/ha, no parcels).
-    let options = hostcut::patches::LabelOptions {
+    let options = hostcut::input::patches::LabelOptions {
         min_density: 20.0,
         connectivity: 8,
         min_patch_ha: 0.0,
         max_patch_ha: None,
     };
-    let (components, _) = hostcut::patches::label_cells(&hostgrid, &[], options, 64);
+    let (components, _) = hostcut::input::patches::label_cells(&hostgrid, &[], options, 64);
     let (header, rows) = read_rows(&dir.path().join("out/patches.csv"));
     let suit = header.iter().position(|h| h == "suitability").unwrap();
     assert_eq!(rows.len(), components.len());

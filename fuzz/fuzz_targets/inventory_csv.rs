@@ -3,5 +3,5 @@
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    let _ = hostcut::patches::parse_inventory(data, "fuzz.csv");
+    let _ = hostcut::input::inventory::parse_inventory(data, "fuzz.csv");
 });

@@ -4,6 +4,6 @@ use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
     if let Ok(text) = std::str::from_utf8(data) {
-        let _ = hostcut::treatments::Catalogue::parse(text, "fuzz.toml");
+        let _ = hostcut::input::treatments::Catalogue::parse(text, "fuzz.toml");
     }
 });

@@ -4,12 +4,14 @@
 
 use std::fmt::Write as _;
 
-use crate::cli::{BenchArgs, KernelKind};
-use crate::error::{Error, Result};
-use crate::graph::Kernel;
-use crate::optimise::{self, Formulation, Limits, Problem};
-use crate::synthetic::{self, Spec};
-use crate::treatments::{self, Catalogue};
+use crate::app::cli::BenchArgs;
+use crate::core::error::{Error, Result};
+use crate::core::kernel::Kernel;
+use crate::core::kernel::KernelKind;
+use crate::input::treatments::{self, Catalogue};
+use crate::model::synthetic::{self, Spec};
+use crate::solve::optimise;
+use crate::solve::problem::{Formulation, Limits, Problem};
 
 pub fn run(args: &BenchArgs) -> Result<String> {
     if let Some(side) = args.raster_side {
@@ -143,8 +145,8 @@ pub fn run(args: &BenchArgs) -> Result<String> {
 /// GDAL in the labeller's strips (the baseline: the I/O floor), then build the patches, graph
 /// and risk model from it as `hostcut plan` does.
 fn raster(args: &BenchArgs, side: usize) -> Result<String> {
-    use crate::settings::Scenario;
-    use crate::synthetic::{RasterSpec, write_raster};
+    use crate::core::scenario::Scenario;
+    use crate::model::synthetic::{RasterSpec, write_raster};
     if side == 0 || args.patches == 0 || args.cell_m.is_nan() || args.cell_m <= 0.0 {
         return Err(Error::input(
             "`--raster-side`, `--patches` and `--cell-m` must be above 0",
@@ -191,12 +193,12 @@ fn raster(args: &BenchArgs, side: usize) -> Result<String> {
         let mut scenario = Scenario::default();
         scenario.host.path = Some(path.clone());
         scenario.model.alpha_m = args.alpha_m;
-        let budget = crate::memory::Budget::new(scenario.solver.max_memory_gb);
+        let budget = crate::core::memory::Budget::new(scenario.solver.max_memory_gb);
         // Baseline: every value read once through GDAL in the labeller's strips.
         let clock = std::time::Instant::now();
-        let file = crate::gis::open_raster(&path, None, &budget)?;
+        let file = crate::input::gis::open_raster(&path, None, &budget)?;
         let dataset = file.dataset()?;
-        let strip = crate::patches::strip_rows(&file);
+        let strip = crate::input::patches::strip_rows(&file);
         let (mut row0, mut host_cells) = (0, 0usize);
         while row0 < file.frame.height {
             let rows = strip.min(file.frame.height - row0);
@@ -212,7 +214,7 @@ fn raster(args: &BenchArgs, side: usize) -> Result<String> {
         );
         let clock = std::time::Instant::now();
         let stages = std::cell::RefCell::new(Vec::new());
-        let prepared = crate::pipeline::prepare(&scenario, &|line: &str| {
+        let prepared = crate::planning::prepare::prepare(&scenario, &|line: &str| {
             stages.borrow_mut().push(format!(
                 "  {:>7.2} s  {line}",
                 clock.elapsed().as_secs_f64()

@@ -8,17 +8,21 @@ use std::path::Path;
 
 use geo::{BoundingRect, Contains, Point};
 
-use crate::calibrate::{self, FamilyFit, Geometry, Observations, PROFILE_DROP};
-use crate::cautions;
-use crate::chart::{self, Series, Style};
-use crate::cli::{CalibrateArgs, KernelKind};
-use crate::error::{Error, Result};
-use crate::gis;
-use crate::graph::{self, Kernel};
-use crate::output::Staging;
-use crate::patches::Patches;
-use crate::pipeline::{self, Prepared};
-use crate::settings::{self, Calibration, CalibrationFile, EnsembleMember, Robust};
+use crate::app::cli::CalibrateArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::core::kernel::Kernel;
+use crate::core::kernel::KernelKind;
+use crate::core::scenario::Robust;
+use crate::core::scenario::{Calibration, CalibrationFile, EnsembleMember};
+use crate::input::gis;
+use crate::input::patches::Patches;
+use crate::model::calibrate::{self, FamilyFit, Geometry, Observations, PROFILE_DROP};
+use crate::model::graph;
+use crate::planning::prepare::{self, Prepared};
+use crate::report::chart::{self, Series, Style};
+use crate::report::output::Staging;
 
 /// One survey record.
 #[derive(Debug, Clone)]
@@ -296,7 +300,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
     let s = &settings.scenario;
     let mut surveys = read_surveys(&args.surveys)?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let crs = &prepared.patches.crs;
     if let Some(def) = &surveys_crs {
         let from = gis::Crs::parse(def, "`--surveys-crs`").or_else(|_| {

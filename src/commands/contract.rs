@@ -4,12 +4,12 @@
 
 use std::fmt::Write as _;
 
-use crate::cautions;
-use crate::chart::{escape, thousands};
-use crate::cli::{ContractArgs, RecordArgs};
-use crate::contract::{self, PlanFolder};
-use crate::error::{Error, Result};
-use crate::output::{self, Staging};
+use crate::app::cli::{ContractArgs, RecordArgs};
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::field::contract::{self, PlanFolder};
+use crate::report::chart::{escape, thousands};
+use crate::report::output::{self, Staging};
 
 fn money(code: &str, cents: i64) -> String {
     let symbol = if code == "USD" {

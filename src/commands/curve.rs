@@ -4,16 +4,17 @@
 use std::fmt::Write as _;
 
 use super::plan::RunReport;
-use crate::baselines;
-use crate::cautions;
-use crate::chart::{self, Marker, Series, Style, escape, thousands};
-use crate::cli::CurveArgs;
-use crate::curve::{self, Point};
-use crate::error::{Error, Result};
-use crate::optimise::Limits;
-use crate::output::{self, Staging};
-use crate::pipeline::{self, Prepared};
-use crate::settings;
+use crate::app::cli::CurveArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::core::scenario;
+use crate::planning::baselines;
+use crate::planning::curve::{self, Point};
+use crate::planning::prepare::{self, Prepared};
+use crate::report::chart::{self, Marker, Series, Style, escape, thousands};
+use crate::report::output::{self, Staging};
+use crate::solve::problem::Limits;
 
 /// A currency code and the symbol shown before amounts.
 #[derive(Debug, Clone)]
@@ -95,7 +96,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     }
     let staging = Staging::new(&settings.out, settings.force, "curve")?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let money = Money::new(
         args.currency
             .as_deref()
@@ -451,7 +452,7 @@ impl Page {
         points: &[Point],
         a: &Analysis,
         money: &Money,
-        s: &settings::Scenario,
+        s: &scenario::Scenario,
     ) -> Page {
         let patches = &prepared.patches;
         let total_stems: f64 = patches.items.iter().map(|p| p.stems).sum();
@@ -503,7 +504,7 @@ impl Page {
                         .map(|m| format!("{m:.2}"))
                         .unwrap_or_else(|| "-".into()),
                     match p.status {
-                        crate::optimise::Status::Optimal => "optimal".to_string(),
+                        crate::solve::problem::Status::Optimal => "optimal".to_string(),
                         other => format!("{} (within {:.3}%)", other.as_str(), 100.0 * p.gap),
                     },
                 ]

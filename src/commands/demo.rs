@@ -1,13 +1,13 @@
 //! `hostcut demo`: make the invented landscape in `OUT/inputs` and plan it like any other run,
 //! so `OUT` is an ordinary plan folder. The inputs and the plan are built in one staging folder
-//! and swapped in whole (see [`crate::output::Staging`]): `--force` replaces only an earlier
+//! and swapped in whole (see [`crate::report::output::Staging`]): `--force` replaces only an earlier
 //! demo folder, never a folder of the user's.
 
-use crate::cli::{DemoArgs, PlanArgs};
-use crate::demo;
-use crate::error::{Error, Result};
-use crate::output::Staging;
-use crate::settings;
+use crate::app::cli::{DemoArgs, PlanArgs};
+use crate::app::demo;
+use crate::app::settings;
+use crate::core::error::{Error, Result};
+use crate::report::output::Staging;
 
 use super::plan::RunReport;
 

@@ -4,14 +4,17 @@
 
 use std::fmt::Write as _;
 
-use crate::ensemble;
-use crate::error::{Error, Result};
-use crate::graph::{Kernel, LinkFinder};
-use crate::memory::LinkCount;
-use crate::model::RiskModel;
-use crate::optimise::{self, Assignment, Limits, MinMax, Problem, Solved, Status};
-use crate::pipeline::Prepared;
-use crate::settings::{EnsembleSection, Robust};
+use crate::core::error::{Error, Result};
+use crate::core::kernel::Kernel;
+use crate::core::scenario::EnsembleSection;
+use crate::core::scenario::Robust;
+use crate::model::ensemble;
+use crate::model::risk::RiskModel;
+use crate::planning::prepare::Prepared;
+use crate::solve::optimise::{self, MinMax};
+use crate::solve::problem::{Assignment, Limits, Problem, Solved, Status};
+use crate::core::memory::LinkCount;
+use crate::model::graph::LinkFinder;
 
 /// What the plan command needs back.
 pub struct EnsembleRun {

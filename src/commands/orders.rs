@@ -7,16 +7,16 @@ use std::fmt::Write as _;
 use geo::{Geometry, LineString, MultiPolygon, Point};
 use serde::Serialize;
 
-use crate::calendar::{Date, Workdays};
-use crate::cautions;
-use crate::chart::{escape, thousands};
-use crate::cli::OrdersArgs;
-use crate::contract::{self, PlanFolder};
-use crate::error::{Error, Result};
-use crate::gis::{self, Crs, LayerData, Property};
-use crate::map::{self, Frame};
-use crate::orders::{self, CrewDay, Options, Schedule};
-use crate::output::Staging;
+use crate::app::cli::OrdersArgs;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::field::calendar::{Date, Workdays};
+use crate::field::contract::{self, PlanFolder};
+use crate::field::orders::{self, CrewDay, Options, Schedule};
+use crate::input::gis::{self, Crs, LayerData, Property};
+use crate::report::chart::{escape, thousands};
+use crate::report::map::{self, Frame};
+use crate::report::output::Staging;
 
 /// Colour-blind-safe colours for methods, in catalogue order (Okabe & Ito 2008 palette).
 const METHOD_COLOURS: [&str; 6] = [
@@ -1017,7 +1017,7 @@ fn report_html(ctx: &Ctx, curve_svg: Option<&str>) -> Result<String> {
 }
 
 /// The site's rules in large type above the method: a crew must not miss them.
-fn site_rule_flags(p: &crate::contract::PlannedPatch) -> String {
+fn site_rule_flags(p: &crate::field::contract::PlannedPatch) -> String {
     let mut flags = String::new();
     if p.no_herbicide() {
         flags.push_str("<div class=\"flag noherb\">NO HERBICIDE ON THIS SITE</div>");

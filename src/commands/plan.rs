@@ -3,16 +3,17 @@
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
-use crate::baselines;
-use crate::cautions;
-use crate::error::{Error, Result};
-use crate::optimise::{self, Limits, Problem, Status};
-use crate::output::{self, Outputs, Staging};
-use crate::patches;
-use crate::pipeline;
-use crate::plan;
-use crate::settings::Settings;
-use crate::treatments::Catalogue;
+use crate::app::settings::Settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::input::patches;
+use crate::input::treatments::Catalogue;
+use crate::planning::baselines;
+use crate::planning::plan;
+use crate::planning::prepare;
+use crate::report::output::{self, Outputs, Staging};
+use crate::solve::optimise;
+use crate::solve::problem::{Limits, Problem, Status};
 
 /// What a finished run reports back to the caller.
 #[derive(Debug)]
@@ -46,7 +47,7 @@ pub fn run_into(
 ) -> Result<String> {
     let s = &settings.scenario;
     let progress = |msg: &str| settings.progress(msg);
-    let mut prepared = pipeline::prepare(s, &progress)?;
+    let mut prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
@@ -64,7 +65,7 @@ pub fn run_into(
         )?),
         None => None,
     };
-    let pipeline::Prepared {
+    let prepare::Prepared {
         catalogue,
         catalogue_text,
         patches,
@@ -83,14 +84,18 @@ pub fn run_into(
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
         output::write_new_file(&path, "--write-mps", |temporary| {
-            optimise::write_mps(&problem, temporary, optimise::Formulation::Transport)
+            optimise::write_mps(
+                &problem,
+                temporary,
+                crate::solve::problem::Formulation::Transport,
+            )
         })?;
     }
     let solved = match &ensemble {
         Some(e) => e.chosen.clone(),
         None => {
             progress("optimising");
-            let _spinner = crate::progress::Stage::spinner(&format!(
+            let _spinner = crate::core::progress::Stage::spinner(&format!(
                 "optimising {} patches (time limit {} s, gap {})",
                 problem.len(),
                 s.solver.time_limit_s,
@@ -184,7 +189,7 @@ fn infeasible_requirements(problem: &Problem, patches: &patches::Patches, budget
     let required: Vec<usize> = (0..problem.len())
         .filter(|&i| problem.required[i])
         .collect();
-    let cheapest = |i: usize, f: &dyn Fn(&crate::treatments::Choice) -> f64| {
+    let cheapest = |i: usize, f: &dyn Fn(&crate::input::treatments::Choice) -> f64| {
         problem.choices[i]
             .iter()
             .map(f)

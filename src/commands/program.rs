@@ -7,17 +7,17 @@ use std::fmt::Write as _;
 
 use serde_json::json;
 
-use crate::cautions;
-use crate::chart::{self, Series, Style};
-use crate::cli::ProgramArgs;
-use crate::error::{Error, Result};
-use crate::gis::{self, Property};
-use crate::optimise::{Assignment, Limits, Status};
-use crate::output::{self, Staging};
-use crate::pipeline::{self, Prepared};
-use crate::program::{self, Action, Horizon, ProgramProblem, ProgramSolved};
-use crate::settings;
-use crate::treatments;
+use crate::app::cli::ProgramArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::input::gis::{self, Property};
+use crate::input::treatments;
+use crate::planning::prepare::{self, Prepared};
+use crate::planning::program::{self, Action, Horizon, ProgramProblem, ProgramSolved};
+use crate::report::chart::{self, Series, Style};
+use crate::report::output::{self, Staging};
+use crate::solve::problem::{Assignment, Limits, Status};
 
 fn per_season(values: &[f64], seasons: usize, flag: &str) -> Result<Vec<f64>> {
     let v = match values.len() {
@@ -73,7 +73,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     };
     let staging = Staging::new(&settings.out, settings.force, "program")?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let horizon = Horizon {
         seasons: args.seasons,
         growth: args.growth,

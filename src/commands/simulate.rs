@@ -6,18 +6,21 @@ use std::fmt::Write as _;
 
 use serde::Serialize;
 
-use crate::baselines;
-use crate::cautions;
-use crate::chart::{self, Series, Style};
-use crate::cli::SimulateArgs;
-use crate::contract::PlanFolder;
-use crate::error::{Error, Result};
-use crate::graph::{self, Kernel};
-use crate::optimise::{self, Assignment, Limits, Problem};
-use crate::output::Staging;
-use crate::pipeline::{self, Prepared};
-use crate::settings;
-use crate::simulate::{self, Landscape, LongDistance, Params, Trace, Treatment};
+use crate::app::cli::SimulateArgs;
+use crate::app::settings;
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::core::kernel::Kernel;
+use crate::core::scenario;
+use crate::field::contract::PlanFolder;
+use crate::model::graph;
+use crate::model::simulate::{self, Landscape, LongDistance, Params, Trace, Treatment};
+use crate::planning::baselines;
+use crate::planning::prepare::{self, Prepared};
+use crate::report::chart::{self, Series, Style};
+use crate::report::output::Staging;
+use crate::solve::optimise;
+use crate::solve::problem::{Assignment, Limits, Problem};
 
 const STRATEGIES: [(&str, &str, Style); 5] = [
     ("none", "no treatment", Style::LongDash),
@@ -63,7 +66,10 @@ struct SimJson {
     lambda_m_before: f64,
 }
 
-fn check(args: &SimulateArgs, fitted: Option<&crate::settings::Calibration>) -> Result<Params> {
+fn check(
+    args: &SimulateArgs,
+    fitted: Option<&crate::core::scenario::Calibration>,
+) -> Result<Params> {
     let d = Params::default();
     let pick = |flag: Option<f64>, fit: Option<f64>, default: f64| flag.or(fit).unwrap_or(default);
     let extinction = pick(args.extinction, fitted.map(|c| c.extinction), d.extinction);
@@ -210,7 +216,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     let settings = settings::resolve_with(&inputs, args.plan_dir.is_none())?;
     let s = &settings.scenario;
     let fitted = match &s.model.calibration {
-        Some(path) => Some(settings::read_calibration(path)?.calibration),
+        Some(path) => Some(scenario::read_calibration(path)?.calibration),
         None => None,
     };
     let params = check(args, fitted.as_ref())?;
@@ -222,7 +228,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     }
     let staging = Staging::new(&settings.out, settings.force, "simulate")?;
     let progress = |msg: &str| settings.progress(msg);
-    let prepared = pipeline::prepare(s, &progress)?;
+    let prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
     let problem = prepared.problem(budget, s.plan.crew_hours);
     let plan = match &args.plan_dir {
@@ -234,7 +240,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
                 ..Limits::new(s.solver.time_limit_s, s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;
-            if solved.status == optimise::Status::Infeasible {
+            if solved.status == crate::solve::problem::Status::Infeasible {
                 return Err(Error::input(
                     "the required patches do not fit the budget and hours: there is no plan to simulate",
                 ));
@@ -273,7 +279,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     };
     let landscape = Landscape {
         long_links,
-        ..Landscape::of(&prepared)
+        ..prepared.landscape()
     };
     let seed = args.seed;
     let random = |run: u64| random_plan(&problem, seed, run);

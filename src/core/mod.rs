@@ -1,0 +1,11 @@
+//! Stage 0, shared by every later stage: errors, cautions, progress, the random stream, dispersal kernels,
+//! site rules and patch ids, and the scenario schema.
+
+pub mod cautions;
+pub mod error;
+pub mod kernel;
+pub mod memory;
+pub mod progress;
+pub mod rng;
+pub mod scenario;
+pub mod site;

@@ -1,0 +1,484 @@
+//! From plan to signed work and back: the bid schedule and scope of work for a plan folder, the
+//! completion template a crew fills in, and the check of a filled completion file that turns it
+//! into next season's inventory.
+//!
+//! Reads a plan folder's own outputs (plan.csv, patches.csv, treatments.used.toml), so the
+//! contract describes exactly the plan that was written, without solving again.
+//!
+//! # Units
+//! Money in the catalogue's currency; stems as counts; areas in hectares; dates as YYYY-MM-DD.
+
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
+
+use serde::Deserialize;
+
+use crate::core::error::{Error, Result};
+use crate::input::treatments::{Catalogue, Method};
+
+/// One treated patch as plan.csv records it.
+#[derive(Debug, Clone, Deserialize)]
+pub struct PlannedPatch {
+    pub priority: usize,
+    pub patch_id: String,
+    pub method: String,
+    pub stems: f64,
+    pub cost: f64,
+    pub crew_hours: f64,
+    #[serde(default)]
+    pub reduction_pct: f64,
+    #[serde(default)]
+    pub x: f64,
+    #[serde(default)]
+    pub y: f64,
+    pub access: String,
+    pub herbicide: String,
+    #[serde(default)]
+    pub parcel: String,
+    #[serde(default)]
+    pub contact: String,
+    #[serde(default)]
+    pub cautions: String,
+    /// The site's rules in words (no herbicide, restricted conditions, water nearby).
+    #[serde(default)]
+    pub site_notes: String,
+}
+
+impl PlannedPatch {
+    /// Whether the site forbids herbicide.
+    pub fn no_herbicide(&self) -> bool {
+        self.herbicide == "prohibited"
+    }
+
+    /// The restricted-site conditions from `site_notes`, if the site is restricted.
+    pub fn restriction(&self) -> Option<&str> {
+        (self.herbicide == "restricted").then(|| {
+            self.site_notes
+                .split("; ")
+                .find(|n| n.starts_with("restricted site"))
+                .unwrap_or("restricted site: herbicide only under the site's conditions; confirm them with the site manager")
+        })
+    }
+
+    /// The water note from `site_notes` (e.g. `near water: Mill Creek (12 m)`), if any.
+    pub fn near_water(&self) -> Option<&str> {
+        self.site_notes
+            .split("; ")
+            .find(|n| n.starts_with("near water"))
+    }
+}
+
+/// One patch as patches.csv records it.
+#[derive(Debug, Clone, Deserialize)]
+pub struct PatchRecord {
+    pub patch_id: String,
+    pub x: f64,
+    pub y: f64,
+    pub stems: f64,
+    #[serde(default)]
+    pub area_ha: Option<f64>,
+    pub pressure: f64,
+    pub access: String,
+    pub herbicide: String,
+    pub cost_factor: f64,
+    #[serde(default)]
+    pub suitability: Option<f64>,
+    #[serde(default)]
+    pub eligible: String,
+    #[serde(default)]
+    pub method: String,
+}
+
+/// A plan folder's outputs, read back.
+#[derive(Debug, Clone)]
+pub struct PlanFolder {
+    pub dir: PathBuf,
+    pub planned: Vec<PlannedPatch>,
+    pub patches: Vec<PatchRecord>,
+    pub catalogue: Catalogue,
+    /// The CRS named in summary.json, for the next season's `--crs`.
+    pub crs: String,
+    /// summary.json as written by the plan.
+    pub summary: serde_json::Value,
+}
+
+fn read_csv<T: for<'de> Deserialize<'de>>(path: &Path) -> Result<Vec<T>> {
+    let mut reader = csv::Reader::from_path(path).map_err(|e| {
+        Error::input_with_hint(
+            format!("cannot read `{}`: {e}", path.display()),
+            "give the `--out` folder of a `hostcut plan` run",
+        )
+    })?;
+    let mut out = Vec::new();
+    for (k, row) in reader.deserialize().enumerate() {
+        out.push(row.map_err(|e| {
+            Error::input_with_hint(
+                format!("`{}`, line {}: {e}", path.display(), k + 2),
+                "the plan folder's files must not be edited; run `hostcut plan` again",
+            )
+        })?);
+    }
+    Ok(out)
+}
+
+impl PlanFolder {
+    pub fn read(dir: &Path) -> Result<PlanFolder> {
+        for f in [
+            "plan.csv",
+            "patches.csv",
+            "treatments.used.toml",
+            "summary.json",
+        ] {
+            if !dir.join(f).is_file() {
+                return Err(Error::input_with_hint(
+                    format!("`{}` is not a plan folder (no {f})", dir.display()),
+                    "give the `--out` folder of a `hostcut plan` or `hostcut demo` run",
+                ));
+            }
+        }
+        let planned = read_csv(&dir.join("plan.csv"))?;
+        let patches = read_csv(&dir.join("patches.csv"))?;
+        let (catalogue, _) = Catalogue::load(Some(&dir.join("treatments.used.toml")))?;
+        let summary: serde_json::Value = serde_json::from_str(
+            &std::fs::read_to_string(dir.join("summary.json"))
+                .map_err(|e| Error::io("read", dir.join("summary.json"), e))?,
+        )
+        .map_err(|e| {
+            Error::input(format!(
+                "`{}`: summary.json is not valid JSON ({e})",
+                dir.display()
+            ))
+        })?;
+        let crs = summary["crs"].as_str().unwrap_or_default().to_string();
+        let folder = PlanFolder {
+            dir: dir.to_path_buf(),
+            planned,
+            patches,
+            catalogue,
+            crs,
+            summary,
+        };
+        for p in &folder.planned {
+            if folder.method(&p.method).is_none() {
+                return Err(Error::input(format!(
+                    "`{}`: plan.csv names method `{}`, which treatments.used.toml does not have",
+                    dir.display(),
+                    p.method
+                )));
+            }
+        }
+        Ok(folder)
+    }
+
+    pub fn method(&self, id: &str) -> Option<&Method> {
+        self.catalogue.methods.iter().find(|m| m.id == id)
+    }
+
+    pub fn area_of(&self, id: &str) -> Option<f64> {
+        self.patches
+            .iter()
+            .find(|p| p.patch_id == id)
+            .and_then(|p| p.area_ha)
+    }
+}
+
+/// Site class of a treated patch for the bid schedule.
+pub fn site_class(p: &PlannedPatch, method: &Method) -> &'static str {
+    if method.herbicide && p.herbicide == "restricted" {
+        "restricted site"
+    } else if p.access == "permission" {
+        "permission"
+    } else {
+        "open"
+    }
+}
+
+/// One bid line: a method on a site class.
+#[derive(Debug, Clone)]
+pub struct LineItem {
+    pub number: usize,
+    pub method: String,
+    pub site_class: &'static str,
+    pub patch_ids: Vec<String>,
+    pub stems: f64,
+    pub hectares: Option<f64>,
+    /// Sum of the plan's costs for these patches (exact, in cents as plan.csv has them).
+    pub cents: i64,
+}
+
+fn cents(amount: f64) -> i64 {
+    (amount * 100.0).round() as i64
+}
+
+/// Group the plan's rows by method and site class, in catalogue then class order.
+pub fn line_items(folder: &PlanFolder) -> Vec<LineItem> {
+    let order = |c: &str| {
+        ["open", "permission", "restricted site"]
+            .iter()
+            .position(|x| *x == c)
+            .unwrap_or(3)
+    };
+    let mut groups: BTreeMap<(usize, usize), LineItem> = BTreeMap::new();
+    for p in &folder.planned {
+        let Some((m_index, method)) = folder
+            .catalogue
+            .methods
+            .iter()
+            .enumerate()
+            .find(|(_, m)| m.id == p.method)
+        else {
+            continue;
+        };
+        let class = site_class(p, method);
+        let item = groups
+            .entry((m_index, order(class)))
+            .or_insert_with(|| LineItem {
+                number: 0,
+                method: p.method.clone(),
+                site_class: class,
+                patch_ids: Vec::new(),
+                stems: 0.0,
+                hectares: Some(0.0),
+                cents: 0,
+            });
+        item.patch_ids.push(p.patch_id.clone());
+        item.stems += p.stems;
+        item.hectares = match (item.hectares, folder.area_of(&p.patch_id)) {
+            (Some(a), Some(b)) => Some(a + b),
+            _ => None,
+        };
+        item.cents += cents(p.cost);
+    }
+    groups
+        .into_values()
+        .enumerate()
+        .map(|(k, mut item)| {
+            item.number = k + 1;
+            item
+        })
+        .collect()
+}
+
+/// Month names for a season window, e.g. "July to October".
+pub fn window(months: &[u8]) -> String {
+    const NAMES: [&str; 12] = [
+        "January",
+        "February",
+        "March",
+        "April",
+        "May",
+        "June",
+        "July",
+        "August",
+        "September",
+        "October",
+        "November",
+        "December",
+    ];
+    let mut m: Vec<u8> = months.to_vec();
+    m.sort_unstable();
+    m.dedup();
+    let contiguous = m.windows(2).all(|w| w[1] == w[0] + 1);
+    let name = |x: u8| NAMES[(x as usize).clamp(1, 12) - 1];
+    match (m.first(), m.last()) {
+        (Some(&a), Some(&b)) if contiguous && a != b => format!("{} to {}", name(a), name(b)),
+        (Some(&a), _) if m.len() == 1 => name(a).to_string(),
+        _ => m.iter().map(|&x| name(x)).collect::<Vec<_>>().join(", "),
+    }
+}
+
+/// One row of a filled completion file.
+#[derive(Debug, Clone, Deserialize)]
+pub struct CompletionRow {
+    pub patch_id: String,
+    pub method: String,
+    #[serde(default)]
+    pub planned_stems: Option<f64>,
+    #[serde(default)]
+    pub treated_stems: Option<String>,
+    #[serde(default)]
+    pub date: String,
+    #[serde(default)]
+    pub applicator_licence: String,
+    #[serde(default)]
+    pub product_active_ingredient: String,
+    #[serde(default)]
+    pub notes: String,
+}
+
+/// A checked completion row.
+#[derive(Debug, Clone)]
+pub struct Done {
+    pub patch_id: String,
+    pub method: String,
+    pub treated_stems: f64,
+    pub date: (i32, u8, u8),
+}
+
+fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
+    crate::field::calendar::Date::parse(text).map(|d| (d.year, d.month, d.day))
+}
+
+/// Check a filled completion file against the plan. Every problem row is reported, each with
+/// its line number; a row with an empty `treated_stems` is work not done.
+pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
+    let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    // An empty file, or a header with no rows, is not "nothing done": the template lists every
+    // planned patch, and work not done is a row with an empty `treated_stems`.
+    let rows = bytes
+        .split(|b| *b == b'\n')
+        .filter(|l| !l.iter().all(u8::is_ascii_whitespace))
+        .count();
+    if rows < 2 {
+        return Err(Error::input_with_hint(
+            format!(
+                "completion file `{}` has no rows{}",
+                path.display(),
+                if rows == 0 {
+                    " (it is empty)"
+                } else {
+                    " below its header"
+                }
+            ),
+            "fill in the plan folder's completion_template.csv: one row per planned patch, `treated_stems` left empty where nothing was done",
+        ));
+    }
+    let mut reader = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_reader(bytes);
+    let planned: HashMap<&str, &PlannedPatch> = folder
+        .planned
+        .iter()
+        .map(|p| (p.patch_id.as_str(), p))
+        .collect();
+    let mut problems = Vec::new();
+    let mut done = Vec::new();
+    let mut seen: HashMap<String, usize> = HashMap::new();
+    for (k, row) in reader.deserialize::<CompletionRow>().enumerate() {
+        let line = k + 2;
+        let row = match row {
+            Ok(r) => r,
+            Err(e) => {
+                problems.push(format!("line {line}: unreadable row ({e})"));
+                continue;
+            }
+        };
+        let Some(plan) = planned.get(row.patch_id.as_str()) else {
+            problems.push(format!(
+                "line {line}: patch `{}` is not in the plan",
+                row.patch_id
+            ));
+            continue;
+        };
+        if let Some(first) = seen.insert(row.patch_id.clone(), line) {
+            problems.push(format!(
+                "line {line}: patch `{}` is recorded twice (first on line {first})",
+                row.patch_id
+            ));
+            continue;
+        }
+        if row.method != plan.method {
+            problems.push(format!(
+                "line {line}: patch `{}` was planned for `{}`, the row says `{}`",
+                row.patch_id, plan.method, row.method
+            ));
+            continue;
+        }
+        let treated = match row
+            .treated_stems
+            .as_deref()
+            .map(str::trim)
+            .filter(|t| !t.is_empty())
+        {
+            None => continue,
+            Some(t) => match t.parse::<f64>() {
+                Ok(v) if v.is_finite() && v >= 0.0 => v,
+                _ => {
+                    problems.push(format!(
+                        "line {line}: treated_stems `{t}` is not a number of stems"
+                    ));
+                    continue;
+                }
+            },
+        };
+        if treated > plan.stems * 1.0001 + 0.5 {
+            problems.push(format!(
+                "line {line}: patch `{}` records {treated} stems treated, more than the {} planned",
+                row.patch_id, plan.stems
+            ));
+        }
+        let method = folder
+            .method(&plan.method)
+            .expect("checked when the plan folder was read");
+        match parse_date(&row.date) {
+            None => problems.push(format!(
+                "line {line}: date `{}` is not a date like 2027-08-15",
+                row.date
+            )),
+            Some(date) => {
+                if !method.months.contains(&date.1) {
+                    problems.push(format!(
+                        "line {line}: {} is outside the season window for `{}` ({})",
+                        row.date,
+                        method.id,
+                        window(&method.months)
+                    ));
+                }
+                if method.herbicide && row.applicator_licence.trim().is_empty() {
+                    problems.push(format!(
+                        "line {line}: herbicide work on `{}` needs the applicator's licence number",
+                        row.patch_id
+                    ));
+                }
+                if method.herbicide && row.product_active_ingredient.trim().is_empty() {
+                    problems.push(format!(
+                        "line {line}: herbicide work on `{}` needs the product's active ingredient",
+                        row.patch_id
+                    ));
+                }
+                done.push(Done {
+                    patch_id: row.patch_id.clone(),
+                    method: plan.method.clone(),
+                    treated_stems: treated,
+                    date,
+                });
+            }
+        }
+    }
+    if !problems.is_empty() {
+        return Err(Error::input_with_hint(
+            format!(
+                "completion file `{}` has {} problem(s):\n  {}",
+                path.display(),
+                problems.len(),
+                problems.join("\n  ")
+            ),
+            "fix those rows (the template from `hostcut contract` has the planned patch, method and stems) and run again",
+        ));
+    }
+    Ok(done)
+}
+
+/// The follow-up visit is due at the start of the method's window next season (common practice:
+/// survivors and root suckers are treated the next growing season, for two or three seasons).
+pub fn follow_up_due(method: &Method, date: (i32, u8, u8)) -> String {
+    let first = method.months.iter().min().copied().unwrap_or(date.1);
+    format!("{:04}-{:02}-01", date.0 + 1, first)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn dates_and_windows() {
+        assert_eq!(parse_date("2027-08-15"), Some((2027, 8, 15)));
+        assert_eq!(parse_date("2027-02-29"), None);
+        assert_eq!(parse_date("2028-02-29"), Some((2028, 2, 29)));
+        assert_eq!(parse_date("15/08/2027"), None);
+        assert_eq!(window(&[7, 8, 9, 10]), "July to October");
+        assert_eq!(window(&[6]), "June");
+        assert_eq!(window(&[4, 6]), "April, June");
+    }
+}

@@ -1,0 +1,500 @@
+//! From a plan to crew-days: which stops each crew visits on which date, in what order, with how
+//! much travel, inside each method's season window.
+//!
+//! 1. Every treated patch becomes a stop at its centroid with the plan's crew hours. A patch whose
+//!    work plus the trip from and back to the depot does not fit one day is split into equal
+//!    parts (each part carries its share of the stems) that go on different days.
+//! 2. Stops are grouped by season window (methods with the same months share days). Each group
+//!    gets one tour over all its stops ([`routing::order`]), which [`routing::split`] cuts into
+//!    days that fit the working hours and the stop limit; each day is then ordered again (exactly
+//!    up to [`routing::EXACT_MAX`] stops).
+//! 3. Days go onto the calendar from the start date, `crews` per workday, earliest-closing window
+//!    first and, within a window, the days that buy the most risk reduction first. Days that do
+//!    not fit inside their window are kept, undated, and counted as missing crew-days.
+//!
+//! Travel time is straight-line distance x detour factor / speed: an assumption the outputs
+//! state, not a road network.
+
+use std::collections::BTreeMap;
+
+use crate::core::error::{Error, Result};
+use crate::field::calendar::{Date, Workdays};
+use crate::field::contract::{self, PlanFolder};
+use crate::field::routing::{self, Matrix};
+
+/// Common practice (from memory): about 2 stops of patch work per hour is already brisk; a crew
+/// sheet with more than a dozen sites is hard to follow.
+pub const DEFAULT_MAX_STOPS: usize = 12;
+
+#[derive(Debug, Clone)]
+pub struct Options {
+    /// Depot in the plan's CRS; `None` = centroid of the treated patches.
+    pub depot: Option<(f64, f64)>,
+    pub crews: usize,
+    pub day_hours: f64,
+    pub speed_kmh: f64,
+    pub detour: f64,
+    pub start: Date,
+    pub workdays: Workdays,
+    pub max_stops: usize,
+}
+
+/// One visit of a crew to a patch (or to one part of a split patch).
+#[derive(Debug, Clone)]
+pub struct Stop {
+    /// Row of plan.csv.
+    pub row: usize,
+    pub patch_id: String,
+    /// 1-based part number and number of parts (1 of 1 unless the patch is split).
+    pub part: usize,
+    pub parts: usize,
+    pub method: String,
+    pub stems: f64,
+    pub work_hours: f64,
+    /// Travel from the previous stop (or the depot) to this one.
+    pub travel_hours: f64,
+    pub x: f64,
+    pub y: f64,
+    pub value_pct: f64,
+}
+
+/// One crew's working day.
+#[derive(Debug, Clone)]
+pub struct CrewDay {
+    /// 1-based crew; `None` when the day could not be scheduled inside its window.
+    pub crew: Option<usize>,
+    /// The crew's own day number (1, 2, ...), or the number among unscheduled days.
+    pub day: usize,
+    pub date: Option<Date>,
+    pub months: Vec<u8>,
+    pub stops: Vec<Stop>,
+    /// Travel from the last stop back to the depot.
+    pub return_hours: f64,
+}
+
+impl CrewDay {
+    pub fn travel_hours(&self) -> f64 {
+        self.stops.iter().map(|s| s.travel_hours).sum::<f64>() + self.return_hours
+    }
+    pub fn work_hours(&self) -> f64 {
+        self.stops.iter().map(|s| s.work_hours).sum()
+    }
+    pub fn hours(&self) -> f64 {
+        self.travel_hours() + self.work_hours()
+    }
+    pub fn value_pct(&self) -> f64 {
+        self.stops.iter().map(|s| s.value_pct).sum()
+    }
+}
+
+/// Crew-days that did not fit their season window.
+#[derive(Debug, Clone)]
+pub struct Missing {
+    pub months: Vec<u8>,
+    pub methods: Vec<String>,
+    pub crew_days: usize,
+}
+
+#[derive(Debug, Clone)]
+pub struct Schedule {
+    pub depot: (f64, f64),
+    pub depot_is_default: bool,
+    /// Scheduled days by date then crew, then the unscheduled days.
+    pub days: Vec<CrewDay>,
+    pub missing: Vec<Missing>,
+    pub split_patches: usize,
+}
+
+impl Schedule {
+    pub fn scheduled(&self) -> impl Iterator<Item = &CrewDay> {
+        self.days.iter().filter(|d| d.date.is_some())
+    }
+    pub fn missing_days(&self) -> usize {
+        self.missing.iter().map(|m| m.crew_days).sum()
+    }
+    pub fn last_date(&self) -> Option<Date> {
+        self.scheduled().filter_map(|d| d.date).max()
+    }
+}
+
+/// The centroid of the treated patches (the default depot).
+pub fn default_depot(folder: &PlanFolder) -> Option<(f64, f64)> {
+    let n = folder.planned.len() as f64;
+    (n > 0.0).then(|| {
+        (
+            folder.planned.iter().map(|p| p.x).sum::<f64>() / n,
+            folder.planned.iter().map(|p| p.y).sum::<f64>() / n,
+        )
+    })
+}
+
+/// Build the crew-days for a plan folder.
+pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
+    if o.crews == 0 || o.day_hours <= 0.0 || o.speed_kmh <= 0.0 || o.detour < 1.0 {
+        return Err(Error::input(
+            "crews must be at least 1, day hours and speed above 0, and the detour factor at least 1",
+        ));
+    }
+    let depot_is_default = o.depot.is_none();
+    let depot = o
+        .depot
+        .or_else(|| default_depot(folder))
+        .unwrap_or((0.0, 0.0));
+
+    // 1. Stops, split where one day is not enough.
+    let hours_of = |d_m: f64| d_m * o.detour / (o.speed_kmh * 1000.0);
+    let mut stops: Vec<Stop> = Vec::new();
+    let mut split_patches = 0;
+    for (row, p) in folder.planned.iter().enumerate() {
+        let round_trip = 2.0 * hours_of((p.x - depot.0).hypot(p.y - depot.1));
+        let room = o.day_hours - round_trip;
+        if room <= 0.05 * o.day_hours {
+            return Err(Error::input_with_hint(
+                format!(
+                    "patch {} is {:.1} h from the depot and back, which leaves no time for work in a {} h day",
+                    p.patch_id, round_trip, o.day_hours
+                ),
+                "put the depot nearer the work (`--depot`), raise `--speed-kmh` or `--day-hours`, or plan a far area separately",
+            ));
+        }
+        // Whole days of work first, the rest as a part that can share a day with other stops.
+        let parts = ((p.crew_hours / room) - 1e-6).ceil().max(1.0) as usize;
+        if parts > 1 {
+            split_patches += 1;
+        }
+        let mut stems_left = p.stems;
+        for part in 1..=parts {
+            let hours = if part == parts {
+                p.crew_hours - room * (parts - 1) as f64
+            } else {
+                room
+            };
+            let share = hours / p.crew_hours.max(1e-12);
+            // Stems in tenths, the last part taking the rest, so the parts sum to the plan's stems.
+            let stems = if part == parts {
+                (stems_left * 10.0).round() / 10.0
+            } else {
+                (p.stems * share * 10.0).round() / 10.0
+            };
+            stems_left -= stems;
+            stops.push(Stop {
+                row,
+                patch_id: p.patch_id.clone(),
+                part,
+                parts,
+                method: p.method.clone(),
+                stems,
+                work_hours: hours,
+                travel_hours: 0.0,
+                x: p.x,
+                y: p.y,
+                value_pct: p.reduction_pct * share,
+            });
+        }
+    }
+
+    // 2. Days per season window.
+    let mut groups: BTreeMap<Vec<u8>, Vec<usize>> = BTreeMap::new();
+    for (k, s) in stops.iter().enumerate() {
+        let method = folder
+            .method(&s.method)
+            .expect("plan folder methods checked on read");
+        let mut months = method.months.clone();
+        months.sort_unstable();
+        months.dedup();
+        groups.entry(months).or_default().push(k);
+    }
+    let mut days: Vec<CrewDay> = Vec::new();
+    for (months, members) in &groups {
+        let points: Vec<(f64, f64)> = std::iter::once(depot)
+            .chain(members.iter().map(|&k| (stops[k].x, stops[k].y)))
+            .collect();
+        let m = Matrix::from_points(&points, o.detour, o.speed_kmh);
+        let work: Vec<f64> = std::iter::once(0.0)
+            .chain(members.iter().map(|&k| stops[k].work_hours))
+            .collect();
+        let nodes: Vec<usize> = (1..points.len()).collect();
+        let tour = if nodes.len() <= routing::EXACT_MAX {
+            routing::exact(&m, &nodes)
+        } else {
+            let starts = if nodes.len() > 400 { 2 } else { 8 };
+            routing::heuristic(&m, &nodes, starts)
+        };
+        let cuts = routing::split(&m, &tour, &work, o.day_hours, o.max_stops.max(1))
+            .ok_or_else(|| Error::Internal("a split stop does not fit one day".into()))?;
+        let cut_days: Vec<Vec<usize>> = cuts
+            .iter()
+            .map(|c| routing::order(&m, &tour[c.from..c.to]))
+            .collect();
+        for ordered in consolidate(&m, &work, cut_days, o.day_hours, o.max_stops.max(1)) {
+            let mut prev = 0;
+            let mut day_stops = Vec::new();
+            for &node in &ordered {
+                let mut s = stops[members[node - 1]].clone();
+                s.travel_hours = m.get(prev, node);
+                prev = node;
+                day_stops.push(s);
+            }
+            days.push(CrewDay {
+                crew: None,
+                day: 0,
+                date: None,
+                months: months.clone(),
+                stops: day_stops,
+                return_hours: m.get(prev, 0),
+            });
+        }
+    }
+
+    // 3. Calendar.
+    let window_end = |d: &CrewDay| d.months.iter().copied().max().unwrap_or(12);
+    let first_priority = |d: &CrewDay| d.stops.iter().map(|s| s.row).min().unwrap_or(0);
+    let mut pending: Vec<usize> = (0..days.len()).collect();
+    pending.sort_by(|&a, &b| {
+        let (da, db) = (&days[a], &days[b]);
+        window_end(da)
+            .cmp(&window_end(db))
+            .then(db.value_pct().total_cmp(&da.value_pct()))
+            .then(first_priority(da).cmp(&first_priority(db)))
+    });
+    let mut per_crew = vec![0usize; o.crews];
+    let mut date = o.start;
+    while !pending.is_empty() && date.year == o.start.year {
+        if o.workdays.works(date) {
+            let mut crew = 0;
+            pending.retain(|&k| {
+                if crew < o.crews && days[k].months.contains(&date.month) {
+                    per_crew[crew] += 1;
+                    days[k].crew = Some(crew + 1);
+                    days[k].day = per_crew[crew];
+                    days[k].date = Some(date);
+                    crew += 1;
+                    false
+                } else {
+                    true
+                }
+            });
+        }
+        date = date.plus_days(1);
+    }
+    let mut missing: BTreeMap<Vec<u8>, usize> = BTreeMap::new();
+    for (n, &k) in pending.iter().enumerate() {
+        days[k].day = n + 1;
+        *missing.entry(days[k].months.clone()).or_default() += 1;
+    }
+    let missing = missing
+        .into_iter()
+        .map(|(months, crew_days)| {
+            let methods = folder
+                .catalogue
+                .methods
+                .iter()
+                .filter(|m| {
+                    let mut ms = m.months.clone();
+                    ms.sort_unstable();
+                    ms.dedup();
+                    ms == months && folder.planned.iter().any(|p| p.method == m.id)
+                })
+                .map(|m| m.id.clone())
+                .collect();
+            Missing {
+                months,
+                methods,
+                crew_days,
+            }
+        })
+        .collect();
+    // Dated days by date and crew; then the unscheduled ones in the order they were waiting.
+    days.sort_by_key(|d| (d.date.is_none(), d.date, d.crew, d.day));
+    Ok(Schedule {
+        depot,
+        depot_is_default,
+        days,
+        missing,
+        split_patches,
+    })
+}
+
+/// Fewer days: try to move every stop of the lightest days into other days (cheapest insertion,
+/// within the hours and the stop limit), and drop the days that empty; days that took stops are
+/// re-routed at the end (which only shortens them). Never adds a day or breaks a limit; parts of
+/// one split patch never share a day because each whole-day part fills its day.
+fn consolidate(
+    m: &Matrix,
+    work: &[f64],
+    mut days: Vec<Vec<usize>>,
+    day_hours: f64,
+    max_stops: usize,
+) -> Vec<Vec<usize>> {
+    let hours = |d: &[usize]| routing::tour_length(m, d) + d.iter().map(|&s| work[s]).sum::<f64>();
+    // The cheapest place for `stop` in `day`: (added hours, position).
+    let insertion = |day: &[usize], stop: usize| -> (f64, usize) {
+        let mut best = (f64::INFINITY, 0);
+        for pos in 0..=day.len() {
+            let a = if pos == 0 { 0 } else { day[pos - 1] };
+            let b = if pos == day.len() { 0 } else { day[pos] };
+            let added = m.get(a, stop) + m.get(stop, b) - m.get(a, b) + work[stop];
+            if added < best.0 {
+                best = (added, pos);
+            }
+        }
+        best
+    };
+    let mut touched = vec![false; days.len()];
+    loop {
+        let mut by_load: Vec<usize> = (0..days.len()).collect();
+        by_load.sort_by(|&a, &b| hours(&days[a]).total_cmp(&hours(&days[b])).then(a.cmp(&b)));
+        let mut merged = false;
+        for &from in &by_load {
+            if days[from].is_empty() {
+                continue;
+            }
+            let mut trial = days.clone();
+            let mut took = Vec::new();
+            let mut ok = true;
+            for &stop in &days[from] {
+                let mut best: Option<(f64, usize, usize)> = None;
+                for to in 0..trial.len() {
+                    if to == from || trial[to].is_empty() || trial[to].len() >= max_stops {
+                        continue;
+                    }
+                    let (added, pos) = insertion(&trial[to], stop);
+                    if hours(&trial[to]) + added <= day_hours + 1e-9
+                        && best.is_none_or(|(b, _, _)| added < b)
+                    {
+                        best = Some((added, to, pos));
+                    }
+                }
+                match best {
+                    Some((_, to, pos)) => {
+                        trial[to].insert(pos, stop);
+                        took.push(to);
+                    }
+                    None => {
+                        ok = false;
+                        break;
+                    }
+                }
+            }
+            if ok {
+                trial[from].clear();
+                days = trial;
+                for t in took {
+                    touched[t] = true;
+                }
+                merged = true;
+            }
+        }
+        if !merged {
+            break;
+        }
+    }
+    days.into_iter()
+        .zip(touched)
+        .filter(|(d, _)| !d.is_empty())
+        .map(|(d, t)| {
+            if !t {
+                return d;
+            }
+            // Keep whichever order is shorter (the local search on long days is not exact).
+            let o = routing::order(m, &d);
+            if routing::tour_length(m, &o) <= routing::tour_length(m, &d) {
+                o
+            } else {
+                d
+            }
+        })
+        .collect()
+}
+
+/// What the crew is told to do at one stop, in plain words, and the dates that follow from it.
+#[derive(Debug, Clone)]
+pub struct Instructions {
+    pub text: String,
+    pub fell_after: Option<Date>,
+    pub follow_up: Option<String>,
+}
+
+/// Earliest date to fell stems treated on `date`: 30 days or more after treatment, so the
+/// herbicide reaches the roots (Penn State Extension tree-of-heaven guidance; USDA Forest
+/// Service 2014; methods notes section 6).
+pub fn fell_after(date: Date) -> Date {
+    date.plus_days(30)
+}
+
+pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Instructions {
+    let p = &folder.planned[stop.row];
+    let method = folder.method(&p.method).expect("checked on read");
+    let mut text = Vec::new();
+    if p.no_herbicide() {
+        text.push("NO HERBICIDE ON THIS SITE.".to_string());
+    }
+    text.push(method.label.clone());
+    if stop.parts > 1 {
+        text.push(format!(
+            "Part {} of {}: about {:.0} of the patch's {:.0} stems today.",
+            stop.part, stop.parts, stop.stems, p.stems
+        ));
+    }
+    if method.herbicide {
+        text.push("Apply per the product label.".into());
+        if let Some(r) = p.restriction() {
+            text.push(format!(
+                "Restricted site ({}): confirm the site's conditions with its manager before any herbicide work.",
+                r.trim_start_matches("restricted site: ")
+            ));
+        }
+    }
+    if let Some(w) = p.near_water() {
+        text.push(format!(
+            "Near water ({}): {}keep the label's buffer from the water.",
+            w.trim_start_matches("near water: "),
+            if method.herbicide {
+                "use only a product labelled for aquatic sites; "
+            } else {
+                ""
+            }
+        ));
+    } else if method.herbicide && p.cautions.split(';').any(|c| c == "WATER_UNCHECKED") {
+        text.push("Water not checked: look for streams, ponds, wells and wetlands and keep the label's buffer.".into());
+    } else if p.cautions.split(';').any(|c| c == "WATER") {
+        text.push("Keep the label's buffer from water.".into());
+    }
+    if p.access == "permission" {
+        text.push(format!(
+            "Landowner permission first{}.",
+            if p.contact.is_empty() {
+                String::new()
+            } else {
+                format!(": {}", p.contact)
+            }
+        ));
+    }
+    let fell = method.cautions.iter().any(|c| c == "FELL30");
+    let fell_after = date.filter(|_| fell).map(fell_after);
+    if let Some(f) = fell_after {
+        text.push(format!("Do not fell treated stems before {f}."));
+    }
+    let follow_up = date
+        .filter(|_| method.cautions.iter().any(|c| c == "FOLLOWUP"))
+        .map(|d| contract::follow_up_due(method, (d.year, d.month, d.day)));
+    if let Some(f) = &follow_up {
+        text.push(format!("Follow-up visit from {f}."));
+    }
+    Instructions {
+        text: text.join(" "),
+        fell_after,
+        follow_up,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn felling_waits_thirty_days() {
+        let d = Date::new(2027, 9, 20).unwrap();
+        assert_eq!(fell_after(d).to_string(), "2027-10-20");
+    }
+}

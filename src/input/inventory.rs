@@ -1,0 +1,225 @@
+//! The stand inventory CSV: `id,x,y,stems` plus optional site columns, read and checked row by
+//! row into [`Stand`]s. Takes a path or bytes; gives stands in the file's order.
+//!
+//! # Units
+//! x, y in the inventory's projected CRS (metres); stems as counts; `area_ha` in hectares.
+
+use std::collections::HashMap;
+use std::path::Path;
+
+use crate::core::error::{Error, Result};
+use crate::core::site::{Access, Herbicide};
+
+/// One row of a stand inventory, already checked.
+#[derive(Debug, Clone)]
+pub struct Stand {
+    pub id: String,
+    pub x: f64,
+    pub y: f64,
+    pub stems: f64,
+    pub area_ha: Option<f64>,
+    pub access: Option<Access>,
+    pub herbicide: Option<Herbicide>,
+    pub cost_factor: Option<f64>,
+    pub pressure: Option<f64>,
+    pub suitability: Option<f64>,
+}
+
+/// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
+/// `cost_factor`, `pressure`, `area_ha`, `suitability`. Column names are matched case-insensitively.
+pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
+    let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
+    parse_inventory(&bytes, &path.display().to_string())
+}
+
+/// Parse and check inventory CSV bytes; `origin` names the file in messages.
+pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let mut reader = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_reader(bytes);
+    let file = origin;
+    let headers: Vec<String> = reader
+        .headers()
+        .map_err(|e| {
+            Error::input(format!(
+                "inventory `{file}`: cannot read the header line ({e})"
+            ))
+        })?
+        .iter()
+        .map(|h| h.to_ascii_lowercase())
+        .collect();
+    let column = |name: &str| headers.iter().position(|h| h == name);
+    let mut missing = Vec::new();
+    for name in ["id", "x", "y", "stems"] {
+        if column(name).is_none() {
+            missing.push(name);
+        }
+    }
+    if !missing.is_empty() {
+        let hint = if headers.len() == 1 && headers[0].contains(';') {
+            "the file looks semicolon-separated; save it as comma-separated CSV"
+        } else {
+            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha)"
+        };
+        return Err(Error::input_with_hint(
+            format!(
+                "inventory `{file}`: missing required column(s) {} (found: {})",
+                missing.join(", "),
+                headers.join(", ")
+            ),
+            hint,
+        ));
+    }
+    let (ci, cx, cy, cs) = (
+        column("id").unwrap_or(0),
+        column("x").unwrap_or(0),
+        column("y").unwrap_or(0),
+        column("stems").unwrap_or(0),
+    );
+    let csuit = column("suitability");
+    let (ca, ch, cc, cp, car) = (
+        column("access"),
+        column("herbicide"),
+        column("cost_factor"),
+        column("pressure"),
+        column("area_ha"),
+    );
+    let mut stands = Vec::new();
+    let mut seen: HashMap<String, u64> = HashMap::new();
+    for record in reader.records() {
+        let record = record.map_err(|e| {
+            let line = e.position().map(|p| format!(", line {}", p.line())).unwrap_or_default();
+            if matches!(e.kind(), csv::ErrorKind::Utf8 { .. }) {
+                return Error::input_with_hint(
+                    format!("inventory `{file}`{line}: text that is not UTF-8 (an export in a legacy encoding such as Windows-1252)"),
+                    "save the file as UTF-8 (in a spreadsheet: Save As, CSV UTF-8) and run again",
+                );
+            }
+            Error::input_with_hint(format!("inventory `{file}`{line}: malformed CSV ({e})"), "every row needs the same number of fields as the header; quote fields that contain commas")
+        })?;
+        let line = record.position().map(|p| p.line()).unwrap_or(0);
+        let get = |c: usize| record.get(c).unwrap_or("");
+        let number = |c: usize, name: &str, allow_negative: bool| -> Result<f64> {
+            let text = get(c);
+            let value: f64 = text.parse().map_err(|_| {
+                Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `{name}`: `{text}` is not a number"
+                    ),
+                    "use plain numbers with a dot for decimals and no thousands separators",
+                )
+            })?;
+            if !value.is_finite() || (!allow_negative && value < 0.0) {
+                return Err(Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `{name}`: `{text}` must be a finite number{}",
+                        if allow_negative { "" } else { " 0 or more" }
+                    ),
+                    "fix the value in the inventory",
+                ));
+            }
+            Ok(value)
+        };
+        let id = get(ci).to_string();
+        if id.is_empty() {
+            return Err(Error::input(format!(
+                "inventory `{file}`, line {line}: empty id"
+            )));
+        }
+        if let Some(c) = id.chars().find(|c| c.is_control() && *c != '\t') {
+            return Err(Error::input_with_hint(
+                format!(
+                    "inventory `{file}`, line {line}, column `id`: the id holds a control character (U+{:04X})",
+                    c as u32
+                ),
+                "ids are printed on work orders and maps: use letters, digits and punctuation",
+            ));
+        }
+        if let Some(first) = seen.insert(id.clone(), line) {
+            return Err(Error::input_with_hint(
+                format!(
+                    "inventory `{file}`, line {line}: duplicate id `{id}` (first on line {first})"
+                ),
+                "every stand needs its own id",
+            ));
+        }
+        let optional_text = |c: Option<usize>| c.map(get).filter(|t| !t.is_empty());
+        let access = match optional_text(ca) {
+            None => None,
+            Some(t) => Some(Access::parse(t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `access`: unknown value `{t}`"
+                    ),
+                    "use open, permission or denied",
+                )
+            })?),
+        };
+        let herbicide = match optional_text(ch) {
+            None => None,
+            Some(t) => Some(Herbicide::parse(t).ok_or_else(|| {
+                Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}, column `herbicide`: unknown value `{t}`"
+                    ),
+                    "use allowed, restricted or prohibited",
+                )
+            })?),
+        };
+        let cost_factor = match cc.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => {
+                let v = number(c, "cost_factor", false)?;
+                if v <= 0.0 {
+                    return Err(Error::input(format!(
+                        "inventory `{file}`, line {line}, column `cost_factor`: must be above 0, got {v}"
+                    )));
+                }
+                Some(v)
+            }
+        };
+        let pressure = match cp.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => Some(number(c, "pressure", false)?),
+        };
+        let area_ha = match car.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => Some(number(c, "area_ha", false)?),
+        };
+        let suitability = match csuit.filter(|&c| !get(c).is_empty()) {
+            None => None,
+            Some(c) => {
+                let v = number(c, "suitability", false)?;
+                if v > 1.0 {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "inventory `{file}`, line {line}, column `suitability`: {v} is above 1"
+                        ),
+                        "suitability runs from 0 (the insect cannot establish) to 1 (fully suitable)",
+                    ));
+                }
+                Some(v)
+            }
+        };
+        stands.push(Stand {
+            x: number(cx, "x", true)?,
+            y: number(cy, "y", true)?,
+            stems: number(cs, "stems", false)?,
+            id,
+            area_ha,
+            access,
+            herbicide,
+            cost_factor,
+            pressure,
+            suitability,
+        });
+    }
+    if stands.is_empty() {
+        return Err(Error::input_with_hint(
+            format!("inventory `{file}` has a header but no stands"),
+            "add one row per stand below the header",
+        ));
+    }
+    Ok(stands)
+}

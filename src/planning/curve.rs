@@ -1,0 +1,317 @@
+//! Budget curves: the exact optimum at each of a list of budgets, warm-started from the
+//! neighbouring point, made monotone (a larger budget can always afford the smaller budget's
+//! plan), with the greedy and rule-of-thumb baselines beside it and the knee of the curve.
+//!
+//! # Units
+//! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
+
+use crate::core::error::{Error, Result};
+use crate::planning::baselines;
+use crate::planning::prepare::Prepared;
+use crate::solve::optimise::{greedy, solve_from};
+use crate::solve::problem::{Assignment, Limits, Status};
+
+/// One budget level.
+#[derive(Debug, Clone)]
+pub struct Point {
+    pub budget: f64,
+    pub assignment: Assignment,
+    pub risk_after: f64,
+    pub bound: f64,
+    pub gap: f64,
+    pub status: Status,
+    /// True when the solver's own plan was worse than a smaller budget's, which was used instead.
+    pub from_neighbour: bool,
+    pub spent: f64,
+    pub crew_hours: f64,
+    pub n_treated: usize,
+    pub stems_treated: f64,
+    pub area_ha_treated: f64,
+    pub greedy_risk_after: f64,
+    /// (baseline name, risk after) for biggest_first, nearest_first, corridor_first.
+    pub baselines: Vec<(&'static str, f64)>,
+    pub seconds: f64,
+}
+
+/// `steps` budgets evenly from `min` to `max` inclusive (one point when steps is 1).
+pub fn budget_range(min: f64, max: f64, steps: usize) -> Vec<f64> {
+    if steps <= 1 || max <= min {
+        return vec![max.max(min)];
+    }
+    (0..steps)
+        .map(|k| min + (max - min) * k as f64 / (steps - 1) as f64)
+        .collect()
+}
+
+/// Parse `MIN:MAX:STEPS`.
+pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
+    let bad = || {
+        Error::input_with_hint(
+            format!("`--budget-range {text}` is not MIN:MAX:STEPS"),
+            "e.g. `--budget-range 0:60000:20` (20 budgets from 0 to 60,000)",
+        )
+    };
+    let parts: Vec<&str> = text.split(':').collect();
+    if parts.len() != 3 {
+        return Err(bad());
+    }
+    let min: f64 = parts[0].trim().parse().map_err(|_| bad())?;
+    let max: f64 = parts[1].trim().parse().map_err(|_| bad())?;
+    let steps: usize = parts[2].trim().parse().map_err(|_| bad())?;
+    if !(min.is_finite()
+        && max.is_finite()
+        && min >= 0.0
+        && max >= min
+        && (1..=500).contains(&steps))
+    {
+        return Err(Error::input_with_hint(
+            format!("`--budget-range {text}`: need 0 <= MIN <= MAX and 1 <= STEPS <= 500"),
+            "e.g. `--budget-range 0:60000:20`",
+        ));
+    }
+    Ok((min, max, steps))
+}
+
+/// Solve every budget with `jobs` workers: worker w takes budgets w, w + jobs, w + 2 jobs, ...
+/// (so the hard and easy levels are shared out). Each point is solved with one HiGHS thread and
+/// warm-started from the better of the greedy plans at its own budget and at its lower
+/// neighbour's, so a point's result does not depend on `jobs` or on which worker solved it:
+/// the curve is byte-identical for any `--jobs`. Then monotonicity is repaired across the whole
+/// curve with the neighbours' solved plans.
+pub fn trace(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+    jobs: usize,
+) -> Result<Vec<Point>> {
+    let mut budgets = budgets.to_vec();
+    budgets.sort_by(f64::total_cmp);
+    budgets.dedup();
+    let jobs = jobs.clamp(1, budgets.len().max(1));
+    let limits = Limits {
+        threads: Some(1),
+        ..limits
+    };
+    let budgets = &budgets;
+    let bar = crate::core::progress::Stage::bar(
+        "solving the budget curve",
+        budgets.len() as u64,
+        "budgets",
+    );
+    let bar = &bar;
+    let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..jobs)
+            .map(|w| {
+                scope.spawn(move || {
+                    (w..budgets.len())
+                        .step_by(jobs)
+                        .map(|k| {
+                            let point =
+                                solve_point(prepared, budgets, k, crew_hours, limits, depot);
+                            bar.inc(1);
+                            point
+                        })
+                        .collect()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| {
+                h.join()
+                    .unwrap_or_else(|_| Err(Error::Internal("a curve worker panicked".into())))
+            })
+            .collect()
+    });
+    let mut points = Vec::new();
+    for r in results {
+        points.extend(r?);
+    }
+    points.sort_by(|a, b| a.budget.total_cmp(&b.budget));
+    make_monotone(prepared, &mut points, crew_hours);
+    Ok(points)
+}
+
+fn solve_point(
+    prepared: &Prepared,
+    budgets: &[f64],
+    k: usize,
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+) -> Result<Point> {
+    let budget = budgets[k];
+    let problem = prepared.problem(budget, crew_hours);
+    // The lower neighbour's greedy plan is affordable here; solve_from keeps the better start.
+    let neighbour = (k > 0)
+        .then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours)))
+        .flatten()
+        .map(|g| g.0);
+    let solved = solve_from(&problem, limits, neighbour.as_ref())?;
+    let rules = baselines::all(
+        &problem,
+        &prepared.patches,
+        &prepared.pressure.corridors,
+        depot,
+        Some(solved.greedy.clone()),
+    );
+    let greedy_risk_after = solved.greedy.as_ref().map(|g| g.1).unwrap_or(f64::NAN);
+    let mut point = Point {
+        budget,
+        assignment: solved.assignment.clone(),
+        risk_after: solved.risk_after,
+        bound: solved.bound,
+        gap: solved.gap,
+        status: solved.status,
+        from_neighbour: false,
+        spent: 0.0,
+        crew_hours: 0.0,
+        n_treated: 0,
+        stems_treated: 0.0,
+        area_ha_treated: 0.0,
+        greedy_risk_after,
+        baselines: rules
+            .iter()
+            .filter(|b| b.name != "greedy")
+            .map(|b| (b.name, b.risk_after))
+            .collect(),
+        seconds: solved.seconds,
+    };
+    fill_totals(prepared, &mut point, crew_hours);
+    Ok(point)
+}
+
+fn fill_totals(prepared: &Prepared, point: &mut Point, crew_hours: Option<f64>) {
+    let problem = prepared.problem(point.budget, crew_hours);
+    point.spent = problem.cost(&point.assignment);
+    point.crew_hours = problem.hours(&point.assignment);
+    let treated: Vec<usize> = (0..point.assignment.len())
+        .filter(|&i| point.assignment[i].is_some())
+        .collect();
+    point.n_treated = treated.len();
+    point.stems_treated = treated
+        .iter()
+        .map(|&i| prepared.patches.items[i].stems)
+        .sum();
+    point.area_ha_treated = treated
+        .iter()
+        .filter_map(|&i| prepared.patches.items[i].area_ha)
+        .sum();
+}
+
+/// Risk after never rises with the budget: a point whose plan is worse than a smaller
+/// budget's takes that plan (it is affordable), keeps its own proven bound, and says so.
+pub fn make_monotone(prepared: &Prepared, points: &mut [Point], crew_hours: Option<f64>) {
+    for k in 1..points.len() {
+        let (before, rest) = points.split_at_mut(k);
+        let previous = &before[k - 1];
+        let point = &mut rest[0];
+        if point.status != Status::Infeasible
+            && previous.status != Status::Infeasible
+            && point.risk_after > previous.risk_after
+        {
+            point.assignment = previous.assignment.clone();
+            point.risk_after = previous.risk_after;
+            point.from_neighbour = true;
+            let bound = point.bound.min(point.risk_after);
+            point.gap = if point.risk_after > 0.0 {
+                ((point.risk_after - bound) / point.risk_after).max(0.0)
+            } else {
+                0.0
+            };
+            if point.gap <= crate::solve::problem::OPTIMAL_GAP {
+                point.status = Status::Optimal;
+            }
+            fill_totals(prepared, point, crew_hours);
+        }
+    }
+}
+
+/// Kneedle (Satopää, Albrecht, Irwin & Raghavan 2011), offline form for a concave increasing
+/// curve: normalise x and y to [0, 1] and take the point where y_n - x_n is largest (the
+/// earliest such point on ties). None for fewer than three points or a flat curve.
+pub fn kneedle(xs: &[f64], ys: &[f64]) -> Option<usize> {
+    if xs.len() < 3 || xs.len() != ys.len() {
+        return None;
+    }
+    let (x0, x1) = (
+        xs.iter().cloned().fold(f64::INFINITY, f64::min),
+        xs.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
+    );
+    let (y0, y1) = (
+        ys.iter().cloned().fold(f64::INFINITY, f64::min),
+        ys.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
+    );
+    if x1 <= x0 || y1 <= y0 {
+        return None;
+    }
+    let mut best: Option<(usize, f64)> = None;
+    for k in 0..xs.len() {
+        let d = (ys[k] - y0) / (y1 - y0) - (xs[k] - x0) / (x1 - x0);
+        if best.is_none_or(|(_, b)| d > b + 1e-12) {
+            best = Some((k, d));
+        }
+    }
+    best.filter(|(_, d)| *d > 0.0).map(|(k, _)| k)
+}
+
+/// The first point whose reduction reaches `fraction` of the largest reduction on the curve.
+pub fn first_reaching(reductions: &[f64], fraction: f64) -> Option<usize> {
+    let top = reductions.iter().cloned().fold(0.0, f64::max);
+    if top <= 0.0 {
+        return None;
+    }
+    reductions.iter().position(|r| *r >= fraction * top - 1e-12)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ranges_include_both_ends() {
+        assert_eq!(
+            budget_range(0.0, 100.0, 5),
+            vec![0.0, 25.0, 50.0, 75.0, 100.0]
+        );
+        assert_eq!(parse_range("0:60000:20").unwrap(), (0.0, 60000.0, 20));
+        assert!(parse_range("5:1:3").is_err());
+        assert!(parse_range("0:10").is_err());
+    }
+
+    #[test]
+    fn kneedle_on_an_analytic_curve() {
+        // y = 1 - exp(-x) on [0, 5]. The normalised difference y_n - x_n is largest where the
+        // normalised slope is 1: exp(-x) * 5 / (1 - exp(-5)) = 1, i.e. x = ln(5 / (1 - e^-5))
+        // = 1.61620... [derived from the Kneedle definition, Satopää et al. 2011].
+        let xs: Vec<f64> = (0..=5000).map(|k| k as f64 / 1000.0).collect();
+        let ys: Vec<f64> = xs.iter().map(|x| 1.0 - (-x).exp()).collect();
+        let k = kneedle(&xs, &ys).unwrap();
+        let expected = (5.0 / (1.0 - (-5.0f64).exp())).ln();
+        assert!((xs[k] - expected).abs() <= 1e-3, "{} vs {expected}", xs[k]);
+        // A straight line has no knee; neither has a flat one.
+        assert_eq!(kneedle(&[0.0, 1.0, 2.0], &[0.0, 1.0, 2.0]), None);
+        assert_eq!(kneedle(&[0.0, 1.0, 2.0], &[1.0, 1.0, 1.0]), None);
+    }
+
+    #[test]
+    fn kneedle_on_the_papers_shape() {
+        // y = -1/x + 5 on x in [1, 10] (a concave increasing curve of the kind used in
+        // Satopää et al. 2011): the knee solves 1/x^2 = (y(10) - y(1)) / 9 = 0.1, x = sqrt 10.
+        let xs: Vec<f64> = (0..=9000).map(|k| 1.0 + k as f64 / 1000.0).collect();
+        let ys: Vec<f64> = xs.iter().map(|x| -1.0 / x + 5.0).collect();
+        let k = kneedle(&xs, &ys).unwrap();
+        assert!((xs[k] - 10f64.sqrt()).abs() <= 1e-3, "{}", xs[k]);
+    }
+
+    #[test]
+    fn thresholds() {
+        let r = [0.0, 30.0, 55.0, 80.0, 90.0, 100.0];
+        assert_eq!(first_reaching(&r, 0.5), Some(2));
+        assert_eq!(first_reaching(&r, 0.8), Some(3));
+        assert_eq!(first_reaching(&r, 0.9), Some(4));
+        assert_eq!(first_reaching(&[0.0, 0.0], 0.5), None);
+    }
+}

@@ -1,0 +1,8 @@
+//! Stage 4, planning: the prepared pipeline (layers → patches → graph → model → choices), one
+//! plan, the baselines, budget curves and multi-season programs.
+
+pub mod baselines;
+pub mod curve;
+pub mod plan;
+pub mod prepare;
+pub mod program;

@@ -1,0 +1,173 @@
+//! The plan: the optimiser's choices turned into what people read — treated patches in priority
+//! order with cost, hours, cautions and value, and the before/after model metrics.
+//!
+//! # Units
+//! Money in catalogue currency; `value_per_cost` is the risk reduction, in percent of R before
+//! treatment, per 1,000 currency units, at the row's place in the priority order.
+
+use crate::core::scenario::ModelSection;
+use crate::core::site::PatchId;
+use crate::input::patches::Patches;
+use crate::input::treatments::{self, Catalogue, Choice, MethodId};
+use crate::model::risk::RiskModel;
+use crate::solve::problem::{Problem, Solved, Status};
+
+/// One treated patch.
+#[derive(Debug, Clone)]
+pub struct PlanRow {
+    pub patch: PatchId,
+    pub choice: Choice,
+    pub cautions: Vec<&'static str>,
+    /// Risk reduction at this step, % of R before.
+    pub reduction_pct: f64,
+    pub value_per_cost: f64,
+}
+
+/// Before and after, for the whole landscape and each patch.
+#[derive(Debug, Clone)]
+pub struct Plan {
+    pub rows: Vec<PlanRow>,
+    pub method_of: Vec<Option<MethodId>>,
+    pub remaining: Vec<f64>,
+    pub risk_before: f64,
+    pub risk_after: f64,
+    pub risk_shares: Vec<f64>,
+    pub lambda_before: f64,
+    pub lambda_after: f64,
+    pub patch_value: Vec<f64>,
+    pub establishment_before: Vec<f64>,
+    pub establishment_after: Vec<f64>,
+    pub greedy_risk_after: Option<f64>,
+    pub spent: f64,
+    pub crew_hours: f64,
+    pub status: Status,
+    pub bound: f64,
+    pub gap: f64,
+    pub solve_seconds: f64,
+    /// How the plan was searched for and which proof gave the bound ([`Solved`]'s).
+    pub solver_path: &'static str,
+    pub bound_from: &'static str,
+}
+
+impl Plan {
+    pub fn reduction_pct(&self) -> f64 {
+        if self.risk_before > 0.0 {
+            100.0 * (1.0 - self.risk_after / self.risk_before)
+        } else {
+            0.0
+        }
+    }
+}
+
+/// Order the chosen treatments so each prefix buys the most: repeatedly take the chosen patch
+/// with the largest risk reduction per unit cost given those already taken.
+fn priority_order(problem: &Problem, solved: &Solved) -> Vec<(usize, usize, f64)> {
+    let mut left: Vec<(usize, usize)> = solved
+        .assignment
+        .iter()
+        .enumerate()
+        .filter_map(|(i, a)| a.map(|o| (i, o)))
+        .collect();
+    let mut remaining = vec![1.0; problem.len()];
+    let mut order = Vec::new();
+    while !left.is_empty() {
+        let mut best = 0;
+        let mut best_ratio = f64::NEG_INFINITY;
+        let mut best_gain = 0.0;
+        for (k, &(i, o)) in left.iter().enumerate() {
+            let gain = problem.gain(&remaining, i, o);
+            let cost = problem.choices[i][o].cost;
+            let ratio = if cost > 0.0 {
+                gain / cost
+            } else {
+                f64::INFINITY
+            };
+            if ratio > best_ratio {
+                best = k;
+                best_ratio = ratio;
+                best_gain = gain;
+            }
+        }
+        let (i, o) = left.remove(best);
+        remaining[i] = problem.choices[i][o].remaining;
+        order.push((i, o, best_gain));
+    }
+    order
+}
+
+/// Assemble the plan from the solve.
+pub fn assemble(
+    patches: &Patches,
+    model: &RiskModel,
+    catalogue: &Catalogue,
+    problem: &Problem,
+    solved: &Solved,
+    settings: &ModelSection,
+) -> Plan {
+    let n = patches.len();
+    let remaining = problem.remaining(&solved.assignment);
+    let risk_before = model.risk_before();
+    let ones = vec![1.0; n];
+    let before = model.capacity(&ones);
+    let after = model.capacity(&remaining);
+    let delta = model.delta(before.lambda, settings.persistence_ratio);
+    let establishment_before = model.establishment(&ones, delta, settings.introduction_weight);
+    let establishment_after = model.establishment(&remaining, delta, settings.introduction_weight);
+    let patch_value = before
+        .vector
+        .iter()
+        .map(|x| before.lambda * x * x)
+        .collect();
+    let rows = priority_order(problem, solved)
+        .into_iter()
+        .map(|(i, o, gain)| {
+            let choice = problem.choices[i][o];
+            let method = catalogue.method(choice.method);
+            let reduction_pct = if risk_before > 0.0 {
+                100.0 * gain / risk_before
+            } else {
+                0.0
+            };
+            let value_per_cost = if choice.cost > 0.0 {
+                reduction_pct / choice.cost * 1000.0
+            } else {
+                f64::INFINITY
+            };
+            PlanRow {
+                patch: PatchId(i as u32),
+                choice,
+                cautions: treatments::caution_codes(method, &patches.items[i]),
+                reduction_pct,
+                value_per_cost,
+            }
+        })
+        .collect();
+    let method_of = solved
+        .assignment
+        .iter()
+        .enumerate()
+        .map(|(i, a)| a.map(|o| problem.choices[i][o].method))
+        .collect();
+    Plan {
+        rows,
+        method_of,
+        risk_before,
+        risk_after: solved.risk_after,
+        risk_shares: model.risk_shares(),
+        remaining,
+        lambda_before: before.lambda,
+        lambda_after: after.lambda,
+        patch_value,
+        establishment_before,
+        establishment_after,
+        greedy_risk_after: solved.greedy.as_ref().map(|g| g.1),
+        spent: problem.cost(&solved.assignment),
+        crew_hours: problem.hours(&solved.assignment),
+        status: solved.status,
+        bound: solved.bound,
+        gap: solved.gap,
+        solve_seconds: solved.seconds,
+        solver_path: solved.path,
+        bound_from: solved.bound_from,
+    }
+}

@@ -1,0 +1,5 @@
+//! Stage 6, outputs: the output folder (staging, atomic swap) and its writers, charts and maps.
+
+pub mod chart;
+pub mod map;
+pub mod output;

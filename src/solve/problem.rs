@@ -1,0 +1,218 @@
+//! What the optimiser is asked and what it answers: [`Problem`] (the model, each patch's eligible
+//! choices, budget, hours, required and excluded patches), [`Assignment`], [`Limits`], [`Status`]
+//! and [`Solved`]. Every solver path (heuristics, the MIP, decomposition, relaxations) imports
+//! these from here, never from the orchestrator in `optimise`.
+//!
+//! # Units
+//! Costs in catalogue currency, hours in crew hours, R in share-squared units.
+
+use crate::input::treatments::Choice;
+use crate::model::risk::RiskModel;
+
+/// What the optimiser is asked: the model, each patch's eligible choices and the limits.
+#[derive(Debug, Clone)]
+pub struct Problem<'a> {
+    pub model: &'a RiskModel,
+    pub choices: Vec<Vec<Choice>>,
+    pub budget: f64,
+    pub crew_hours: Option<f64>,
+    pub required: Vec<bool>,
+    pub excluded: Vec<bool>,
+}
+
+/// For each patch, the index into its `choices` it gets, or None.
+pub type Assignment = Vec<Option<usize>>;
+
+/// How the solve ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// Proven optimal: the bound equals the plan's risk to within [`OPTIMAL_GAP`] (the
+    /// solver's numerical tolerance).
+    Optimal,
+    /// Stopped when the proven gap reached `--gap`.
+    GapLimit,
+    /// Stopped at `--time-limit-s`; the gap says how far from optimal it may be.
+    TimeLimit,
+    /// No plan satisfies the required patches within the budget and hours.
+    Infeasible,
+}
+
+impl Status {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Status::Optimal => "optimal",
+            Status::GapLimit => "gap_limit",
+            Status::TimeLimit => "time_limit",
+            Status::Infeasible => "infeasible",
+        }
+    }
+}
+
+/// The optimiser's answer.
+#[derive(Debug, Clone)]
+pub struct Solved {
+    pub assignment: Assignment,
+    pub risk_after: f64,
+    /// A proven lower bound on the least achievable R.
+    pub bound: f64,
+    /// (risk_after - bound) / risk_after.
+    pub gap: f64,
+    pub status: Status,
+    pub seconds: f64,
+    /// The better of adaptive benefit/cost greedy and the best single item.
+    pub greedy: Option<(Assignment, f64)>,
+    /// How the plan was searched for, e.g. `transport MIP`, `component merge MIP`,
+    /// `relaxation and local search` (see docs/model.md).
+    pub path: &'static str,
+    /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
+    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/solve/relax.rs) or
+    /// `HiGHS dual bound`.
+    pub bound_from: &'static str,
+}
+
+const FEASIBILITY: f64 = 1e-9;
+
+/// A gap this small is numerical noise of the LP tolerances: the plan is optimal.
+pub const OPTIMAL_GAP: f64 = 1e-7;
+
+impl Problem<'_> {
+    pub fn len(&self) -> usize {
+        self.choices.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.choices.is_empty()
+    }
+
+    /// r_i for every patch under `assignment`.
+    pub fn remaining(&self, assignment: &Assignment) -> Vec<f64> {
+        assignment
+            .iter()
+            .enumerate()
+            .map(|(i, a)| a.map(|o| self.choices[i][o].remaining).unwrap_or(1.0))
+            .collect()
+    }
+
+    pub fn risk(&self, assignment: &Assignment) -> f64 {
+        self.model.risk(&self.remaining(assignment))
+    }
+
+    pub fn cost(&self, assignment: &Assignment) -> f64 {
+        assignment
+            .iter()
+            .enumerate()
+            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].cost))
+            .sum()
+    }
+
+    pub fn hours(&self, assignment: &Assignment) -> f64 {
+        assignment
+            .iter()
+            .enumerate()
+            .filter_map(|(i, a)| a.map(|o| self.choices[i][o].hours))
+            .sum()
+    }
+
+    /// `used` fits `limit`, to the optimiser's feasibility tolerance.
+    pub(crate) fn within(limit: f64, used: f64) -> bool {
+        used <= limit + FEASIBILITY * limit.abs().max(1.0)
+    }
+
+    /// Budget, hours, required and excluded all respected.
+    pub fn feasible(&self, assignment: &Assignment) -> bool {
+        let rules = assignment.iter().enumerate().all(|(i, a)| match a {
+            Some(o) => !self.excluded[i] && *o < self.choices[i].len(),
+            None => !self.required[i],
+        });
+        rules
+            && Self::within(self.budget, self.cost(assignment))
+            && self
+                .crew_hours
+                .is_none_or(|h| Self::within(h, self.hours(assignment)))
+    }
+
+    /// R(current) - R(current with patch i switched to choice o), where `remaining[i]` is the
+    /// patch's current r (1 when untreated).
+    pub fn gain(&self, remaining: &[f64], i: usize, o: usize) -> f64 {
+        let (now, r) = (remaining[i], self.choices[i][o].remaining);
+        let mut gain = self.model.own[i] * (now * now - r * r);
+        for &(j, l) in &self.model.adjacency[i] {
+            gain += self.model.links[l].weight * remaining[j] * (now - r);
+        }
+        gain
+    }
+
+    /// The assignment that treats every eligible patch with its most effective choice, and
+    /// its risk: a lower bound on R at any budget (R only grows with each r_i).
+    pub fn everything(&self) -> (Assignment, f64) {
+        let assignment: Assignment = (0..self.len())
+            .map(|i| {
+                if self.excluded[i] {
+                    None
+                } else {
+                    self.most_effective(i)
+                }
+            })
+            .collect();
+        let risk = self.risk(&assignment);
+        (assignment, risk)
+    }
+
+    /// The index of patch i's most effective choice (ties: the cheaper, then the earlier).
+    pub fn most_effective(&self, i: usize) -> Option<usize> {
+        (0..self.choices[i].len()).min_by(|&a, &b| {
+            let (ca, cb) = (&self.choices[i][a], &self.choices[i][b]);
+            ca.remaining
+                .total_cmp(&cb.remaining)
+                .then(ca.cost.total_cmp(&cb.cost))
+        })
+    }
+}
+
+/// Solver limits.
+#[derive(Debug, Clone, Copy)]
+pub struct Limits {
+    pub time_limit_s: f64,
+    /// Relative gap on the remaining risk at which to stop.
+    pub gap: f64,
+    /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
+    pub threads: Option<u32>,
+    pub formulation: Formulation,
+    /// Refuse to build a model estimated to need more than this many GB.
+    pub max_memory_gb: f64,
+    /// Use the relaxation bound, its rounded plan and local search beside HiGHS (off only for
+    /// the benchmark's plain-HiGHS baseline).
+    pub assist: bool,
+}
+
+/// Which exact linearisation of the link products to build (docs/model.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Formulation {
+    /// One z per pair of options at each link, with transportation marginals (default).
+    Transport,
+    /// One u per link and choice of one end, plus McCormick's envelope row.
+    Compact,
+    /// The textbook baseline: one binary per patch and method, one product variable per link
+    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (for benchmarks).
+    Direct,
+}
+
+impl Limits {
+    /// Limits with the default formulation; `HOSTCUT_FORMULATION=compact` picks the compact
+    /// one (for developers comparing the two).
+    pub fn new(time_limit_s: f64, gap: f64) -> Limits {
+        let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
+            Ok("compact") => Formulation::Compact,
+            Ok("direct") => Formulation::Direct,
+            _ => Formulation::Transport,
+        };
+        Limits {
+            time_limit_s,
+            gap,
+            threads: None,
+            formulation,
+            max_memory_gb: f64::INFINITY,
+            assist: true,
+        }
+    }
+}
