@@ -14,6 +14,7 @@ pub mod cli;
 pub mod commands;
 pub mod contract;
 pub mod curve;
+pub mod deadline;
 pub mod decompose;
 pub mod demo;
 pub mod ensemble;

@@ -16,6 +16,8 @@
 
 use std::time::Instant;
 
+use crate::deadline::Deadline;
+
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
@@ -46,8 +48,12 @@ pub enum Status {
     Optimal,
     /// Stopped when the proven gap reached `--gap`.
     GapLimit,
-    /// Stopped at `--time-limit-s`; the gap says how far from optimal it may be.
+    /// Stopped at the command's deadline (`--time-limit-s`); the gap says how far from optimal
+    /// it may be.
     TimeLimit,
+    /// The local search of a large model found no improving move left before the gap or the
+    /// deadline was reached; the gap says how far from optimal it may be.
+    NoImprovingMove,
     /// No plan satisfies the required patches within the budget and hours.
     Infeasible,
 }
@@ -58,6 +64,7 @@ impl Status {
             Status::Optimal => "optimal",
             Status::GapLimit => "gap_limit",
             Status::TimeLimit => "time_limit",
+            Status::NoImprovingMove => "no_improving_move",
             Status::Infeasible => "infeasible",
         }
     }
@@ -484,13 +491,14 @@ pub fn round(problem: &Problem, weights: &[Vec<f64>]) -> Assignment {
 
 /// Local search: drop one treated patch (least risk lost per unit cost first) and refill
 /// greedily; keep the change when R falls. Repeats until a pass finds nothing or `done` says
-/// stop (checked after every try).
+/// stop (checked after every try). Returns the plan, its risk, and true when the search ran out
+/// of improving moves (false when `done` stopped it).
 pub fn improve(
     problem: &Problem,
     mut plan: Assignment,
     mut risk: f64,
     done: impl Fn(f64) -> bool,
-) -> (Assignment, f64) {
+) -> (Assignment, f64, bool) {
     loop {
         let remaining = problem.remaining(&plan);
         let mut order: Vec<(f64, usize)> = (0..problem.len())
@@ -510,7 +518,7 @@ pub fn improve(
         let mut improved = false;
         for &(_, i) in &order {
             if done(risk) {
-                return (plan, risk);
+                return (plan, risk, false);
             }
             let mut trial = plan.clone();
             trial[i] = None;
@@ -523,8 +531,11 @@ pub fn improve(
                 break;
             }
         }
-        if !improved || done(risk) {
-            return (plan, risk);
+        if !improved {
+            return (plan, risk, true);
+        }
+        if done(risk) {
+            return (plan, risk, false);
         }
     }
 }
@@ -532,7 +543,8 @@ pub fn improve(
 /// Solver limits.
 #[derive(Debug, Clone, Copy)]
 pub struct Limits {
-    pub time_limit_s: f64,
+    /// When the search must stop: the command's deadline, or a share of it.
+    pub deadline: Deadline,
     /// Relative gap on the remaining risk at which to stop.
     pub gap: f64,
     /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
@@ -558,16 +570,22 @@ pub enum Formulation {
 }
 
 impl Limits {
-    /// Limits with the default formulation; `HOSTCUT_FORMULATION=compact` picks the compact
-    /// one (for developers comparing the two).
+    /// Limits for one search of at most `time_limit_s` seconds from now (library callers and
+    /// the benchmark; commands use [`Limits::until`] with their own deadline).
     pub fn new(time_limit_s: f64, gap: f64) -> Limits {
+        Limits::until(Deadline::after(time_limit_s), gap)
+    }
+
+    /// Limits ending at `deadline`, with the default formulation; `HOSTCUT_FORMULATION=compact`
+    /// picks the compact one (for developers comparing the two).
+    pub fn until(deadline: Deadline, gap: f64) -> Limits {
         let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
             Ok("compact") => Formulation::Compact,
             Ok("direct") => Formulation::Direct,
             _ => Formulation::Transport,
         };
         Limits {
-            time_limit_s,
+            deadline,
             gap,
             threads: None,
             formulation,
@@ -662,9 +680,9 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
                 SMALL_RELAX_ITERATIONS
             },
             time_limit_s: if large {
-                0.5 * limits.time_limit_s
+                0.5 * limits.deadline.remaining_s()
             } else {
-                (0.1 * limits.time_limit_s).min(2.0)
+                (0.1 * limits.deadline.remaining_s()).min(2.0)
             },
         };
         if let Some(relaxation) = relax::bound(problem, &plan, risk, stop) {
@@ -708,23 +726,25 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist)
         && (early || (large && pieces.is_none()))
     {
-        let deadline = limits.time_limit_s;
-        let (mut assignment, mut risk_after) = if early {
-            (plan, risk)
+        let (mut assignment, mut risk_after, exhausted) = if early {
+            (plan, risk, false)
         } else {
             improve(problem, plan, risk, |r| {
-                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap
-                    || start_time.elapsed().as_secs_f64() >= deadline
+                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap || limits.deadline.passed()
             })
         };
         prune_worthless(problem, &mut assignment);
         risk_after = risk_after.min(problem.risk(&assignment));
         let bound = bound_of(risk_after, f64::NEG_INFINITY);
         let gap = gap_of(risk_after, bound);
+        // Name what stopped the search: the gap, no move left, or the deadline (only when the
+        // search was still finding moves as it passed).
         let status = if gap <= OPTIMAL_GAP {
             Status::Optimal
         } else if gap <= limits.gap {
             Status::GapLimit
+        } else if exhausted {
+            Status::NoImprovingMove
         } else {
             Status::TimeLimit
         };
@@ -744,10 +764,6 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             bound_from: bound_from(f64::NEG_INFINITY),
         });
     }
-    let limits = Limits {
-        time_limit_s: (limits.time_limit_s - start_time.elapsed().as_secs_f64()).max(0.01),
-        ..limits
-    };
     // HiGHS sees R scaled so that R before treatment = 1000: coefficients stay in a range it
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
     let scale = 1e3 / risk_before;
@@ -771,10 +787,11 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             build_transport(problem, scale, warm.as_ref().map(|w| &w.0), None)?
         }
     };
-    let Some(run) = run_highs(built, limits, n)? else {
+    let Some(run) = run_highs(built, limits, n, warm.is_some())? else {
         return Ok(infeasible(n, risk_before, greedy, start_time));
     };
     let (mut status, mut assignment, has_solution) = (run.status, run.assignment, run.has_solution);
+    let path = if run.started { path } else { NOT_STARTED };
     let dual = run.objective_bound / scale;
     let mut risk_after = problem.risk(&assignment);
     if !has_solution || !problem.feasible(&assignment) {
@@ -816,39 +833,98 @@ pub(crate) struct HighsRun {
     pub(crate) assignment: Assignment,
     pub(crate) has_solution: bool,
     pub(crate) objective_bound: f64,
+    /// False when HiGHS was not started for lack of time (see [`run_highs`]).
+    pub(crate) started: bool,
+}
+
+/// Seconds HiGHS may run past its `time_limit` per column of the model: presolve, reading the
+/// MIP start and setting up the root do not look at the clock. Measured on the project's
+/// 2-core machine (docs/benchmarks.md): 0.1-2 s past the limit at 100,000 columns, 1-13 s at
+/// 690,000; this rate covers nearly all of them.
+pub const HIGHS_SETUP_S_PER_COLUMN: f64 = 2e-5;
+
+/// Seconds HiGHS may run past its `time_limit` on a model of `columns` columns.
+pub fn highs_overrun_s(columns: usize) -> f64 {
+    HIGHS_SETUP_S_PER_COLUMN * columns as f64
+}
+
+/// True when less than the time HiGHS may overrun by on a model of `columns` columns is left
+/// before the command's searches must end ([`Deadline::overall`]): started now, HiGHS would
+/// push the command past its limit.
+pub fn highs_cannot_finish(columns: usize, limits: &Limits) -> bool {
+    limits.deadline.overall().remaining_s() < highs_overrun_s(columns)
 }
 
 /// Solve a built model with the run's limits, a fixed seed and thread count. `None` when HiGHS
 /// proves it infeasible.
-pub(crate) fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option<HighsRun>> {
+///
+/// HiGHS is stopped by the deadline less the time it may overrun by
+/// ([`HIGHS_SETUP_S_PER_COLUMN`]); a step's overrun comes out of the steps after it. When
+/// `has_start` (the caller holds a feasible plan to fall back on) and less than that overrun
+/// is left before the command's searches must end, HiGHS is not started at all: it would push
+/// the command past its limit. The run then reports the time limit with no solution and no
+/// bound of its own.
+pub(crate) fn run_highs(
+    built: Built,
+    limits: Limits,
+    n: usize,
+    has_start: bool,
+) -> Result<Option<HighsRun>> {
     let Built {
         mut model,
         x_columns,
     } = built;
     // HOSTCUT_SOLVER_LOG=1 shows HiGHS's own log on stdout (for developers).
     let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
+    let remaining = limits.deadline.remaining_s();
+    let overrun = highs_overrun_s(model.num_cols());
+    if has_start && highs_cannot_finish(model.num_cols(), &limits) {
+        if log {
+            println!(
+                "hostcut: HiGHS not started: {:.2} s left, it may overrun by {overrun:.2} s on {} columns",
+                limits.deadline.overall().remaining_s(),
+                model.num_cols()
+            );
+        }
+        return Ok(Some(HighsRun {
+            status: Status::TimeLimit,
+            assignment: vec![None; n],
+            has_solution: false,
+            objective_bound: f64::NEG_INFINITY,
+            started: false,
+        }));
+    }
     model.set_option("output_flag", log);
     model.set_option("log_to_console", log);
-    model.set_option("time_limit", limits.time_limit_s.max(0.01));
+    // HiGHS's clock starts now: give it what is left of the deadline less its overrun (at least
+    // a moment, so a search started at the deadline still returns its warm start and bound).
+    let time_limit = (remaining - overrun).clamp(0.01, 1e9);
+    if log {
+        println!("hostcut: HiGHS time_limit {time_limit:.2} s");
+    }
+    model.set_option("time_limit", time_limit);
     model.set_option("mip_rel_gap", limits.gap);
     model.set_option("mip_abs_gap", 1e-9);
     // Fixed seed and thread count, so the same problem gives the same plan on any machine
     // (HiGHS's MIP is deterministic for a given thread count).
     model.set_option("random_seed", 0);
     model.set_option("threads", limits.threads.unwrap_or(2) as i32);
+    let highs_clock = Instant::now();
     let solved = model
         .try_solve()
         .map_err(|e| Error::Internal(format!("HiGHS failed: {e:?}")))?;
+    if log {
+        println!(
+            "hostcut: HiGHS took {:.2} s of its {time_limit:.2} s",
+            highs_clock.elapsed().as_secs_f64()
+        );
+    }
     use highs::HighsModelStatus as S;
     let has_solution = solved.primal_solution_status() == highs::HighsSolutionStatus::Feasible;
     let status = match solved.status() {
         S::Optimal | S::ObjectiveBound | S::ObjectiveTarget => Status::Optimal,
         S::Infeasible | S::UnboundedOrInfeasible => return Ok(None),
-        S::ReachedTimeLimit
-        | S::ReachedIterationLimit
-        | S::ReachedSolutionLimit
-        | S::ReachedInterrupt
-        | S::ReachedMemoryLimit => Status::TimeLimit,
+        S::ReachedTimeLimit => Status::TimeLimit,
         other => {
             return Err(Error::Internal(format!(
                 "HiGHS ended with status {other:?}"
@@ -875,6 +951,7 @@ pub(crate) fn run_highs(built: Built, limits: Limits, n: usize) -> Result<Option
         assignment,
         has_solution,
         objective_bound,
+        started: true,
     }))
 }
 
@@ -935,7 +1012,15 @@ pub struct MinMaxSolved {
     pub gap: f64,
     pub status: Status,
     pub seconds: f64,
+    /// How the plan was found: `min-max MIP`, `everything fits`, `start within the gap of the
+    /// floor`, or [`NOT_STARTED`].
+    pub path: &'static str,
 }
+
+/// The path of a search whose MIP had too little time left to start: the plan is the best
+/// start (greedy, relaxation rounding or a neighbour's plan) and the bound is the one known
+/// without it.
+pub const NOT_STARTED: &str = "best start; too little time left to start the MIP";
 
 /// Minimise max_s (R_s - offset_s) over feasible plans, exactly (transportation formulation with
 /// an epigraph variable), warm-started from the best of `starts`. `floor` is a lower bound known
@@ -955,7 +1040,7 @@ pub fn solve_minmax(
         .filter(|a| a.len() == n && problem.feasible(a))
         .min_by(|a, b| mm.value(problem, a).total_cmp(&mm.value(problem, b)))
         .cloned();
-    let done = |assignment: Assignment, bound: f64, status: Status| {
+    let done = |assignment: Assignment, bound: f64, status: Status, path: &'static str| {
         let value = mm.value(problem, &assignment);
         let bound = if bound.is_finite() {
             bound.max(floor)
@@ -981,24 +1066,35 @@ pub fn solve_minmax(
             gap,
             status,
             seconds: start_time.elapsed().as_secs_f64(),
+            path,
         }
     };
     // Every R_s only grows with each r_i, so treating everything, when it fits, is optimal.
     let (everything, _) = problem.everything();
     if problem.feasible(&everything) {
         let v = mm.value(problem, &everything);
-        return Ok(done(everything, v, Status::Optimal));
+        return Ok(done(everything, v, Status::Optimal, "everything fits"));
     }
     // A start already within the requested gap of the known floor needs no search.
     if let Some(w) = &warm {
         let worst = mm.worst_risk(problem, w);
         if worst > 0.0 && (mm.value(problem, w) - floor) / worst <= limits.gap {
-            return Ok(done(w.clone(), floor, Status::Optimal));
+            return Ok(done(
+                w.clone(),
+                floor,
+                Status::Optimal,
+                "start within the gap of the floor",
+            ));
         }
     }
     let worst_before = mm.worst_risk(problem, &vec![None; n]);
     if worst_before <= 0.0 {
-        return Ok(done(vec![None; n], f64::NEG_INFINITY, Status::Optimal));
+        return Ok(done(
+            vec![None; n],
+            f64::NEG_INFINITY,
+            Status::Optimal,
+            "nothing to choose",
+        ));
     }
     let scale = 1e3 / worst_before;
     let built = build_transport(problem, scale, warm.as_ref(), Some(mm))?;
@@ -1009,8 +1105,9 @@ pub fn solve_minmax(
         gap: f64::NAN,
         status: Status::Infeasible,
         seconds: start_time.elapsed().as_secs_f64(),
+        path: "min-max MIP",
     };
-    let Some(run) = run_highs(built, limits, n)? else {
+    let Some(run) = run_highs(built, limits, n, warm.is_some())? else {
         return Ok(infeasible());
     };
     let mut assignment = run.assignment;
@@ -1026,7 +1123,12 @@ pub fn solve_minmax(
         assignment = w.clone();
     }
     let bound = (run.objective_bound / scale).max(floor);
-    Ok(done(assignment, bound, run.status))
+    let path = if run.started {
+        "min-max MIP"
+    } else {
+        NOT_STARTED
+    };
+    Ok(done(assignment, bound, run.status, path))
 }
 
 /// Memory the transportation model is estimated to need, in GB: about 1 kB per pair-of-options

@@ -415,12 +415,18 @@ pub struct Summary {
     pub risk_reduction_pct: f64,
     pub lambda_before: f64,
     pub lambda_after: f64,
+    /// False when lambda_M or the establishment probabilities were cut short by the time limit.
+    pub metrics_converged: bool,
     pub greedy_risk_after: Option<f64>,
     pub greedy_reduction_pct: Option<f64>,
     pub status: &'static str,
     pub gap: Option<f64>,
     pub bound: Option<f64>,
     pub solve_seconds: f64,
+    /// `--time-limit-s`: the limit on the whole command's wall time.
+    pub time_limit_s: f64,
+    /// Seconds from the command's start to writing summary.json (reading layers included).
+    pub elapsed_s: f64,
     /// How the plan was searched for (e.g. `transport MIP`, `component merge MIP`).
     pub solver_path: &'static str,
     /// Which proof gave `bound`: exact, floor, relaxation or HiGHS dual bound.
@@ -749,6 +755,7 @@ pub fn summary(
         risk_reduction_pct: plan.reduction_pct(),
         lambda_before: plan.lambda_before,
         lambda_after: plan.lambda_after,
+        metrics_converged: plan.metrics_converged,
         greedy_risk_after: plan.greedy_risk_after,
         greedy_reduction_pct: plan.greedy_risk_after.map(|g| {
             if plan.risk_before > 0.0 {
@@ -761,6 +768,8 @@ pub fn summary(
         gap: finite(plan.gap),
         bound: finite(plan.bound),
         solve_seconds: plan.solve_seconds,
+        time_limit_s: f64::NAN,
+        elapsed_s: f64::NAN,
         solver_path: plan.solver_path,
         bound_from: plan.bound_from,
         n_patches: o.patches.len(),

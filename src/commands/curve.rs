@@ -115,7 +115,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     progress(&format!("solving {} budget levels", budgets.len()));
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
-        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+        ..Limits::until(settings.deadline(), s.solver.gap)
     };
     let points = curve::trace(
         &prepared,
@@ -160,6 +160,12 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
         money.fmt(points.first().map(|p| p.budget).unwrap_or(0.0)),
         money.fmt(points.last().map(|p| p.budget).unwrap_or(0.0)),
         prepared.patches.len()
+    );
+    let _ = writeln!(
+        text,
+        "  {:.1} s of `--time-limit-s {}` (the limit on the whole command, shared by the levels)",
+        settings.deadline().elapsed_s(),
+        s.solver.time_limit_s
     );
     for p in &points {
         let _ = writeln!(

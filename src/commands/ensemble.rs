@@ -61,11 +61,24 @@ pub fn solve(
         }
     }
 
+    // The searches run one after another within the command's deadline: each scenario's
+    // optimum, the weighted mean, then the robust objective; each takes an equal share of the
+    // time left, so time one does not need passes on to the next.
+    let mut searches_left = models.len() + 1 + usize::from(e.robust != Robust::Mean);
+    let mut next_limits = || {
+        let share = Limits {
+            deadline: limits.deadline.share(searches_left),
+            ..limits
+        };
+        searches_left = searches_left.saturating_sub(1);
+        share
+    };
+
     // Each scenario's own optimum.
     let mut optima: Vec<Solved> = Vec::new();
     for (m, member) in models.iter().zip(&e.members) {
         progress(&format!("optimising for scenario {}", member.name));
-        let solved = optimise::solve(&in_scenario(&base, m), limits)?;
+        let solved = optimise::solve(&in_scenario(&base, m), next_limits())?;
         if solved.status == Status::Infeasible {
             return Ok(EnsembleRun {
                 chosen: solved,
@@ -84,7 +97,7 @@ pub fn solve(
                 .total_cmp(&base.risk(&b.assignment))
         })
         .map(|s| s.assignment.clone());
-    let mean = optimise::solve_from(&base, limits, best_start.as_ref())?;
+    let mean = optimise::solve_from(&base, next_limits(), best_start.as_ref())?;
     let greedy = mean.greedy.clone();
 
     let minmax_for = |robust: Robust| MinMax {
@@ -119,7 +132,7 @@ pub fn solve(
                 .zip(&mm.offsets)
                 .map(|(o, off)| o.bound - off)
                 .fold(f64::NEG_INFINITY, f64::max);
-            let r = optimise::solve_minmax(&base, &mm, limits, &starts, floor)?;
+            let r = optimise::solve_minmax(&base, &mm, next_limits(), &starts, floor)?;
             let objective = match robust {
                 Robust::Worst => "worst-case R over the scenarios".to_string(),
                 _ => {
@@ -136,8 +149,12 @@ pub fn solve(
                     status: r.status,
                     seconds: r.seconds,
                     greedy: greedy.clone(),
-                    path: "min-max MIP",
-                    bound_from: "HiGHS dual bound",
+                    path: r.path,
+                    bound_from: match r.path {
+                        "min-max MIP" => "HiGHS dual bound",
+                        "everything fits" | "nothing to choose" => "exact",
+                        _ => "the scenarios' own bounds",
+                    },
                 },
                 objective,
             )

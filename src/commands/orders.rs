@@ -702,6 +702,10 @@ fn status_line(summary: &serde_json::Value) -> String {
             "the optimiser hit its time limit: proven within {:.2}% of the least achievable risk",
             g * 100.0
         ),
+        ("no_improving_move", Some(g)) => format!(
+            "the optimiser's search found no improving move left: proven within {:.2}% of the least achievable risk",
+            g * 100.0
+        ),
         (s, _) => format!("optimiser status {s}"),
     }
 }

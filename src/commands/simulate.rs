@@ -231,7 +231,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             progress("solving the plan");
             let limits = Limits {
                 max_memory_gb: s.solver.max_memory_gb,
-                ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+                ..Limits::until(settings.deadline(), s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;
             if solved.status == optimise::Status::Infeasible {
