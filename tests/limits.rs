@@ -67,7 +67,11 @@ fn an_ensemble_plan_keeps_to_the_commands_limit() {
     let elapsed = s["elapsed_s"].as_f64().unwrap();
     assert!(elapsed <= generous(limit, 1.0), "recorded {elapsed} s");
     assert!(wall <= generous(limit, 5.0), "wall {wall} s");
-    assert!(STOPS.contains(&s["status"].as_str().unwrap()), "{}", s["status"]);
+    assert!(
+        STOPS.contains(&s["status"].as_str().unwrap()),
+        "{}",
+        s["status"]
+    );
     for scenario in s["ensemble"]["scenarios"].as_array().unwrap() {
         let status = scenario["optimum_status"].as_str().unwrap();
         assert!(STOPS.contains(&status), "{status}");
@@ -153,7 +157,11 @@ fn a_programme_keeps_to_the_commands_limit() {
     let elapsed = s["elapsed_s"].as_f64().unwrap();
     assert!(elapsed <= generous(limit, 1.0), "recorded {elapsed} s");
     assert!(wall <= generous(limit, 5.0), "wall {wall} s");
-    assert!(STOPS.contains(&s["status"].as_str().unwrap()), "{}", s["status"]);
+    assert!(
+        STOPS.contains(&s["status"].as_str().unwrap()),
+        "{}",
+        s["status"]
+    );
     // The programme's MIP (about 690,000 columns) cannot be searched in 4 s: that is said.
     if s["exact_model_run"] == false {
         assert!(
