@@ -13,6 +13,7 @@ pub mod chart;
 pub mod cli;
 pub mod commands;
 pub mod contract;
+pub mod csv_cells;
 pub mod curve;
 pub mod deadline;
 pub mod decompose;

@@ -545,17 +545,10 @@ pub const PLAN_COLUMNS: [&str; 20] = [
     "site_notes",
 ];
 
-/// A CSV file's bytes: the header row, then the rows.
+/// A CSV file's bytes: the header row, then the rows, with text cells a spreadsheet would
+/// execute neutralised ([`crate::csv_cells`]).
 pub fn csv_bytes(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    for r in rows {
-        w.write_record(r)
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    crate::csv_cells::bytes(header, rows)
 }
 
 /// Write plan.csv, patches.csv, plan.geojson and cautions.txt into the staging folder.

@@ -270,7 +270,7 @@ impl Analysis {
 }
 
 fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::csv_cells::Writer::new();
     let mut header = vec![
         "budget",
         "spent",
@@ -294,8 +294,7 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
             _ => "corridor_first_risk_after",
         });
     }
-    w.write_record(&header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.row(&header)?;
     let analysis = Analysis::new(points, risk_before);
     let f = |v: f64| {
         if v.is_finite() {
@@ -336,11 +335,9 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
                     .unwrap_or_default(),
             );
         }
-        w.write_record(&row)
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+        w.row(&row)?;
     }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_bytes()
 }
 
 fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {

@@ -186,9 +186,8 @@ pub fn solve(
                 .fold(optima[s].risk_after, f64::min)
         })
         .collect();
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let csv_err = |e: csv::Error| Error::Internal(format!("csv: {e}"));
-    w.write_record([
+    let mut w = crate::csv_cells::Writer::new();
+    w.row([
         "plan",
         "scenario",
         "kernel",
@@ -200,8 +199,7 @@ pub fn solve(
         "regret_pct",
         "cost",
         "n_treated",
-    ])
-    .map_err(csv_err)?;
+    ])?;
     let mut plans_json = Vec::new();
     let mut worst_regret: Vec<(String, f64)> = Vec::new();
     for (name, a) in &candidates {
@@ -219,7 +217,7 @@ pub fn solve(
             max_pct = max_pct.max(pct);
             worst_risk = worst_risk.max(r);
             mean_risk += member.weight / total_weight * r;
-            w.write_record([
+            w.row([
                 name.clone(),
                 member.name.clone(),
                 kernels[s].kind.as_str().to_string(),
@@ -231,8 +229,7 @@ pub fn solve(
                 format!("{pct:.4}"),
                 format!("{:.2}", base.cost(a) + 0.0),
                 a.iter().filter(|x| x.is_some()).count().to_string(),
-            ])
-            .map_err(csv_err)?;
+            ])?;
         }
         worst_regret.push((name.clone(), max_pct));
         plans_json.push(serde_json::json!({
@@ -243,9 +240,7 @@ pub fn solve(
             "cost": base.cost(a) + 0.0,
         }));
     }
-    let regret_csv = w
-        .into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    let regret_csv = w.into_bytes()?;
     let mut ranked = worst_regret.clone();
     ranked.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
     let most = &ranked[0];

@@ -370,7 +370,7 @@ fn day_label(d: &CrewDay) -> String {
 
 fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
     let lonlats = stop_lonlats(ctx)?;
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::csv_cells::Writer::new();
     let header = [
         "crew",
         "day",
@@ -398,14 +398,13 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
         "follow_up",
         "instructions",
     ];
-    w.write_record(header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.row(header)?;
     for (d, ll) in ctx.schedule.days.iter().zip(&lonlats) {
         let n = d.stops.len();
         for (k, (s, (lon, lat))) in d.stops.iter().zip(ll).enumerate() {
             let p = &ctx.folder.planned[s.row];
             let ins = orders::instructions(ctx.folder, s, d.date);
-            w.write_record([
+            w.row([
                 d.crew.map(|c| c.to_string()).unwrap_or_default(),
                 d.day.to_string(),
                 d.date.map(|x| x.to_string()).unwrap_or_default(),
@@ -437,12 +436,10 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
                 ins.fell_after.map(|x| x.to_string()).unwrap_or_default(),
                 ins.follow_up.unwrap_or_default(),
                 ins.text,
-            ])
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+            ])?;
         }
     }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_bytes()
 }
 
 fn route_line(ctx: &Ctx, d: &CrewDay) -> LineString<f64> {
