@@ -219,7 +219,8 @@ fn rows_read_from_a_blocked_geotiff_equal_the_whole_band() {
         band.write((0, 0), (w, h), &mut buffer).unwrap();
     }
     let raster =
-        hostcut::input::gis::open_raster(&path, None, &hostcut::core::memory::Budget::new(1.0)).unwrap();
+        hostcut::input::gis::open_raster(&path, None, &hostcut::core::memory::Budget::new(1.0))
+            .unwrap();
     assert_eq!(raster.block_rows, 5, "the file's blocks are 5 rows");
     let whole = read_raster(&path, None).unwrap();
     let mut streamed: Vec<f32> = Vec::new();

@@ -318,9 +318,9 @@ fn stands_on_zero_suitability_are_carried_with_zero_risk() {
 fn outline_pieces_count_the_polygons_the_union_draws() {
     // Oracle: geo's own union (the outline the plan writes) on small run sets; pieces are what
     // the memory estimate charges per polygon.
-    use hostcut::gis::Frame;
-    use hostcut::label::Run;
-    use hostcut::patches::{outline, outline_pieces};
+    use hostcut::input::gis::Frame;
+    use hostcut::input::label::Run;
+    use hostcut::input::patches::{outline, outline_pieces};
     let frame = Frame {
         width: 10,
         height: 10,

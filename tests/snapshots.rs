@@ -3,8 +3,8 @@
 //! remake them with `HOSTCUT_UPDATE_SNAPSHOTS=1 cargo test --release --test snapshots` and
 //! read the diff before committing it.
 //!
-//! Only the measured solve time (`solve_seconds` in summary.json, "N s" in text) varies between
-//! runs; it is masked. Dates are fixed with `--start-date`. Absolute paths to the repository's
+//! Only the measured times (`solve_seconds`, `elapsed_s` in summary.json, "N s" in text) vary between
+//! runs; they are masked. Dates are fixed with `--start-date`. Absolute paths to the repository's
 //! `demo-inputs/` (in scenario.resolved.toml and calibration.toml) depend on where the checkout
 //! is; they are masked on both sides, so the snapshots taken in one checkout hold in any other.
 
@@ -22,14 +22,17 @@ fn masked(name: &str, bytes: Vec<u8>) -> Vec<u8> {
     let mut out = String::with_capacity(text.len());
     for line in text.split_inclusive('\n') {
         let line = &mask_checkout(line);
-        if name.ends_with(".json") && line.contains("\"solve_seconds\"") {
+        let timed = ["solve_seconds", "elapsed_s"]
+            .into_iter()
+            .find(|key| line.contains(&format!("\"{key}\"")));
+        if let (true, Some(key)) = (name.ends_with(".json"), timed) {
             let indent: String = line.chars().take_while(|c| c.is_whitespace()).collect();
             let comma = if line.trim_end().ends_with(',') {
                 ","
             } else {
                 ""
             };
-            out.push_str(&format!("{indent}\"solve_seconds\": \"(masked)\"{comma}\n"));
+            out.push_str(&format!("{indent}\"{key}\": \"(masked)\"{comma}\n"));
         } else {
             out.push_str(line);
         }

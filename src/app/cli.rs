@@ -207,7 +207,8 @@ pub struct PlanArgs {
     /// centroid of the eligible patches
     #[arg(long, value_name = "X,Y", allow_negative_numbers = true)]
     pub depot: Option<String>,
-    /// Stop the optimiser after this many seconds and report the best plan with its gap
+    /// Limit on the whole command's wall time (reading layers, every search, writing outputs);
+    /// the best plan found is reported with its proven gap
     #[arg(long, allow_negative_numbers = true, value_name = "SECONDS")]
     pub time_limit_s: Option<f64>,
     /// Stop when (risk_after - bound) / risk_after is at most this

@@ -20,9 +20,20 @@ pub struct Settings {
     pub out: PathBuf,
     pub force: bool,
     pub quiet: bool,
+    /// When the command started (before any layer is read): `--time-limit-s` counts from here.
+    pub started: std::time::Instant,
 }
 
 impl Settings {
+    /// The deadline of every search of this command: `--time-limit-s` from the command's start,
+    /// less the reserve for writing outputs ([`crate::core::deadline::OUTPUT_RESERVE`]).
+    pub fn deadline(&self) -> crate::core::deadline::Deadline {
+        crate::core::deadline::Deadline::for_command(
+            self.started,
+            self.scenario.solver.time_limit_s,
+        )
+    }
+
     /// A progress line on stderr, unless `--quiet`.
     pub fn progress(&self, message: &str) {
         if !self.quiet {
@@ -53,6 +64,7 @@ pub fn plan_folder_scenario(dir: &Path) -> Result<PathBuf> {
 
 /// As [`resolve`]; `need_budget` false for commands that choose their own budgets.
 pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
+    let started = std::time::Instant::now();
     let mut s = match &args.scenario {
         Some(path) => read_scenario(path)?,
         None => Scenario::default(),
@@ -418,6 +430,7 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
         out,
         force: args.force,
         quiet: args.quiet,
+        started,
     })
 }
 

@@ -75,6 +75,8 @@ pub fn read_surveys(path: &Path) -> Result<Vec<Survey>> {
         let line = k + 2;
         let rec = rec
             .map_err(|e| Error::input(format!("surveys `{}`, line {line}: {e}", path.display())))?;
+        // Cells neutralised by a CSV the tool wrote (e.g. surveys_assigned.csv) read as written.
+        let rec = crate::core::csv_cells::restored(&rec);
         let bad = |what: &str| {
             Error::input_with_hint(
                 format!("surveys `{}`, line {line}: {what}", path.display()),
@@ -470,10 +472,8 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
     )?;
 
     // calibration.csv
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let e = |e: csv::Error| Error::Internal(format!("csv: {e}"));
-    w.write_record(["parameter", "family", "estimate", "low", "high"])
-        .map_err(e)?;
+    let mut w = crate::core::csv_cells::Writer::new();
+    w.row(["parameter", "family", "estimate", "low", "high"])?;
     for f in &fits {
         let name = f.family.as_str();
         let rows: [(&str, f64, Option<f64>, Option<f64>); 6] = [
@@ -500,19 +500,14 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
             ("aic", f.aic, None, None),
         ];
         for (p, v, lo, hi) in rows {
-            w.write_record([p, name, &format!("{v:.6}"), &opt(lo), &opt(hi)])
-                .map_err(e)?;
+            w.row([p, name, &format!("{v:.6}"), &opt(lo), &opt(hi)])?;
         }
     }
-    staging.write(
-        "calibration.csv",
-        w.into_inner()
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?,
-    )?;
+    staging.write("calibration.csv", w.into_bytes()?)?;
 
     // Surveys: where each went.
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record([
+    let mut w = crate::core::csv_cells::Writer::new();
+    w.row([
         "line",
         "x",
         "y",
@@ -523,10 +518,9 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         "distance_m",
         "date",
         "source",
-    ])
-    .map_err(e)?;
-    let mut u = csv::Writer::from_writer(Vec::new());
-    u.write_record([
+    ])?;
+    let mut u = crate::core::csv_cells::Writer::new();
+    u.row([
         "line",
         "x",
         "y",
@@ -535,8 +529,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
         "nearest_patch",
         "distance_m",
         "reason",
-    ])
-    .map_err(e)?;
+    ])?;
     let label = |i: usize| prepared.patches.items[i].label.clone();
     for (sv, p) in surveys.iter().zip(&placed) {
         let result = if sv.positive { "positive" } else { "negative" };
@@ -547,7 +540,7 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
                     Placement::Nearest(_, d) => ("nearest", *d),
                     _ => unreachable!(),
                 };
-                w.write_record([
+                w.row([
                     sv.line.to_string(),
                     format!("{:.2}", sv.x),
                     format!("{:.2}", sv.y),
@@ -558,11 +551,10 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
                     format!("{d:.1}"),
                     sv.date.clone(),
                     sv.source.clone(),
-                ])
-                .map_err(e)?;
+                ])?;
             }
             Placement::TooFar(near, d) => {
-                u.write_record([
+                u.row([
                     sv.line.to_string(),
                     format!("{:.2}", sv.x),
                     format!("{:.2}", sv.y),
@@ -578,21 +570,12 @@ pub fn run(args: &CalibrateArgs) -> Result<String> {
                         "outside every patch and more than {} m from the nearest",
                         args.survey_radius_m
                     ),
-                ])
-                .map_err(e)?;
+                ])?;
             }
         }
     }
-    staging.write(
-        "surveys_assigned.csv",
-        w.into_inner()
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?,
-    )?;
-    staging.write(
-        "unassigned_surveys.csv",
-        u.into_inner()
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?,
-    )?;
+    staging.write("surveys_assigned.csv", w.into_bytes()?)?;
+    staging.write("unassigned_surveys.csv", u.into_bytes()?)?;
 
     // likelihood.svg: deviance 2 (ln L_max - ln L(alpha)) against log10 alpha, per family.
     let top = fits

@@ -116,7 +116,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     progress(&format!("solving {} budget levels", budgets.len()));
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
-        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+        ..Limits::until(settings.deadline(), s.solver.gap)
     };
     let points = curve::trace(
         &prepared,
@@ -161,6 +161,12 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
         money.fmt(points.first().map(|p| p.budget).unwrap_or(0.0)),
         money.fmt(points.last().map(|p| p.budget).unwrap_or(0.0)),
         prepared.patches.len()
+    );
+    let _ = writeln!(
+        text,
+        "  {:.1} s of `--time-limit-s {}` (the limit on the whole command, shared by the levels)",
+        settings.deadline().elapsed_s(),
+        s.solver.time_limit_s
     );
     for p in &points {
         let _ = writeln!(
@@ -265,7 +271,7 @@ impl Analysis {
 }
 
 fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::core::csv_cells::Writer::new();
     let mut header = vec![
         "budget",
         "spent",
@@ -289,8 +295,7 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
             _ => "corridor_first_risk_after",
         });
     }
-    w.write_record(&header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.row(&header)?;
     let analysis = Analysis::new(points, risk_before);
     let f = |v: f64| {
         if v.is_finite() {
@@ -331,11 +336,9 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
                     .unwrap_or_default(),
             );
         }
-        w.write_record(&row)
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+        w.row(&row)?;
     }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_bytes()
 }
 
 fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {

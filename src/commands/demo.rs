@@ -12,6 +12,8 @@ use crate::report::output::Staging;
 use super::plan::RunReport;
 
 pub fn run(args: &DemoArgs) -> Result<RunReport> {
+    // `--time-limit-s` of the demo scenario counts from here, inputs written included.
+    let started = std::time::Instant::now();
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
     let staging = Staging::new(&out, args.force, "demo")?;
     let staged_inputs = staging.path("inputs");
@@ -22,7 +24,8 @@ pub fn run(args: &DemoArgs) -> Result<RunReport> {
         quiet: args.quiet,
         ..Default::default()
     };
-    let settings = settings::resolve(&plan_args)?;
+    let mut settings = settings::resolve(&plan_args)?;
+    settings.started = started;
     let mut text = super::plan::run_into(&settings, &staging, None)?;
     let out = staging.commit()?;
     text.push_str(&format!(

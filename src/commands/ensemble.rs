@@ -6,15 +6,15 @@ use std::fmt::Write as _;
 
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
+use crate::core::memory::LinkCount;
 use crate::core::scenario::EnsembleSection;
 use crate::core::scenario::Robust;
 use crate::model::ensemble;
+use crate::model::graph::LinkFinder;
 use crate::model::risk::RiskModel;
 use crate::planning::prepare::Prepared;
 use crate::solve::optimise::{self, MinMax};
 use crate::solve::problem::{Assignment, Limits, Problem, Solved, Status};
-use crate::core::memory::LinkCount;
-use crate::model::graph::LinkFinder;
 
 /// What the plan command needs back.
 pub struct EnsembleRun {
@@ -105,11 +105,24 @@ pub fn solve(
         }
     }
 
+    // The searches run one after another within the command's deadline: each scenario's
+    // optimum, the weighted mean, then the robust objective; each takes an equal share of the
+    // time left, so time one does not need passes on to the next.
+    let mut searches_left = models.len() + 1 + usize::from(e.robust != Robust::Mean);
+    let mut next_limits = || {
+        let share = Limits {
+            deadline: limits.deadline.share(searches_left),
+            ..limits
+        };
+        searches_left = searches_left.saturating_sub(1);
+        share
+    };
+
     // Each scenario's own optimum.
     let mut optima: Vec<Solved> = Vec::new();
     for (m, member) in models.iter().zip(&e.members) {
         progress(&format!("optimising for scenario {}", member.name));
-        let solved = optimise::solve(&in_scenario(&base, m), limits)?;
+        let solved = optimise::solve(&in_scenario(&base, m), next_limits())?;
         if solved.status == Status::Infeasible {
             return Ok(EnsembleRun {
                 chosen: solved,
@@ -128,7 +141,7 @@ pub fn solve(
                 .total_cmp(&base.risk(&b.assignment))
         })
         .map(|s| s.assignment.clone());
-    let mean = optimise::solve_from(&base, limits, best_start.as_ref())?;
+    let mean = optimise::solve_from(&base, next_limits(), best_start.as_ref())?;
     let greedy = mean.greedy.clone();
 
     let minmax_for = |robust: Robust| MinMax {
@@ -163,7 +176,7 @@ pub fn solve(
                 .zip(&mm.offsets)
                 .map(|(o, off)| o.bound - off)
                 .fold(f64::NEG_INFINITY, f64::max);
-            let r = optimise::solve_minmax(&base, &mm, limits, &starts, floor)?;
+            let r = optimise::solve_minmax(&base, &mm, next_limits(), &starts, floor)?;
             let objective = match robust {
                 Robust::Worst => "worst-case R over the scenarios".to_string(),
                 _ => {
@@ -180,8 +193,12 @@ pub fn solve(
                     status: r.status,
                     seconds: r.seconds,
                     greedy: greedy.clone(),
-                    path: "min-max MIP",
-                    bound_from: "HiGHS dual bound",
+                    path: r.path,
+                    bound_from: match r.path {
+                        "min-max MIP" => "HiGHS dual bound",
+                        "everything fits" | "nothing to choose" => "exact",
+                        _ => "the scenarios' own bounds",
+                    },
                 },
                 objective,
             )
@@ -213,9 +230,8 @@ pub fn solve(
                 .fold(optima[s].risk_after, f64::min)
         })
         .collect();
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let csv_err = |e: csv::Error| Error::Internal(format!("csv: {e}"));
-    w.write_record([
+    let mut w = crate::core::csv_cells::Writer::new();
+    w.row([
         "plan",
         "scenario",
         "kernel",
@@ -227,8 +243,7 @@ pub fn solve(
         "regret_pct",
         "cost",
         "n_treated",
-    ])
-    .map_err(csv_err)?;
+    ])?;
     let mut plans_json = Vec::new();
     let mut worst_regret: Vec<(String, f64)> = Vec::new();
     for (name, a) in &candidates {
@@ -246,7 +261,7 @@ pub fn solve(
             max_pct = max_pct.max(pct);
             worst_risk = worst_risk.max(r);
             mean_risk += member.weight / total_weight * r;
-            w.write_record([
+            w.row([
                 name.clone(),
                 member.name.clone(),
                 kernels[s].kind.as_str().to_string(),
@@ -258,8 +273,7 @@ pub fn solve(
                 format!("{pct:.4}"),
                 format!("{:.2}", base.cost(a) + 0.0),
                 a.iter().filter(|x| x.is_some()).count().to_string(),
-            ])
-            .map_err(csv_err)?;
+            ])?;
         }
         worst_regret.push((name.clone(), max_pct));
         plans_json.push(serde_json::json!({
@@ -270,9 +284,7 @@ pub fn solve(
             "cost": base.cost(a) + 0.0,
         }));
     }
-    let regret_csv = w
-        .into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    let regret_csv = w.into_bytes()?;
     let mut ranked = worst_regret.clone();
     ranked.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
     let most = &ranked[0];

@@ -373,7 +373,7 @@ fn day_label(d: &CrewDay) -> String {
 
 fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
     let lonlats = stop_lonlats(ctx)?;
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::core::csv_cells::Writer::new();
     let header = [
         "crew",
         "day",
@@ -401,14 +401,13 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
         "follow_up",
         "instructions",
     ];
-    w.write_record(header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+    w.row(header)?;
     for (d, ll) in ctx.schedule.days.iter().zip(&lonlats) {
         let n = d.stops.len();
         for (k, (s, (lon, lat))) in d.stops.iter().zip(ll).enumerate() {
             let p = &ctx.folder.planned[s.row];
             let ins = orders::instructions(ctx.folder, s, d.date);
-            w.write_record([
+            w.row([
                 d.crew.map(|c| c.to_string()).unwrap_or_default(),
                 d.day.to_string(),
                 d.date.map(|x| x.to_string()).unwrap_or_default(),
@@ -440,12 +439,10 @@ fn orders_csv(ctx: &Ctx) -> Result<Vec<u8>> {
                 ins.fell_after.map(|x| x.to_string()).unwrap_or_default(),
                 ins.follow_up.unwrap_or_default(),
                 ins.text,
-            ])
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
+            ])?;
         }
     }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    w.into_bytes()
 }
 
 fn route_line(ctx: &Ctx, d: &CrewDay) -> LineString<f64> {
@@ -703,6 +700,10 @@ fn status_line(summary: &serde_json::Value) -> String {
         ),
         ("time_limit", Some(g)) => format!(
             "the optimiser hit its time limit: proven within {:.2}% of the least achievable risk",
+            g * 100.0
+        ),
+        ("no_improving_move", Some(g)) => format!(
+            "the optimiser's search found no improving move left: proven within {:.2}% of the least achievable risk",
             g * 100.0
         ),
         (s, _) => format!("optimiser status {s}"),

@@ -49,9 +49,10 @@ pub fn run_into(
     let progress = |msg: &str| settings.progress(msg);
     let mut prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
+    let deadline = settings.deadline();
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
-        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+        ..Limits::until(deadline, s.solver.gap)
     };
     // Across dispersal scenarios the plan's model becomes their weighted mean.
     let ensemble = match &s.ensemble {
@@ -96,9 +97,10 @@ pub fn run_into(
         None => {
             progress("optimising");
             let _spinner = crate::core::progress::Stage::spinner(&format!(
-                "optimising {} patches (time limit {} s, gap {})",
+                "optimising {} patches (time limit {} s for the whole command, {:.1} s left; gap {})",
                 problem.len(),
                 s.solver.time_limit_s,
+                deadline.remaining_s(),
                 s.solver.gap
             ));
             optimise::solve(&problem, limits)?
@@ -107,15 +109,35 @@ pub fn run_into(
     if solved.status == Status::Infeasible {
         return Err(infeasible_requirements(&problem, patches, budget));
     }
-    if solved.status == Status::TimeLimit {
-        eprintln!(
-            "warning: the optimiser stopped at the time limit ({} s); the plan is the best found; proven gap on the remaining risk {:.3}%",
+    match solved.status {
+        Status::TimeLimit => eprintln!(
+            "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            s.solver.time_limit_s,
+            deadline.elapsed_s(),
+            if solved.path == optimise::NOT_STARTED {
+                "; what was left was too little to start the exact search on a model this size"
+            } else {
+                ""
+            },
+            100.0 * solved.gap
+        ),
+        Status::NoImprovingMove => eprintln!(
+            "warning: the local search found no improving move left after {:.1} s (of the {} s limit); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            solved.seconds,
             s.solver.time_limit_s,
             100.0 * solved.gap
+        ),
+        _ => {}
+    }
+    let plan = plan::assemble(
+        patches, model, catalogue, &problem, &solved, &s.model, &deadline,
+    );
+
+    if !plan.metrics_converged {
+        eprintln!(
+            "warning: lambda_M and the establishment probabilities stopped before converging (the time limit or their iteration cap); their values in summary.json and patches.csv are approximate"
         );
     }
-    let plan = plan::assemble(patches, model, catalogue, &problem, &solved, &s.model);
-
     let outputs = Outputs {
         suitability: &prepared.suitability,
         patches,
@@ -157,6 +179,8 @@ pub fn run_into(
         staging.write("regret.csv", &e.regret_csv)?;
         summary.ensemble = Some(e.json.clone());
     }
+    summary.time_limit_s = s.solver.time_limit_s;
+    summary.elapsed_s = deadline.elapsed_s();
     let json = serde_json::to_string_pretty(&summary)
         .map_err(|e| Error::Internal(format!("summary: {e}")))?;
     staging.write("summary.json", json + "\n")?;
@@ -402,6 +426,10 @@ fn human_summary(
                 ),
                 Status::TimeLimit => format!(
                     "stopped at the time limit: best plan found, proven gap on the remaining risk {:.4}%",
+                    100.0 * plan.gap
+                ),
+                Status::NoImprovingMove => format!(
+                    "stopped with no improving move left (before the time limit): best plan found, proven gap on the remaining risk {:.4}%",
                     100.0 * plan.gap
                 ),
                 Status::Infeasible => unreachable!(),

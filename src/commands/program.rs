@@ -102,20 +102,47 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
         hours: hours.clone(),
         required: prepared.required.clone(),
     };
+    // One deadline for the whole command: the season-by-season plan gets a quarter of the time
+    // left, the season bounds (valid wherever their solves stop) a third of what then remains,
+    // and the programme itself the rest; within each phase the seasons share their part. When
+    // the programme's MIP is too large for HiGHS to start on in that rest, the bounds get all
+    // of it (the season-by-season plan then stands, and only its proven gap can improve).
+    let deadline = settings.deadline();
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
-        ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+        ..Limits::until(deadline, s.solver.gap)
     };
     progress("planning season by season (the myopic comparison)");
-    let myopic = program::myopic(&problem, limits)?;
+    let myopic = program::myopic(
+        &problem,
+        Limits {
+            deadline: deadline.fraction(0.25),
+            ..limits
+        },
+    )?;
     progress("bounding each season from below");
-    // The bounds are valid wherever those solves stop: give them a share of the time limit.
-    let floor_limits = Limits {
-        time_limit_s: (limits.time_limit_s / (2.0 * args.seasons as f64)).max(1.0),
-        ..limits
-    };
-    let floor = program::season_floor(&problem, floor_limits)?;
-    progress(&format!("optimising {} seasons together", args.seasons));
+    // The programme's MIP is worth its time when HiGHS would get at least as long to search
+    // as it may overrun by.
+    let exact_fits = deadline.fraction(2.0 / 3.0).remaining_s()
+        >= 2.0 * crate::solve::highs::highs_overrun_s(program::columns(&problem));
+    let floor = program::season_floor(
+        &problem,
+        Limits {
+            deadline: deadline.fraction(if exact_fits { 1.0 / 3.0 } else { 1.0 }),
+            ..limits
+        },
+    )?;
+    let columns = program::columns(&problem);
+    let exact_skipped = crate::solve::highs::highs_cannot_finish(columns, &limits);
+    if exact_skipped {
+        eprintln!(
+            "note: the programme's exact model ({columns} columns) cannot be solved in the {:.1} s left of `--time-limit-s {}`: the season-by-season plan stands, bounded by the season floor",
+            deadline.remaining_s(),
+            s.solver.time_limit_s
+        );
+    } else {
+        progress(&format!("optimising {} seasons together", args.seasons));
+    }
     let solved = program::solve(&problem, limits, Some(&myopic), floor)?;
     if solved.status == Status::Infeasible {
         return Err(Error::input_with_hint(
@@ -250,6 +277,10 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
         "gap": solved.gap,
         "status": solved.status.as_str(),
         "solve_seconds": solved.seconds,
+        "time_limit_s": s.solver.time_limit_s,
+        "exact_model_columns": columns,
+        "exact_model_run": !exact_skipped,
+        "elapsed_s": deadline.elapsed_s(),
         "discount": args.discount,
         "growth": args.growth,
         "regrowth": args.regrowth,
@@ -329,10 +360,15 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
                 "stopped at the requested gap, within {:.4}% of optimal",
                 100.0 * solved.gap
             ),
-            _ => format!(
+            Status::TimeLimit => format!(
                 "stopped at the time limit, proven gap {:.4}%",
                 100.0 * solved.gap
             ),
+            Status::NoImprovingMove => format!(
+                "stopped with no improving move left, proven gap {:.4}%",
+                100.0 * solved.gap
+            ),
+            Status::Infeasible => "infeasible".to_string(),
         },
         solved.status.as_str(),
         solved.gap,

@@ -237,7 +237,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             progress("solving the plan");
             let limits = Limits {
                 max_memory_gb: s.solver.max_memory_gb,
-                ..Limits::new(s.solver.time_limit_s, s.solver.gap)
+                ..Limits::until(settings.deadline(), s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;
             if solved.status == crate::solve::problem::Status::Infeasible {
@@ -309,9 +309,8 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
     );
 
     // sim.csv
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let csv_err = |e: csv::Error| Error::Internal(format!("csv: {e}"));
-    w.write_record([
+    let mut w = crate::core::csv_cells::Writer::new();
+    w.row([
         "year",
         "strategy",
         "occupied_host_mean",
@@ -319,8 +318,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
         "occupied_host_p50",
         "occupied_host_p95",
         "occupied_patches_mean",
-    ])
-    .map_err(csv_err)?;
+    ])?;
     let mut bands = Vec::new();
     let mut lines = Vec::new();
     for ((name, label, style), t) in STRATEGIES.iter().zip(&traces) {
@@ -341,7 +339,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
                 simulate::quantile(&v, 0.5),
                 simulate::quantile(&v, 0.95),
             );
-            w.write_record([
+            w.row([
                 year.to_string(),
                 name.to_string(),
                 num(mean),
@@ -349,8 +347,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
                 num(p50),
                 num(p95),
                 num(count),
-            ])
-            .map_err(csv_err)?;
+            ])?;
             band.push((year as f64, pct(p05), pct(p95)));
             line.push((year as f64, pct(mean)));
         }
@@ -362,29 +359,21 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             style: *style,
         });
     }
-    staging.write(
-        "sim.csv",
-        w.into_inner()
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?,
-    )?;
+    staging.write("sim.csv", w.into_bytes()?)?;
 
     // patch_occupancy.csv
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::core::csv_cells::Writer::new();
     let mut header = vec!["patch_id".to_string()];
     header.extend(STRATEGIES.iter().map(|s| s.0.to_string()));
-    w.write_record(&header).map_err(csv_err)?;
+    w.row(&header)?;
     for (i, p) in prepared.patches.items.iter().enumerate() {
         let mut row = vec![p.label.clone()];
         for t in &traces {
             row.push(num(t.final_occupied[i] as f64 / args.runs as f64));
         }
-        w.write_record(&row).map_err(csv_err)?;
+        w.row(&row)?;
     }
-    staging.write(
-        "patch_occupancy.csv",
-        w.into_inner()
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?,
-    )?;
+    staging.write("patch_occupancy.csv", w.into_bytes()?)?;
 
     // sim.svg
     let y_max = bands

@@ -2,6 +2,8 @@
 //! site rules and patch ids, and the scenario schema.
 
 pub mod cautions;
+pub mod csv_cells;
+pub mod deadline;
 pub mod error;
 pub mod kernel;
 pub mod memory;

@@ -109,14 +109,27 @@ fn read_csv<T: for<'de> Deserialize<'de>>(path: &Path) -> Result<Vec<T>> {
             "give the `--out` folder of a `hostcut plan` run",
         )
     })?;
-    let mut out = Vec::new();
-    for (k, row) in reader.deserialize().enumerate() {
-        out.push(row.map_err(|e| {
+    let headers = reader
+        .headers()
+        .map_err(|e| {
             Error::input_with_hint(
-                format!("`{}`, line {}: {e}", path.display(), k + 2),
+                format!("`{}`, line 1: {e}", path.display()),
                 "the plan folder's files must not be edited; run `hostcut plan` again",
             )
-        })?);
+        })?
+        .clone();
+    let mut out = Vec::new();
+    for (k, record) in reader.records().enumerate() {
+        // Cells the tool neutralised for spreadsheets ([`crate::core::csv_cells`]) read as they were.
+        let row = record
+            .and_then(|r| crate::core::csv_cells::restored(&r).deserialize(Some(&headers)))
+            .map_err(|e| {
+                Error::input_with_hint(
+                    format!("`{}`, line {}: {e}", path.display(), k + 2),
+                    "the plan folder's files must not be edited; run `hostcut plan` again",
+                )
+            })?;
+        out.push(row);
     }
     Ok(out)
 }
@@ -355,8 +368,21 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
     let mut problems = Vec::new();
     let mut done = Vec::new();
     let mut seen: HashMap<String, usize> = HashMap::new();
-    for (k, row) in reader.deserialize::<CompletionRow>().enumerate() {
+    let headers = match reader.headers() {
+        Ok(h) => h.clone(),
+        Err(e) => {
+            return Err(Error::input_with_hint(
+                format!("completion file `{}`, line 1: {e}", path.display()),
+                "fill in the completion_template.csv that `hostcut contract` wrote",
+            ));
+        }
+    };
+    for (k, record) in reader.records().enumerate() {
         let line = k + 2;
+        // Ids the template neutralised for spreadsheets ([`crate::core::csv_cells`]) read as written.
+        let row = record.and_then(|r| {
+            crate::core::csv_cells::restored(&r).deserialize::<CompletionRow>(Some(&headers))
+        });
         let row = match row {
             Ok(r) => r,
             Err(e) => {

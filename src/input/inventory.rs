@@ -99,7 +99,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
             Error::input_with_hint(format!("inventory `{file}`{line}: malformed CSV ({e})"), "every row needs the same number of fields as the header; quote fields that contain commas")
         })?;
         let line = record.position().map(|p| p.line()).unwrap_or(0);
-        let get = |c: usize| record.get(c).unwrap_or("");
+        let get = |c: usize| crate::core::csv_cells::restore(record.get(c).unwrap_or(""));
         let number = |c: usize, name: &str, allow_negative: bool| -> Result<f64> {
             let text = get(c);
             let value: f64 = text.parse().map_err(|_| {

@@ -9,12 +9,12 @@ use std::path::{Path, PathBuf};
 use geo::{BoundingRect, Intersects, MultiLineString, MultiPolygon, Point, Rect};
 
 use crate::core::error::{Error, Result};
+use crate::core::memory::Budget;
 use crate::core::scenario;
 use crate::core::scenario::{NO_FIELD, Scenario, SiteLayerSection};
 use crate::core::site::{Access, Herbicide, Site};
 use crate::input::gis::{self, Crs, RasterFile, VectorLayer};
 use crate::input::inventory::Stand;
-use crate::core::memory::Budget;
 
 /// Counts of what a run skipped, by reason (`host_cells_not_finite`,
 /// `parcel_features_without_geometry`, ...): shown on stderr and in summary.json, so nothing is

@@ -13,12 +13,12 @@ use rstar::RTree;
 use rstar::primitives::{GeomWithData, Rectangle};
 
 use crate::core::error::{Error, Result};
+use crate::core::memory::{Budget, RasterCost};
 use crate::core::scenario::HostSection;
 use crate::core::site::{Herbicide, PatchId, Site, Water};
 use crate::input::gis::{self, Crs, Frame, Grid};
 use crate::input::label::{Blob, Labeller, Rules, Run};
 use crate::input::layers::{Host, Layers, Parcel, SiteFeature, Skipped};
-use crate::core::memory::{Budget, RasterCost};
 
 /// One patch of tree-of-heaven.
 #[derive(Debug, Clone)]

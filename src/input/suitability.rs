@@ -16,9 +16,9 @@
 use std::path::Path;
 
 use crate::core::error::{Error, Result};
+use crate::core::memory::SAMPLE_CHUNK;
 use crate::input::gis::{self, Crs};
 use crate::input::patches::Patches;
-use crate::core::memory::SAMPLE_CHUNK;
 
 /// s_i for every patch: 1 without a layer or column.
 pub fn per_patch(

@@ -13,10 +13,10 @@ use rstar::{AABB, RTree};
 
 use crate::core::error::Result;
 use crate::core::kernel::Kernel;
+use crate::core::memory::{Budget, LinkCount, RasterCost};
 use crate::core::site::PatchId;
 use crate::input::layers::Corridor;
 use crate::input::patches::Patches;
-use crate::core::memory::{Budget, LinkCount, RasterCost};
 
 /// The most links this version plans with, written once in [`crate::core::memory`].
 pub use crate::core::memory::MAX_LINKS;

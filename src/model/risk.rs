@@ -7,6 +7,7 @@
 //! a_i is a share of all stems (sums to 1); R and lambda_M are in units of share squared;
 //! treatment enters as r_i, the share of a patch's host left (1 = untreated).
 
+use crate::core::deadline::Deadline;
 use crate::model::graph::PatchGraph;
 
 /// A link with its risk weight w_ij = (pi_i + pi_j) a_i a_j k_ij.
@@ -42,7 +43,12 @@ pub struct Capacity {
     pub iterations: usize,
     /// ||M x - lambda x|| at the end.
     pub residual: f64,
+    /// False when the iteration stopped at a deadline before converging.
+    pub converged: bool,
 }
+
+/// Iterations the metrics always get, even past the deadline.
+pub const MIN_ITERATIONS: usize = 20;
 
 impl RiskModel {
     /// Build from stems, pressure and the graph. Links to a patch without host (share 0:
@@ -133,6 +139,12 @@ impl RiskModel {
     /// power iteration on the sparse symmetric matrix (the shift keeps bipartite graphs from
     /// oscillating).
     pub fn capacity(&self, remaining: &[f64]) -> Capacity {
+        self.capacity_until(remaining, &Deadline::never())
+    }
+
+    /// As [`RiskModel::capacity`], stopping at `deadline` (after at least
+    /// [`MIN_ITERATIONS`]); [`Capacity::converged`] says whether it got there.
+    pub fn capacity_until(&self, remaining: &[f64], deadline: &Deadline) -> Capacity {
         let n = self.len();
         if n == 0 {
             return Capacity {
@@ -140,6 +152,7 @@ impl RiskModel {
                 vector: Vec::new(),
                 iterations: 0,
                 residual: 0.0,
+                converged: true,
             };
         }
         // Gershgorin bound on lambda for the shift and the zero test.
@@ -157,6 +170,7 @@ impl RiskModel {
                 vector: x,
                 iterations: 0,
                 residual: 0.0,
+                converged: true,
             };
         }
         let shift = 0.25 * bound;
@@ -178,6 +192,9 @@ impl RiskModel {
             if residual <= 1e-11 * bound {
                 break;
             }
+            if iterations >= MIN_ITERATIONS && deadline.passed() {
+                break;
+            }
             for (yi, xi) in y.iter_mut().zip(&x) {
                 *yi += shift * xi;
             }
@@ -191,6 +208,7 @@ impl RiskModel {
             vector: x,
             iterations,
             residual,
+            converged: residual <= 1e-11 * bound,
         }
     }
 
@@ -198,10 +216,26 @@ impl RiskModel {
     /// p_i = u_i / (u_i + delta), u_i = a_i r_i (sum_j k_ij a_j r_j p_j + iota pi_i),
     /// by fixed-point iteration from p = 1 (monotone, so it converges to the largest fixed point).
     pub fn establishment(&self, remaining: &[f64], delta: f64, iota: f64) -> Vec<f64> {
+        self.establishment_until(remaining, delta, iota, &Deadline::never())
+            .0
+    }
+
+    /// As [`RiskModel::establishment`], stopping at `deadline` (after at least
+    /// [`MIN_ITERATIONS`]); the flag is true when the iteration converged.
+    pub fn establishment_until(
+        &self,
+        remaining: &[f64],
+        delta: f64,
+        iota: f64,
+        deadline: &Deadline,
+    ) -> (Vec<f64>, bool) {
         let n = self.len();
         let mut p = vec![1.0; n];
         let mut s = vec![0.0; n];
-        for _ in 0..100_000 {
+        for iteration in 0..100_000 {
+            if iteration >= MIN_ITERATIONS && deadline.passed() {
+                return (p, false);
+            }
             s.iter_mut().for_each(|v| *v = 0.0);
             for l in &self.links {
                 s[l.a] += l.kernel * self.share[l.b] * remaining[l.b] * p[l.b];
@@ -219,10 +253,10 @@ impl RiskModel {
                 p[i] = next;
             }
             if change < 1e-13 {
-                break;
+                return (p, true);
             }
         }
-        p
+        (p, false)
     }
 
     /// The persistence threshold delta = e/c used for p*: lambda_M before / `persistence_ratio`;

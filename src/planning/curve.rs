@@ -5,6 +5,7 @@
 //! # Units
 //! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
 
+use crate::core::deadline::Deadline;
 use crate::core::error::{Error, Result};
 use crate::planning::baselines;
 use crate::planning::prepare::Prepared;
@@ -72,12 +73,15 @@ pub fn parse_range(text: &str) -> Result<(f64, f64, usize)> {
     Ok((min, max, steps))
 }
 
-/// Solve every budget with `jobs` workers: worker w takes budgets w, w + jobs, w + 2 jobs, ...
-/// (so the hard and easy levels are shared out). Each point is solved with one HiGHS thread and
-/// warm-started from the better of the greedy plans at its own budget and at its lower
-/// neighbour's, so a point's result does not depend on `jobs` or on which worker solved it:
-/// the curve is byte-identical for any `--jobs`. Then monotonicity is repaired across the whole
-/// curve with the neighbours' solved plans.
+/// Solve every budget with `jobs` workers that take the budgets in order from one queue (so the
+/// hard and easy levels are shared out and no worker idles while levels are left). Each point is
+/// solved with one HiGHS thread and warm-started from the better of the greedy plans at its own
+/// budget and at its lower neighbour's, so a point's result does not depend on `jobs` or on
+/// which worker solved it: the curve is byte-identical for any `--jobs` unless a point stops at
+/// its time share. Each level gets `jobs / (levels not yet started)` of the time left before
+/// `limits.deadline`, so time an easy level does not need passes on to the levels after it;
+/// time left at the end goes to a second look at the levels their share stopped. Then
+/// monotonicity is repaired across the whole curve with the neighbours' solved plans.
 pub fn trace(
     prepared: &Prepared,
     budgets: &[f64],
@@ -100,20 +104,71 @@ pub fn trace(
         budgets.len() as u64,
         "budgets",
     );
-    let bar = &bar;
-    let results: Vec<Result<Vec<Point>>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = (0..jobs)
-            .map(|w| {
+    let every: Vec<usize> = (0..budgets.len()).collect();
+    let mut points = in_queue(&every, jobs, limits.deadline, |k, deadline| {
+        let point = solve_point(
+            prepared,
+            budgets,
+            k,
+            crew_hours,
+            Limits { deadline, ..limits },
+            depot,
+            None,
+        );
+        bar.inc(1);
+        point
+    })?;
+    // Time the last (often easy) levels did not need goes to the levels stopped by their share:
+    // each is searched again from the plan it reached, keeping the better plan and bound.
+    let again: Vec<usize> = (0..points.len())
+        .filter(|&k| points[k].status == Status::TimeLimit)
+        .collect();
+    if !again.is_empty() && limits.deadline.remaining_s() >= MIN_SECOND_LOOK_S {
+        let first = &points;
+        let second = in_queue(&again, jobs, limits.deadline, |k, deadline| {
+            solve_point(
+                prepared,
+                budgets,
+                k,
+                crew_hours,
+                Limits { deadline, ..limits },
+                depot,
+                Some(&first[k].assignment),
+            )
+        })?;
+        for (&k, point) in again.iter().zip(second) {
+            points[k] = better_of(&points[k], point, limits.gap);
+        }
+    }
+    make_monotone(prepared, &mut points, crew_hours);
+    Ok(points)
+}
+
+/// Run `solve(item, deadline)` for every item on `jobs` threads taking items in order from one
+/// queue; each item's deadline is `jobs / (items not yet started)` of the time left before
+/// `deadline`. Results in the order of `items`.
+fn in_queue<T: Send>(
+    items: &[usize],
+    jobs: usize,
+    deadline: Deadline,
+    solve: impl Fn(usize, Deadline) -> Result<T> + Sync,
+) -> Result<Vec<T>> {
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let (next, solve) = (&next, &solve);
+    let results: Vec<Result<Vec<(usize, T)>>> = std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..jobs.clamp(1, items.len().max(1)))
+            .map(|_| {
                 scope.spawn(move || {
-                    (w..budgets.len())
-                        .step_by(jobs)
-                        .map(|k| {
-                            let point =
-                                solve_point(prepared, budgets, k, crew_hours, limits, depot);
-                            bar.inc(1);
-                            point
-                        })
-                        .collect()
+                    let mut done = Vec::new();
+                    loop {
+                        let at = next.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
+                        let Some(&item) = items.get(at) else {
+                            return Ok(done);
+                        };
+                        let left = items.len() - at;
+                        let share = deadline.fraction((jobs as f64 / left as f64).min(1.0));
+                        done.push((at, solve(item, share)?));
+                    }
                 })
             })
             .collect();
@@ -125,13 +180,42 @@ pub fn trace(
             })
             .collect()
     });
-    let mut points = Vec::new();
+    let mut all = Vec::new();
     for r in results {
-        points.extend(r?);
+        all.extend(r?);
     }
-    points.sort_by(|a, b| a.budget.total_cmp(&b.budget));
-    make_monotone(prepared, &mut points, crew_hours);
-    Ok(points)
+    all.sort_by_key(|(at, _)| *at);
+    Ok(all.into_iter().map(|(_, t)| t).collect())
+}
+
+/// Seconds left after the first pass below which stopped levels are not searched again.
+const MIN_SECOND_LOOK_S: f64 = 1.0;
+
+/// The better plan of two searches of the same level, with the larger of their proven bounds;
+/// the status follows from the gap that leaves.
+fn better_of(first: &Point, second: Point, gap_limit: f64) -> Point {
+    let seconds = first.seconds + second.seconds;
+    let bound = first.bound.max(second.bound);
+    let mut best = if second.risk_after < first.risk_after {
+        second
+    } else {
+        first.clone()
+    };
+    best.bound = bound.min(best.risk_after);
+    best.gap = if best.risk_after > 0.0 {
+        ((best.risk_after - best.bound) / best.risk_after).max(0.0)
+    } else {
+        0.0
+    };
+    best.status = if best.gap <= crate::solve::problem::OPTIMAL_GAP {
+        Status::Optimal
+    } else if best.gap <= gap_limit {
+        Status::GapLimit
+    } else {
+        Status::TimeLimit
+    };
+    best.seconds = seconds;
+    best
 }
 
 fn solve_point(
@@ -141,14 +225,19 @@ fn solve_point(
     crew_hours: Option<f64>,
     limits: Limits,
     depot: (f64, f64),
+    start: Option<&Assignment>,
 ) -> Result<Point> {
     let budget = budgets[k];
     let problem = prepared.problem(budget, crew_hours);
-    // The lower neighbour's greedy plan is affordable here; solve_from keeps the better start.
-    let neighbour = (k > 0)
-        .then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours)))
-        .flatten()
-        .map(|g| g.0);
+    // The lower neighbour's greedy plan is affordable here (or, on a second look, the plan the
+    // first reached); solve_from keeps the better start.
+    let neighbour = match start {
+        Some(plan) => Some(plan.clone()),
+        None => (k > 0)
+            .then(|| greedy(&prepared.problem(budgets[k - 1], crew_hours)))
+            .flatten()
+            .map(|g| g.0),
+    };
     let solved = solve_from(&problem, limits, neighbour.as_ref())?;
     let rules = baselines::all(
         &problem,

@@ -5,6 +5,7 @@
 //! Money in catalogue currency; `value_per_cost` is the risk reduction, in percent of R before
 //! treatment, per 1,000 currency units, at the row's place in the priority order.
 
+use crate::core::deadline::Deadline;
 use crate::core::scenario::ModelSection;
 use crate::core::site::PatchId;
 use crate::input::patches::Patches;
@@ -34,6 +35,9 @@ pub struct Plan {
     pub risk_shares: Vec<f64>,
     pub lambda_before: f64,
     pub lambda_after: f64,
+    /// False when lambda_M or the establishment probabilities stopped at the command's time
+    /// limit (or their iteration cap) before converging.
+    pub metrics_converged: bool,
     pub patch_value: Vec<f64>,
     pub establishment_before: Vec<f64>,
     pub establishment_after: Vec<f64>,
@@ -103,16 +107,27 @@ pub fn assemble(
     problem: &Problem,
     solved: &Solved,
     settings: &ModelSection,
+    deadline: &Deadline,
 ) -> Plan {
     let n = patches.len();
     let remaining = problem.remaining(&solved.assignment);
     let risk_before = model.risk_before();
     let ones = vec![1.0; n];
-    let before = model.capacity(&ones);
-    let after = model.capacity(&remaining);
+    // The metrics run in the time the command keeps after its searches, in equal shares.
+    let deadline = deadline.for_outputs();
+    let before = model.capacity_until(&ones, &deadline.share(4));
+    let after = model.capacity_until(&remaining, &deadline.share(3));
     let delta = model.delta(before.lambda, settings.persistence_ratio);
-    let establishment_before = model.establishment(&ones, delta, settings.introduction_weight);
-    let establishment_after = model.establishment(&remaining, delta, settings.introduction_weight);
+    let (establishment_before, converged_before) = model.establishment_until(
+        &ones,
+        delta,
+        settings.introduction_weight,
+        &deadline.share(2),
+    );
+    let (establishment_after, converged_after) =
+        model.establishment_until(&remaining, delta, settings.introduction_weight, &deadline);
+    let metrics_converged =
+        before.converged && after.converged && converged_before && converged_after;
     let patch_value = before
         .vector
         .iter()
@@ -157,6 +172,7 @@ pub fn assemble(
         remaining,
         lambda_before: before.lambda,
         lambda_after: after.lambda,
+        metrics_converged,
         patch_value,
         establishment_before,
         establishment_after,

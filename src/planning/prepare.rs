@@ -3,6 +3,7 @@
 
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
+use crate::core::memory::{Budget, RasterCost};
 use crate::core::scenario::Scenario;
 use crate::input::layers;
 use crate::input::patches::{self, Patches};
@@ -12,7 +13,6 @@ use crate::model::graph::{self, PatchGraph, Pressure};
 use crate::model::risk::RiskModel;
 use crate::model::simulate::Landscape;
 use crate::solve::problem::Problem;
-use crate::core::memory::{Budget, RasterCost};
 
 /// Everything a planning command needs, built once.
 pub struct Prepared {

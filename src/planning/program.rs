@@ -337,13 +337,42 @@ pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
             required: vec![false; n],
             excluded: vec![false; n],
         };
-        let solved = crate::solve::optimise::solve(&relaxed, limits)?;
+        let share = Limits {
+            deadline: limits.deadline.share(p.weights.len() - t),
+            ..limits
+        };
+        let solved = crate::solve::optimise::solve(&relaxed, share)?;
         if !solved.bound.is_finite() {
             return Ok(0.0);
         }
         floor += p.weights[t] * u * u * solved.bound;
     }
     Ok(floor)
+}
+
+/// Columns of the exact MIP [`solve`] builds: one binary per patch option (untreated, unless
+/// required, and each undominated course), one z per pair of options at each link whose ends
+/// both have options, and the constant's column.
+pub fn columns(p: &ProgramProblem) -> usize {
+    let options: Vec<usize> = (0..p.len())
+        .map(|i| {
+            if p.courses[i].is_empty() {
+                0
+            } else {
+                usize::from(!p.required[i])
+                    + (0..p.courses[i].len())
+                        .filter(|&k| !p.dominated(i, k))
+                        .count()
+            }
+        })
+        .collect();
+    let z: usize = p
+        .model
+        .links
+        .iter()
+        .map(|l| options[l.a] * options[l.b])
+        .sum();
+    options.iter().sum::<usize>() + z + 1
 }
 
 /// The exact MIP, warm-started from `start` when feasible; `floor` is a lower bound known
@@ -399,6 +428,26 @@ pub fn solve(
                 seconds: clock.elapsed().as_secs_f64(),
             });
         }
+    }
+    // A model HiGHS could not start on before the deadline is not built: the start stands, with
+    // the floor as its bound.
+    if let Some(w) = &warm
+        && crate::solve::highs::highs_cannot_finish(columns(p), &limits)
+    {
+        let v = p.objective(w);
+        let bound = floor.min(v).max(0.0);
+        return Ok(ProgramSolved {
+            assignment: w.clone(),
+            objective: v,
+            bound,
+            gap: if v > 0.0 {
+                ((v - bound) / v).max(0.0)
+            } else {
+                0.0
+            },
+            status: Status::TimeLimit,
+            seconds: clock.elapsed().as_secs_f64(),
+        });
     }
     let scale = 1e3 / before;
     let mut vars = ProblemVariables::new();
@@ -541,7 +590,7 @@ pub fn solve(
             .try_set_solution(Some(&values), None, None, None)
             .map_err(|e| Error::Internal(format!("HiGHS refused the warm start: {e:?}")))?;
     }
-    let Some(run) = run_highs(Built { model, x_columns }, limits, n)? else {
+    let Some(run) = run_highs(Built { model, x_columns }, limits, n, warm.is_some())? else {
         return Ok(ProgramSolved {
             assignment: vec![None; n],
             objective: f64::NAN,
@@ -655,7 +704,11 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
                 })
             })
             .collect();
-        let solved = solve(&season, limits, Some(&keep), 0.0)?;
+        let share = Limits {
+            deadline: limits.deadline.share(seasons - t),
+            ..limits
+        };
+        let solved = solve(&season, share, Some(&keep), 0.0)?;
         if solved.status == Status::Infeasible {
             return Err(Error::input(
                 "the myopic season-by-season plan cannot fund the required patches",

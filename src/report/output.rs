@@ -424,12 +424,18 @@ pub struct Summary {
     pub risk_reduction_pct: f64,
     pub lambda_before: f64,
     pub lambda_after: f64,
+    /// False when lambda_M or the establishment probabilities were cut short by the time limit.
+    pub metrics_converged: bool,
     pub greedy_risk_after: Option<f64>,
     pub greedy_reduction_pct: Option<f64>,
     pub status: &'static str,
     pub gap: Option<f64>,
     pub bound: Option<f64>,
     pub solve_seconds: f64,
+    /// `--time-limit-s`: the limit on the whole command's wall time.
+    pub time_limit_s: f64,
+    /// Seconds from the command's start to writing summary.json (reading layers included).
+    pub elapsed_s: f64,
     /// How the plan was searched for (e.g. `transport MIP`, `component merge MIP`).
     pub solver_path: &'static str,
     /// Which proof gave `bound`: exact, floor, relaxation or HiGHS dual bound.
@@ -551,17 +557,10 @@ pub const PLAN_COLUMNS: [&str; 20] = [
     "site_notes",
 ];
 
-/// A CSV file's bytes: the header row, then the rows.
+/// A CSV file's bytes: the header row, then the rows, with text cells a spreadsheet would
+/// execute neutralised ([`crate::core::csv_cells`]).
 pub fn csv_bytes(header: &[&str], rows: &[Vec<String>]) -> Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(header)
-        .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    for r in rows {
-        w.write_record(r)
-            .map_err(|e| Error::Internal(format!("csv: {e}")))?;
-    }
-    w.into_inner()
-        .map_err(|e| Error::Internal(format!("csv: {e}")))
+    crate::core::csv_cells::bytes(header, rows)
 }
 
 /// Write plan.csv, patches.csv, plan.geojson and cautions.txt into the staging folder.
@@ -761,6 +760,7 @@ pub fn summary(
         risk_reduction_pct: plan.reduction_pct(),
         lambda_before: plan.lambda_before,
         lambda_after: plan.lambda_after,
+        metrics_converged: plan.metrics_converged,
         greedy_risk_after: plan.greedy_risk_after,
         greedy_reduction_pct: plan.greedy_risk_after.map(|g| {
             if plan.risk_before > 0.0 {
@@ -773,6 +773,8 @@ pub fn summary(
         gap: finite(plan.gap),
         bound: finite(plan.bound),
         solve_seconds: plan.solve_seconds,
+        time_limit_s: f64::NAN,
+        elapsed_s: f64::NAN,
         solver_path: plan.solver_path,
         bound_from: plan.bound_from,
         n_patches: o.patches.len(),

@@ -328,13 +328,14 @@ pub fn round(problem: &Problem, weights: &[Vec<f64>]) -> Assignment {
 
 /// Local search: drop one treated patch (least risk lost per unit cost first) and refill
 /// greedily; keep the change when R falls. Repeats until a pass finds nothing or `done` says
-/// stop (checked after every try).
+/// stop (checked after every try). Returns the plan, its risk, and true when the search ran out
+/// of improving moves (false when `done` stopped it).
 pub fn improve(
     problem: &Problem,
     mut plan: Assignment,
     mut risk: f64,
     done: impl Fn(f64) -> bool,
-) -> (Assignment, f64) {
+) -> (Assignment, f64, bool) {
     loop {
         let remaining = problem.remaining(&plan);
         let mut order: Vec<(f64, usize)> = (0..problem.len())
@@ -354,7 +355,7 @@ pub fn improve(
         let mut improved = false;
         for &(_, i) in &order {
             if done(risk) {
-                return (plan, risk);
+                return (plan, risk, false);
             }
             let mut trial = plan.clone();
             trial[i] = None;
@@ -367,8 +368,11 @@ pub fn improve(
                 break;
             }
         }
-        if !improved || done(risk) {
-            return (plan, risk);
+        if !improved {
+            return (plan, risk, true);
+        }
+        if done(risk) {
+            return (plan, risk, false);
         }
     }
 }
@@ -458,9 +462,9 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
                 SMALL_RELAX_ITERATIONS
             },
             time_limit_s: if large {
-                0.5 * limits.time_limit_s
+                0.5 * limits.deadline.remaining_s()
             } else {
-                (0.1 * limits.time_limit_s).min(2.0)
+                (0.1 * limits.deadline.remaining_s()).min(2.0)
             },
         };
         if let Some(relaxation) = relax::bound(problem, &plan, risk, stop) {
@@ -504,23 +508,25 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist)
         && (early || (large && pieces.is_none()))
     {
-        let deadline = limits.time_limit_s;
-        let (mut assignment, mut risk_after) = if early {
-            (plan, risk)
+        let (mut assignment, mut risk_after, exhausted) = if early {
+            (plan, risk, false)
         } else {
             improve(problem, plan, risk, |r| {
-                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap
-                    || start_time.elapsed().as_secs_f64() >= deadline
+                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap || limits.deadline.passed()
             })
         };
         prune_worthless(problem, &mut assignment);
         risk_after = risk_after.min(problem.risk(&assignment));
         let bound = bound_of(risk_after, f64::NEG_INFINITY);
         let gap = gap_of(risk_after, bound);
+        // Name what stopped the search: the gap, no move left, or the deadline (only when the
+        // search was still finding moves as it passed).
         let status = if gap <= OPTIMAL_GAP {
             Status::Optimal
         } else if gap <= limits.gap {
             Status::GapLimit
+        } else if exhausted {
+            Status::NoImprovingMove
         } else {
             Status::TimeLimit
         };
@@ -540,10 +546,6 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             bound_from: bound_from(f64::NEG_INFINITY),
         });
     }
-    let limits = Limits {
-        time_limit_s: (limits.time_limit_s - start_time.elapsed().as_secs_f64()).max(0.01),
-        ..limits
-    };
     // HiGHS sees R scaled so that R before treatment = 1000: coefficients stay in a range it
     // handles well, and the objective at any sensible plan stays above 1 for its relative gap.
     let scale = 1e3 / risk_before;
@@ -567,10 +569,11 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             build_transport(problem, scale, warm.as_ref().map(|w| &w.0), None)?
         }
     };
-    let Some(run) = run_highs(built, limits, n)? else {
+    let Some(run) = run_highs(built, limits, n, warm.is_some())? else {
         return Ok(infeasible(n, risk_before, greedy, start_time));
     };
     let (mut status, mut assignment, has_solution) = (run.status, run.assignment, run.has_solution);
+    let path = if run.started { path } else { NOT_STARTED };
     let dual = run.objective_bound / scale;
     let mut risk_after = problem.risk(&assignment);
     if !has_solution || !problem.feasible(&assignment) {
@@ -662,7 +665,15 @@ pub struct MinMaxSolved {
     pub gap: f64,
     pub status: Status,
     pub seconds: f64,
+    /// How the plan was found: `min-max MIP`, `everything fits`, `start within the gap of the
+    /// floor`, or [`NOT_STARTED`].
+    pub path: &'static str,
 }
+
+/// The path of a search whose MIP had too little time left to start: the plan is the best
+/// start (greedy, relaxation rounding or a neighbour's plan) and the bound is the one known
+/// without it.
+pub const NOT_STARTED: &str = "best start; too little time left to start the MIP";
 
 /// Minimise max_s (R_s - offset_s) over feasible plans, exactly (transportation formulation with
 /// an epigraph variable), warm-started from the best of `starts`. `floor` is a lower bound known
@@ -682,7 +693,7 @@ pub fn solve_minmax(
         .filter(|a| a.len() == n && problem.feasible(a))
         .min_by(|a, b| mm.value(problem, a).total_cmp(&mm.value(problem, b)))
         .cloned();
-    let done = |assignment: Assignment, bound: f64, status: Status| {
+    let done = |assignment: Assignment, bound: f64, status: Status, path: &'static str| {
         let value = mm.value(problem, &assignment);
         let bound = if bound.is_finite() {
             bound.max(floor)
@@ -708,24 +719,35 @@ pub fn solve_minmax(
             gap,
             status,
             seconds: start_time.elapsed().as_secs_f64(),
+            path,
         }
     };
     // Every R_s only grows with each r_i, so treating everything, when it fits, is optimal.
     let (everything, _) = problem.everything();
     if problem.feasible(&everything) {
         let v = mm.value(problem, &everything);
-        return Ok(done(everything, v, Status::Optimal));
+        return Ok(done(everything, v, Status::Optimal, "everything fits"));
     }
     // A start already within the requested gap of the known floor needs no search.
     if let Some(w) = &warm {
         let worst = mm.worst_risk(problem, w);
         if worst > 0.0 && (mm.value(problem, w) - floor) / worst <= limits.gap {
-            return Ok(done(w.clone(), floor, Status::Optimal));
+            return Ok(done(
+                w.clone(),
+                floor,
+                Status::Optimal,
+                "start within the gap of the floor",
+            ));
         }
     }
     let worst_before = mm.worst_risk(problem, &vec![None; n]);
     if worst_before <= 0.0 {
-        return Ok(done(vec![None; n], f64::NEG_INFINITY, Status::Optimal));
+        return Ok(done(
+            vec![None; n],
+            f64::NEG_INFINITY,
+            Status::Optimal,
+            "nothing to choose",
+        ));
     }
     let scale = 1e3 / worst_before;
     let built = build_transport(problem, scale, warm.as_ref(), Some(mm))?;
@@ -736,8 +758,9 @@ pub fn solve_minmax(
         gap: f64::NAN,
         status: Status::Infeasible,
         seconds: start_time.elapsed().as_secs_f64(),
+        path: "min-max MIP",
     };
-    let Some(run) = run_highs(built, limits, n)? else {
+    let Some(run) = run_highs(built, limits, n, warm.is_some())? else {
         return Ok(infeasible());
     };
     let mut assignment = run.assignment;
@@ -753,7 +776,12 @@ pub fn solve_minmax(
         assignment = w.clone();
     }
     let bound = (run.objective_bound / scale).max(floor);
-    Ok(done(assignment, bound, run.status))
+    let path = if run.started {
+        "min-max MIP"
+    } else {
+        NOT_STARTED
+    };
+    Ok(done(assignment, bound, run.status, path))
 }
 
 /// Memory the transportation model is estimated to need, in GB: about 1 kB per pair-of-options

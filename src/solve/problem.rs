@@ -6,6 +6,7 @@
 //! # Units
 //! Costs in catalogue currency, hours in crew hours, R in share-squared units.
 
+use crate::core::deadline::Deadline;
 use crate::input::treatments::Choice;
 use crate::model::risk::RiskModel;
 
@@ -31,8 +32,12 @@ pub enum Status {
     Optimal,
     /// Stopped when the proven gap reached `--gap`.
     GapLimit,
-    /// Stopped at `--time-limit-s`; the gap says how far from optimal it may be.
+    /// Stopped at the command's deadline (`--time-limit-s`); the gap says how far from optimal
+    /// it may be.
     TimeLimit,
+    /// The local search of a large model found no improving move left before the gap or the
+    /// deadline was reached; the gap says how far from optimal it may be.
+    NoImprovingMove,
     /// No plan satisfies the required patches within the budget and hours.
     Infeasible,
 }
@@ -43,6 +48,7 @@ impl Status {
             Status::Optimal => "optimal",
             Status::GapLimit => "gap_limit",
             Status::TimeLimit => "time_limit",
+            Status::NoImprovingMove => "no_improving_move",
             Status::Infeasible => "infeasible",
         }
     }
@@ -65,7 +71,7 @@ pub struct Solved {
     /// `relaxation and local search` (see docs/model.md).
     pub path: &'static str,
     /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
-    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/solve/relax.rs) or
+    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/relax.rs) or
     /// `HiGHS dual bound`.
     pub bound_from: &'static str,
 }
@@ -172,7 +178,8 @@ impl Problem<'_> {
 /// Solver limits.
 #[derive(Debug, Clone, Copy)]
 pub struct Limits {
-    pub time_limit_s: f64,
+    /// When the search must stop: the command's deadline, or a share of it.
+    pub deadline: Deadline,
     /// Relative gap on the remaining risk at which to stop.
     pub gap: f64,
     /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
@@ -198,16 +205,22 @@ pub enum Formulation {
 }
 
 impl Limits {
-    /// Limits with the default formulation; `HOSTCUT_FORMULATION=compact` picks the compact
-    /// one (for developers comparing the two).
+    /// Limits for one search of at most `time_limit_s` seconds from now (library callers and
+    /// the benchmark; commands use [`Limits::until`] with their own deadline).
     pub fn new(time_limit_s: f64, gap: f64) -> Limits {
+        Limits::until(Deadline::after(time_limit_s), gap)
+    }
+
+    /// Limits ending at `deadline`, with the default formulation; `HOSTCUT_FORMULATION=compact`
+    /// picks the compact one (for developers comparing the two).
+    pub fn until(deadline: Deadline, gap: f64) -> Limits {
         let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
             Ok("compact") => Formulation::Compact,
             Ok("direct") => Formulation::Direct,
             _ => Formulation::Transport,
         };
         Limits {
-            time_limit_s,
+            deadline,
             gap,
             threads: None,
             formulation,
