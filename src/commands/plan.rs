@@ -49,7 +49,7 @@ pub fn run_into(
     let progress = |msg: &str| settings.progress(msg);
     let mut prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
-    let deadline = settings.deadline();
+    let deadline = keep_for_outputs(settings, prepared.patches.len(), 1);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
         ..Limits::until(deadline, s.solver.gap)
@@ -206,6 +206,31 @@ pub fn run_into(
         text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
     }
     Ok(text)
+}
+
+/// Seconds the metrics and the outputs take per patch after the search, measured on a 88,583-
+/// patch raster plan (8.2 s writing plan.csv, patches.csv and plan.geojson with outlines,
+/// 0.1 s of metrics; docs/benchmarks.md), rounded up.
+pub const OUTPUT_S_PER_PATCH: f64 = 1e-4;
+
+/// The command's deadline keeping time after the searches for `folders` plan folders of
+/// `patches` patches; says so on stderr when reading the layers and writing the outputs leave
+/// no time to search.
+pub fn keep_for_outputs(
+    settings: &Settings,
+    patches: usize,
+    folders: usize,
+) -> crate::deadline::Deadline {
+    let outputs_s = OUTPUT_S_PER_PATCH * (patches * folders) as f64;
+    let deadline = settings.deadline().keeping(outputs_s);
+    if deadline.passed() {
+        eprintln!(
+            "warning: reading the layers took {:.1} s and writing the outputs of {patches} patches needs about {outputs_s:.1} s more: `--time-limit-s {}` leaves no time to search, so the plan is the best start (greedy or relaxation rounding)",
+            deadline.elapsed_s(),
+            settings.scenario.solver.time_limit_s
+        );
+    }
+    deadline
 }
 
 /// Why the required patches cannot all be treated: their cheapest methods against the limits.

@@ -107,7 +107,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     // and the programme itself the rest; within each phase the seasons share their part. When
     // the programme's MIP is too large for HiGHS to start on in that rest, the bounds get all
     // of it (the season-by-season plan then stands, and only its proven gap can improve).
-    let deadline = settings.deadline();
+    let deadline = super::plan::keep_for_outputs(&settings, prepared.patches.len(), args.seasons);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
         ..Limits::until(deadline, s.solver.gap)

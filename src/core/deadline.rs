@@ -73,13 +73,45 @@ impl Deadline {
         }
     }
 
-    /// The deadline for the work after the searches (the plan's metrics): the command's own
-    /// end, reserve included.
+    /// The deadline for the metrics computed after the searches: half way from the searches'
+    /// end to the command's end (the other half is for writing the outputs).
     pub fn for_outputs(&self) -> Deadline {
+        let end = match (self.searches_end, self.command_end) {
+            (Some(searches), Some(command)) => {
+                Some(searches + command.saturating_duration_since(searches) / 2)
+            }
+            _ => self.command_end,
+        };
         Deadline {
-            end: self.command_end,
-            searches_end: self.command_end,
+            end,
+            searches_end: end,
             ..*self
+        }
+    }
+
+    /// The same deadline with at least `seconds` kept between the end of the searches and the
+    /// end of the command, for the work that follows them (the metrics and writing the outputs
+    /// of a large landscape take longer than the standing reserve).
+    pub fn keeping(&self, seconds: f64) -> Deadline {
+        let (Some(command_end), Ok(keep)) = (
+            self.command_end,
+            Duration::try_from_secs_f64(seconds.max(0.0)),
+        ) else {
+            return *self;
+        };
+        let latest = command_end.checked_sub(keep).unwrap_or(self.started);
+        Deadline {
+            end: self.end.map(|e| e.min(latest)),
+            searches_end: self.searches_end.map(|e| e.min(latest)),
+            ..*self
+        }
+    }
+
+    /// Seconds from the command's start to the end of its searches (infinite without a limit).
+    pub fn searches_s(&self) -> f64 {
+        match self.searches_end {
+            Some(end) => end.saturating_duration_since(self.started).as_secs_f64(),
+            None => f64::INFINITY,
         }
     }
 
@@ -141,6 +173,18 @@ mod tests {
     }
 
     #[test]
+    fn keeping_time_for_large_outputs_moves_the_searches_end_earlier() {
+        let d = Deadline::for_command(Instant::now(), 100.0);
+        let kept = d.keeping(30.0);
+        assert!(kept.remaining_s() <= 70.0 && kept.remaining_s() > 69.0);
+        assert!(kept.share(2).overall().remaining_s() <= 70.0);
+        assert!((kept.searches_s() - 70.0).abs() < 1e-6);
+        // Less than the standing reserve changes nothing; more than the limit ends the searches.
+        assert!((d.keeping(1.0).searches_s() - d.searches_s()).abs() < 1e-9);
+        assert!(d.keeping(500.0).passed());
+    }
+
+    #[test]
     fn limits_too_large_to_represent_mean_no_deadline() {
         let d = Deadline::after(1e300);
         assert_eq!(d.remaining_s(), f64::INFINITY);
@@ -157,9 +201,10 @@ mod tests {
             left <= 100.0 * (1.0 - OUTPUT_RESERVE) && left > 95.0,
             "{left}"
         );
-        let outputs = d.for_outputs().remaining_s();
-        assert!(outputs <= 100.0 && outputs > 99.0, "{outputs}");
-        assert!(d.share(4).for_outputs().remaining_s() > 99.0);
+        // The metrics get the first half of the reserve, the outputs the second.
+        let metrics = d.for_outputs().remaining_s();
+        assert!(metrics <= 98.0 && metrics > 97.0, "{metrics}");
+        assert!(d.share(4).for_outputs().remaining_s() > 97.0);
         let overall = d.share(4).overall().remaining_s();
         assert!(overall <= left && overall > 95.0, "{overall}");
     }
