@@ -220,7 +220,7 @@ pub fn keep_for_outputs(
     settings: &Settings,
     patches: usize,
     folders: usize,
-) -> crate::deadline::Deadline {
+) -> crate::core::deadline::Deadline {
     let outputs_s = OUTPUT_S_PER_PATCH * (patches * folders) as f64;
     let deadline = settings.deadline().keeping(outputs_s);
     if deadline.passed() {
