@@ -10,8 +10,9 @@ use hostcut::input::treatments::{Choice, MethodId};
 use hostcut::model::ensemble::combine;
 use hostcut::model::graph::build_graph;
 use hostcut::model::risk::RiskModel;
-use hostcut::solve::optimise::{MinMax, solve, solve_minmax};
-use hostcut::solve::problem::{Assignment, Limits, Problem};
+use hostcut::solve::mip::minmax::solve_minmax;
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Assignment, Limits, MinMax, Problem};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -7,7 +7,8 @@ use hostcut::core::kernel::KernelKind;
 use hostcut::input::treatments::{Choice, MethodId};
 use hostcut::model::graph::build_graph;
 use hostcut::model::risk::RiskModel;
-use hostcut::solve::optimise::{brute_force, greedy, solve};
+use hostcut::solve::heuristics::{brute_force, greedy};
+use hostcut::solve::optimise::solve;
 use hostcut::solve::problem::{Formulation, Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -334,7 +335,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
         .iter()
         .cloned()
         .fold(f64::INFINITY, f64::min);
-    let (theta, residual) = hostcut::solve::relax::smallest_eigenvalue(diag, off);
+    let (theta, residual) = hostcut::solve::relax::lanczos::smallest_eigenvalue(diag, off);
     assert!(
         (theta - reference).abs() <= 1e-8 * (1.0 + reference.abs()),
         "case {case} (n {n}): Lanczos {theta} vs nalgebra {reference}"

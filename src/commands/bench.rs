@@ -90,7 +90,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         "method", "status", "risk after", "bound", "gap", "seconds"
     );
     let clock = std::time::Instant::now();
-    if let Some((_, r)) = optimise::greedy(&problem) {
+    if let Some((_, r)) = crate::solve::heuristics::greedy(&problem) {
         let _ = writeln!(
             t,
             "{:<10} {:>12} {:>14.8} {:>14} {:>10} {:>9.2}",
@@ -135,7 +135,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
     }
     if let Some(path) = &args.write_mps {
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
-        optimise::write_mps(&problem, &path, Formulation::Direct)?;
+        crate::solve::mip::mps::write_mps(&problem, &path, Formulation::Direct)?;
         let _ = writeln!(t, "direct formulation's MIP written to {}", path.display());
     }
     Ok(t)

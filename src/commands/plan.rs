@@ -85,7 +85,7 @@ pub fn run_into(
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
         output::write_new_file(&path, "--write-mps", |temporary| {
-            optimise::write_mps(
+            crate::solve::mip::mps::write_mps(
                 &problem,
                 temporary,
                 crate::solve::problem::Formulation::Transport,
@@ -114,7 +114,7 @@ pub fn run_into(
             "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
             s.solver.time_limit_s,
             deadline.elapsed_s(),
-            if solved.path == optimise::NOT_STARTED {
+            if solved.path == crate::solve::problem::SolverPath::NotStarted {
                 "; what was left was too little to start the exact search on a model this size"
             } else {
                 ""

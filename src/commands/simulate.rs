@@ -248,7 +248,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             solved.assignment
         }
     };
-    let greedy = optimise::greedy(&problem).map(|g| g.0);
+    let greedy = crate::solve::heuristics::greedy(&problem).map(|g| g.0);
     let density = baselines::fill_in_order(&problem, &density_order(&prepared));
     let none: Assignment = vec![None; problem.len()];
 

@@ -30,7 +30,7 @@ use crate::core::error::{Error, Result};
 use crate::input::patches::Patch;
 use crate::input::treatments::{Catalogue, Choice};
 use crate::model::risk::RiskModel;
-use crate::solve::highs::{Built, run_highs};
+use crate::solve::mip::highs::{Built, run_highs};
 use crate::solve::problem::{Assignment, Limits, OPTIMAL_GAP, Status};
 
 /// What a course does in one season.
@@ -432,7 +432,7 @@ pub fn solve(
     // A model HiGHS could not start on before the deadline is not built: the start stands, with
     // the floor as its bound.
     if let Some(w) = &warm
-        && crate::solve::highs::highs_cannot_finish(columns(p), &limits)
+        && crate::solve::mip::highs::highs_cannot_finish(columns(p), &limits)
     {
         let v = p.objective(w);
         let bound = floor.min(v).max(0.0);
