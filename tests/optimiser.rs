@@ -4,12 +4,13 @@
 
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
+use hostcut::core::scenario::Formulation;
 use hostcut::input::treatments::{Choice, MethodId};
 use hostcut::model::graph::build_graph;
 use hostcut::model::risk::RiskModel;
 use hostcut::solve::heuristics::{brute_force, greedy};
 use hostcut::solve::optimise::solve;
-use hostcut::solve::problem::{Formulation, Limits, Problem, Status};
+use hostcut::solve::problem::{Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 

@@ -8,10 +8,11 @@ use crate::app::cli::BenchArgs;
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::kernel::KernelKind;
+use crate::core::scenario::Formulation;
 use crate::input::treatments::{self, Catalogue};
 use crate::model::synthetic::{self, Spec};
 use crate::solve::optimise;
-use crate::solve::problem::{Formulation, Limits, Problem};
+use crate::solve::problem::{Limits, Problem};
 
 pub fn run(args: &BenchArgs) -> Result<String> {
     if let Some(side) = args.raster_side {

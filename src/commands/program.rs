@@ -110,6 +110,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     let deadline = super::plan::keep_for_outputs(&settings, prepared.patches.len(), args.seasons);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(deadline, s.solver.gap)
     };
     progress("planning season by season (the myopic comparison)");

@@ -237,6 +237,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             progress("solving the plan");
             let limits = Limits {
                 max_memory_gb: s.solver.max_memory_gb,
+                formulation: s.solver.formulation,
                 ..Limits::until(settings.deadline(), s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;

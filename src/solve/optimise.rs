@@ -11,13 +11,14 @@
 use std::time::Instant;
 
 use crate::core::error::{Error, Result};
+use crate::core::scenario::Formulation;
 use crate::solve::heuristics::{greedy, improve, prune_worthless, round};
 use crate::solve::mip::compact::build_compact;
 use crate::solve::mip::direct::build_direct;
 use crate::solve::mip::highs::run_highs;
 use crate::solve::mip::transport::{build_transport, estimated_gb};
 use crate::solve::problem::{
-    Assignment, BoundSource, Formulation, Limits, OPTIMAL_GAP, Problem, Solved, SolverPath, Status,
+    Assignment, BoundSource, Limits, OPTIMAL_GAP, Problem, Solved, SolverPath, Status,
 };
 use crate::solve::{decompose, relax};
 

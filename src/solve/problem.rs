@@ -7,6 +7,7 @@
 //! Costs in catalogue currency, hours in crew hours, R in share-squared units.
 
 use crate::core::deadline::Deadline;
+use crate::core::scenario::Formulation;
 use crate::input::treatments::Choice;
 use crate::model::risk::RiskModel;
 
@@ -272,24 +273,13 @@ pub struct Limits {
     pub gap: f64,
     /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
     pub threads: Option<u32>,
+    /// Which exact MIP to build (`--formulation`, or the benchmark's choice).
     pub formulation: Formulation,
     /// Refuse to build a model estimated to need more than this many GB.
     pub max_memory_gb: f64,
     /// Use the relaxation bound, its rounded plan and local search beside HiGHS (off only for
     /// the benchmark's plain-HiGHS baseline).
     pub assist: bool,
-}
-
-/// Which exact linearisation of the link products to build (docs/model.md).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Formulation {
-    /// One z per pair of options at each link, with transportation marginals (default).
-    Transport,
-    /// One u per link and choice of one end, plus McCormick's envelope row.
-    Compact,
-    /// The textbook baseline: one binary per patch and method, one product variable per link
-    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (for benchmarks).
-    Direct,
 }
 
 impl Limits {
@@ -299,19 +289,13 @@ impl Limits {
         Limits::until(Deadline::after(time_limit_s), gap)
     }
 
-    /// Limits ending at `deadline`, with the default formulation; `HOSTCUT_FORMULATION=compact`
-    /// picks the compact one (for developers comparing the two).
+    /// Limits ending at `deadline`, with the default (transportation) formulation.
     pub fn until(deadline: Deadline, gap: f64) -> Limits {
-        let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
-            Ok("compact") => Formulation::Compact,
-            Ok("direct") => Formulation::Direct,
-            _ => Formulation::Transport,
-        };
         Limits {
             deadline,
             gap,
             threads: None,
-            formulation,
+            formulation: Formulation::Transport,
             max_memory_gb: f64::INFINITY,
             assist: true,
         }

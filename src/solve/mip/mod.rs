@@ -2,7 +2,7 @@
 //! of the link products, the HiGHS runner, the min-max (ensemble) solve and the MPS writer.
 //!
 //! # Formulations (docs/model.md has the derivations)
-//! Default, [`Formulation::Transport`](crate::solve::problem::Formulation): one binary per option
+//! Default, [`Formulation::Transport`](crate::core::scenario::Formulation): one binary per option
 //! of each patch ("untreated" included) and, per link, one z per pair of options tied to both ends
 //! by transportation marginals, so z is the product at integer points and R is linear in (v, z)
 //! exactly (`transport`). `Compact`: binary x_io, t_i = sum_o e_o x_io, and per link and choice of

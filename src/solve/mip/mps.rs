@@ -1,11 +1,12 @@
 //! The exact MIP written to an MPS file through HiGHS's own writer (`--write-mps`).
 
 use crate::core::error::{Error, Result};
+use crate::core::scenario::Formulation;
 use crate::solve::mip::compact::build_compact;
 use crate::solve::mip::direct::build_direct;
 use crate::solve::mip::highs::Built;
 use crate::solve::mip::transport::build_transport;
-use crate::solve::problem::{Formulation, Problem};
+use crate::solve::problem::Problem;
 
 /// Write the exact MIP in the given formulation (no warm start) to an MPS file through HiGHS's own writer. The objective is R x 1000 / R before, with the constant
 /// carried by a column fixed at 1, so its optimum times R before / 1000 is the least achievable R.
