@@ -5,6 +5,7 @@
 pub mod components;
 pub mod decompose;
 pub mod heuristics;
+pub mod instance;
 pub mod mip;
 pub mod optimise;
 pub mod problem;
