@@ -173,6 +173,7 @@ pub struct Table {
 }
 
 /// One data row of a [`Table`].
+#[derive(Debug, Clone)]
 pub struct Row {
     columns: std::rc::Rc<Vec<String>>,
     cells: Vec<String>,
