@@ -244,10 +244,8 @@ fn robust_plans_from_the_command_line() {
         let s = summary(&dir.path().join(robust));
         assert_eq!(s["ensemble"]["robust"], robust);
         assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
-        let rows = csv_rows_of(
-            &std::fs::read_to_string(dir.path().join(robust).join("regret.csv")).unwrap(),
-        );
-        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r[0].as_str()).collect();
+        let rows = Table::read(&dir.path().join(robust).join("regret.csv")).rows;
+        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r.get("plan")).collect();
         // mean, (robust), three optima, greedy.
         assert_eq!(
             plans.len(),
@@ -256,21 +254,24 @@ fn robust_plans_from_the_command_line() {
         );
         assert_eq!(rows.len(), plans.len() * 3);
         for r in &rows {
-            let regret: f64 = r[7].parse().unwrap();
+            let regret = r.num("regret");
             assert!(regret >= 0.0);
         }
         // Each scenario's own optimum has no regret in its scenario.
-        for r in rows.iter().filter(|r| r[0].starts_with("optimum:")) {
-            if r[0] == format!("optimum:{}", r[1]) {
-                assert_eq!(r[7].parse::<f64>().unwrap(), 0.0, "{r:?}");
+        for r in rows
+            .iter()
+            .filter(|r| r.get("plan").starts_with("optimum:"))
+        {
+            if r.get("plan") == format!("optimum:{}", r.get("scenario")) {
+                assert_eq!(r.num("regret"), 0.0, "{r:?}");
             }
         }
         if robust == "regret" {
             // The least-regret plan has the smallest worst regret of all candidates.
             let max_regret = |plan: &str| {
                 rows.iter()
-                    .filter(|r| r[0] == plan)
-                    .map(|r| r[8].parse::<f64>().unwrap())
+                    .filter(|r| r.get("plan") == plan)
+                    .map(|r| r.num("regret_pct"))
                     .fold(0.0, f64::max)
             };
             let mine = max_regret("robust_regret");

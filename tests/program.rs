@@ -276,21 +276,22 @@ fn programme_folders_feed_orders_and_contracts() {
         s["objective"].as_f64().unwrap() <= s["objective_myopic"].as_f64().unwrap() * (1.0 + 1e-9)
     );
     assert_eq!(s["status"], "optimal");
-    let rows = csv_rows_of(&std::fs::read_to_string(dir.path().join("prog/program.csv")).unwrap());
+    let rows = Table::read(&dir.path().join("prog/program.csv")).rows;
     assert!(
-        rows.iter().any(|r| r[2] == "new") && rows.iter().any(|r| r[2] == "follow-up"),
+        rows.iter().any(|r| r.get("action") == "new")
+            && rows.iter().any(|r| r.get("action") == "follow-up"),
         "{rows:?}"
     );
     // Every season's folder is a plan folder: its costs are program.csv's for that season.
     for t in 1..=3 {
         let folder = dir.path().join(format!("prog/season_{t}"));
-        let plan = csv_rows_of(&std::fs::read_to_string(folder.join("plan.csv")).unwrap());
+        let plan = Table::read(&folder.join("plan.csv")).rows;
         let from_program: f64 = rows
             .iter()
-            .filter(|r| r[0] == t.to_string() && r[2] != "none")
-            .map(|r| r[5].parse::<f64>().unwrap())
+            .filter(|r| r.get("season") == t.to_string() && r.get("action") != "none")
+            .map(|r| r.num("cost"))
             .sum();
-        let in_plan: f64 = plan.iter().map(|r| r[4].parse::<f64>().unwrap()).sum();
+        let in_plan: f64 = plan.iter().map(|r| r.num("cost")).sum();
         assert!((from_program - in_plan).abs() < 0.011, "season {t}");
         let ord = format!("ord{t}");
         let o = run(
@@ -342,11 +343,11 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
     let o = go(dir.path(), "plan", &["--budget", "2500", "--out", "plan"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let set = |path: &str| {
-        let mut v: Vec<(String, String)> =
-            csv_rows_of(&std::fs::read_to_string(dir.path().join(path)).unwrap())
-                .into_iter()
-                .map(|r| (r[1].clone(), r[2].clone()))
-                .collect();
+        let mut v: Vec<(String, String)> = Table::read(&dir.path().join(path))
+            .rows
+            .into_iter()
+            .map(|r| (r.get("patch_id").to_string(), r.get("method").to_string()))
+            .collect();
         v.sort();
         v
     };
@@ -420,9 +421,10 @@ cautions = ["LABEL"]
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let methods = |p: &str| -> Vec<String> {
-        csv_rows_of(&std::fs::read_to_string(dir.path().join(p)).unwrap())
+        Table::read(&dir.path().join(p))
+            .rows
             .into_iter()
-            .map(|r| r[2].clone())
+            .map(|r| r.get("method").to_string())
             .collect()
     };
     assert!(methods("no/plan.csv").iter().all(|m| m == "foliar"));

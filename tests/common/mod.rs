@@ -73,14 +73,6 @@ pub fn geotiff(
     band.write((0, 0), (width, height), &mut buffer).unwrap();
 }
 
-/// The data rows of CSV text, as strings.
-pub fn csv_rows_of(text: &str) -> Vec<Vec<String>> {
-    csv::Reader::from_reader(text.as_bytes())
-        .records()
-        .map(|r| r.unwrap().iter().map(String::from).collect())
-        .collect()
-}
-
 /// Headless Chromium, or `None` (the test then says so and passes) — except under CI, where
 /// .ci/run installs it and its absence is a failure.
 pub fn chromium() -> Option<PathBuf> {
