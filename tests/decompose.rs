@@ -1,4 +1,4 @@
-//! The exact component decomposition (src/decompose.rs) against brute-force enumeration on
+//! The exact component decomposition (src/solve/decompose.rs) against brute-force enumeration on
 //! tiny instances (the tests' random instances, tests/common) and against the monolithic transportation MIP on larger random ones: patch
 //! clusters far enough apart share no link, so the merge must find the same optimum.
 

@@ -116,7 +116,7 @@ fn zero_budget_gives_the_empty_plan() {
     assert!((solved.risk_after - inst.land.model.risk_before()).abs() < 1e-15);
 }
 
-/// The Frank–Wolfe bound of the convex reformulation (src/relax.rs) is a lower bound on the
+/// The Frank–Wolfe bound of the convex reformulation (src/solve/relax/convex.rs) is a lower bound on the
 /// optimum found by brute force, and it is sharper than the treat-everything floor on most
 /// instances (the floor ignores the budget).
 #[test]
@@ -161,7 +161,7 @@ fn relaxation_bound_never_exceeds_the_brute_force_optimum() {
     );
 }
 
-/// The smallest eigenvalue by Lanczos (src/relax.rs) against nalgebra's symmetric eigensolver
+/// The smallest eigenvalue by Lanczos (src/solve/relax/lanczos.rs) against nalgebra's symmetric eigensolver
 /// (a general-purpose reference library), on random sparse symmetric matrices including ones
 /// with repeated eigenvalues (disconnected identical blocks).
 #[test]
@@ -224,7 +224,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
     assert!(residual <= 1e-6, "case {case}: residual {residual}");
 }
 
-/// The message-passing bound (src/relax.rs) against the local-polytope LP itself, written
+/// The message-passing bound (src/solve/relax/message_passing.rs) against the local-polytope LP itself, written
 /// out here and solved by HiGHS through good_lp (a general-purpose LP solver from the
 /// registry): one weight x_io per patch option (untreated included unless required), one
 /// y_l,o,o' per link and option pair with y's marginals equal to x (Sherali & Adams 1990's

@@ -16,7 +16,7 @@
 //! # Exactness
 //! Each course fixes a patch's whole host profile h_t, so R_t is quadratic in the course
 //! indicators only through products of two patches' indicators. The transportation formulation
-//! of the single-season MIP (see `optimise.rs`) linearises these exactly: one binary per course
+//! of the single-season MIP (see `solve/mip/transport.rs`) linearises these exactly: one binary per course
 //! ("untreated" included) and one z per pair of courses of each linked pair, with marginals; the
 //! objective coefficient of z_kl is sum_t d^(t-1) w_ij h_it(k) h_jt(l). No approximation is made
 //! beyond the dynamics above; courses dominated by another course of the same patch (no more

@@ -98,7 +98,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
             "raise `--epsilon` or lower `--alpha-m` to keep fewer links, split the area, or raise `--max-memory-gb` if the machine has the memory",
         ));
     }
-    // A convex relaxation bound (src/solve/relax.rs) and its rounded plan, cheap next to the MIP.
+    // A convex relaxation bound (src/solve/relax/) and its rounded plan, cheap next to the MIP.
     // Large problems, whose exact model HiGHS cannot take in (or would not get through its
     // root LP) within the limits, are solved by relaxation and local search alone.
     let large = limits.assist && need_gb > limits.max_memory_gb.min(LARGE_MODEL_GB);

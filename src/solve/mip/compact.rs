@@ -9,7 +9,6 @@ use crate::solve::mip::highs::Built;
 use crate::solve::problem::{Assignment, Problem};
 
 /// The compact formulation: one u per link and choice of one end (see the module docs).
-
 pub(crate) fn build_compact(
     problem: &Problem,
     scale: f64,

@@ -53,8 +53,8 @@ fn dominated(problem: &Problem, i: usize, o: usize) -> bool {
 /// sum_l z_kl = v_ik and sum_k z_kl = v_jl. At integer points z is the product v_ik v_jl, so
 /// R = sum_i own_i sum_k r_k^2 v_ik + sum_links w_ij sum_kl r_k r_l z_kl exactly, and its LP
 /// relaxation is the local-consistency bound, much tighter than the compact one.
-
-/// The transportation formulation. With `minmax`, the objective is an epigraph variable t with
+///
+/// With `minmax`, the objective is an epigraph variable t with
 /// t >= R_s - offset_s for every model (exact: each R_s is linear in (v, z)); the z variables
 /// cover the union of every model's links.
 pub(crate) fn build_transport(
