@@ -282,12 +282,9 @@ fn demo_surveys_calibrate_and_feed_plan_ensemble_and_simulate() {
     );
     assert!(lo < est && est < hi);
     assert!(c["aic_difference"].as_float().unwrap() > 0.0);
-    let rows =
-        csv_rows_of(&std::fs::read_to_string(dir.path().join("cal/calibration.csv")).unwrap());
+    let rows = Table::read(&dir.path().join("cal/calibration.csv")).rows;
     assert_eq!(rows.len(), 12, "6 rows per family");
-    let unassigned = csv_rows_of(
-        &std::fs::read_to_string(dir.path().join("cal/unassigned_surveys.csv")).unwrap(),
-    );
+    let unassigned = Table::read(&dir.path().join("cal/unassigned_surveys.csv")).rows;
     assert_eq!(
         unassigned.len(),
         4,

@@ -415,6 +415,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(v) = args.max_memory_gb {
         s.solver.max_memory_gb = v;
     }
+    if let Some(v) = args.formulation {
+        s.solver.formulation = v;
+    }
     let out = match &args.out {
         Some(o) => abs(o),
         None => {

@@ -116,6 +116,7 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
     progress(&format!("solving {} budget levels", budgets.len()));
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(settings.deadline(), s.solver.gap)
     };
     let points = curve::trace(

@@ -52,6 +52,7 @@ pub fn run_into(
     let deadline = keep_for_outputs(settings, prepared.patches.len(), 1);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(deadline, s.solver.gap)
     };
     // Across dispersal scenarios the plan's model becomes their weighted mean.
@@ -85,11 +86,7 @@ pub fn run_into(
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
         output::write_new_file(&path, "--write-mps", |temporary| {
-            optimise::write_mps(
-                &problem,
-                temporary,
-                crate::solve::problem::Formulation::Transport,
-            )
+            crate::solve::mip::mps::write_mps(&problem, temporary, s.solver.formulation)
         })?;
     }
     let solved = match &ensemble {
@@ -114,7 +111,7 @@ pub fn run_into(
             "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
             s.solver.time_limit_s,
             deadline.elapsed_s(),
-            if solved.path == optimise::NOT_STARTED {
+            if solved.path == crate::solve::problem::SolverPath::NotStarted {
                 "; what was left was too little to start the exact search on a model this size"
             } else {
                 ""

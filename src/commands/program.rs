@@ -110,6 +110,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     let deadline = super::plan::keep_for_outputs(&settings, prepared.patches.len(), args.seasons);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(deadline, s.solver.gap)
     };
     progress("planning season by season (the myopic comparison)");
@@ -124,7 +125,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
     // The programme's MIP is worth its time when HiGHS would get at least as long to search
     // as it may overrun by.
     let exact_fits = deadline.fraction(2.0 / 3.0).remaining_s()
-        >= 2.0 * crate::solve::highs::highs_overrun_s(program::columns(&problem));
+        >= 2.0 * crate::solve::mip::highs::highs_overrun_s(program::columns(&problem));
     let floor = program::season_floor(
         &problem,
         Limits {
@@ -133,7 +134,7 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
         },
     )?;
     let columns = program::columns(&problem);
-    let exact_skipped = crate::solve::highs::highs_cannot_finish(columns, &limits);
+    let exact_skipped = crate::solve::mip::highs::highs_cannot_finish(columns, &limits);
     if exact_skipped {
         eprintln!(
             "note: the programme's exact model ({columns} columns) cannot be solved in the {:.1} s left of `--time-limit-s {}`: the season-by-season plan stands, bounded by the season floor",

@@ -237,6 +237,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             progress("solving the plan");
             let limits = Limits {
                 max_memory_gb: s.solver.max_memory_gb,
+                formulation: s.solver.formulation,
                 ..Limits::until(settings.deadline(), s.solver.gap)
             };
             let solved = optimise::solve(&problem, limits)?;
@@ -248,7 +249,7 @@ pub fn run(args: &SimulateArgs) -> Result<String> {
             solved.assignment
         }
     };
-    let greedy = optimise::greedy(&problem).map(|g| g.0);
+    let greedy = crate::solve::heuristics::greedy(&problem).map(|g| g.0);
     let density = baselines::fill_in_order(&problem, &density_order(&prepared));
     let none: Assignment = vec![None; problem.len()];
 

@@ -7,13 +7,13 @@
 //! - `biggest_first`: by stems, largest first (ties by patch order);
 //! - `nearest_first`: by distance from the depot, nearest first;
 //! - `corridor_first`: patches within any corridor buffer first, then by stems, largest first;
-//! - `greedy`: the adaptive benefit-per-cost greedy of [`crate::solve::optimise::greedy`].
+//! - `greedy`: the adaptive benefit-per-cost greedy of [`crate::solve::heuristics::greedy`].
 //!
 //! # Units
 //! Depot coordinates in the working CRS (metres).
 
 use crate::input::patches::Patches;
-use crate::solve::optimise::greedy;
+use crate::solve::heuristics::greedy;
 use crate::solve::problem::{Assignment, Problem};
 
 /// One baseline plan and its result.

@@ -9,7 +9,8 @@ use crate::core::deadline::Deadline;
 use crate::core::error::{Error, Result};
 use crate::planning::baselines;
 use crate::planning::prepare::Prepared;
-use crate::solve::optimise::{greedy, solve_from};
+use crate::solve::heuristics::greedy;
+use crate::solve::optimise::solve_from;
 use crate::solve::problem::{Assignment, Limits, Status};
 
 /// One budget level.

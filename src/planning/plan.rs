@@ -11,7 +11,7 @@ use crate::core::site::PatchId;
 use crate::input::patches::Patches;
 use crate::input::treatments::{self, Catalogue, Choice, MethodId};
 use crate::model::risk::RiskModel;
-use crate::solve::problem::{Problem, Solved, Status};
+use crate::solve::problem::{BoundSource, Problem, Solved, SolverPath, Status};
 
 /// One treated patch.
 #[derive(Debug, Clone)]
@@ -49,8 +49,8 @@ pub struct Plan {
     pub gap: f64,
     pub solve_seconds: f64,
     /// How the plan was searched for and which proof gave the bound ([`Solved`]'s).
-    pub solver_path: &'static str,
-    pub bound_from: &'static str,
+    pub solver_path: SolverPath,
+    pub bound_from: BoundSource,
 }
 
 impl Plan {
