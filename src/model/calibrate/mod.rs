@@ -20,6 +20,8 @@
 //! Surveys are taken as perfect (a negative means empty): detection error is not modelled.
 //! Unobserved patches in the first year start at the share of positives among those surveyed.
 
+pub mod surveys;
+
 use argmin::core::{CostFunction, Executor};
 use argmin::solver::neldermead::NelderMead;
 
