@@ -28,7 +28,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     let folder = &settings.folder;
     let staging = Staging::new(&settings.out, settings.force, "contract")?;
     let currency = folder.catalogue.currency.clone();
-    let items = contract::line_items(&folder);
+    let items = contract::line_items(folder);
     let total: i64 = items.iter().map(|i| i.cents).sum();
 
     // Bid schedule.
@@ -112,7 +112,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     )?;
 
     // Scope of work.
-    let (md, html) = scope_of_work(&folder, &items, total);
+    let (md, html) = scope_of_work(folder, &items, total);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())?;

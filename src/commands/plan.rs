@@ -98,43 +98,14 @@ pub fn run_into(
             )
         })?;
     }
-    let solved = match &ensemble {
-        Some(e) => e.chosen.clone(),
-        None => {
-            progress("optimising");
-            let _spinner = printer.spinner(&format!(
-                "optimising {} patches (time limit {} s for the whole command, {:.1} s left; gap {})",
-                problem.len(),
-                s.solver.time_limit_s,
-                deadline.remaining_s(),
-                s.solver.gap
-            ));
-            optimise::solve(&problem, limits)?
-        }
-    };
-    if solved.status == Status::Infeasible {
-        return Err(plan::infeasible_requirements(&problem, patches, budget));
-    }
-    match solved.status {
-        Status::TimeLimit => printer.note(format_args!(
-            "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
-            s.solver.time_limit_s,
-            deadline.elapsed_s(),
-            if solved.path == optimise::NOT_STARTED {
-                "; what was left was too little to start the exact search on a model this size"
-            } else {
-                ""
-            },
-            100.0 * solved.gap
-        )),
-        Status::NoImprovingMove => printer.note(format_args!(
-            "warning: the local search found no improving move left after {:.1} s (of the {} s limit); the plan is the best found; proven gap on the remaining risk {:.3}%",
-            solved.seconds,
-            s.solver.time_limit_s,
-            100.0 * solved.gap
-        )),
-        _ => {}
-    }
+    let solved = plan::search(
+        &problem,
+        ensemble.as_ref().map(|e| &e.chosen),
+        limits,
+        &s.solver,
+        patches,
+        printer,
+    )?;
     let plan = plan::assemble(
         patches, model, catalogue, &problem, &solved, &s.model, &deadline,
     );

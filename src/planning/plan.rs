@@ -6,14 +6,16 @@
 //! treatment, per 1,000 currency units, at the row's place in the priority order.
 
 use crate::core::deadline::Deadline;
-use crate::core::error::Error;
+use crate::core::error::{Error, Result};
 use crate::core::printer::Printer;
 use crate::core::scenario::ModelSection;
+use crate::core::scenario::SolverSection;
 use crate::core::site::PatchId;
 use crate::input::patches::Patches;
 use crate::input::treatments::{self, Catalogue, Choice, MethodId};
 use crate::model::risk::RiskModel;
-use crate::solve::problem::{Problem, Solved, Status};
+use crate::solve::optimise;
+use crate::solve::problem::{Limits, Problem, Solved, Status};
 
 /// One treated patch.
 #[derive(Debug, Clone)]
@@ -249,4 +251,56 @@ pub fn infeasible_requirements(problem: &Problem, patches: &Patches, budget: f64
         ),
         "raise `--budget` / `--crew-hours`, or require fewer patches",
     )
+}
+
+/// The plan's search (or `chosen`, the ensemble's plan), a spinner meanwhile; an infeasible
+/// result is the input error naming the required patches, and a search stopped by the time
+/// limit or out of moves says so on stderr.
+pub fn search(
+    problem: &Problem,
+    chosen: Option<&Solved>,
+    limits: Limits,
+    solver: &SolverSection,
+    patches: &Patches,
+    printer: Printer,
+) -> Result<Solved> {
+    let deadline = limits.deadline;
+    let solved = match chosen {
+        Some(chosen) => chosen.clone(),
+        None => {
+            printer.progress("optimising");
+            let _spinner = printer.spinner(&format!(
+                "optimising {} patches (time limit {} s for the whole command, {:.1} s left; gap {})",
+                problem.len(),
+                solver.time_limit_s,
+                deadline.remaining_s(),
+                solver.gap
+            ));
+            optimise::solve(problem, limits)?
+        }
+    };
+    if solved.status == Status::Infeasible {
+        return Err(infeasible_requirements(problem, patches, problem.budget));
+    }
+    match solved.status {
+        Status::TimeLimit => printer.note(format_args!(
+            "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            solver.time_limit_s,
+            deadline.elapsed_s(),
+            if solved.path == optimise::NOT_STARTED {
+                "; what was left was too little to start the exact search on a model this size"
+            } else {
+                ""
+            },
+            100.0 * solved.gap
+        )),
+        Status::NoImprovingMove => printer.note(format_args!(
+            "warning: the local search found no improving move left after {:.1} s (of the {} s limit); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            solved.seconds,
+            solver.time_limit_s,
+            100.0 * solved.gap
+        )),
+        _ => {}
+    }
+    Ok(solved)
 }

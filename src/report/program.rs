@@ -52,7 +52,7 @@ pub fn write(
     let (columns, exact_skipped) = (*columns, *exact_skipped);
     let none: Assignment = vec![None; problem.len()];
     let risks = problem.risks(&solved.assignment);
-    let risks_myopic = problem.risks(&myopic);
+    let risks_myopic = problem.risks(myopic);
     let risks_none = problem.risks(&none);
     let spent = problem.spent(&solved.assignment);
 
@@ -158,7 +158,7 @@ pub fn write(
     );
     staging.write("program.svg", &svg)?;
 
-    let objective_myopic = problem.objective(&myopic);
+    let objective_myopic = problem.objective(myopic);
     let objective_none = problem.objective(&none);
     let summary = json!({
         "seasons": (0..horizon.seasons).map(|t| json!({

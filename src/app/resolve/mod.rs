@@ -28,6 +28,7 @@ use crate::core::error::{Error, Result};
 use crate::core::scenario::Scenario;
 
 pub use scenario::{plan_folder_scenario, resolve, resolve_with};
+pub use validate::validate;
 
 /// The resolved scenario of one planning run plus its run-only switches.
 #[derive(Debug, Clone)]
