@@ -379,7 +379,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         stderr(&o)
     );
     // The assignment itself (library): inside a raster patch, nearest within the radius, too far.
-    use hostcut::commands::calibrate::{Placement, Survey, assign, observations};
+    use hostcut::model::calibrate::surveys::{Placement, Survey, assign, observations};
     let sv = |x: f64, y: f64, year: i32, positive: bool| Survey {
         line: 0,
         x,

@@ -1,5 +1,5 @@
 //! Command-line arguments as plain data. Nothing here validates or reads files: the resolve step
-//! in [`crate::app::settings`] merges these flags with a scenario file and defaults.
+//! in [`crate::app::resolve`] merges these flags with a scenario file and defaults.
 
 use std::path::PathBuf;
 

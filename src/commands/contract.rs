@@ -4,9 +4,9 @@
 
 use std::fmt::Write as _;
 
-use crate::app::cli::{ContractArgs, RecordArgs};
+use crate::app::resolve::contract::{ContractSettings, RecordSettings};
 use crate::core::cautions;
-use crate::core::error::{Error, Result};
+use crate::core::error::Result;
 use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
 use crate::report::output::{self, Staging};
@@ -24,12 +24,11 @@ fn money(code: &str, cents: i64) -> String {
     )
 }
 
-pub fn run_contract(args: &ContractArgs) -> Result<String> {
-    let folder = PlanFolder::read(&args.plan_dir)?;
-    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force, "contract")?;
+pub fn run_contract(settings: &ContractSettings) -> Result<String> {
+    let folder = &settings.folder;
+    let staging = Staging::new(&settings.out, settings.force, "contract")?;
     let currency = folder.catalogue.currency.clone();
-    let items = contract::line_items(&folder);
+    let items = contract::line_items(folder);
     let total: i64 = items.iter().map(|i| i.cents).sum();
 
     // Bid schedule.
@@ -113,7 +112,7 @@ pub fn run_contract(args: &ContractArgs) -> Result<String> {
     )?;
 
     // Scope of work.
-    let (md, html) = scope_of_work(&folder, &items, total);
+    let (md, html) = scope_of_work(folder, &items, total);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())?;
@@ -271,11 +270,10 @@ fn scope_of_work(
     (md, html)
 }
 
-pub fn run_record(args: &RecordArgs) -> Result<String> {
-    let folder = PlanFolder::read(&args.plan_dir)?;
-    let done = contract::check_completion(&folder, &args.completed)?;
-    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force, "record")?;
+pub fn run_record(settings: &RecordSettings) -> Result<String> {
+    let folder = &settings.folder;
+    let done = contract::check_completion(folder, &settings.completed)?;
+    let staging = Staging::new(&settings.out, settings.force, "record")?;
     let by_patch: std::collections::HashMap<&str, &contract::Done> =
         done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
     let mut rows = Vec::new();

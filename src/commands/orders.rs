@@ -10,6 +10,7 @@ use serde::Serialize;
 use crate::app::cli::OrdersArgs;
 use crate::core::cautions;
 use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::orders::{self, CrewDay, Options, Schedule};
@@ -114,7 +115,7 @@ struct Ctx<'a> {
     colours: HashMap<String, &'static str>,
 }
 
-pub fn run(args: &OrdersArgs) -> Result<String> {
+pub fn run(args: &OrdersArgs, printer: Printer) -> Result<String> {
     let folder = PlanFolder::read(&args.plan_dir)?;
     let crs = Crs::parse(&folder.crs, "the plan's CRS (summary.json)")?;
     let depot = match (&args.depot, &args.depot_lonlat) {
@@ -285,7 +286,7 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
             "the plan treats no patches, so there is nothing to order (raise the plan's budget or check its eligibility rules)"
         );
     }
-    if !args.quiet {
+    if !printer.is_quiet() {
         let _ = writeln!(
             text,
             "hostcut orders: {} treated patches -> {} crew-days for {} crew{} ({} workdays from {start})",
@@ -331,7 +332,7 @@ pub fn run(args: &OrdersArgs) -> Result<String> {
             if m.crew_days == 1 { " is" } else { "s are" }
         );
     }
-    if !args.quiet {
+    if !printer.is_quiet() {
         let _ = writeln!(
             text,
             "outputs in {}: orders.csv, orders.geojson, orders.gpkg, orders.json, report.html, cautions.txt",

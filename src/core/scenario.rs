@@ -2,7 +2,7 @@
 //! `scenario.resolved.toml` a run writes back, with its sections (host, access, site layers,
 //! corridors, detections, model, plan, solver, ensemble) and the calibration file. Reading and
 //! the schema live here, in the earliest stage, because every input stage reads its section;
-//! merging flags over it and validating it is `app::settings`.
+//! merging flags over it and validating it is `app::resolve`.
 //!
 //! # Units
 //! Distances in metres, areas in hectares, densities in stems per hectare, money in the currency

@@ -23,6 +23,10 @@
 //! cost or hours in any season, no more host in any season) are dropped without changing the
 //! optimum.
 
+mod run;
+
+pub use run::{ProgramRun, plan_program};
+
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 

@@ -5,9 +5,13 @@
 //! # Units
 //! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
 
+pub mod analysis;
+
 use crate::core::deadline::Deadline;
 use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::planning::baselines;
+use crate::planning::curve::analysis::Analysis;
 use crate::planning::prepare::Prepared;
 use crate::solve::heuristics::greedy;
 use crate::solve::optimise::solve_from;
@@ -33,6 +37,51 @@ pub struct Point {
     /// (baseline name, risk after) for biggest_first, nearest_first, corridor_first.
     pub baselines: Vec<(&'static str, f64)>,
     pub seconds: f64,
+}
+
+/// The budgets a curve is planned at.
+#[derive(Debug, Clone)]
+pub enum Budgets {
+    /// `--budgets`: these levels.
+    Listed(Vec<f64>),
+    /// `--budget-range MIN:MAX:STEPS`, or (none given) 20 levels from 0 to the cost of treating
+    /// everything eligible.
+    Range(Option<(f64, f64, usize)>),
+}
+
+impl Budgets {
+    pub fn levels(&self, prepared: &Prepared) -> Vec<f64> {
+        match self {
+            Budgets::Listed(levels) => levels.clone(),
+            Budgets::Range(range) => {
+                let (min, max, steps) = range.unwrap_or((0.0, prepared.cost_of_everything(), 20));
+                budget_range(min, max, steps)
+            }
+        }
+    }
+}
+
+/// A solved curve and what it says.
+pub struct Curve {
+    pub points: Vec<Point>,
+    pub analysis: Analysis,
+}
+
+/// The exact plan at each of `budgets` ([`trace`]) and its analysis; one progress line, then a
+/// bar over the levels.
+pub fn plan_curve(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+    jobs: usize,
+    printer: Printer,
+) -> Result<Curve> {
+    printer.progress(&format!("solving {} budget levels", budgets.len()));
+    let points = trace(prepared, budgets, crew_hours, limits, depot, jobs, printer)?;
+    let analysis = Analysis::new(&points, prepared.model.risk_before());
+    Ok(Curve { points, analysis })
 }
 
 /// `steps` budgets evenly from `min` to `max` inclusive (one point when steps is 1).
@@ -90,6 +139,7 @@ pub fn trace(
     limits: Limits,
     depot: (f64, f64),
     jobs: usize,
+    printer: Printer,
 ) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
     budgets.sort_by(f64::total_cmp);
@@ -100,11 +150,7 @@ pub fn trace(
         ..limits
     };
     let budgets = &budgets;
-    let bar = crate::core::progress::Stage::bar(
-        "solving the budget curve",
-        budgets.len() as u64,
-        "budgets",
-    );
+    let bar = printer.bar("solving the budget curve", budgets.len() as u64, "budgets");
     let every: Vec<usize> = (0..budgets.len()).collect();
     let mut points = in_queue(&every, jobs, limits.deadline, |k, deadline| {
         let point = solve_point(
