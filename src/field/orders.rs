@@ -15,12 +15,16 @@
 //! Travel time is straight-line distance x detour factor / speed: an assumption the outputs
 //! state, not a road network.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet, HashMap};
+use std::path::Path;
+
+use geo::Geometry;
 
 use crate::core::error::{Error, Result};
 use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::routing::{self, Matrix};
+use crate::input::gis::{self, Crs};
 
 /// Common practice (from memory): about 2 stops of patch work per hour is already brisk; a crew
 /// sheet with more than a dozen sites is hard to follow.
@@ -405,6 +409,44 @@ fn consolidate(
             }
         })
         .collect()
+}
+
+/// The default first working day: today if today is inside a window of a method in the plan,
+/// else the first of the next month that opens one.
+pub fn default_start(folder: &PlanFolder, today: Date) -> Date {
+    let months: BTreeSet<u8> = folder
+        .planned
+        .iter()
+        .filter_map(|p| folder.method(&p.method))
+        .flat_map(|m| m.months.iter().copied())
+        .collect();
+    if months.is_empty() || months.contains(&today.month) {
+        return today;
+    }
+    for k in 1..=12 {
+        let m0 = (today.month as u32 - 1 + k) % 12 + 1;
+        let year = today.year + ((today.month as u32 - 1 + k) / 12) as i32;
+        if months.contains(&(m0 as u8)) {
+            return Date::new(year, m0 as u8, 1).expect("valid first of month");
+        }
+    }
+    today
+}
+
+/// The patch outlines of the plan's map (plan.geojson), by patch id, in the working CRS; empty
+/// when the folder has no map (a plan from an inventory of points).
+pub fn outlines(plan_dir: &Path, crs: &Crs) -> Result<HashMap<String, Geometry<f64>>> {
+    let plan_map = plan_dir.join("plan.geojson");
+    let mut outlines = HashMap::new();
+    if plan_map.is_file() {
+        let layer = gis::read_vector(&plan_map, None, crs, None, "the plan's map", "--plan")?;
+        for f in layer.features {
+            if let Some(id) = f.fields.get("patch_id") {
+                outlines.insert(id.as_text(), f.geometry);
+            }
+        }
+    }
+    Ok(outlines)
 }
 
 /// What the crew is told to do at one stop, in plain words, and the dates that follow from it.

@@ -2,4 +2,5 @@
 
 pub mod chart;
 pub mod map;
+pub mod orders;
 pub mod output;
