@@ -7,7 +7,7 @@ use geo::{Geometry, MultiPolygon, Point};
 use crate::core::error::Result;
 use crate::field::contract;
 use crate::field::orders::CrewDay;
-use crate::input::gis::{self, LayerData, Property};
+use crate::input::gis::{self, GeometryKind, LayerData, Property};
 use crate::report::output::Staging;
 
 use super::{Orders, round2, route_line};
@@ -181,7 +181,6 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
             ],
         ));
     }
-    use gdal::vector::OGRwkbGeometryType as T;
     gis::write_layers(
         &staging.path("orders.gpkg"),
         "GPKG",
@@ -190,22 +189,22 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
             LayerData {
                 name: "patches",
                 geometry: if polygons {
-                    T::wkbMultiPolygon
+                    GeometryKind::MultiPolygon
                 } else {
-                    T::wkbPoint
+                    GeometryKind::Point
                 },
                 fields: &patch_fields,
                 features: patches,
             },
             LayerData {
                 name: "stops",
-                geometry: T::wkbPoint,
+                geometry: GeometryKind::Point,
                 fields: &stop_fields,
                 features: stops,
             },
             LayerData {
                 name: "routes",
-                geometry: T::wkbLineString,
+                geometry: GeometryKind::LineString,
                 fields: &route_fields,
                 features: routes,
             },
