@@ -35,9 +35,7 @@ pub fn run_contract(args: &ContractArgs) -> Result<String> {
     // Bid schedule.
     let mut rows = Vec::new();
     for item in &items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         rows.push(vec![
             item.number.to_string(),
             item.method.clone(),
@@ -175,9 +173,7 @@ fn scope_of_work(
             p.near_water().unwrap_or_default()
         ));
     }
-    let water_checked = folder.summary["site_rules"]["water_checked"]
-        .as_bool()
-        .unwrap_or(false);
+    let water_checked = folder.summary.site_rules.water_checked;
     if !water_checked {
         rules.push("No water layer was given when this plan was made: the contractor checks every site for streams, ponds, wells and wetlands before herbicide work and keeps the label's buffers.".into());
     }
@@ -185,9 +181,7 @@ fn scope_of_work(
         sections.push(("Site rules".into(), rules));
     }
     for item in items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         let mut lines = vec![
             format!(
                 "Work: {} on {} patches ({} stems{}), site class: {}.",
@@ -283,7 +277,7 @@ pub fn run_record(args: &RecordArgs) -> Result<String> {
     for p in &folder.patches {
         let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
             Some(d) => {
-                let method = folder.method(&d.method).expect("checked");
+                let method = folder.catalogue.method(d.method_id);
                 let removed = d.treated_stems * method.effectiveness;
                 treated_stems += d.treated_stems;
                 removed_stems += removed;

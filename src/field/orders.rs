@@ -25,6 +25,7 @@ use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::routing::{self, Matrix};
 use crate::input::gis::{self, Crs};
+use crate::input::treatments::MethodId;
 
 /// Common practice (from memory): about 2 stops of patch work per hour is already brisk; a crew
 /// sheet with more than a dozen sites is hard to follow.
@@ -53,6 +54,7 @@ pub struct Stop {
     pub part: usize,
     pub parts: usize,
     pub method: String,
+    pub method_id: MethodId,
     pub stems: f64,
     pub work_hours: f64,
     /// Travel from the previous stop (or the depot) to this one.
@@ -187,6 +189,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 part,
                 parts,
                 method: p.method.clone(),
+                method_id: p.method_id,
                 stems,
                 work_hours: hours,
                 travel_hours: 0.0,
@@ -200,9 +203,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
     // 2. Days per season window.
     let mut groups: BTreeMap<Vec<u8>, Vec<usize>> = BTreeMap::new();
     for (k, s) in stops.iter().enumerate() {
-        let method = folder
-            .method(&s.method)
-            .expect("plan folder methods checked on read");
+        let method = folder.catalogue.method(s.method_id);
         let mut months = method.months.clone();
         months.sort_unstable();
         months.dedup();
@@ -417,7 +418,7 @@ pub fn default_start(folder: &PlanFolder, today: Date) -> Date {
     let months: BTreeSet<u8> = folder
         .planned
         .iter()
-        .filter_map(|p| folder.method(&p.method))
+        .map(|p| folder.method_of(p))
         .flat_map(|m| m.months.iter().copied())
         .collect();
     if months.is_empty() || months.contains(&today.month) {
@@ -466,7 +467,7 @@ pub fn fell_after(date: Date) -> Date {
 
 pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Instructions {
     let p = &folder.planned[stop.row];
-    let method = folder.method(&p.method).expect("checked on read");
+    let method = folder.method_of(p);
     let mut text = Vec::new();
     if p.no_herbicide() {
         text.push("NO HERBICIDE ON THIS SITE.".to_string());

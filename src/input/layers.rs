@@ -19,7 +19,7 @@ use crate::input::inventory::Stand;
 /// Counts of what a run skipped, by reason (`host_cells_not_finite`,
 /// `parcel_features_without_geometry`, ...): shown on stderr and in summary.json, so nothing is
 /// dropped without a word.
-#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Skipped(pub std::collections::BTreeMap<String, usize>);
 
 impl Skipped {

@@ -4,3 +4,4 @@ pub mod chart;
 pub mod map;
 pub mod orders;
 pub mod output;
+pub mod staging;

@@ -8,7 +8,9 @@ use crate::core::cautions;
 use crate::core::error::Result;
 use crate::field::contract;
 use crate::field::orders::{self, CrewDay};
+use crate::field::plan_folder::Summary;
 use crate::input::gis;
+use crate::input::treatments::MethodId;
 use crate::report::chart::{escape, thousands};
 
 use super::svg::{day_map, legend, overview_map};
@@ -47,10 +49,8 @@ table.stops td.nw { white-space: nowrap; }
 .day ul { margin: 2px 0; padding-left: 16px; }
 "#;
 
-fn status_line(summary: &serde_json::Value) -> String {
-    let status = summary["status"].as_str().unwrap_or("");
-    let gap = summary["gap"].as_f64();
-    match (status, gap) {
+fn status_line(summary: &Summary) -> String {
+    match (summary.status.as_str(), summary.gap) {
         ("optimal", _) => "proven optimal for this budget".into(),
         ("gap_limit", Some(g)) => format!(
             "the optimiser stopped at its requested gap: proven within {:.3}% of the least achievable risk",
@@ -65,6 +65,15 @@ fn status_line(summary: &serde_json::Value) -> String {
             g * 100.0
         ),
         (s, _) => format!("optimiser status {s}"),
+    }
+}
+
+/// The plan's risk reduction in percent; 0 when the folder does not say.
+fn reduction_pct(summary: &Summary) -> f64 {
+    if summary.risk_reduction_pct.is_finite() {
+        summary.risk_reduction_pct
+    } else {
+        0.0
     }
 }
 
@@ -107,8 +116,16 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
         folder.planned.len(),
         thousands(stems),
         money(currency, cost),
-        money(currency, summary["budget"].as_f64().unwrap_or(cost)),
-        summary["risk_reduction_pct"].as_f64().unwrap_or(0.0),
+        // A folder without a budget (older versions) shows the plan's cost as its budget.
+        money(
+            currency,
+            if summary.budget > 0.0 {
+                summary.budget
+            } else {
+                cost
+            }
+        ),
+        reduction_pct(summary),
         escape(&status_line(summary)),
     );
     let _ = write!(
@@ -173,7 +190,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
             h,
             "<section class=\"page\" id=\"curve\"><h2>What each budget buys</h2><p>Risk reduction against season budget, each point an optimised plan (from <code>hostcut curve</code>). This plan spends {} and cuts risk by {:.1}%.</p><div class=\"curve\">{body}</div></section>",
             money(currency, cost),
-            summary["risk_reduction_pct"].as_f64().unwrap_or(0.0)
+            reduction_pct(summary)
         );
     }
 
@@ -288,7 +305,7 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
     let to = gis::ToLonLat::new(&ctx.crs).ok();
     h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
     let mut codes: BTreeSet<String> = BTreeSet::new();
-    let mut methods: BTreeMap<String, orders::Instructions> = BTreeMap::new();
+    let mut methods: BTreeMap<String, (MethodId, orders::Instructions)> = BTreeMap::new();
     for (k, s) in d.stops.iter().enumerate() {
         let p = &folder.planned[s.row];
         let ll = to
@@ -300,7 +317,9 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
             codes.insert(c.to_string());
         }
         let ins = orders::instructions(folder, s, d.date);
-        methods.entry(s.method.clone()).or_insert(ins);
+        methods
+            .entry(s.method.clone())
+            .or_insert((s.method_id, ins));
         let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
             ("permission", false) => format!("permission first: {}", p.contact),
             ("permission", true) => "permission first".to_string(),
@@ -336,8 +355,8 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
     }
     h.push_str("</table>");
     h.push_str("<h3>How</h3><ul class=\"small\">");
-    for (m, ins) in &methods {
-        let method = folder.method(m).expect("checked on read");
+    for (method_id, ins) in methods.values() {
+        let method = folder.catalogue.method(*method_id);
         let mut line = escape(&method.label);
         if method.herbicide {
             line.push_str(". <b>Apply per the product label.</b>");
