@@ -163,7 +163,7 @@ fn round2(v: f64) -> f64 {
 }
 
 fn f2(v: f64) -> String {
-    format!("{v:.2}")
+    crate::report::format::fixed(v, 2)
 }
 
 /// The stops of the schedule with their lon/lat, day by day.
