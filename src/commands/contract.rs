@@ -11,17 +11,9 @@ use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
 use crate::report::output::{self, Staging};
 
+/// Contract money is billed money: to the cent (house style in `report::format`).
 fn money(code: &str, cents: i64) -> String {
-    let symbol = if code == "USD" {
-        "$".to_string()
-    } else {
-        format!("{code} ")
-    };
-    format!(
-        "{symbol}{}.{:02}",
-        thousands((cents / 100) as f64),
-        (cents % 100).abs()
-    )
+    crate::report::format::money_cents(code, cents)
 }
 
 pub fn run_contract(args: &ContractArgs) -> Result<String> {

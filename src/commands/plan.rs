@@ -354,6 +354,7 @@ fn human_summary(
 ) -> String {
     let mut t = String::new();
     let c = &summary.currency;
+    let money = crate::report::format::money;
     let _ = writeln!(
         t,
         "hostcut plan: {} patches, {} links, {} eligible for treatment",
@@ -383,17 +384,17 @@ fn human_summary(
             if plan.rows.is_empty() {
                 let _ = writeln!(
                     t,
-                    "the budget of {:.0} {c} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
-                    summary.budget
+                    "the budget of {} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
+                    money(c, summary.budget)
                 );
             }
             let _ = writeln!(
                 t,
-                "treat {} patches ({:.0} stems) for {:.2} {c} of {:.2} {c}, {:.1} crew hours",
+                "treat {} patches ({:.0} stems) for {} of {}, {:.1} crew hours",
                 summary.n_treated,
                 summary.stems_treated,
-                summary.spent,
-                summary.budget,
+                money(c, summary.spent),
+                money(c, summary.budget),
                 summary.crew_hours
             );
             let _ = writeln!(
@@ -477,7 +478,7 @@ fn human_summary(
                 let p = &patches.items[row.patch.index()];
                 let _ = writeln!(
                     t,
-                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>10.2} {c}  [{}]",
+                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>12}  [{}]",
                     plan.rows
                         .iter()
                         .position(|r| r.patch == row.patch)
@@ -486,7 +487,7 @@ fn human_summary(
                     p.label,
                     catalogue.method(row.choice.method).id,
                     p.stems,
-                    row.choice.cost,
+                    money(c, row.choice.cost),
                     row.cautions.join(" ")
                 );
             }

@@ -335,10 +335,10 @@ pub fn run(args: &ProgramArgs) -> Result<String> {
             .count();
         let _ = writeln!(
             text,
-            "  season {}: {news} new, {follow} follow-up; {:.2} of {:.2} {c}; R {:.6} (no action {:.6}, season-by-season {:.6})",
+            "  season {}: {news} new, {follow} follow-up; {} of {}; R {:.6} (no action {:.6}, season-by-season {:.6})",
             t + 1,
-            spent[t],
-            budgets[t],
+            crate::report::format::money(c, spent[t]),
+            crate::report::format::money(c, budgets[t]),
             risks[t],
             risks_none[t],
             risks_myopic[t]

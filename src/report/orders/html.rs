@@ -11,7 +11,8 @@ use crate::field::orders::{self, CrewDay};
 use crate::field::plan_folder::Summary;
 use crate::input::gis;
 use crate::input::treatments::MethodId;
-use crate::report::chart::{escape, thousands};
+use crate::report::chart::escape;
+use crate::report::format::{money, thousands};
 
 use super::svg::{day_map, legend, overview_map};
 use super::{Orders, day_label};
@@ -74,15 +75,6 @@ fn reduction_pct(summary: &Summary) -> f64 {
         summary.risk_reduction_pct
     } else {
         0.0
-    }
-}
-
-fn money(code: &str, v: f64) -> String {
-    let s = format!("{} {}", thousands(v.round()), code);
-    if code == "USD" {
-        format!("${}", thousands(v.round()))
-    } else {
-        s
     }
 }
 
