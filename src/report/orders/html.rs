@@ -320,7 +320,7 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
         };
         let _ = write!(
             h,
-            "<tr><td class=\"n\">{}</td><td class=\"nw\">{}{}{}</td><td class=\"nw\">{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small nw\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
+            "<tr><td class=\"n\">{}</td><td class=\"nw\">{}{}{}</td><td class=\"nw\">{}{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small nw\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
             k + 1,
             escape(&s.patch_id),
             if s.parts > 1 {
@@ -333,11 +333,8 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
             } else {
                 format!(" &middot; {}", escape(&p.parcel))
             },
-            format!(
-                "{}{}",
-                site_rule_flags(p),
-                escape(&s.method.replace('_', " "))
-            ),
+            site_rule_flags(p),
+            escape(&s.method.replace('_', " ")),
             s.stems,
             s.work_hours,
             escape(&getting_in),
