@@ -23,10 +23,7 @@ use crate::report::output;
 
 /// Run one command; returns the text for stdout.
 pub fn run(cli: Cli) -> Result<String> {
-    // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
-    // default handler from printing them a second time.
-    gdal::config::set_error_handler(|_, _, _| {});
-    crate::core::memory::cap_gdal_cache();
+    crate::input::gis::init();
     let printer = Printer::new(match &cli.command {
         Command::Plan(a) => a.inputs.quiet,
         Command::Curve(a) => a.inputs.quiet,

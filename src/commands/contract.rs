@@ -11,17 +11,9 @@ use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
 use crate::report::output::{self, Staging};
 
+/// Contract money is billed money: to the cent (house style in `report::format`).
 fn money(code: &str, cents: i64) -> String {
-    let symbol = if code == "USD" {
-        "$".to_string()
-    } else {
-        format!("{code} ")
-    };
-    format!(
-        "{symbol}{}.{:02}",
-        thousands((cents / 100) as f64),
-        (cents % 100).abs()
-    )
+    crate::report::format::money_cents(code, cents)
 }
 
 pub fn run_contract(settings: &ContractSettings) -> Result<String> {
@@ -34,9 +26,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     // Bid schedule.
     let mut rows = Vec::new();
     for item in &items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         rows.push(vec![
             item.number.to_string(),
             item.method.clone(),
@@ -174,9 +164,7 @@ fn scope_of_work(
             p.near_water().unwrap_or_default()
         ));
     }
-    let water_checked = folder.summary["site_rules"]["water_checked"]
-        .as_bool()
-        .unwrap_or(false);
+    let water_checked = folder.summary.site_rules.water_checked;
     if !water_checked {
         rules.push("No water layer was given when this plan was made: the contractor checks every site for streams, ponds, wells and wetlands before herbicide work and keeps the label's buffers.".into());
     }
@@ -184,9 +172,7 @@ fn scope_of_work(
         sections.push(("Site rules".into(), rules));
     }
     for item in items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         let mut lines = vec![
             format!(
                 "Work: {} on {} patches ({} stems{}), site class: {}.",
@@ -281,7 +267,7 @@ pub fn run_record(settings: &RecordSettings) -> Result<String> {
     for p in &folder.patches {
         let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
             Some(d) => {
-                let method = folder.method(&d.method).expect("checked");
+                let method = folder.catalogue.method(d.method_id);
                 let removed = d.treated_stems * method.effectiveness;
                 treated_stems += d.treated_stems;
                 removed_stems += removed;

@@ -187,6 +187,7 @@ fn human_summary(
 ) -> String {
     let mut t = printer.text();
     let c = &summary.currency;
+    let money = crate::report::format::money;
     t.line(format_args!(
         "hostcut plan: {} patches, {} links, {} eligible for treatment",
         summary.n_patches, summary.n_edges, summary.n_eligible
@@ -211,16 +212,16 @@ fn human_summary(
         _ => {
             if plan.rows.is_empty() {
                 t.line(format_args!(
-                    "the budget of {:.0} {c} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
-                    summary.budget
+                    "the budget of {} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
+                    money(c, summary.budget)
                 ));
             }
             t.line(format_args!(
-                "treat {} patches ({:.0} stems) for {:.2} {c} of {:.2} {c}, {:.1} crew hours",
+                "treat {} patches ({:.0} stems) for {} of {}, {:.1} crew hours",
                 summary.n_treated,
                 summary.stems_treated,
-                summary.spent,
-                summary.budget,
+                money(c, summary.spent),
+                money(c, summary.budget),
                 summary.crew_hours
             ));
             t.line(format_args!(
@@ -297,7 +298,7 @@ fn human_summary(
             for row in plan.rows.iter().take(5) {
                 let p = &patches.items[row.patch.index()];
                 t.line(format_args!(
-                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>10.2} {c}  [{}]",
+                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>12}  [{}]",
                     plan.rows
                         .iter()
                         .position(|r| r.patch == row.patch)
@@ -306,7 +307,7 @@ fn human_summary(
                     p.label,
                     catalogue.method(row.choice.method).id,
                     p.stems,
-                    row.choice.cost,
+                    money(c, row.choice.cost),
                     row.cautions.join(" ")
                 ));
             }

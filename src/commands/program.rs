@@ -39,10 +39,10 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
     for t in 0..horizon.seasons {
         let (news, follow) = written.visits[t];
         text.line(format_args!(
-            "  season {}: {news} new, {follow} follow-up; {:.2} of {:.2} {c}; R {:.6} (no action {:.6}, season-by-season {:.6})",
+            "  season {}: {news} new, {follow} follow-up; {} of {}; R {:.6} (no action {:.6}, season-by-season {:.6})",
             t + 1,
-            written.spent[t],
-            resolved.budgets[t],
+            crate::report::format::money(c, written.spent[t]),
+            crate::report::format::money(c, resolved.budgets[t]),
             written.risks[t],
             written.risks_none[t],
             written.risks_myopic[t]

@@ -4,4 +4,5 @@
 pub mod calendar;
 pub mod contract;
 pub mod orders;
+pub mod plan_folder;
 pub mod routing;

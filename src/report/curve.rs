@@ -16,36 +16,22 @@ use crate::planning::prepare::Prepared;
 use crate::report::chart::{self, Marker, Series, Style, escape, thousands};
 use crate::report::output::{self, Staging};
 
-/// A currency code and the symbol shown before amounts.
+/// The catalogue's currency code, for amounts in the curve's outputs.
 #[derive(Debug, Clone)]
 pub struct Money {
     pub code: String,
-    pub symbol: String,
 }
 
 impl Money {
     pub fn new(code: &str) -> Money {
-        let code = code.trim().to_ascii_uppercase();
-        let symbol = match code.as_str() {
-            "USD" => "$",
-            "CAD" => "CA$",
-            "AUD" => "A$",
-            "NZD" => "NZ$",
-            "EUR" => "€",
-            "GBP" => "£",
-            "JPY" => "¥",
-            _ => "",
-        };
-        let symbol = if symbol.is_empty() {
-            format!("{code} ")
-        } else {
-            symbol.to_string()
-        };
-        Money { code, symbol }
+        Money {
+            code: code.trim().to_ascii_uppercase(),
+        }
     }
 
+    /// Whole units, code first (house style in `report::format`).
     pub fn fmt(&self, amount: f64) -> String {
-        format!("{}{}", self.symbol, thousands(amount))
+        crate::report::format::money(&self.code, amount)
     }
 }
 
@@ -246,12 +232,12 @@ fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
         .filter(|v| v.is_finite())
         .fold(0.0, f64::max);
     let y_max = ((top / 10.0).ceil() * 10.0).clamp(10.0, 100.0);
-    let symbol = money.symbol.clone();
     chart::line_chart(
         "Risk reduction bought at each budget",
         &format!("season budget ({})", money.code),
         "reduction in connected-host risk (%)",
-        &move |x| format!("{symbol}{}", thousands(x)),
+        // Ticks are plain numbers; the axis label names the currency.
+        &|x| thousands(x),
         y_max,
         &series,
         &markers,

@@ -3,7 +3,10 @@
 pub mod calibrate;
 pub mod chart;
 pub mod curve;
+pub mod format;
 pub mod map;
+pub mod orders;
 pub mod output;
 pub mod program;
 pub mod simulate;
+pub mod staging;
