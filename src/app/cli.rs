@@ -73,9 +73,13 @@ pub struct PlanArgs {
     /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha,suitability]
     #[arg(long, value_name = "CSV")]
     pub inventory: Option<PathBuf>,
-    /// Projected CRS (metres) of the inventory's x,y, e.g. EPSG:32618
+    /// CRS of the inventory's x,y, e.g. EPSG:32618 or 32618; lon/lat (EPSG:4326, CRS84) is
+    /// projected into the local UTM zone, a CRS in feet (e.g. EPSG:2272) into its metre form
     #[arg(long, value_name = "CRS")]
     pub crs: Option<String>,
+    /// Work CRS (projected, metres) to convert the inventory into, instead of the default
+    #[arg(long, value_name = "CRS")]
+    pub work_crs: Option<String>,
     /// CRS to assume for a raster or vector layer that carries none
     #[arg(long, value_name = "CRS")]
     pub assume_crs: Option<String>,

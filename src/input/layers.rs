@@ -168,11 +168,23 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         Some(def) => Some(Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
+    let mut inventory_note = None;
     let (crs, host) = if let Some(path) = &s.host.inventory {
-        let crs = Crs::parse(s.host.crs.as_deref().unwrap_or_default(), "`--crs`")?;
-        let stands = crate::input::inventory::read_inventory(path)?;
+        let mut stands = crate::input::inventory::read_inventory(path)?;
+        let points: Vec<(f64, f64)> = stands.iter().map(|s| (s.x, s.y)).collect();
+        let projected = gis::project_points(
+            s.host.crs.as_deref().unwrap_or_default(),
+            s.host.work_crs.as_deref(),
+            &points,
+            &format!("inventory `{}` (`--crs`)", path.display()),
+        )?;
+        for (stand, &(x, y)) in stands.iter_mut().zip(&projected.points) {
+            stand.x = x;
+            stand.y = y;
+        }
+        inventory_note = projected.note;
         (
-            crs,
+            projected.crs,
             Host::Inventory {
                 path: path.clone(),
                 stands,
@@ -195,7 +207,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
     };
     let host_extent = host_extent(&host);
     let mut skipped = Skipped::default();
-    let mut notes = Vec::new();
+    let mut notes: Vec<String> = inventory_note.into_iter().collect();
     let mut bindings = Bindings::default();
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);

@@ -568,6 +568,12 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                 if let Some(c) = s.cost_factor {
                     site.cost_factor = c;
                 }
+                if let Some(p) = &s.parcel {
+                    site.parcel = p.clone();
+                }
+                if let Some(c) = &s.contact {
+                    site.contact = c.clone();
+                }
                 items.push(Patch {
                     id: PatchId(items.len() as u32),
                     label: s.id.clone(),

@@ -71,6 +71,11 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     }
     let mut resolved = s.clone();
     layers.bindings.apply(&mut resolved);
+    // The work CRS an inventory was converted into (the UTM zone chosen for lon/lat, the metre
+    // form of a feet CRS) is recorded, so the resolved scenario repeats it.
+    if resolved.host.inventory.is_some() {
+        resolved.host.work_crs = Some(patches.crs.name.clone());
+    }
 
     let by_label = patches.by_label();
     let mut required = vec![false; patches.len()];
