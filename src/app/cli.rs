@@ -289,6 +289,13 @@ pub struct RecordArgs {
     /// The filled completion file (from `hostcut contract`'s completion_template.csv)
     #[arg(long, value_name = "CSV")]
     pub completed: PathBuf,
+    /// Stems treated above the plan's estimate are accepted with a warning up to this share of
+    /// the planned stems, in percent; beyond it the file is refused
+    #[arg(long, value_name = "PCT", default_value_t = 25.0)]
+    pub extra_stems_tolerance_pct: f64,
+    /// Accept stems treated above the plan beyond the tolerance (after confirming the count)
+    #[arg(long)]
+    pub accept_extra_stems: bool,
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,

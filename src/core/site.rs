@@ -136,7 +136,10 @@ impl Site {
             notes.push(if self.contact.is_empty() {
                 "landowner permission first".to_string()
             } else {
-                format!("landowner permission first: call {} before entry", self.contact)
+                format!(
+                    "landowner permission first: call {} before entry",
+                    self.contact
+                )
             });
         }
         notes.join("; ")

@@ -27,10 +27,15 @@ pub struct Stand {
     pub parcel: Option<String>,
     /// Who to call before entry (landowner or manager), carried to orders and the contract.
     pub contact: Option<String>,
+    /// The stand's outline as WKT in the inventory's CRS (`outline` column, as `record` writes
+    /// it), with its line for messages.
+    pub outline_wkt: Option<(String, u64)>,
+    /// The outline in the work CRS, filled in by the caller once the CRS is settled.
+    pub outline: Option<geo::MultiPolygon<f64>>,
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
-/// `cost_factor`, `pressure`, `area_ha`, `suitability`, `parcel`, `contact`. Column names are matched case-insensitively.
+/// `cost_factor`, `pressure`, `area_ha`, `suitability`, `parcel`, `contact`, `outline` (WKT polygon in the inventory's CRS). Column names are matched case-insensitively.
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
     let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     parse_inventory(&bytes, &path.display().to_string())
@@ -82,7 +87,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         column("stems").unwrap_or(0),
     );
     let csuit = column("suitability");
-    let (cparcel, ccontact) = (column("parcel"), column("contact"));
+    let (cparcel, ccontact, coutline) = (column("parcel"), column("contact"), column("outline"));
     let (ca, ch, cc, cp, car) = (
         column("access"),
         column("herbicide"),
@@ -220,6 +225,8 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
             suitability,
             parcel: optional_text(cparcel).map(str::to_string),
             contact: optional_text(ccontact).map(str::to_string),
+            outline_wkt: optional_text(coutline).map(|t| (t.to_string(), line)),
+            outline: None,
         });
     }
     if stands.is_empty() {

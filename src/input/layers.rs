@@ -181,6 +181,20 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         for (stand, &(x, y)) in stands.iter_mut().zip(&projected.points) {
             stand.x = x;
             stand.y = y;
+            if let Some((wkt, line)) = &stand.outline_wkt {
+                let from = s.host.crs.as_deref().unwrap_or_default();
+                stand.outline = Some(gis::outline_from_wkt(wkt, from, &projected.crs).map_err(
+                    |why| {
+                        Error::input_with_hint(
+                            format!(
+                                "inventory `{}`, line {line}, column `outline`: {why}",
+                                path.display()
+                            ),
+                            "give a POLYGON or MULTIPOLYGON in WKT, in the inventory's CRS, or leave the cell empty",
+                        )
+                    },
+                )?);
+            }
         }
         inventory_note = projected.note;
         (

@@ -581,7 +581,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     y: s.y,
                     stems: s.stems,
                     area_ha: s.area_ha,
-                    outline: None,
+                    outline: s.outline.clone(),
                     site,
                     pressure_override: s.pressure,
                     suitability: s.suitability,

@@ -161,6 +161,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(o.suitability[i], 6),
             p.site.water.as_str().into(),
             p.site.notes(),
+            p.site.contact.clone(),
+            o.pressure.corridors[i].join(";"),
         ]);
     }
     let header = [
@@ -185,6 +187,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "suitability",
         "water",
         "site_notes",
+        "contact",
+        "corridors",
     ];
     staging.write("patches.csv", csv_bytes(&header, &rows)?)?;
 

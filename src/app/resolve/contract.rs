@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use crate::app::cli::{ContractArgs, RecordArgs};
 use crate::core::error::{Error, Result};
-use crate::field::contract::PlanFolder;
+use crate::field::contract::{ExtraStems, PlanFolder};
 
 /// Settings of one `contract` run.
 pub struct ContractSettings {
@@ -19,6 +19,8 @@ pub struct RecordSettings {
     pub folder: PlanFolder,
     /// The filled completion file.
     pub completed: PathBuf,
+    /// How stems above the plan are treated.
+    pub extra: ExtraStems,
     pub out: PathBuf,
     pub force: bool,
 }
@@ -37,10 +39,21 @@ pub fn contract(args: &ContractArgs) -> Result<ContractSettings> {
 }
 
 pub fn record(args: &RecordArgs) -> Result<RecordSettings> {
+    let pct = args.extra_stems_tolerance_pct;
+    if !(pct.is_finite() && pct >= 0.0) {
+        return Err(Error::input_with_hint(
+            format!("`--extra-stems-tolerance-pct {pct}` must be a percentage 0 or more"),
+            "the default is 25 (stems up to 25 % above the plan are accepted with a warning)",
+        ));
+    }
     let folder = PlanFolder::read(&args.plan_dir)?;
     Ok(RecordSettings {
         folder,
         completed: args.completed.clone(),
+        extra: ExtraStems {
+            tolerance: args.extra_stems_tolerance_pct / 100.0,
+            accept_all: args.accept_extra_stems,
+        },
         out: absolute(&args.out)?,
         force: args.force,
     })

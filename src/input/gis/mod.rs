@@ -25,7 +25,9 @@ use crate::core::memory::GDAL_CACHE_MB;
 pub use raster::{Frame, Grid, RasterFile, open_raster, rasterize_index, read_raster};
 pub use reproject::{ToLonLat, transform_points};
 pub use sample::RasterSampler;
-pub use vector::{Value, VectorFeature, VectorLayer, read_vector, vector_crs};
+pub use vector::{
+    Value, VectorFeature, VectorLayer, outline_from_wkt, outlines_wkt, read_vector, vector_crs,
+};
 pub use write::{
     GeometryKind, LayerData, Property, write_geojson, write_geotiff, write_geotiff_strips,
     write_layers, write_vector,
@@ -164,7 +166,11 @@ pub fn normalise_definition(definition: &str) -> String {
 /// applied).
 pub fn utm_epsg(lon: f64, lat: f64) -> u32 {
     let zone = (((lon + 180.0) / 6.0).floor() as i64).clamp(0, 59) as u32 + 1;
-    if lat >= 0.0 { 32600 + zone } else { 32700 + zone }
+    if lat >= 0.0 {
+        32600 + zone
+    } else {
+        32700 + zone
+    }
 }
 
 /// An inventory's coordinates converted into the work CRS.
@@ -199,11 +205,17 @@ pub fn project_points(
     let source = traditional(srs);
     let name = srs_name(&source);
     let geographic = source.is_geographic() || !source.is_projected();
-    let units = if geographic { 1.0 } else { source.linear_units() };
+    let units = if geographic {
+        1.0
+    } else {
+        source.linear_units()
+    };
     let units_name = if geographic {
         "degrees".to_string()
     } else {
-        source.linear_units_name().unwrap_or_else(|| format!("{units} m"))
+        source
+            .linear_units_name()
+            .unwrap_or_else(|| format!("{units} m"))
     };
     if geographic {
         if let Some(k) = points
@@ -222,7 +234,10 @@ pub fn project_points(
         }
     }
     let (crs, reason) = match work {
-        Some(w) => (Crs::parse(w, "`--work-crs`")?, "named by `--work-crs`".to_string()),
+        Some(w) => (
+            Crs::parse(w, "`--work-crs`")?,
+            "named by `--work-crs`".to_string(),
+        ),
         None if !geographic && (units - 1.0).abs() <= 1e-9 => {
             return Ok(Projected {
                 crs: Crs::from_srs(&source, what)?,
@@ -256,10 +271,7 @@ pub fn project_points(
             let metric = format!("{} +units=m", metric.join(" "));
             let mut crs = Crs::parse(&metric, what)?;
             crs.name = metric;
-            (
-                crs,
-                format!("{name} with metre units, the same projection"),
-            )
+            (crs, format!("{name} with metre units, the same projection"))
         }
     };
     let target = crs.srs()?;
@@ -272,7 +284,10 @@ pub fn project_points(
             .transform_coords(&mut xs, &mut ys, &mut [])
             .map_err(|e| {
                 Error::input_with_hint(
-                    format!("{what}: coordinates in {name} cannot be converted into {} ({e})", crs.name),
+                    format!(
+                        "{what}: coordinates in {name} cannot be converted into {} ({e})",
+                        crs.name
+                    ),
                     "check the coordinates and the CRS they are in (`--crs`)",
                 )
             })?;
