@@ -263,7 +263,12 @@ pub struct Summary {
     pub stems_treated: f64,
     pub dropped_slivers: usize,
     pub host_source: String,
+    /// The work CRS: x, y of plan.csv and patches.csv are in it.
     pub crs: String,
+    /// How an inventory's coordinates were converted into the work CRS (lon/lat into a UTM
+    /// zone, feet into metres); absent when they were used as given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub crs_conversion: Option<String>,
     pub kernel: String,
     #[serde(deserialize_with = "number")]
     pub alpha_m: f64,

@@ -157,6 +157,8 @@ pub struct Layers {
     /// Plain statements about rules that took their default (e.g. parcels with no herbicide
     /// value), shown on stderr and in summary.json.
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// The layers and fields actually read.
     pub bindings: Bindings,
 }
@@ -221,7 +223,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
     };
     let host_extent = host_extent(&host);
     let mut skipped = Skipped::default();
-    let mut notes: Vec<String> = inventory_note.into_iter().collect();
+    let mut notes: Vec<String> = Vec::new();
     let mut bindings = Bindings::default();
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);
@@ -412,6 +414,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         sensitive,
         skipped,
         notes,
+        crs_conversion: inventory_note,
         bindings,
     })
 }

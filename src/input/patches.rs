@@ -60,6 +60,8 @@ pub struct Patches {
     pub skipped: Skipped,
     /// Plain notes on rules that took their default (from the access layer).
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// Whether the sites were checked against water layers.
     pub water_checked: bool,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
@@ -603,6 +605,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
         dropped_slivers,
         skipped,
         notes: layers.notes.clone(),
+        crs_conversion: layers.crs_conversion.clone(),
         water_checked: layers.water_checked,
         source,
         runs,

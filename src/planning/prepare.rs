@@ -63,6 +63,9 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     for line in patches.skipped.lines() {
         printer::note(format_args!("note: {line}"));
     }
+    if let Some(note) = &patches.crs_conversion {
+        printer::note(format_args!("note: {note}"));
+    }
     for note in &patches.notes {
         printer::note(format_args!("note: {note}"));
     }

@@ -319,6 +319,7 @@ pub fn summary(
         dropped_slivers: o.patches.dropped_slivers,
         host_source: o.patches.source.to_string(),
         crs: o.patches.crs.name.clone(),
+        crs_conversion: o.patches.crs_conversion.clone(),
         kernel: format!("{:?}", model.kernel).to_lowercase(),
         alpha_m: model.alpha_m,
         epsilon: model.epsilon,
