@@ -299,3 +299,130 @@ fn parcel_and_contact_reach_orders_the_contract_and_next_seasons_inventory() {
         );
     }
 }
+
+/// A square polygon feature in EPSG:32618 with an id and stems.
+fn square(id: &str, x: f64, y: f64, side: f64, stems: f64) -> String {
+    format!(
+        r#"{{"type":"Feature","properties":{{"id":"{id}","stems":{stems}}},"geometry":{{"type":"Polygon","coordinates":[[[{x},{y}],[{x2},{y}],[{x2},{y2}],[{x},{y2}],[{x},{y}]]]}}}}"#,
+        x2 = x + side,
+        y2 = y + side
+    )
+}
+
+// Source: common practice (a stand mapped once keeps its outline from season to season).
+#[test]
+fn outlines_and_corridor_names_are_carried_into_next_seasons_inventory() {
+    let dir = tempfile::tempdir().unwrap();
+    let features = [
+        square("S1", 500000.0, 4480000.0, 60.0, 300.0),
+        square("S2", 500300.0, 4480100.0, 40.0, 200.0),
+        square("S3", 500900.0, 4480400.0, 50.0, 150.0),
+    ];
+    write(
+        dir.path(),
+        "stands.geojson",
+        &format!(
+            r#"{{"type":"FeatureCollection","crs":{{"type":"name","properties":{{"name":"urn:ogc:def:crs:EPSG::32618"}}}},"features":[{}]}}"#,
+            features.join(",")
+        ),
+    );
+    write(
+        dir.path(),
+        "rail.geojson",
+        r#"{"type":"FeatureCollection","crs":{"type":"name","properties":{"name":"urn:ogc:def:crs:EPSG::32618"}},"features":[{"type":"Feature","properties":{},"geometry":{"type":"LineString","coordinates":[[499900,4480030],[501000,4480030]]}}]}"#,
+    );
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--host",
+            "stands.geojson",
+            "--id-field",
+            "id",
+            "--corridor",
+            "rail.geojson",
+            "--budget",
+            "2000",
+            "--out",
+            "plan",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        run(dir.path(), &["contract", "--plan", "plan", "--out", "con"])
+            .status
+            .success()
+    );
+    let template = std::fs::read_to_string(dir.path().join("con/completion_template.csv")).unwrap();
+    write(dir.path(), "done.csv", &template);
+    let o = run(
+        dir.path(),
+        &[
+            "record",
+            "--plan",
+            "plan",
+            "--completed",
+            "done.csv",
+            "--out",
+            "rec",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let next = Table::read(&dir.path().join("rec/inventory.next.csv"));
+    assert_eq!(next.len(), 3);
+    let planned = Table::read(&dir.path().join("plan/patches.csv"));
+    let s1 = planned
+        .rows
+        .iter()
+        .find(|r| r.get("patch_id") == "S1")
+        .unwrap();
+    assert!(!s1.get("corridors").is_empty(), "S1 lies on the rail line");
+    for r in &next.rows {
+        let p = planned
+            .rows
+            .iter()
+            .find(|p| p.get("patch_id") == r.get("id"))
+            .unwrap();
+        assert_eq!(r.get("corridors"), p.get("corridors"));
+        assert!(
+            r.get("outline").starts_with("MULTIPOLYGON") || r.get("outline").starts_with("POLYGON"),
+            "{}",
+            r.get("outline")
+        );
+    }
+    // Next season's plan reads the outlines back: its plan.geojson has polygons of the same area.
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--inventory",
+            "rec/inventory.next.csv",
+            "--crs",
+            "32618",
+            "--budget",
+            "2000",
+            "--out",
+            "next",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let geojson = std::fs::read_to_string(dir.path().join("next/plan.geojson")).unwrap();
+    assert_eq!(
+        geojson.matches("\"Polygon\"").count() + geojson.matches("\"MultiPolygon\"").count(),
+        3,
+        "{geojson}"
+    );
+    let patches = Table::read(&dir.path().join("next/patches.csv"));
+    let s1 = patches
+        .rows
+        .iter()
+        .find(|r| r.get("patch_id") == "S1")
+        .unwrap();
+    assert!(
+        (s1.num("area_ha") - 0.36).abs() < 1e-3,
+        "{}",
+        s1.num("area_ha")
+    );
+}
