@@ -354,6 +354,28 @@ fn outlines_and_corridor_names_are_carried_into_next_seasons_inventory() {
             .status
             .success()
     );
+    // Printed areas in acres on request: 1 ac = 0.40468564224 ha (NIST Handbook 44, Appendix C).
+    let o = run(
+        dir.path(),
+        &[
+            "contract",
+            "--plan",
+            "plan",
+            "--out",
+            "con_ac",
+            "--area-units",
+            "ac",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (ha, ac) = (
+        Table::read(&dir.path().join("con/bid_schedule.csv")),
+        Table::read(&dir.path().join("con_ac/bid_schedule.csv")),
+    );
+    let (h, a) = (ha.rows[0].num("hectares"), ac.rows[0].num("acres"));
+    assert!((a - h / 0.40468564224).abs() <= 0.006, "{h} ha vs {a} ac");
+    let scope = std::fs::read_to_string(dir.path().join("con_ac/scope_of_work.md")).unwrap();
+    assert!(scope.contains(" ac),"), "{scope}");
     let template = std::fs::read_to_string(dir.path().join("con/completion_template.csv")).unwrap();
     write(dir.path(), "done.csv", &template);
     let o = run(

@@ -278,6 +278,9 @@ pub struct ContractArgs {
     /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
+    /// Units of printed areas: ha (hectares) or ac (international acres, 1 ac = 0.40468564224 ha)
+    #[arg(long, value_name = "UNIT", default_value = "ha", value_parser = ["ha", "ac"])]
+    pub area_units: String,
 }
 
 /// Flags of `hostcut record`.

@@ -9,6 +9,7 @@ use crate::core::cautions;
 use crate::core::error::Result;
 use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
+use crate::report::format::AreaUnit;
 use crate::report::output::{self, Staging};
 
 /// Contract money is billed money: to the cent (house style in `report::format`).
@@ -34,7 +35,9 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
             item.site_class.to_string(),
             item.patch_ids.len().to_string(),
             format!("{:.1}", item.stems),
-            item.hectares.map(|h| format!("{h:.2}")).unwrap_or_default(),
+            item.hectares
+                .map(|h| format!("{:.2}", settings.area_units.from_ha(h)))
+                .unwrap_or_default(),
             "stem".into(),
             format!("{:.4}", item.cents as f64 / 100.0 / item.stems.max(1e-9)),
             format!("{:.2}", item.cents as f64 / 100.0),
@@ -63,7 +66,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         "site_class",
         "patches",
         "stems",
-        "hectares",
+        settings.area_units.column(),
         "unit",
         "estimated_unit_price",
         "estimated_extended",
@@ -108,7 +111,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     )?;
 
     // Scope of work.
-    let (md, html) = scope_of_work(folder, &items, total);
+    let (md, html) = scope_of_work(folder, &items, total, settings.area_units);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())?;
@@ -129,6 +132,7 @@ fn scope_of_work(
     folder: &PlanFolder,
     items: &[contract::LineItem],
     total: i64,
+    area_units: AreaUnit,
 ) -> (String, String) {
     let currency = &folder.catalogue.currency;
     let mut sections: Vec<(String, Vec<String>)> = Vec::new();
@@ -186,7 +190,7 @@ fn scope_of_work(
                 item.patch_ids.len(),
                 thousands(item.stems),
                 item.hectares
-                    .map(|h| format!(", {h:.1} ha"))
+                    .map(|h| format!(", {:.1} {}", area_units.from_ha(h), area_units.symbol()))
                     .unwrap_or_default(),
                 item.site_class
             ),

@@ -6,10 +6,13 @@ use std::path::PathBuf;
 use crate::app::cli::{ContractArgs, RecordArgs};
 use crate::core::error::{Error, Result};
 use crate::field::contract::{ExtraStems, PlanFolder};
+use crate::report::format::AreaUnit;
 
 /// Settings of one `contract` run.
 pub struct ContractSettings {
     pub folder: PlanFolder,
+    /// Units of printed areas (bid schedule, scope of work).
+    pub area_units: AreaUnit,
     pub out: PathBuf,
     pub force: bool,
 }
@@ -33,6 +36,7 @@ pub fn contract(args: &ContractArgs) -> Result<ContractSettings> {
     let folder = PlanFolder::read(&args.plan_dir)?;
     Ok(ContractSettings {
         folder,
+        area_units: AreaUnit::parse(&args.area_units).unwrap_or_default(),
         out: absolute(&args.out)?,
         force: args.force,
     })
