@@ -34,6 +34,7 @@ fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
             site: Site::default(),
             pressure_override: None,
             suitability: None,
+            by_class: None,
         })
         .collect();
     patches_of(items)
@@ -57,18 +58,18 @@ fn patches_of(items: Vec<Patch>) -> Patches {
 /// Two methods: a cheap weak one and a dear strong one (the "most effective").
 fn two_methods(stems: f64) -> Vec<Choice> {
     vec![
-        Choice {
-            method: MethodId(0),
-            cost: 10.0 + stems,
-            hours: 0.01 * stems,
-            remaining: 0.4,
-        },
-        Choice {
-            method: MethodId(1),
-            cost: 10.0 + 3.0 * stems,
-            hours: 0.02 * stems,
-            remaining: 0.1,
-        },
+        Choice::single(
+            MethodId(0),
+            10.0 + stems,
+            0.01 * stems,
+            0.4,
+        ),
+        Choice::single(
+            MethodId(1),
+            10.0 + 3.0 * stems,
+            0.02 * stems,
+            0.1,
+        ),
     ]
 }
 

@@ -186,12 +186,12 @@ fn relaxation_equals_dantzig_bound_on_the_public_instances() {
                 .weights
                 .iter()
                 .map(|w| {
-                    vec![Choice {
-                        method: MethodId(0),
-                        cost: *w,
-                        hours: 0.0,
-                        remaining: 0.0,
-                    }]
+                    vec![Choice::single(
+                        MethodId(0),
+                        *w,
+                        0.0,
+                        0.0,
+                    )]
                 })
                 .collect(),
             budget: inst.capacity,

@@ -204,10 +204,14 @@ fn detections() -> Vec<(f64, f64)> {
     ]
 }
 
-/// Stand inventory CSV text (a separate, point-based survey of the same county).
+/// Stand inventory CSV text (a separate, point-based survey of the same county), with the stems
+/// of each stand by size class (seedlings, saplings, trees: the built-in catalogue's classes);
+/// every tenth stand is counted only as `stems`, so the default mix is shown too.
 pub fn inventory_csv() -> String {
     let mut rng = SplitMix::new(77);
-    let mut t = String::from("id,x,y,stems,access,herbicide,cost_factor\n");
+    // A stream of its own for the class mix, so the other columns stay as they were.
+    let mut mix = SplitMix::new(78);
+    let mut t = String::from("id,x,y,stems,seedlings,saplings,trees,access,herbicide,cost_factor\n");
     for k in 0..40 {
         let (x, y) = (
             rng.range(X0 + 100.0, X0 + 5_900.0),
@@ -218,9 +222,18 @@ pub fn inventory_csv() -> String {
         let herbicide = ["allowed", "allowed", "allowed", "restricted", "prohibited"]
             [(rng.unit() * 5.0) as usize];
         let cost = [1.0, 1.0, 1.1, 1.25][(rng.unit() * 4.0) as usize];
+        // A few seed trees, more saplings, a carpet of suckers (invented shares).
+        let trees = (stems * mix.range(0.0, 0.2)).round();
+        let saplings = (stems * mix.range(0.1, 0.5)).round();
+        let seedlings = stems - trees - saplings;
+        let classes = if k % 10 == 9 {
+            ",,".to_string()
+        } else {
+            format!("{seedlings},{saplings},{trees}")
+        };
         let _ = writeln!(
             t,
-            "HS-{:03},{x:.1},{y:.1},{stems},{access},{herbicide},{cost}",
+            "HS-{:03},{x:.1},{y:.1},{stems},{classes},{access},{herbicide},{cost}",
             k + 1
         );
     }
@@ -397,7 +410,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
          - water.gpkg: Hollin Run, a stream (patches within 15 m get only methods the catalogue allows near water)\n\
          - sensitive.gpkg: a school and a public well (patches within 30 m are restricted sites)\n\
          - detections.gpkg: known lanternfly populations\n\
-         - stands.csv: a point stand inventory of the same county (use with `--inventory stands.csv --crs EPSG:32618`)\n\
+         - stands.csv: a point stand inventory of the same county, stems by size class (seedlings, saplings, trees; every tenth stand counted only as stems) (use with `--inventory stands.csv --crs EPSG:32618`)\n\
          - scenario.toml: the demo plan's settings\n\
          - surveys.csv: eight invented seasons of lanternfly surveys (2018-2025), simulated by the tool's own model with exp kernel, alpha 200 m, colonisation 0.5, extinction 0.25, introduction 0.05 (use with `hostcut calibrate --surveys`)\n",
     )?;

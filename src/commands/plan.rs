@@ -201,6 +201,9 @@ fn human_summary(
             "  host weighted by the establishment suitability layer {layer}"
         ));
     }
+    if let Some(mix) = &summary.stem_mix_assumption {
+        t.line(format_args!("  assumption: {mix}"));
+    }
     if patches.dropped_slivers > 0 {
         t.line(format_args!(
             "  {} sliver patches below the minimum size were dropped",

@@ -230,6 +230,10 @@ pub struct HostSection {
     /// Establishment suitability raster (0..1); effective host = stems x suitability.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub suitability: Option<PathBuf>,
+    /// The size-class mix of stands counted only as `stems` (and of raster patches): class id ->
+    /// share, summing to 1; default: the catalogue's `default_share`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub default_mix: Option<std::collections::BTreeMap<String, f64>>,
     pub stems_field: String,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub id_field: Option<String>,
@@ -250,6 +254,7 @@ impl Default for HostSection {
             assume_crs: None,
             work_crs: None,
             suitability: None,
+            default_mix: None,
             stems_field: "stems".into(),
             id_field: None,
             min_density: 10.0,

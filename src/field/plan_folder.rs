@@ -293,6 +293,10 @@ pub struct Summary {
     pub patches_without_host: usize,
     /// How the site rules were read and checked.
     pub site_rules: SiteRules,
+    /// The size-class mix assumed for patches counted only as stems (absent when every patch
+    /// was counted by class, or the catalogue has no size classes).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub stem_mix_assumption: Option<String>,
 }
 
 /// summary.json's `site_rules`: whether water was checked, how many sites carry each rule, and

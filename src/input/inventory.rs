@@ -32,17 +32,28 @@ pub struct Stand {
     pub outline_wkt: Option<(String, u64)>,
     /// The outline in the work CRS, filled in by the caller once the CRS is settled.
     pub outline: Option<geo::MultiPolygon<f64>>,
+    /// Stems by size class, in the order of the classes the reader was given; `None` when the
+    /// row gives only `stems` (the default mix applies).
+    pub by_class: Option<Vec<f64>>,
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
 /// `cost_factor`, `pressure`, `area_ha`, `suitability`, `parcel`, `contact`, `outline` (WKT polygon in the inventory's CRS). Column names are matched case-insensitively.
-pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
+/// `classes` are the catalogue's size-class ids: columns of those names count stems by class
+/// (`stems` may then be left out, or must equal their sum).
+pub fn read_inventory(path: &Path, classes: &[String]) -> Result<Vec<Stand>> {
     let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
-    parse_inventory(&bytes, &path.display().to_string())
+    parse_inventory_with(&bytes, &path.display().to_string(), classes)
 }
 
-/// Parse and check inventory CSV bytes; `origin` names the file in messages.
+/// Parse and check inventory CSV bytes without size classes; `origin` names the file in
+/// messages.
 pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
+    parse_inventory_with(bytes, origin, &[])
+}
+
+/// Parse and check inventory CSV bytes, with the catalogue's size-class ids `classes`.
+pub fn parse_inventory_with(bytes: &[u8], origin: &str, classes: &[String]) -> Result<Vec<Stand>> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
@@ -59,8 +70,17 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         .map(|h| h.to_ascii_lowercase())
         .collect();
     let column = |name: &str| headers.iter().position(|h| h == name);
+    // Size-class columns: (class index, column).
+    let class_columns: Vec<(usize, usize)> = classes
+        .iter()
+        .enumerate()
+        .filter_map(|(k, id)| column(&id.to_ascii_lowercase()).map(|c| (k, c)))
+        .collect();
     let mut missing = Vec::new();
     for name in ["id", "x", "y", "stems"] {
+        if name == "stems" && !class_columns.is_empty() {
+            continue;
+        }
         if column(name).is_none() {
             missing.push(name);
         }
@@ -69,7 +89,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         let hint = if headers.len() == 1 && headers[0].contains(';') {
             "the file looks semicolon-separated; save it as comma-separated CSV"
         } else {
-            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha,suitability,parcel,contact)"
+            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha,suitability,parcel,contact, and stems by size class)"
         };
         return Err(Error::input_with_hint(
             format!(
@@ -84,7 +104,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         column("id").unwrap_or(0),
         column("x").unwrap_or(0),
         column("y").unwrap_or(0),
-        column("stems").unwrap_or(0),
+        column("stems"),
     );
     let csuit = column("suitability");
     let (cparcel, ccontact, coutline) = (column("parcel"), column("contact"), column("outline"));
@@ -212,10 +232,59 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
                 Some(v)
             }
         };
+        let given_stems = match cs.filter(|&c| !get(c).is_empty() || class_columns.is_empty()) {
+            None => None,
+            Some(c) => Some(number(c, "stems", false)?),
+        };
+        let by_class = if class_columns.iter().any(|&(_, c)| !get(c).is_empty()) {
+            let mut counts = vec![0.0; classes.len()];
+            for &(k, c) in &class_columns {
+                if !get(c).is_empty() {
+                    counts[k] = number(c, &classes[k], false)?;
+                }
+            }
+            Some(counts)
+        } else {
+            None
+        };
+        let stems = match (&by_class, given_stems) {
+            (Some(counts), Some(total)) => {
+                let sum: f64 = counts.iter().sum();
+                // Counts are whole stems; half a stem either way is rounding in the source.
+                if (sum - total).abs() > 0.5 {
+                    return Err(Error::input_with_hint(
+                        format!(
+                            "inventory `{file}`, line {line}: the stems by size class ({}) sum to {sum}, but `stems` is {total}",
+                            class_columns
+                                .iter()
+                                .map(|&(k, _)| format!("{} {}", classes[k], counts[k]))
+                                .collect::<Vec<_>>()
+                                .join(", ")
+                        ),
+                        "fix the counts, or leave `stems` empty so the classes' sum is used",
+                    ));
+                }
+                total
+            }
+            (Some(counts), None) => counts.iter().sum(),
+            (None, Some(total)) => total,
+            (None, None) => {
+                return Err(Error::input_with_hint(
+                    format!(
+                        "inventory `{file}`, line {line}: no stems (neither `stems` nor a size class column holds a count)"
+                    ),
+                    format!(
+                        "give `stems` or the stems by class ({})",
+                        classes.join(", ")
+                    ),
+                ));
+            }
+        };
         stands.push(Stand {
             x: number(cx, "x", true)?,
             y: number(cy, "y", true)?,
-            stems: number(cs, "stems", false)?,
+            stems,
+            by_class,
             id,
             area_ha,
             access,

@@ -161,18 +161,22 @@ pub struct Layers {
     pub crs_conversion: Option<String>,
     /// The layers and fields actually read.
     pub bindings: Bindings,
+    /// The catalogue's size-class ids: inventory columns and host-polygon fields counting stems
+    /// by class.
+    pub size_classes: Vec<String>,
 }
 
 /// Read every layer the scenario names; a host raster too large for `budget` is refused from
-/// its header.
-pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
+/// its header. `size_classes` are the catalogue's class ids (inventory columns and polygon
+/// fields that count stems by class; empty without classes).
+pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<Layers> {
     let assume = match &s.host.assume_crs {
         Some(def) => Some(Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
     let mut inventory_note = None;
     let (crs, host) = if let Some(path) = &s.host.inventory {
-        let mut stands = crate::input::inventory::read_inventory(path)?;
+        let mut stands = crate::input::inventory::read_inventory(path, size_classes)?;
         let points: Vec<(f64, f64)> = stands.iter().map(|s| (s.x, s.y)).collect();
         let projected = gis::project_points(
             s.host.crs.as_deref().unwrap_or_default(),
@@ -416,6 +420,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         notes,
         crs_conversion: inventory_note,
         bindings,
+        size_classes: size_classes.to_vec(),
     })
 }
 

@@ -37,6 +37,10 @@ pub struct Patch {
     pub pressure_override: Option<f64>,
     /// Establishment suitability from the inventory's `suitability` column (0 to 1).
     pub suitability: Option<f64>,
+    /// Stems counted by size class, in the catalogue's class order (inventory columns or
+    /// polygon fields named after the classes); `None` when counted only as `stems` (the
+    /// catalogue's default mix applies).
+    pub by_class: Option<Vec<f64>>,
 }
 
 impl Patch {
@@ -456,6 +460,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     site,
                     pressure_override: None,
                     suitability: None,
+                    by_class: None,
                 });
             }
             runs = components.into_iter().map(|c| c.runs).collect();
@@ -471,6 +476,13 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                 .id_field
                 .as_ref()
                 .map(|f| layer.field(f).unwrap_or(f).to_string());
+            // Fields counting stems by size class, where the layer has them.
+            let class_fields: Vec<(usize, String)> = layers
+                .size_classes
+                .iter()
+                .enumerate()
+                .filter_map(|(k, id)| layer.field(id).map(|f| (k, f.to_string())))
+                .collect();
             for f in &layer.features {
                 let at = format!(
                     "host layer `{}`, feature {}",
@@ -504,6 +516,44 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                         ));
                     }
                 };
+                let mut by_class = None;
+                if !class_fields.is_empty() {
+                    let mut counts = vec![0.0; layers.size_classes.len()];
+                    let mut any = false;
+                    for (k, field) in &class_fields {
+                        let Some(v) = f.fields.get(field) else { continue };
+                        if v.as_text().is_empty() {
+                            continue;
+                        }
+                        match v.as_number() {
+                            Some(n) if n.is_finite() && n >= 0.0 => {
+                                counts[*k] = n;
+                                any = true;
+                            }
+                            _ => {
+                                return Err(Error::input_with_hint(
+                                    format!(
+                                        "{at}, field `{field}`: stems must be a number 0 or more, got `{}`",
+                                        v.as_text()
+                                    ),
+                                    "fix the value in the host layer",
+                                ));
+                            }
+                        }
+                    }
+                    if any {
+                        let sum: f64 = counts.iter().sum();
+                        if (sum - stems).abs() > 0.5 {
+                            return Err(Error::input_with_hint(
+                                format!(
+                                    "{at}: the stems by size class sum to {sum}, but field `{stems_field}` is {stems}"
+                                ),
+                                "fix the counts so they add up to the stems field",
+                            ));
+                        }
+                        by_class = Some(counts);
+                    }
+                }
                 let label = match &id_field {
                     Some(field) => f
                         .fields
@@ -548,6 +598,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     outline: Some(polygon),
                     pressure_override: None,
                     suitability: None,
+                    by_class,
                 });
             }
             if items.is_empty() {
@@ -587,6 +638,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     site,
                     pressure_override: s.pressure,
                     suitability: s.suitability,
+                    by_class: s.by_class.clone(),
                 });
             }
         }

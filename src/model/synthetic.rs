@@ -71,6 +71,7 @@ pub fn generate(spec: &Spec) -> Landscape {
             },
             pressure_override: Some(if near_corridor { 4.0 } else { 1.0 }),
             suitability: None,
+            by_class: None,
         });
     }
     let points: Vec<(f64, f64)> = patches.iter().map(|p| (p.x, p.y)).collect();

@@ -141,7 +141,6 @@ pub fn assemble(
         .into_iter()
         .map(|(i, o, gain)| {
             let choice = problem.choices[i][o];
-            let method = catalogue.method(choice.method);
             let reduction_pct = if risk_before > 0.0 {
                 100.0 * gain / risk_before
             } else {
@@ -155,7 +154,7 @@ pub fn assemble(
             PlanRow {
                 patch: PatchId(i as u32),
                 choice,
-                cautions: treatments::caution_codes(method, &patches.items[i]),
+                cautions: treatments::prescription_cautions(catalogue, &choice, &patches.items[i]),
                 reduction_pct,
                 value_per_cost,
             }

@@ -49,10 +49,13 @@ pub struct Prepared {
 
 /// Run the stages for `s`; `progress` receives one line per stage.
 pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
-    let (catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
+    let (mut catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
+    if let Some(mix) = &s.host.default_mix {
+        catalogue.set_default_mix(mix)?;
+    }
     let budget = Budget::new(s.solver.max_memory_gb);
     progress("reading layers");
-    let layers = layers::load(s, &budget)?;
+    let layers = layers::load(s, &budget, &catalogue.inventory_classes())?;
     let patches = patches::build(&layers, &s.host, &budget)?;
     progress(&format!(
         "{} patches from the {} host layer",

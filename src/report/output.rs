@@ -104,15 +104,32 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             .unwrap_or_default()
     };
 
+    // With size classes, plan.csv says what each class gets (`prescription`) and its stems (one
+    // column per class, named as the inventory's); without, the columns are as before.
+    let classes = o.catalogue.inventory_classes();
     let mut rows = Vec::new();
     for (rank, row) in plan.rows.iter().enumerate() {
         let i = row.patch.index();
         let p = &patches.items[i];
-        rows.push(vec![
+        let (by_class, _) = o.catalogue.stems_by_class(p);
+        let mut cells = vec![
             (rank + 1).to_string(),
             p.label.clone(),
             o.catalogue.method(row.choice.method).id.clone(),
-            round(p.stems, 1),
+        ];
+        if !classes.is_empty() {
+            cells.push(crate::input::treatments::prescription_text(
+                o.catalogue,
+                &row.choice,
+                &by_class,
+            ));
+        }
+        cells.push(round(p.stems, 1));
+        if !classes.is_empty() {
+            cells.extend(by_class.iter().map(|n| round(*n, 1)));
+        }
+        rows.push(cells);
+        rows.last_mut().expect("just pushed").extend([
             round(row.choice.cost, 2),
             round(row.choice.hours, 2),
             round(plan.risk_shares[i], 6),
@@ -131,7 +148,14 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             p.site.notes(),
         ]);
     }
-    staging.write("plan.csv", csv_bytes(&PLAN_COLUMNS, &rows)?)?;
+    let mut header: Vec<&str> = PLAN_COLUMNS[..3].to_vec();
+    if !classes.is_empty() {
+        header.push("prescription");
+    }
+    header.push(PLAN_COLUMNS[3]);
+    header.extend(classes.iter().map(String::as_str));
+    header.extend(&PLAN_COLUMNS[4..]);
+    staging.write("plan.csv", csv_bytes(&header, &rows)?)?;
 
     let mut rows = Vec::new();
     for (i, p) in patches.items.iter().enumerate() {
@@ -266,6 +290,23 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
     Ok(())
 }
 
+/// The assumption a plan makes when patches were counted only as `stems` (or came from a
+/// raster) under a catalogue with size classes: the default mix it split them by.
+pub fn stem_mix_assumption(catalogue: &Catalogue, patches: &Patches) -> Option<String> {
+    let assumed = patches
+        .items
+        .iter()
+        .filter(|p| catalogue.stems_by_class(p).1)
+        .count();
+    (assumed > 0).then(|| {
+        format!(
+            "{assumed} of {} patches counted only as stems: split by the default size mix {}; count stems by size class for prescriptions that fit the stands",
+            patches.len(),
+            catalogue.default_mix_text()
+        )
+    })
+}
+
 /// The summary record.
 pub fn summary(
     o: &Outputs,
@@ -337,5 +378,6 @@ pub fn summary(
             .filter(|(p, s)| p.stems * **s <= 0.0)
             .count(),
         site_rules: SiteRules::of(o.patches),
+        stem_mix_assumption: stem_mix_assumption(o.catalogue, o.patches),
     }
 }

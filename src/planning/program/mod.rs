@@ -133,7 +133,9 @@ pub fn courses(
                 let mut hours = vec![0.0; s_count];
                 let mut visits = Vec::new();
                 let stems = patch.stems * u[start];
-                let (c, h) = price(catalogue, m, patch, stems);
+                // The new treatment is the whole prescription on the grown stand.
+                let (c, h, survivors) =
+                    crate::input::treatments::price_scaled(catalogue, patch, choice, u[start]);
                 cost[start] = c;
                 hours[start] = h;
                 host[start] = u[start] * choice.remaining;
@@ -145,7 +147,9 @@ pub fn courses(
                     cost: c,
                     hours: h,
                 });
-                let mut visit_stems = method.follow_up_share() * stems;
+                // Survivors and suckers of every treated class: seedling- and sapling-sized,
+                // visited with the primary method's follow-up method (methods notes section 8).
+                let mut visit_stems = survivors;
                 for t in start + 1..s_count {
                     if t <= start + follow_ups {
                         let (c, h) = price(catalogue, fu, patch, visit_stems);
@@ -323,11 +327,13 @@ pub fn season_floor(p: &ProgramProblem, limits: Limits) -> Result<f64> {
             .map(|i| {
                 p.courses[i]
                     .iter()
-                    .map(|c| Choice {
-                        method: MethodId(c.method as u16),
-                        cost: c.cost[..=t].iter().sum(),
-                        hours: c.hours[..=t].iter().sum(),
-                        remaining: c.host[t] / u,
+                    .map(|c| {
+                        Choice::single(
+                            MethodId(c.method as u16),
+                            c.cost[..=t].iter().sum(),
+                            c.hours[..=t].iter().sum(),
+                            c.host[t] / u,
+                        )
                     })
                     .collect()
             })
