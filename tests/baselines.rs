@@ -58,18 +58,8 @@ fn patches_of(items: Vec<Patch>) -> Patches {
 /// Two methods: a cheap weak one and a dear strong one (the "most effective").
 fn two_methods(stems: f64) -> Vec<Choice> {
     vec![
-        Choice::single(
-            MethodId(0),
-            10.0 + stems,
-            0.01 * stems,
-            0.4,
-        ),
-        Choice::single(
-            MethodId(1),
-            10.0 + 3.0 * stems,
-            0.02 * stems,
-            0.1,
-        ),
+        Choice::single(MethodId(0), 10.0 + stems, 0.01 * stems, 0.4),
+        Choice::single(MethodId(1), 10.0 + 3.0 * stems, 0.02 * stems, 0.1),
     ]
 }
 

@@ -9,22 +9,33 @@ use common::*;
 const STANDS: &str = "id,x,y,stems,access,herbicide\nA,500000,4480000,300,open,allowed\nB,500150,4480050,180,permission,allowed\nC,500400,4480000,220,open,restricted\nD,500600,4480200,90,open,prohibited\nE,503000,4483000,60,denied,allowed\n";
 
 fn planned(dir: &Path) -> serde_json::Value {
+    planned_with(dir, &[])
+}
+
+/// The plan under the catalogue before size classes (one method per patch on all stems):
+/// tests/fixtures/one_class/treatments.toml.
+fn planned_one_class(dir: &Path) -> serde_json::Value {
+    let catalogue =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/one_class/treatments.toml");
+    planned_with(dir, &["--treatments", catalogue.to_str().unwrap()])
+}
+
+fn planned_with(dir: &Path, extra: &[&str]) -> serde_json::Value {
     write(dir, "stands.csv", STANDS);
-    let o = run(
-        dir,
-        &[
-            "plan",
-            "--inventory",
-            "stands.csv",
-            "--crs",
-            "EPSG:32618",
-            "--budget",
-            "3000",
-            "--out",
-            "plan",
-            "--quiet",
-        ],
-    );
+    let mut args = vec![
+        "plan",
+        "--inventory",
+        "stands.csv",
+        "--crs",
+        "EPSG:32618",
+        "--budget",
+        "3000",
+        "--out",
+        "plan",
+        "--quiet",
+    ];
+    args.extend(extra);
+    let o = run(dir, &args);
     assert!(o.status.success(), "{}", stderr(&o));
     summary(&dir.join("plan"))
 }
@@ -55,13 +66,30 @@ fn bid_schedule_totals_equal_the_plans_cost() {
         spent,
         "line items must add up to the total"
     );
-    assert_eq!(
+    // A line per method, size class and site class: a patch with several treated classes
+    // is on several lines, every treated patch on one at least.
+    assert!(
         items
             .iter()
             .map(|r| r.get("patches").parse::<usize>().unwrap())
-            .sum::<usize>(),
-        s["n_treated"].as_u64().unwrap() as usize
+            .sum::<usize>()
+            >= s["n_treated"].as_u64().unwrap() as usize
     );
+    // Each line names a size class its method covers (methods notes section 8, from memory).
+    for r in items {
+        let ok: &[&str] = match r.get("method") {
+            "pull_seedlings" => &["seedlings"],
+            "foliar" => &["seedlings", "saplings"],
+            "basal_bark" => &["saplings"],
+            _ => &["saplings", "trees"],
+        };
+        assert!(
+            ok.contains(&r.get("size_class")),
+            "{} on {}",
+            r.get("method"),
+            r.get("size_class")
+        );
+    }
     assert!(
         items
             .iter()
@@ -350,7 +378,7 @@ fn planned_rows(dir: &Path) -> std::collections::HashMap<String, (String, f64)> 
 #[test]
 fn ten_percent_more_stems_and_an_eligible_substitute_pass_and_change_next_season() {
     let dir = tempfile::tempdir().unwrap();
-    planned(dir.path());
+    planned_one_class(dir.path());
     let plan = planned_rows(dir.path());
     assert_eq!(plan["B"].0, "foliar", "{plan:?}");
     assert_eq!(plan["A"].0, "basal_bark", "{plan:?}");

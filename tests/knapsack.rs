@@ -185,14 +185,7 @@ fn relaxation_equals_dantzig_bound_on_the_public_instances() {
             choices: inst
                 .weights
                 .iter()
-                .map(|w| {
-                    vec![Choice::single(
-                        MethodId(0),
-                        *w,
-                        0.0,
-                        0.0,
-                    )]
-                })
+                .map(|w| vec![Choice::single(MethodId(0), *w, 0.0, 0.0)])
                 .collect(),
             budget: inst.capacity,
             crew_hours: None,

@@ -99,7 +99,11 @@ fn no_method_is_applied_to_a_class_it_does_not_cover() {
         ]
         .into_iter()
         .collect();
-        assert_eq!(rows.len(), given.len(), "a budget this large treats every stand");
+        assert_eq!(
+            rows.len(),
+            given.len(),
+            "a budget this large treats every stand"
+        );
         for row in rows.rows.iter() {
             let id = row.get("patch_id");
             let counts = given[id];
@@ -129,7 +133,9 @@ fn no_method_is_applied_to_a_class_it_does_not_cover() {
                 assert!(["stem_injection", "trap_tree"].contains(&p["trees"].0.as_str()));
             }
             // Every herbicide method used brings its cautions.
-            if p.values().any(|(m, _)| m != "leave" && m != "pull_seedlings") {
+            if p.values()
+                .any(|(m, _)| m != "leave" && m != "pull_seedlings")
+            {
                 for code in ["LABEL", "PPE", "FOLLOWUP"] {
                     assert!(row.get("cautions").contains(code), "{id}: {code}");
                 }
@@ -137,7 +143,10 @@ fn no_method_is_applied_to_a_class_it_does_not_cover() {
         }
         let s = summary(&out);
         let assumption = s["stem_mix_assumption"].as_str().unwrap();
-        assert!(assumption.starts_with("1 of 7 patches counted only as stems"), "{assumption}");
+        assert!(
+            assumption.starts_with("1 of 7 patches counted only as stems"),
+            "{assumption}"
+        );
     }
 }
 
@@ -153,13 +162,23 @@ fn counts_by_class_that_disagree_with_stems_are_refused() {
     let o = run(
         d,
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "1000", "--out",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "1000",
+            "--out",
             "out",
         ],
     );
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     let e = stderr(&o);
-    assert!(e.contains("line 2") && e.contains("sum to 90") && e.contains("hint"), "{e}");
+    assert!(
+        e.contains("line 2") && e.contains("sum to 90") && e.contains("hint"),
+        "{e}"
+    );
     // Classes alone are enough: stems is their sum.
     write(
         d,
@@ -169,12 +188,22 @@ fn counts_by_class_that_disagree_with_stems_are_refused() {
     let o = run(
         d,
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "100000",
-            "--out", "out",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "100000",
+            "--out",
+            "out",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(!stdout(&o).contains("assumption:"), "no default mix was used");
+    assert!(
+        !stdout(&o).contains("assumption:"),
+        "no default mix was used"
+    );
     let rows = Table::read(&d.join("out/plan.csv"));
     let a = rows.rows.iter().find(|r| r.get("patch_id") == "A").unwrap();
     assert_eq!(a.num("stems"), 90.0);
@@ -261,10 +290,11 @@ fn one_stand_gets_the_best_affordable_prescription() {
         let out = plan(d, &inventory, &format!("{budget}"), &[]);
         let rows = Table::read(&out.join("plan.csv"));
         assert_eq!(rows.len(), 1, "budget {budget}");
-        let got: BTreeMap<String, String> = prescription(rows.rows.iter().next().unwrap().get("prescription"))
-            .into_iter()
-            .map(|(c, (m, _))| (c, m))
-            .collect();
+        let got: BTreeMap<String, String> =
+            prescription(rows.rows.iter().next().unwrap().get("prescription"))
+                .into_iter()
+                .map(|(c, (m, _))| (c, m))
+                .collect();
         assert_eq!(got, best.2, "budget {budget}");
         assert!((rows.rows.iter().next().unwrap().num("cost") - best.0).abs() < 0.005);
     }
@@ -287,8 +317,8 @@ fn optimum_over_prescriptions_equals_brute_force() {
     for budget in ["1200", "2500", "4000"] {
         let out = plan(d, &inventory, budget, &["--gap", "0"]);
         let s = summary(&out);
-        let scenario = hostcut::core::scenario::read_scenario(&out.join("scenario.resolved.toml"))
-            .unwrap();
+        let scenario =
+            hostcut::core::scenario::read_scenario(&out.join("scenario.resolved.toml")).unwrap();
         let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}).unwrap();
         let problem = hostcut::solve::problem::Problem {
             model: &prepared.model,
@@ -337,6 +367,9 @@ fn a_catalogue_without_size_classes_reproduces_the_old_plan() {
     assert!(o.status.success(), "{}", stderr(&o));
     let got = std::fs::read(d.join("old/plan.csv")).unwrap();
     let want = std::fs::read(fixtures.join("demo_plan.csv")).unwrap();
-    assert!(got == want, "plan.csv differs from the one before size classes");
+    assert!(
+        got == want,
+        "plan.csv differs from the one before size classes"
+    );
     assert!(!stdout(&o).contains("assumption:"));
 }

@@ -59,12 +59,14 @@ fn choices(l: &Landscape) -> Vec<Vec<Choice>> {
                 .iter()
                 .enumerate()
                 .filter(|(_, m)| *herbicide_ok || !m.4)
-                .map(|(k, m)| Choice::single(
-                    MethodId(k as u16),
-                    (m.1 + m.2 * s) * factor,
-                    m.3 * s,
-                    1.0 - m.0,
-                ))
+                .map(|(k, m)| {
+                    Choice::single(
+                        MethodId(k as u16),
+                        (m.1 + m.2 * s) * factor,
+                        m.3 * s,
+                        1.0 - m.0,
+                    )
+                })
                 .collect(),
         })
         .collect()

@@ -211,7 +211,8 @@ pub fn inventory_csv() -> String {
     let mut rng = SplitMix::new(77);
     // A stream of its own for the class mix, so the other columns stay as they were.
     let mut mix = SplitMix::new(78);
-    let mut t = String::from("id,x,y,stems,seedlings,saplings,trees,access,herbicide,cost_factor\n");
+    let mut t =
+        String::from("id,x,y,stems,seedlings,saplings,trees,access,herbicide,cost_factor\n");
     for k in 0..40 {
         let (x, y) = (
             rng.range(X0 + 100.0, X0 + 5_900.0),

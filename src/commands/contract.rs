@@ -23,6 +23,17 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     let currency = folder.catalogue.currency.clone();
     let items = contract::line_items(folder);
     let total: i64 = items.iter().map(|i| i.cents).sum();
+    // With size classes the bid has a line per method and size class, and says which.
+    let by_size = items.iter().any(|i| !i.size_class.is_empty());
+    let size_label = |id: &str| {
+        folder
+            .catalogue
+            .size_classes
+            .iter()
+            .find(|c| c.id == id)
+            .map(|c| format!(" - {}: {}", c.label, c.description))
+            .unwrap_or_default()
+    };
 
     // Bid schedule.
     let mut rows = Vec::new();
@@ -31,7 +42,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         rows.push(vec![
             item.number.to_string(),
             item.method.clone(),
-            method.label.clone(),
+            format!("{}{}", method.label, size_label(&item.size_class)),
             item.site_class.to_string(),
             item.patch_ids.len().to_string(),
             format!("{:.1}", item.stems),
@@ -73,6 +84,17 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         "bid_unit_price",
         "bid_extended",
     ];
+    // The size class column, after `method`, only when the catalogue has size classes.
+    let mut header: Vec<&str> = header.to_vec();
+    if by_size {
+        header.insert(2, "size_class");
+        for (row, item) in rows
+            .iter_mut()
+            .zip(items.iter().map(Some).chain(std::iter::once(None)))
+        {
+            row.insert(2, item.map(|i| i.size_class.clone()).unwrap_or_default());
+        }
+    }
     staging.write("bid_schedule.csv", output::csv_bytes(&header, &rows)?)?;
 
     // Completion template, in priority order.
@@ -105,6 +127,15 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         "parcel",
         "contact",
     ];
+    // With size classes, the planned prescription (what each class gets) follows `method`,
+    // for the crew to read; `record` checks the row's method and stems as before.
+    let mut header: Vec<&str> = header.to_vec();
+    if by_size {
+        header.insert(2, "planned_prescription");
+        for (row, p) in rows.iter_mut().zip(&folder.planned) {
+            row.insert(2, p.prescription_text(&folder.catalogue, 1.0));
+        }
+    }
     staging.write(
         "completion_template.csv",
         output::csv_bytes(&header, &rows)?,
@@ -185,8 +216,15 @@ fn scope_of_work(
         let method = folder.catalogue.method(item.method_id);
         let mut lines = vec![
             format!(
-                "Work: {} on {} patches ({} stems{}), site class: {}.",
+                "Work: {}{} on {} patches ({} stems{}), site class: {}.",
                 method.label,
+                folder
+                    .catalogue
+                    .size_classes
+                    .iter()
+                    .find(|c| c.id == item.size_class)
+                    .map(|c| format!(", {} ({})", c.label.to_lowercase(), c.description))
+                    .unwrap_or_default(),
                 item.patch_ids.len(),
                 thousands(item.stems),
                 item.hectares

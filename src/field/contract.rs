@@ -35,6 +35,8 @@ pub struct LineItem {
     pub method: String,
     pub method_id: MethodId,
     pub site_class: &'static str,
+    /// The size class the line treats (empty for a catalogue without size classes).
+    pub size_class: String,
     pub patch_ids: Vec<String>,
     pub stems: f64,
     pub hectares: Option<f64>,
@@ -46,7 +48,7 @@ fn cents(amount: f64) -> i64 {
     (amount * 100.0).round() as i64
 }
 
-/// Group the plan's rows by method and site class, in catalogue then class order.
+/// Group the plan's rows by method, size class and site class, in catalogue then class order.
 pub fn line_items(folder: &PlanFolder) -> Vec<LineItem> {
     let order = |c: &str| {
         ["open", "permission", "restricted site"]
@@ -54,30 +56,79 @@ pub fn line_items(folder: &PlanFolder) -> Vec<LineItem> {
             .position(|x| *x == c)
             .unwrap_or(3)
     };
-    let mut groups: BTreeMap<(MethodId, usize), LineItem> = BTreeMap::new();
+    // Lines by method, size class (catalogue order) and site class; a patch without size
+    // classes is one line of its method.
+    let class_ids = folder.catalogue.class_ids();
+    let mut groups: BTreeMap<(MethodId, usize, usize), LineItem> = BTreeMap::new();
     for p in &folder.planned {
         let method = folder.method_of(p);
-        let m_index = p.method_id;
         let class = site_class(p, method);
-        let item = groups
-            .entry((m_index, order(class)))
-            .or_insert_with(|| LineItem {
-                number: 0,
-                method: p.method.clone(),
-                method_id: p.method_id,
-                site_class: class,
-                patch_ids: Vec::new(),
-                stems: 0.0,
-                hectares: Some(0.0),
-                cents: 0,
-            });
-        item.patch_ids.push(p.patch_id.clone());
-        item.stems += p.stems;
-        item.hectares = match (item.hectares, folder.area_of(&p.patch_id)) {
-            (Some(a), Some(b)) => Some(a + b),
-            _ => None,
-        };
-        item.cents += cents(p.cost);
+        // (method, size class index, size class id, stems, cents) per line of this patch.
+        let mut parts: Vec<(MethodId, usize, String, f64, i64)> = Vec::new();
+        if p.classes.iter().all(|c| c.method.is_none()) {
+            parts.push((p.method_id, 0, String::new(), p.stems, cents(p.cost)));
+        } else {
+            // The patch's cost split over its treated classes in proportion to what each costs
+            // before the site factor (per-stem cost + its share of its method's fixed cost);
+            // cumulative rounding keeps the lines' cents summing to the plan's.
+            let treated: Vec<(MethodId, usize, String, f64)> = p
+                .classes
+                .iter()
+                .filter_map(|c| {
+                    let k = class_ids.iter().position(|id| *id == c.class).unwrap_or(0);
+                    c.method.map(|m| (m, k, c.class.clone(), c.stems))
+                })
+                .collect();
+            let raw: Vec<f64> = treated
+                .iter()
+                .map(|(m, k, _, n)| {
+                    let per_stem = folder.catalogue.cover(*m, *k).map(|c| c.0).unwrap_or(0.0);
+                    let method_stems: f64 = treated.iter().filter(|t| t.0 == *m).map(|t| t.3).sum();
+                    let fixed = folder.catalogue.method(*m).cost_per_patch;
+                    per_stem * n
+                        + if method_stems > 0.0 {
+                            fixed * n / method_stems
+                        } else {
+                            fixed
+                        }
+                })
+                .collect();
+            let sum: f64 = raw.iter().sum();
+            let total = cents(p.cost);
+            let (mut before, mut given) = (0.0, 0i64);
+            for (t, r) in treated.into_iter().zip(&raw) {
+                before += r;
+                let upto = if sum > 0.0 {
+                    (total as f64 * before / sum).round() as i64
+                } else {
+                    total
+                };
+                parts.push((t.0, t.1, t.2, t.3, upto - given));
+                given = upto;
+            }
+        }
+        for (m, k, size_class, stems, line_cents) in parts {
+            let item = groups
+                .entry((m, k, order(class)))
+                .or_insert_with(|| LineItem {
+                    number: 0,
+                    method: folder.catalogue.method(m).id.clone(),
+                    method_id: m,
+                    site_class: class,
+                    size_class,
+                    patch_ids: Vec::new(),
+                    stems: 0.0,
+                    hectares: Some(0.0),
+                    cents: 0,
+                });
+            item.patch_ids.push(p.patch_id.clone());
+            item.stems += stems;
+            item.hectares = match (item.hectares, folder.area_of(&p.patch_id)) {
+                (Some(a), Some(b)) => Some(a + b),
+                _ => None,
+            };
+            item.cents += line_cents;
+        }
     }
     groups
         .into_values()

@@ -55,6 +55,9 @@ pub struct Stop {
     pub parts: usize,
     pub method: String,
     pub method_id: MethodId,
+    /// What each size class gets at this stop (stems scaled to the part); empty without size
+    /// classes.
+    pub prescription: String,
     pub stems: f64,
     pub work_hours: f64,
     /// Travel from the previous stop (or the depot) to this one.
@@ -190,6 +193,10 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 parts,
                 method: p.method.clone(),
                 method_id: p.method_id,
+                prescription: p.prescription_text(
+                    &folder.catalogue,
+                    if p.stems > 0.0 { stems / p.stems } else { 1.0 },
+                ),
                 stems,
                 work_hours: hours,
                 travel_hours: 0.0,
@@ -205,6 +212,21 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
     for (k, s) in stops.iter().enumerate() {
         let method = folder.catalogue.method(s.method_id);
         let mut months = method.months.clone();
+        // A prescription of several methods is done in the months every one of them allows
+        // (the primary method's window when they share none).
+        let shared: Vec<u8> = months
+            .iter()
+            .copied()
+            .filter(|mo| {
+                folder
+                    .methods_of(&folder.planned[s.row])
+                    .iter()
+                    .all(|m| m.months.contains(mo))
+            })
+            .collect();
+        if !shared.is_empty() {
+            months = shared;
+        }
         months.sort_unstable();
         months.dedup();
         groups.entry(months).or_default().push(k);
@@ -468,18 +490,28 @@ pub fn fell_after(date: Date) -> Date {
 pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Instructions {
     let p = &folder.planned[stop.row];
     let method = folder.method_of(p);
+    let methods = folder.methods_of(p);
+    let herbicide = methods.iter().any(|m| m.herbicide);
     let mut text = Vec::new();
     if p.no_herbicide() {
         text.push("NO HERBICIDE ON THIS SITE.".to_string());
     }
-    text.push(method.label.clone());
+    if stop.prescription.is_empty() {
+        text.push(method.label.clone());
+    } else {
+        // Which stems get which method, then each method in words.
+        text.push(format!("Prescription: {}.", stop.prescription));
+        for m in &methods {
+            text.push(format!("{}: {}.", m.id.replace('_', " "), m.label));
+        }
+    }
     if stop.parts > 1 {
         text.push(format!(
             "Part {} of {}: about {:.0} of the patch's {:.0} stems today.",
             stop.part, stop.parts, stop.stems, p.stems
         ));
     }
-    if method.herbicide {
+    if herbicide {
         text.push("Apply per the product label.".into());
         if let Some(r) = p.restriction() {
             text.push(format!(
@@ -492,13 +524,13 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
         text.push(format!(
             "Near water ({}): {}keep the label's buffer from the water.",
             w.trim_start_matches("near water: "),
-            if method.herbicide {
+            if herbicide {
                 "use only a product labelled for aquatic sites; "
             } else {
                 ""
             }
         ));
-    } else if method.herbicide && p.cautions.split(';').any(|c| c == "WATER_UNCHECKED") {
+    } else if herbicide && p.cautions.split(';').any(|c| c == "WATER_UNCHECKED") {
         text.push("Water not checked: look for streams, ponds, wells and wetlands and keep the label's buffer.".into());
     } else if p.cautions.split(';').any(|c| c == "WATER") {
         text.push("Keep the label's buffer from water.".into());
@@ -513,7 +545,9 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
             }
         ));
     }
-    let fell = method.cautions.iter().any(|c| c == "FELL30");
+    let fell = methods
+        .iter()
+        .any(|m| m.cautions.iter().any(|c| c == "FELL30"));
     let fell_after = date.filter(|_| fell).map(fell_after);
     if let Some(f) = fell_after {
         text.push(format!("Do not fell treated stems before {f}."));

@@ -46,9 +46,55 @@ pub struct PlannedPatch {
     /// The site's rules in words (no herbicide, restricted conditions, water nearby).
     #[serde(default)]
     pub site_notes: String,
+    /// What each size class gets (`trees: stem_injection 12; saplings: leave 140`); empty for a
+    /// catalogue without size classes.
+    #[serde(default)]
+    pub prescription: String,
+    /// `prescription` read: class, method (None = leave) and stems, resolved with the folder.
+    #[serde(skip)]
+    pub classes: Vec<ClassTreatment>,
+}
+
+/// One size class of a planned patch: its method (None when left) and stems.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ClassTreatment {
+    pub class: String,
+    pub method: Option<MethodId>,
+    pub stems: f64,
 }
 
 impl PlannedPatch {
+    /// The distinct methods the patch gets, in catalogue order (the plan's method alone
+    /// without size classes).
+    pub fn methods_used(&self) -> Vec<MethodId> {
+        let mut out: Vec<MethodId> = self.classes.iter().filter_map(|c| c.method).collect();
+        if out.is_empty() {
+            out.push(self.method_id);
+        }
+        out.sort_unstable();
+        out.dedup();
+        out
+    }
+
+    /// The prescription in words with each class's stems scaled by `share` (a part of a split
+    /// patch), method names spelled out; empty without size classes.
+    pub fn prescription_text(&self, catalogue: &Catalogue, share: f64) -> String {
+        self.classes
+            .iter()
+            .map(|c| {
+                format!(
+                    "{}: {} {:.0}",
+                    c.class,
+                    c.method
+                        .map(|m| catalogue.method(m).id.replace('_', " "))
+                        .unwrap_or_else(|| "leave".into()),
+                    c.stems * share
+                )
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    }
+
     /// Whether the site forbids herbicide.
     pub fn no_herbicide(&self) -> bool {
         self.herbicide == "prohibited"
@@ -184,6 +230,16 @@ impl PlanFolder {
                     p.method
                 ))
             })?;
+            p.classes = parse_prescription(&p.prescription, &catalogue).map_err(|why| {
+                Error::input_with_hint(
+                    format!(
+                        "`{}`: plan.csv, patch `{}`, column `prescription`: {why}",
+                        dir.display(),
+                        p.patch_id
+                    ),
+                    "give the folder as `hostcut plan` wrote it",
+                )
+            })?;
         }
         let folder = PlanFolder {
             dir: dir.to_path_buf(),
@@ -194,6 +250,15 @@ impl PlanFolder {
             summary,
         };
         Ok(folder)
+    }
+
+    /// The methods of a planned patch (each resolved when the folder was read).
+    pub fn methods_of(&self, patch: &PlannedPatch) -> Vec<&Method> {
+        patch
+            .methods_used()
+            .into_iter()
+            .map(|m| self.catalogue.method(m))
+            .collect()
     }
 
     /// The method of a planned patch (resolved when the folder was read, so it cannot fail).
@@ -348,4 +413,38 @@ pub fn outlines(folder: &PlanFolder) -> Result<std::collections::BTreeMap<String
     }
     let crs = crate::input::gis::Crs::parse(&folder.crs, "the plan folder's work CRS")?;
     crate::input::gis::outlines_wkt(&path, &crs)
+}
+
+/// Read a `prescription` cell (`trees: stem_injection 12; saplings: leave 140`).
+pub fn parse_prescription(
+    cell: &str,
+    catalogue: &Catalogue,
+) -> std::result::Result<Vec<ClassTreatment>, String> {
+    let mut out = Vec::new();
+    for part in cell.split(';').map(str::trim).filter(|p| !p.is_empty()) {
+        let (class, rest) = part
+            .split_once(':')
+            .ok_or_else(|| format!("`{part}` is not `class: method stems`"))?;
+        let (method, stems) = rest
+            .trim()
+            .rsplit_once(' ')
+            .ok_or_else(|| format!("`{part}` is not `class: method stems`"))?;
+        let stems: f64 = stems
+            .parse()
+            .map_err(|_| format!("`{part}`: `{stems}` is not a number of stems"))?;
+        let method = match method {
+            "leave" => None,
+            m => Some(
+                catalogue
+                    .find(m)
+                    .ok_or_else(|| format!("method `{m}` is not in treatments.used.toml"))?,
+            ),
+        };
+        out.push(ClassTreatment {
+            class: class.trim().to_string(),
+            method,
+            stems,
+        });
+    }
+    Ok(out)
 }

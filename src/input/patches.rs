@@ -521,7 +521,9 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     let mut counts = vec![0.0; layers.size_classes.len()];
                     let mut any = false;
                     for (k, field) in &class_fields {
-                        let Some(v) = f.fields.get(field) else { continue };
+                        let Some(v) = f.fields.get(field) else {
+                            continue;
+                        };
                         if v.as_text().is_empty() {
                             continue;
                         }

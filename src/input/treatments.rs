@@ -127,8 +127,20 @@ const MAX_PRESCRIPTIONS: usize = 20_000;
 
 /// Inventory columns a size class may not be named after.
 const RESERVED_COLUMNS: [&str; 14] = [
-    "id", "x", "y", "stems", "access", "herbicide", "cost_factor", "pressure", "area_ha",
-    "suitability", "parcel", "contact", "outline", "method",
+    "id",
+    "x",
+    "y",
+    "stems",
+    "access",
+    "herbicide",
+    "cost_factor",
+    "pressure",
+    "area_ha",
+    "suitability",
+    "parcel",
+    "contact",
+    "outline",
+    "method",
 ];
 
 impl Method {
@@ -371,7 +383,10 @@ impl Catalogue {
                     ..
                 }) = u
                 {
-                    for (name, v) in [("cost_per_stem", cost_per_stem), ("hours_per_stem", hours_per_stem)] {
+                    for (name, v) in [
+                        ("cost_per_stem", cost_per_stem),
+                        ("hours_per_stem", hours_per_stem),
+                    ] {
                         if let Some(v) = v
                             && !(v.is_finite() && *v >= 0.0)
                         {
@@ -389,9 +404,10 @@ impl Catalogue {
         // per class: bounded here once, for the whole catalogue.
         let mut combinations = 1usize;
         for c in 0..self.n_classes() {
-            let options = 1 + (0..self.methods.len())
-                .filter(|&k| self.cover(MethodId(k as u16), c).is_some())
-                .count();
+            let options = 1
+                + (0..self.methods.len())
+                    .filter(|&k| self.cover(MethodId(k as u16), c).is_some())
+                    .count();
             combinations = combinations.saturating_mul(options);
         }
         if combinations > MAX_PRESCRIPTIONS {
@@ -400,7 +416,11 @@ impl Catalogue {
             )));
         }
         // The default mix: the classes' own shares, or equal shares when none is given.
-        let given: Vec<f64> = self.size_classes.iter().filter_map(|c| c.default_share).collect();
+        let given: Vec<f64> = self
+            .size_classes
+            .iter()
+            .filter_map(|c| c.default_share)
+            .collect();
         if self.size_classes.is_empty() {
             self.default_mix = vec![1.0];
             self.default_mix_source = "every stem in one class".into();
@@ -425,7 +445,8 @@ impl Catalogue {
 
     /// Replace the default mix by the scenario's `[host] default_mix` (class id -> share).
     pub fn set_default_mix(&mut self, mix: &BTreeMap<String, f64>) -> Result<()> {
-        let hint = "give every size class of the catalogue a share from 0 to 1, the shares summing to 1";
+        let hint =
+            "give every size class of the catalogue a share from 0 to 1, the shares summing to 1";
         if self.size_classes.is_empty() {
             return Err(Error::input_with_hint(
                 "scenario `[host] default_mix`: the treatment catalogue has no size classes",
@@ -445,7 +466,9 @@ impl Catalogue {
             };
             if !(v.is_finite() && (0.0..=1.0).contains(&v)) {
                 return Err(Error::input_with_hint(
-                    format!("scenario `[host] default_mix`, `{id}`: {v} is not a share from 0 to 1"),
+                    format!(
+                        "scenario `[host] default_mix`, `{id}`: {v} is not a share from 0 to 1"
+                    ),
                     hint,
                 ));
             }
@@ -494,17 +517,21 @@ impl Catalogue {
             return Some((method.cost_per_stem, method.hours_per_stem));
         }
         let id = &self.size_classes.get(c)?.id;
-        method.size_classes.iter().find(|u| u.id() == id).map(|u| match u {
-            ClassUse::Id(_) => (method.cost_per_stem, method.hours_per_stem),
-            ClassUse::Priced(PricedClass {
-                cost_per_stem,
-                hours_per_stem,
-                ..
-            }) => (
-                cost_per_stem.unwrap_or(method.cost_per_stem),
-                hours_per_stem.unwrap_or(method.hours_per_stem),
-            ),
-        })
+        method
+            .size_classes
+            .iter()
+            .find(|u| u.id() == id)
+            .map(|u| match u {
+                ClassUse::Id(_) => (method.cost_per_stem, method.hours_per_stem),
+                ClassUse::Priced(PricedClass {
+                    cost_per_stem,
+                    hours_per_stem,
+                    ..
+                }) => (
+                    cost_per_stem.unwrap_or(method.cost_per_stem),
+                    hours_per_stem.unwrap_or(method.hours_per_stem),
+                ),
+            })
     }
 
     /// A patch's stems by class, and whether they came from the default mix (a patch counted
@@ -600,7 +627,9 @@ impl Choice {
 
     /// The distinct methods used, in catalogue order (the primary alone when no class is set).
     pub fn methods(&self) -> Vec<MethodId> {
-        let mut out: Vec<MethodId> = (0..MAX_CLASSES).filter_map(|c| self.method_for(c)).collect();
+        let mut out: Vec<MethodId> = (0..MAX_CLASSES)
+            .filter_map(|c| self.method_for(c))
+            .collect();
         if out.is_empty() {
             out.push(self.method);
         }
@@ -685,8 +714,7 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Ve
     'combinations: loop {
         // The combination `index` (the odometer's first class turns slowest, so a one-class
         // catalogue lists its methods in catalogue order).
-        let picks: Vec<Option<MethodId>> =
-            index.iter().zip(&options).map(|(&k, o)| o[k]).collect();
+        let picks: Vec<Option<MethodId>> = index.iter().zip(&options).map(|(&k, o)| o[k]).collect();
         if picks.iter().any(Option::is_some) {
             let mut per_class = [LEAVE; MAX_CLASSES];
             let mut fixed = 0.0;
@@ -755,12 +783,19 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Ve
 /// programme's grown stand): fixed costs of the methods used + stems x cost per stem per class,
 /// times the cost factor, to the cent; follow-up stems = each treated class's stems x its
 /// method's follow-up share.
-pub fn price_scaled(catalogue: &Catalogue, patch: &Patch, choice: &Choice, scale: f64) -> (f64, f64, f64) {
+pub fn price_scaled(
+    catalogue: &Catalogue,
+    patch: &Patch,
+    choice: &Choice,
+    scale: f64,
+) -> (f64, f64, f64) {
     let (stems, _) = catalogue.stems_by_class(patch);
     let mut used: Vec<MethodId> = Vec::new();
     let (mut fixed, mut variable, mut hours, mut follow) = (0.0, 0.0, 0.0, 0.0);
     for (c, &n) in stems.iter().enumerate() {
-        let Some(m) = choice.method_for(c) else { continue };
+        let Some(m) = choice.method_for(c) else {
+            continue;
+        };
         let method = catalogue.method(m);
         let (cps, hps) = catalogue.cover(m, c).unwrap_or((0.0, 0.0));
         if !used.contains(&m) {
@@ -797,7 +832,11 @@ fn drop_dominated(choices: &mut Vec<Choice>) {
 }
 
 /// Caution codes for a prescription: those of every method it uses ([`caution_codes`]), merged.
-pub fn prescription_cautions(catalogue: &Catalogue, choice: &Choice, patch: &Patch) -> Vec<&'static str> {
+pub fn prescription_cautions(
+    catalogue: &Catalogue,
+    choice: &Choice,
+    patch: &Patch,
+) -> Vec<&'static str> {
     let mut codes: Vec<&'static str> = choice
         .methods()
         .into_iter()
@@ -936,10 +975,17 @@ mod tests {
         for ch in &choices {
             for class in 0..3 {
                 if let Some(m) = ch.method_for(class) {
-                    assert!(c.cover(m, class).is_some(), "{} on class {class}", c.method(m).id);
+                    assert!(
+                        c.cover(m, class).is_some(),
+                        "{} on class {class}",
+                        c.method(m).id
+                    );
                 }
             }
-            assert!(ch.per_class.iter().any(|&m| m != LEAVE), "no all-leave choice");
+            assert!(
+                ch.per_class.iter().any(|&m| m != LEAVE),
+                "no all-leave choice"
+            );
             // Cost: fixed cost of each distinct method + per-class stems x cost per stem.
             let methods = ch.methods();
             let mut cost: f64 = methods.iter().map(|&m| c.method(m).cost_per_patch).sum();
@@ -986,10 +1032,18 @@ mod tests {
     fn size_class_mistakes_are_refused() {
         let (_, text) = Catalogue::load(None).unwrap();
         for (from, to, says) in [
-            ("size_classes = [\"saplings\"]", "size_classes = [\"sapling\"]", "unknown size class"),
+            (
+                "size_classes = [\"saplings\"]",
+                "size_classes = [\"sapling\"]",
+                "unknown size class",
+            ),
             ("size_classes = [\"saplings\"]", "", "no size_classes"),
             ("default_share = 0.10", "default_share = 0.20", "sum to 1"),
-            ("hours_per_stem = 0.08 }", "hours_per_steem = 0.08 }", "line"),
+            (
+                "hours_per_stem = 0.08 }",
+                "hours_per_steem = 0.08 }",
+                "line",
+            ),
         ] {
             let bad = text.replacen(from, to, 1);
             let e = Catalogue::parse(&bad, "t").unwrap_err().to_string();

@@ -9,6 +9,13 @@ use super::{Orders, f2, stop_lonlats};
 pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
     let lonlats = stop_lonlats(ctx)?;
     let mut w = crate::core::csv_cells::Writer::new();
+    // With size classes, a `prescription` column after `method` says which stems get which
+    // method at the stop.
+    let classes = ctx
+        .folder
+        .planned
+        .iter()
+        .any(|p| !p.prescription.is_empty());
     let header = [
         "crew",
         "day",
@@ -36,13 +43,23 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
         "follow_up",
         "instructions",
     ];
+    let header: Vec<&str> = header
+        .iter()
+        .flat_map(|&h| {
+            if h == "method" && classes {
+                vec![h, "prescription"]
+            } else {
+                vec![h]
+            }
+        })
+        .collect();
     w.row(header)?;
     for (d, ll) in ctx.schedule.days.iter().zip(&lonlats) {
         let n = d.stops.len();
         for (k, (s, (lon, lat))) in d.stops.iter().zip(ll).enumerate() {
             let p = &ctx.folder.planned[s.row];
             let ins = orders::instructions(ctx.folder, s, d.date);
-            w.row([
+            let mut cells = vec![
                 d.crew.map(|c| c.to_string()).unwrap_or_default(),
                 d.day.to_string(),
                 d.date.map(|x| x.to_string()).unwrap_or_default(),
@@ -53,6 +70,11 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
                 s.patch_id.clone(),
                 format!("{}/{}", s.part, s.parts),
                 s.method.clone(),
+            ];
+            if classes {
+                cells.push(s.prescription.clone());
+            }
+            cells.extend([
                 format!("{:.1}", s.stems),
                 f2(s.work_hours),
                 f2(s.travel_hours),
@@ -74,7 +96,8 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
                 ins.fell_after.map(|x| x.to_string()).unwrap_or_default(),
                 ins.follow_up.unwrap_or_default(),
                 ins.text,
-            ])?;
+            ]);
+            w.row(cells)?;
         }
     }
     w.into_bytes()

@@ -309,9 +309,12 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
             codes.insert(c.to_string());
         }
         let ins = orders::instructions(folder, s, d.date);
-        methods
-            .entry(s.method.clone())
-            .or_insert((s.method_id, ins));
+        // Every method of the stop's prescription gets its own line under "How".
+        for m in p.methods_used() {
+            methods
+                .entry(folder.catalogue.method(m).id.clone())
+                .or_insert((m, ins.clone()));
+        }
         let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
             ("permission", false) => format!("permission first: call {} before entry", p.contact),
             ("permission", true) => "permission first".to_string(),
@@ -334,7 +337,11 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
                 format!(" &middot; {}", escape(&p.parcel))
             },
             site_rule_flags(p),
-            escape(&s.method.replace('_', " ")),
+            if s.prescription.is_empty() {
+                escape(&s.method.replace('_', " "))
+            } else {
+                escape(&s.prescription)
+            },
             s.stems,
             s.work_hours,
             escape(&getting_in),
@@ -349,6 +356,10 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
         let mut line = escape(&method.label);
         if method.herbicide {
             line.push_str(". <b>Apply per the product label.</b>");
+        }
+        // The method's own cautions, when the day's stops use more than one method.
+        if methods.len() > 1 && !method.cautions.is_empty() {
+            let _ = write!(line, " Cautions: {}.", escape(&method.cautions.join(" ")));
         }
         if let Some(f) = ins.fell_after {
             let _ = write!(line, " Do not fell treated stems before {f}.");
