@@ -113,9 +113,21 @@ fn plan_of_folder(prepared: &Prepared, dir: &std::path::Path) -> Result<Assignme
                 ))
             })?
             .index();
+        // With size classes the row's prescription names the choice (several prescriptions
+        // share a primary method); without, its method does.
+        let (by_class, _) = prepared
+            .catalogue
+            .stems_by_class(&prepared.patches.items[i]);
         let o = prepared.choices[i]
             .iter()
-            .position(|c| prepared.catalogue.methods[c.method.0 as usize].id == row.method)
+            .position(|c| {
+                if row.prescription.is_empty() {
+                    prepared.catalogue.methods[c.method.0 as usize].id == row.method
+                } else {
+                    crate::input::treatments::prescription_text(&prepared.catalogue, c, &by_class)
+                        == row.prescription
+                }
+            })
             .ok_or_else(|| {
                 Error::input(format!(
                     "`{}`: plan.csv treats `{}` with `{}`, which is not one of its choices now",

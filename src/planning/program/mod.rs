@@ -60,8 +60,11 @@ pub struct Visit {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Course {
     pub start: usize,
-    /// Catalogue index of the new treatment's method.
+    /// Catalogue index of the new treatment's (primary) method.
     pub method: usize,
+    /// Index of the patch's choice (prescription) the course starts with: what identifies a
+    /// course with `start` and `follow_ups`, since prescriptions may share a primary method.
+    pub choice: usize,
     pub follow_ups: usize,
     /// h_t for every season.
     pub host: Vec<f64>,
@@ -115,7 +118,7 @@ pub fn courses(
     let u = horizon.untreated();
     let s_count = horizon.seasons;
     let mut out = Vec::new();
-    for choice in choices {
+    for (choice_index, choice) in choices.iter().enumerate() {
         let m = choice.method.0 as usize;
         let method = &catalogue.methods[m];
         // The follow-up method, if this site may have it; else the same method again.
@@ -172,6 +175,7 @@ pub fn courses(
                 out.push(Course {
                     start,
                     method: m,
+                    choice: choice_index,
                     follow_ups,
                     host,
                     cost,
@@ -657,7 +661,7 @@ pub fn solve(
 pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
     let n = p.len();
     let seasons = p.weights.len();
-    // State: the course chosen so far (start, method, visits so far) per patch.
+    // State: the course chosen so far (start, choice, visits so far) per patch.
     let mut chosen: Vec<Option<(usize, usize, usize)>> = vec![None; n];
     let mut stopped = vec![false; n];
     for t in 0..seasons {
@@ -669,11 +673,11 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
                     None => c.start == t && c.follow_ups == 0,
                     Some((s, m, f)) if !stopped[i] => {
                         c.start == s
-                            && c.method == m
+                            && c.choice == m
                             && (c.follow_ups == f || c.follow_ups == f + 1)
                             && s + c.follow_ups <= t
                     }
-                    Some((s, m, f)) => c.start == s && c.method == m && c.follow_ups == f,
+                    Some((s, m, f)) => c.start == s && c.choice == m && c.follow_ups == f,
                 };
                 if ok {
                     allowed[i].push(c.clone());
@@ -710,7 +714,7 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
                 chosen[i].and_then(|(s, m, f)| {
                     season.courses[i]
                         .iter()
-                        .position(|c| c.start == s && c.method == m && c.follow_ups == f)
+                        .position(|c| c.start == s && c.choice == m && c.follow_ups == f)
                 })
             })
             .collect();
@@ -730,7 +734,7 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
             };
             let c = &season.courses[i][k];
             match chosen[i] {
-                None => chosen[i] = Some((c.start, c.method, 0)),
+                None => chosen[i] = Some((c.start, c.choice, 0)),
                 Some((s, m, f)) => {
                     if c.follow_ups == f + 1 {
                         chosen[i] = Some((s, m, f + 1));
@@ -746,7 +750,7 @@ pub fn myopic(p: &ProgramProblem, limits: Limits) -> Result<Assignment> {
             chosen[i].and_then(|(s, m, f)| {
                 p.courses[i]
                     .iter()
-                    .position(|c| c.start == s && c.method == m && c.follow_ups == f)
+                    .position(|c| c.start == s && c.choice == m && c.follow_ups == f)
             })
         })
         .collect())
