@@ -254,9 +254,23 @@ pub struct CurveArgs {
     /// patch with its most effective method, 20 budgets)
     #[arg(long, value_name = "MIN:MAX:STEPS")]
     pub budget_range: Option<String>,
-    /// Currency code shown in the outputs (default: the treatment catalogue's)
+    /// Currency of the outputs (default: the treatment catalogue's); another currency than the
+    /// catalogue's needs `--exchange-rate`
     #[arg(long, value_name = "CODE")]
     pub currency: Option<String>,
+    /// Units of `--currency` per unit of the catalogue's currency; every amount is converted and
+    /// the rate is stated on the page
+    #[arg(long, value_name = "RATE", requires = "currency")]
+    pub exchange_rate: Option<f64>,
+    /// Title of the justification page (default: a description of what it shows)
+    #[arg(long)]
+    pub title: Option<String>,
+    /// Place the page is about, e.g. the programme area, shown under the title
+    #[arg(long)]
+    pub place: Option<String>,
+    /// Date shown under the title, as written (e.g. 2027-03-01)
+    #[arg(long)]
+    pub date: Option<String>,
     /// Budget points solved at once (each worker solves a run of neighbouring budgets)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,

@@ -14,7 +14,15 @@ pub struct CurveSettings {
     pub jobs: usize,
     /// `--currency`: the code shown on amounts instead of the catalogue's.
     pub currency: Option<String>,
+    /// `--exchange-rate`: units of `currency` per unit of the catalogue's currency.
+    pub exchange_rate: Option<f64>,
+    /// `--plan DIR`: the plan whose budget is a level of the curve.
+    pub plan_dir: Option<std::path::PathBuf>,
+    /// The justification page's title, place and date.
+    pub page: PageLabels,
 }
+
+pub use crate::report::curve::PageLabels;
 
 pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
     if args.inputs.budget.is_some() {
@@ -36,6 +44,19 @@ pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
             ));
         }
     }
+    if let Some(rate) = args.exchange_rate
+        && !(rate.is_finite() && rate > 0.0)
+    {
+        return Err(Error::input_with_hint(
+            format!("`--exchange-rate {rate}` is not a rate above 0"),
+            "give units of `--currency` per unit of the catalogue's currency, e.g. `--currency EUR --exchange-rate 0.92`",
+        ));
+    }
+    let label = |v: &Option<String>| {
+        v.as_deref()
+            .map(|t| t.trim().to_string())
+            .filter(|t| !t.is_empty())
+    };
     if args.jobs == 0 {
         return Err(Error::input("`--jobs` must be at least 1"));
     }
@@ -63,5 +84,12 @@ pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
         },
         jobs: args.jobs,
         currency: args.currency.clone(),
+        exchange_rate: args.exchange_rate,
+        plan_dir: args.plan_dir.clone(),
+        page: PageLabels {
+            title: label(&args.title),
+            place: label(&args.place),
+            date: label(&args.date),
+        },
     })
 }
