@@ -9,6 +9,7 @@ use crate::core::cautions;
 use crate::core::error::Result;
 use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
+use crate::report::format::AreaUnit;
 use crate::report::output::{self, Staging};
 
 /// Contract money is billed money: to the cent (house style in `report::format`).
@@ -34,7 +35,9 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
             item.site_class.to_string(),
             item.patch_ids.len().to_string(),
             format!("{:.1}", item.stems),
-            item.hectares.map(|h| format!("{h:.2}")).unwrap_or_default(),
+            item.hectares
+                .map(|h| format!("{:.2}", settings.area_units.from_ha(h)))
+                .unwrap_or_default(),
             "stem".into(),
             format!("{:.4}", item.cents as f64 / 100.0 / item.stems.max(1e-9)),
             format!("{:.2}", item.cents as f64 / 100.0),
@@ -63,7 +66,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         "site_class",
         "patches",
         "stems",
-        "hectares",
+        settings.area_units.column(),
         "unit",
         "estimated_unit_price",
         "estimated_extended",
@@ -84,6 +87,9 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
             String::new(),
             String::new(),
             String::new(),
+            String::new(),
+            p.parcel.clone(),
+            p.contact.clone(),
         ]);
     }
     let header = [
@@ -95,6 +101,9 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         "applicator_licence",
         "product_active_ingredient",
         "notes",
+        "reason",
+        "parcel",
+        "contact",
     ];
     staging.write(
         "completion_template.csv",
@@ -102,7 +111,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     )?;
 
     // Scope of work.
-    let (md, html) = scope_of_work(folder, &items, total);
+    let (md, html) = scope_of_work(folder, &items, total, settings.area_units);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())?;
@@ -123,6 +132,7 @@ fn scope_of_work(
     folder: &PlanFolder,
     items: &[contract::LineItem],
     total: i64,
+    area_units: AreaUnit,
 ) -> (String, String) {
     let currency = &folder.catalogue.currency;
     let mut sections: Vec<(String, Vec<String>)> = Vec::new();
@@ -180,7 +190,7 @@ fn scope_of_work(
                 item.patch_ids.len(),
                 thousands(item.stems),
                 item.hectares
-                    .map(|h| format!(", {h:.1} ha"))
+                    .map(|h| format!(", {:.1} {}", area_units.from_ha(h), area_units.symbol()))
                     .unwrap_or_default(),
                 item.site_class
             ),
@@ -198,7 +208,25 @@ fn scope_of_work(
         ];
         match item.site_class {
             "restricted site" => lines.push("Restricted site: herbicide use only under the site's extra conditions (e.g. near a school, water supply or sensitive habitat); confirm them in writing with the site manager before work.".into()),
-            "permission" => lines.push("Landowner permission: obtain written permission from the owner or manager listed in the plan before entering; carry it on site.".into()),
+            "permission" => {
+                lines.push("Landowner permission: obtain written permission from the owner or manager listed in the plan before entering; carry it on site.".into());
+                for p in folder
+                    .planned
+                    .iter()
+                    .filter(|p| item.patch_ids.contains(&p.patch_id) && !p.contact.is_empty())
+                {
+                    lines.push(format!(
+                        "Patch {}{}: call {} before entry.",
+                        p.patch_id,
+                        if p.parcel.is_empty() {
+                            String::new()
+                        } else {
+                            format!(" (parcel {})", p.parcel)
+                        },
+                        p.contact
+                    ));
+                }
+            }
             _ => {}
         }
         let codes: std::collections::BTreeSet<&str> = folder
@@ -232,7 +260,7 @@ fn scope_of_work(
     sections.push((
         "What the contractor reports back".into(),
         vec![
-            "completion_template.csv filled in, one row per planned patch: treated_stems (blank if the patch was not done), date (YYYY-MM-DD), applicator_licence and product_active_ingredient for every herbicide treatment, and notes. `hostcut record` checks it against the plan.".into(),
+            "completion_template.csv filled in, one row per planned patch: treated_stems (blank if the patch was not done), date (YYYY-MM-DD), applicator_licence and product_active_ingredient for every herbicide treatment, and notes. A method other than the planned one is accepted only where it is eligible at the site (herbicide rule, water, restricted site), with the `method` changed and a `reason` given; stems above the plan's estimate by more than 25 % are refused until the count is confirmed. `hostcut record` checks it against the plan.".into(),
         ],
     ));
     let title = "Scope of work: tree-of-heaven treatment";
@@ -258,7 +286,12 @@ fn scope_of_work(
 
 pub fn run_record(settings: &RecordSettings) -> Result<String> {
     let folder = &settings.folder;
-    let done = contract::check_completion(folder, &settings.completed)?;
+    let completion = contract::check_completion(folder, &settings.completed, settings.extra)?;
+    let done = &completion.done;
+    for w in &completion.warnings {
+        crate::core::printer::note(format_args!("warning: {w}"));
+    }
+    let outlines = crate::field::plan_folder::outlines(folder)?;
     let staging = Staging::new(&settings.out, settings.force, "record")?;
     let by_patch: std::collections::HashMap<&str, &contract::Done> =
         done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
@@ -267,12 +300,14 @@ pub fn run_record(settings: &RecordSettings) -> Result<String> {
     for p in &folder.patches {
         let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
             Some(d) => {
+                // The method actually used (an eligible substitute counts at its own
+                // effectiveness); a crew count above the estimate replaces it.
                 let method = folder.catalogue.method(d.method_id);
                 let removed = d.treated_stems * method.effectiveness;
                 treated_stems += d.treated_stems;
                 removed_stems += removed;
                 (
-                    (p.stems - removed).max(0.0),
+                    (p.stems.max(d.treated_stems) - removed).max(0.0),
                     contract::follow_up_due(method, d.date),
                 )
             }
@@ -290,6 +325,10 @@ pub fn run_record(settings: &RecordSettings) -> Result<String> {
             p.area_ha.map(|a| format!("{a}")).unwrap_or_default(),
             p.suitability.map(|s| format!("{s}")).unwrap_or_default(),
             due,
+            p.parcel.clone(),
+            p.contact.clone(),
+            p.corridors.clone(),
+            outlines.get(&p.patch_id).cloned().unwrap_or_default(),
         ]);
     }
     let header = [
@@ -304,6 +343,10 @@ pub fn run_record(settings: &RecordSettings) -> Result<String> {
         "area_ha",
         "suitability",
         "follow_up_due",
+        "parcel",
+        "contact",
+        "corridors",
+        "outline",
     ];
     staging.write("inventory.next.csv", output::csv_bytes(&header, &rows)?)?;
     let planned_stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
@@ -351,18 +394,51 @@ pub fn run_record(settings: &RecordSettings) -> Result<String> {
         report,
         "\nPlan next season from it: `hostcut plan --inventory inventory.next.csv --crs {} --budget AMOUNT --out NEXT` (the `pressure` column keeps this season's corridor and detection pressure; delete it to recompute from layers).",
         if folder.crs.is_empty() {
-            "EPSG:NNNN"
+            "EPSG:NNNN".to_string()
+        } else if folder.crs.contains(' ') {
+            format!("'{}'", folder.crs)
         } else {
-            &folder.crs
+            folder.crs.clone()
         }
     );
+    let substituted: Vec<&contract::Done> = done
+        .iter()
+        .filter(|d| d.substituted_for.is_some())
+        .collect();
+    if !substituted.is_empty() {
+        report.push_str("\n## Methods other than planned\n\n| patch | planned | used | reason |\n|---|---|---|---|\n");
+        for d in substituted {
+            let _ = writeln!(
+                report,
+                "| {} | {} | {} | {} |",
+                d.patch_id,
+                d.substituted_for.as_deref().unwrap_or_default(),
+                d.method,
+                d.reason.replace('|', "/")
+            );
+        }
+    }
+    if !completion.warnings.is_empty() {
+        report.push_str("\n## Warnings\n\n");
+        for w in &completion.warnings {
+            let _ = writeln!(report, "- {w}");
+        }
+    }
     staging.write("record_report.md", &report)?;
     let out = staging.commit()?;
     Ok(format!(
-        "hostcut record: {} of {} planned patches done, {} stems treated\noutputs in {}: inventory.next.csv, record_report.md\n",
+        "hostcut record: {} of {} planned patches done, {} stems treated{}\noutputs in {}: inventory.next.csv, record_report.md\n",
         done.len(),
         folder.planned.len(),
         thousands(treated_stems),
+        if completion.warnings.is_empty() {
+            String::new()
+        } else {
+            format!(
+                " ({} warning(s), in record_report.md)",
+                completion.warnings.len()
+            )
+        },
         out.display()
     ))
 }
