@@ -177,11 +177,11 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
         "{text}"
     );
     let sim = rows_of(&dir.path().join("a/sim.csv"));
-    // 5 strategies x 9 years (0..=8).
-    assert_eq!(sim.len(), 45);
+    // 7 strategies (the demo has corridors) x 9 years (0..=8).
+    assert_eq!(sim.len(), 63);
     let strategies: std::collections::BTreeSet<&str> =
         sim.iter().map(|r| r.get("strategy")).collect();
-    assert_eq!(strategies.len(), 5);
+    assert_eq!(strategies.len(), 7);
     for r in &sim {
         let (p05, p50, p95) = (
             r.num("occupied_host_p05"),
@@ -227,7 +227,7 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     };
     let versus = json["versus_plan"].as_array().expect("versus_plan");
     let names: Vec<&str> = versus.iter().map(|v| v["strategy"].as_str().unwrap()).collect();
-    assert_eq!(names, ["greedy", "density", "random"]);
+    assert_eq!(names, ["greedy", "density", "biggest", "corridor", "random"]);
     for v in versus {
         let name = v["strategy"].as_str().unwrap();
         let per_year = v["per_year"].as_array().unwrap();
@@ -266,7 +266,19 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
         .descendants()
         .filter(|n| n.attribute("class") == Some("band"))
         .count();
-    assert_eq!(bands, 5, "one 5-95% band per strategy");
+    assert_eq!(bands, 7, "one 5-95% band per strategy");
+    // The chart marks the first year each strategy beats the plan, as the verdict says.
+    let beats = versus
+        .iter()
+        .filter(|v| {
+            v["per_year"].as_array().unwrap().iter().any(|y| y["ci95"][1].as_f64().unwrap() < 0.0)
+        })
+        .count();
+    let markers = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("marker-label"))
+        .count();
+    assert_eq!(markers, beats, "{svg}");
 }
 
 fn rows_of(path: &std::path::Path) -> Vec<Row> {
@@ -355,6 +367,17 @@ fn simulate_takes_the_plan_inputs_directly() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("the plan leaves"), "{}", stdout(&o));
+    // No corridors: corridor-first would be biggest-first under another name (issue 22).
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("sim/sim.json")).unwrap())
+            .unwrap();
+    let names: Vec<&str> = json["strategies"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["name"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["none", "plan", "greedy", "density", "biggest", "random"]);
     let o = run(
         dir.path(),
         &[

@@ -34,7 +34,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
             method.label.clone(),
             item.site_class.to_string(),
             item.patch_ids.len().to_string(),
-            format!("{:.1}", item.stems),
+            format!("{:.0}", item.stems.round() + 0.0),
             item.hectares
                 .map(|h| format!("{:.2}", settings.area_units.from_ha(h)))
                 .unwrap_or_default(),
@@ -51,7 +51,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         String::new(),
         String::new(),
         folder.planned.len().to_string(),
-        format!("{:.1}", items.iter().map(|i| i.stems).sum::<f64>()),
+        format!("{:.0}", items.iter().map(|i| i.stems).sum::<f64>().round() + 0.0),
         String::new(),
         String::new(),
         String::new(),
@@ -81,7 +81,7 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
         rows.push(vec![
             p.patch_id.clone(),
             p.method.clone(),
-            format!("{}", p.stems),
+            format!("{:.0}", p.stems.round() + 0.0),
             String::new(),
             String::new(),
             String::new(),

@@ -228,8 +228,15 @@ fn human_summary(
                 money(c, summary.budget),
                 summary.crew_hours
             ));
+            // Over several dispersal scenarios the headline R is their weighted mean, whatever
+            // the objective was (the ensemble lines name the objective's value).
             t.line(format_args!(
-                "connected-host risk index R {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
+                "connected-host risk index R{} {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
+                if summary.ensemble.is_some() {
+                    " (weighted mean over the dispersal scenarios)"
+                } else {
+                    ""
+                },
                 small(summary.risk_before),
                 small(summary.risk_after),
                 summary.risk_reduction_pct

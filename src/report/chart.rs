@@ -146,6 +146,15 @@ fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) ->
     placed
 }
 
+/// Decimals a tick label needs to show ticks `step` apart distinctly.
+fn step_decimals(step: f64) -> usize {
+    if step >= 1.0 || !(step > 0.0) {
+        0
+    } else {
+        (-step.log10() - 1e-9).ceil() as usize
+    }
+}
+
 /// Escape text for XML.
 pub fn escape(text: &str) -> String {
     text.replace('&', "&amp;")
@@ -265,11 +274,18 @@ pub fn fan_chart(
             r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#,
             left - 8.0,
             py + 4.0,
-            y.round()
+            crate::report::format::fixed(y, step_decimals(ystep))
         );
         y += ystep;
     }
+    // Whole-number x (seasons, years) never gets a tick between two whole numbers: a step
+    // below 1 would print "1, 2, 2, 2, 3" through `x_format`.
+    let whole_x = series
+        .iter()
+        .flat_map(|s| s.points.iter())
+        .all(|p| p.0.fract() == 0.0);
     let xstep = tick_step(x1 - x0, 6);
+    let xstep = if whole_x { xstep.max(1.0) } else { xstep };
     let mut x = (x0 / xstep).ceil() * xstep;
     while x <= x1 + 1e-9 {
         let px = sx(x);
@@ -408,5 +424,28 @@ mod tests {
         assert_eq!(thousands(-45000.0), "-45,000");
         assert_eq!(tick_step(100.0, 5), 20.0);
         assert_eq!(tick_step(45000.0, 6), 10000.0);
+        assert_eq!(step_decimals(0.5), 1);
+        assert_eq!(step_decimals(0.02), 2);
+        assert_eq!(step_decimals(5.0), 0);
+    }
+
+    // Issue 22: a three-season chart read "1, 2, 2, 2, 3" on its axis.
+    #[test]
+    fn whole_number_axes_tick_whole_numbers() {
+        let series = [Series {
+            id: "a".into(),
+            label: "a".into(),
+            points: vec![(1.0, 3.0), (2.0, 2.0), (3.0, 1.0)],
+            style: Style::Main,
+        }];
+        let svg = line_chart("t", "season", "y", &|x| format!("{x:.0}"), 3.3, &series, &[]);
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let below: Vec<&str> = doc
+            .descendants()
+            .filter(|n| n.attribute("text-anchor") == Some("middle"))
+            .filter_map(|n| n.text())
+            .filter(|t| t.chars().all(|c| c.is_ascii_digit()))
+            .collect();
+        assert_eq!(below, ["1", "2", "3"], "{svg}");
     }
 }

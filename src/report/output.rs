@@ -32,23 +32,13 @@ pub fn write_provenance(
     )
 }
 
-/// Scientific notation for values that span many orders of magnitude.
-fn sci(v: f64) -> String {
-    if !v.is_finite() {
-        String::new()
-    } else if v.abs() < 1e-300 {
-        "0".into()
-    } else {
-        format!("{v:.6e}")
-    }
-}
-
 fn round(v: f64, digits: i32) -> String {
     if !v.is_finite() {
         return String::new();
     }
     let m = 10f64.powi(digits);
-    format!("{}", (v * m).round() / m)
+    // `+ 0.0` turns -0 into 0: a person should never read "-0".
+    format!("{}", (v * m).round() / m + 0.0)
 }
 
 /// Everything the writers need.
@@ -112,7 +102,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             (rank + 1).to_string(),
             p.label.clone(),
             o.catalogue.method(row.choice.method).id.clone(),
-            round(p.stems, 1),
+            round(p.stems, 0),
             round(row.choice.cost, 2),
             round(row.choice.hours, 2),
             round(plan.risk_shares[i], 6),
@@ -141,7 +131,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(p.y, 2),
             round(lonlat[i].0, 7),
             round(lonlat[i].1, 7),
-            round(p.stems, 1),
+            round(p.stems, 0),
             p.area_ha.map(|a| round(a, 4)).unwrap_or_default(),
             round(o.pressure.values[i], 4),
             p.site.access.as_str().into(),
@@ -154,7 +144,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
                 "no".into()
             },
             round(plan.risk_shares[i], 6),
-            sci(plan.patch_value[i]),
+            crate::report::format::significant(plan.patch_value[i], 6),
             round(plan.establishment_before[i], 6),
             round(plan.establishment_after[i], 6),
             method_id(i),

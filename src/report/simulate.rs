@@ -8,18 +8,22 @@ use crate::core::cautions;
 use crate::core::error::{Error, Result};
 use crate::model::simulate;
 use crate::planning::prepare::Prepared;
-use crate::planning::simulate::{STRATEGIES, Simulation, pct};
-use crate::report::chart::{self, Series, Style};
+use crate::planning::simulate::{self as planning_sim, Simulation, pct};
+use crate::report::chart::{self, Marker, Series, Style};
 use crate::report::output::Staging;
 
-/// The line style of each of [`STRATEGIES`], same order.
-const STYLES: [Style; 5] = [
-    Style::LongDash,
-    Style::Main,
-    Style::Dashed,
-    Style::Dotted,
-    Style::DashDot,
-];
+/// The line style of each strategy (black and white print tells them apart by dash).
+fn style(id: &str) -> Style {
+    match id {
+        "none" => Style::LongDash,
+        "plan" => Style::Main,
+        "greedy" => Style::Dashed,
+        "density" => Style::Dotted,
+        "biggest" => Style::DashDot,
+        "corridor" => Style::LongDash,
+        _ => Style::DashDot,
+    }
+}
 
 fn num(v: f64) -> String {
     if v.is_finite() {
@@ -44,7 +48,8 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
     ])?;
     let mut bands = Vec::new();
     let mut lines = Vec::new();
-    for (((name, label), style), t) in STRATEGIES.iter().zip(STYLES).zip(traces) {
+    for (name, t) in sim.strategies.iter().zip(traces) {
+        let (label, style) = (planning_sim::label(name), style(name));
         let mut band = Vec::new();
         let mut line = Vec::new();
         for year in 0..=years as usize {
@@ -87,7 +92,7 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
     // patch_occupancy.csv
     let mut w = crate::core::csv_cells::Writer::new();
     let mut header = vec!["patch_id".to_string()];
-    header.extend(STRATEGIES.iter().map(|s| s.0.to_string()));
+    header.extend(sim.strategies.iter().map(|s| s.to_string()));
     w.row(&header)?;
     for (i, p) in prepared.patches.items.iter().enumerate() {
         let mut row = vec![p.label.clone()];
@@ -105,6 +110,20 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
         .map(|b| b.2)
         .fold(1.0, f64::max)
         .ceil();
+    // A marker where a strategy first leaves less host occupied than the plan: the chart
+    // shows what the verdict says.
+    let markers: Vec<Marker> = sim
+        .summary
+        .versus_plan
+        .iter()
+        .filter_map(|v| {
+            planning_sim::first_better_year(v).map(|year| Marker {
+                x: year as f64,
+                label: format!("{} below the plan from year {year}", planning_sim::label(v.strategy)),
+                strong: false,
+            })
+        })
+        .collect();
     let svg = chart::fan_chart(
         &format!("Occupied host over {years} years ({runs} runs; mean and 5-95% band)"),
         "year (treatment at the start of year 1)",
@@ -112,7 +131,7 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
         &|x| format!("{x:.0}"),
         (y_max * 1.1).ceil(),
         &lines,
-        &[],
+        &markers,
         &bands,
     );
     staging.write("sim.svg", &svg)?;
