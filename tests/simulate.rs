@@ -165,7 +165,7 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     };
     let text = go("a", "1");
     go("b", "3");
-    for f in ["sim.csv", "patch_occupancy.csv", "sim.svg", "sim.json"] {
+    for f in ["sim.csv", "patch_occupancy.csv", "sim.svg", "sim.json", "proxy.csv"] {
         assert_eq!(
             std::fs::read(dir.path().join("a").join(f)).unwrap(),
             std::fs::read(dir.path().join("b").join(f)).unwrap(),
@@ -258,6 +258,38 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     if let Some(verdict) = json["verdict"].as_str() {
         assert!(text.contains(verdict) && verdict.contains("hostcut program"), "{text}");
     }
+    // Proxy check (issue 22): the plan, the four rules and 12 random plans scored by R and by
+    // the simulation; Spearman's rho recomputed by scipy.stats.spearmanr (the reference; scipy
+    // from the registries, python3-scipy) from proxy.csv.
+    let proxy = rows_of(&dir.path().join("a/proxy.csv"));
+    assert_eq!(proxy.len(), 5 + 12, "plan, greedy, density, biggest, corridor, 12 random");
+    let check = &json["proxy_check"];
+    let rho = check["spearman_mean"].as_f64().expect("spearman_mean");
+    let ci = &check["spearman_mean_ci95"];
+    let (lo, hi) = (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap());
+    assert!(-1.0 <= lo && lo <= hi && hi <= 1.0, "{ci}");
+    assert!(text.contains(check["reading"].as_str().unwrap()), "{text}");
+    let script = format!(
+        "import csv, scipy.stats as s\nr = list(csv.DictReader(open({:?})))\nprint(repr(s.spearmanr([float(x['risk_after']) for x in r], [float(x['mean_occupied_host_pct']) for x in r]).correlation))",
+        dir.path().join("a/proxy.csv").display().to_string()
+    );
+    let o = std::process::Command::new("/usr/bin/python3")
+        .args(["-c", &script])
+        .output()
+        .expect("run /usr/bin/python3 (python3-scipy)");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let scipy: f64 = String::from_utf8_lossy(&o.stdout).trim().parse().unwrap();
+    assert!((scipy - rho).abs() < 1e-9, "scipy {scipy} vs hostcut {rho}");
+    let plan_r = json["strategies"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["name"] == "plan")
+        .unwrap()["risk_after"]
+        .as_f64()
+        .unwrap();
+    let row = proxy.iter().find(|r| r.get("plan") == "plan").unwrap();
+    assert!((row.num("risk_after") - plan_r).abs() <= 1e-9 * plan_r);
     let occ = rows_of(&dir.path().join("a/patch_occupancy.csv"));
     assert_eq!(occ.len(), 108);
     let svg = std::fs::read_to_string(dir.path().join("a/sim.svg")).unwrap();

@@ -341,6 +341,10 @@ pub struct SimulateArgs {
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+    /// Random feasible plans simulated besides the plan and the rules, to check whether plans
+    /// with a lower R also leave less host occupied (proxy.csv, sim.json `proxy_check`); 0: none
+    #[arg(long, default_value_t = 12)]
+    pub proxy_plans: usize,
     /// e: yearly extinction probability of an average-sized untreated patch [default: 0.2, or the `--calibration` fit]
     #[arg(long)]
     pub extinction: Option<f64>,

@@ -348,9 +348,9 @@ pub fn solve(
     );
     let _ = writeln!(
         text,
-        "  plan written: {written} (worst-case R {}, weighted-mean R {} - the headline R; worst regret {:.2}%)",
-        crate::report::format::significant(written_json["worst_risk"].as_f64().unwrap_or(f64::NAN), 4),
-        crate::report::format::significant(written_json["mean_risk"].as_f64().unwrap_or(f64::NAN), 4),
+        "  plan written: {written} (worst-case R {:.6}, weighted-mean R {:.6} - the headline R; worst regret {:.2}%)",
+        written_json["worst_risk"].as_f64().unwrap_or(f64::NAN),
+        written_json["mean_risk"].as_f64().unwrap_or(f64::NAN),
         written_regret
     );
     if most.0 != written {

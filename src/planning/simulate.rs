@@ -14,6 +14,7 @@ use crate::model::graph;
 use crate::model::simulate::{self, Landscape, Params, Trace, Treatment};
 use crate::planning::baselines;
 use crate::planning::prepare::Prepared;
+use crate::planning::proxy;
 use crate::solve::optimise;
 use crate::solve::problem::{Assignment, Limits, Problem};
 
@@ -66,6 +67,8 @@ pub struct Runs {
     pub seed: u64,
     /// Worker threads.
     pub jobs: usize,
+    /// Random feasible plans added to the plan and the rules for the proxy check (0: none).
+    pub proxy_plans: usize,
 }
 
 #[derive(Serialize)]
@@ -130,6 +133,8 @@ pub struct SimJson {
     /// One plain sentence when some strategy does as well as or better than the plan at some
     /// horizon, with why; absent when the plan is better everywhere.
     pub verdict: Option<String>,
+    /// Whether plans with a lower R also do better in the simulation ([`proxy`]).
+    pub proxy_check: Option<proxy::ProxyCheck>,
 }
 
 /// The verdict sentence of [`SimJson::verdict`], or `None` when every strategy is worse than
@@ -148,10 +153,14 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
             .map(|y| y.year)
             .collect();
         if let (Some(first), Some(last)) = (better.first(), better.last()) {
-            parts.push(format!(
-                "{label} leaves less host occupied than the plan in years {first} to {last} ({} of them)",
-                better.len()
-            ));
+            parts.push(if first == last {
+                format!("{label} leaves less host occupied than the plan in year {first}")
+            } else {
+                format!(
+                    "{label} leaves less host occupied than the plan in years {first} to {last} ({} of them)",
+                    better.len()
+                )
+            });
         } else if !tied.is_empty() {
             parts.push(format!(
                 "{label} cannot be told from the plan in {} of the years",
@@ -182,6 +191,8 @@ pub fn first_better_year(v: &VersusPlan) -> Option<usize> {
 
 /// The runs of every strategy ([`STRATEGIES`], same order) and their summary.
 pub struct Simulation {
+    /// The plans of the proxy check, scored by R and by the simulation.
+    pub proxy_plans: Vec<proxy::Scored>,
     /// The strategies run, in the order of `traces`: ids of [`STRATEGIES`].
     pub strategies: Vec<&'static str>,
     pub traces: Vec<Trace>,
@@ -226,6 +237,18 @@ fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
     }
     let a = baselines::fill_in_order(problem, &order).unwrap_or_else(|| vec![None; problem.len()]);
     problem.remaining(&a)
+}
+
+/// The `k`-th random feasible plan of the proxy check, fixed over runs (its own stream,
+/// apart from the runs' streams).
+fn random_fixed_plan(problem: &Problem, seed: u64, k: u64) -> Option<Assignment> {
+    let mut order: Vec<usize> = (0..problem.len()).collect();
+    let mut g = simulate::stream(seed, u64::MAX - k, 0, 2);
+    for i in (1..order.len()).rev() {
+        let j = (g.unit() * (i + 1) as f64) as usize;
+        order.swap(i, j.min(i));
+    }
+    baselines::fill_in_order(problem, &order)
 }
 
 pub fn pct(v: f64) -> f64 {
@@ -305,13 +328,17 @@ pub fn simulate_plan(
         .filter_map(|a| a.map(|a| Treatment::Fixed(problem.remaining(a))))
         .collect();
     treatments.push(Treatment::PerRun(&random));
+    let extra: Vec<Assignment> = (0..runs.proxy_plans as u64)
+        .filter_map(|k| random_fixed_plan(problem, seed, k))
+        .collect();
+    treatments.extend(extra.iter().map(|a| Treatment::Fixed(problem.remaining(a))));
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),
         runs.runs,
         runs.years
     ));
-    let traces = simulate::simulate(
+    let mut traces = simulate::simulate(
         &landscape,
         &params,
         &treatments,
@@ -321,6 +348,7 @@ pub fn simulate_plan(
         runs.jobs,
     );
 
+    let extra_traces = traces.split_off(ids.len());
     let diff = |f: &dyn Fn(&Trace, usize) -> f64| -> Difference {
         let d: Vec<f64> = (0..runs.runs as usize)
             .map(|k| pct(f(&traces[0], k) - f(&traces[1], k)))
@@ -383,9 +411,34 @@ pub fn simulate_plan(
         })
         .collect();
     let verdict = verdict(&versus_plan);
+    // Proxy check: every fixed plan but no action, and the random fixed plans.
+    let over_runs = |t: &Trace, f: &dyn Fn(&Trace, usize) -> f64| {
+        pct((0..n).map(|k| f(t, k)).sum::<f64>() / n as f64)
+    };
+    let mut proxy_plans: Vec<proxy::Scored> = Vec::new();
+    for ((id, t), a) in ids.iter().zip(&traces).zip(&plans).skip(1) {
+        if let Some(a) = a {
+            proxy_plans.push(proxy::Scored {
+                plan: id.to_string(),
+                risk_after: problem.risk(a),
+                mean_occupied_host_pct: over_runs(t, &mean_of),
+                final_occupied_host_pct: over_runs(t, &final_of),
+            });
+        }
+    }
+    for (k, (a, t)) in extra.iter().zip(&extra_traces).enumerate() {
+        proxy_plans.push(proxy::Scored {
+            plan: format!("random_{}", k + 1),
+            risk_after: problem.risk(a),
+            mean_occupied_host_pct: over_runs(t, &mean_of),
+            final_occupied_host_pct: over_runs(t, &final_of),
+        });
+    }
+    let proxy_check = (runs.proxy_plans > 0).then(|| proxy::check(&proxy_plans, seed));
     let summary = SimJson {
         versus_plan,
         verdict,
+        proxy_check,
         years: runs.years,
         runs: runs.runs,
         seed,
@@ -399,6 +452,7 @@ pub fn simulate_plan(
         lambda_m_before: model.capacity(&vec![1.0; model.len()]).lambda,
     };
     Ok(Simulation {
+        proxy_plans,
         strategies: ids,
         traces,
         summary,

@@ -136,6 +136,25 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
     );
     staging.write("sim.svg", &svg)?;
 
+    // proxy.csv: the plans of the proxy check, scored by R and by the simulation.
+    if sim.summary.proxy_check.is_some() {
+        let mut w = crate::core::csv_cells::Writer::new();
+        w.row([
+            "plan",
+            "risk_after",
+            "mean_occupied_host_pct",
+            "final_occupied_host_pct",
+        ])?;
+        for p in &sim.proxy_plans {
+            w.row([
+                p.plan.clone(),
+                crate::report::format::significant(p.risk_after, 10),
+                crate::report::format::significant(p.mean_occupied_host_pct, 10),
+                crate::report::format::significant(p.final_occupied_host_pct, 10),
+            ])?;
+        }
+        staging.write("proxy.csv", w.into_bytes()?)?;
+    }
     let json = serde_json::to_string_pretty(&sim.summary)
         .map_err(|e| Error::Internal(format!("sim.json: {e}")))?;
     staging.write("sim.json", json + "\n")?;

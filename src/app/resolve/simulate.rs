@@ -44,6 +44,7 @@ pub fn resolve(args: &SimulateArgs) -> Result<SimulateSettings> {
             runs: args.runs,
             seed: args.seed,
             jobs: args.jobs,
+            proxy_plans: args.proxy_plans,
         },
         plan_dir: args.plan_dir.clone(),
     })
