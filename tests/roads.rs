@@ -186,7 +186,8 @@ fn osm_speeds() -> Value {
            "track": 15.0, "unclassified": 35.0, "footway": null})
 }
 
-/// A 12 x 12 grid of streets 100 m apart (vertices jittered up to 7 m), cut by a river between
+/// A 12 x 12 grid of streets 100 m apart (crossings jittered up to 7 m, rows with a shape point
+/// between crossings), cut by a river between
 /// rows 5 and 6 that only column 3 bridges; row 8 one-way eastward (`yes`), row 2 one-way
 /// westward (`-1`, drawn eastward), column 7 with its own 50 km/h, a footway across the river at
 /// column 9 (not drivable), and a square of streets 3 km east that touches nothing.
@@ -225,7 +226,15 @@ fn grid() -> Grid {
     };
     let mut roads = Vec::new();
     for r in 0..n {
-        let mut street = road(vertex[r].clone(), class(r));
+        // A shape point midway between crossings, 3 m off the straight line: a vertex where
+        // only the street's own two pieces meet.
+        let mut points = vec![vertex[r][0]];
+        for c in 1..n {
+            let (a, b) = (vertex[r][c - 1], vertex[r][c]);
+            points.push(((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0 + 3.0));
+            points.push(b);
+        }
+        let mut street = road(points, class(r));
         street.oneway = match r {
             8 => Some("yes"),
             2 => Some("-1"),
@@ -306,6 +315,25 @@ fn grid_with_a_river_matches_networkx_and_shapefile_matches_geopackage() {
     // Outside reference: networkx (single_source_dijkstra) on the same GeoPackage read by GDAL.
     let answer = reference(&gpkg, None, &points, osm_speeds());
     assert_same_as_networkx(&travel, &answer);
+    // The drawn route of every leg is as long as its road km (derived here [C]: the geometry is
+    // the path the kilometres were summed over).
+    for i in 0..points.len() {
+        for j in 0..points.len() {
+            if i == j || travel.km(i, j).is_infinite() {
+                continue;
+            }
+            let line = network.path(&travel.snaps[i], &travel.snaps[j]).unwrap();
+            let metres: f64 = line
+                .windows(2)
+                .map(|w| (w[1].0 - w[0].0).hypot(w[1].1 - w[0].1))
+                .sum();
+            assert!(
+                (metres / 1000.0 - travel.km(i, j)).abs() <= 1e-6 * travel.km(i, j).max(1e-3),
+                "{i}->{j}: route {metres} m, travel {} km",
+                travel.km(i, j)
+            );
+        }
+    }
     // Weakly connected pieces: networkx's number_weakly_connected_components on the same roads.
     assert_eq!(
         network.pieces.len() as u64,
@@ -527,6 +555,14 @@ fn an_openstreetmap_extract_read_through_gdal_matches_networkx() {
     // Outside reference: networkx on the same .osm.pbf read by GDAL's OSM driver in Python.
     let answer = reference(&pbf, Some("lines"), &points, osm_speeds());
     assert_same_as_networkx(&travel, &answer);
+    for (i, j) in [(0, 1), (1, 0), (2, 3), (3, 4), (4, 0)] {
+        let line = network.path(&travel.snaps[i], &travel.snaps[j]).unwrap();
+        let metres: f64 = line
+            .windows(2)
+            .map(|w| (w[1].0 - w[0].0).hypot(w[1].1 - w[0].1))
+            .sum();
+        assert!((metres / 1000.0 - travel.km(i, j)).abs() <= 1e-6 * travel.km(i, j));
+    }
     assert_eq!(
         network.pieces.len() as u64,
         answer["components"].as_u64().unwrap()
@@ -568,7 +604,10 @@ fn the_bench_routine_runs_on_a_small_grid() {
     let b = bench_grid(30, 20, 2).unwrap();
     assert_eq!(b.nodes, 900);
     assert_eq!(b.road_pieces, 2 * 30 * 29);
-    assert_eq!(b.arcs, 2 * b.road_pieces);
+    // The 4 corners join just two streets and are passed through: 896 graph nodes, and each
+    // corner's two pieces are one two-way arc pair.
+    assert_eq!(b.graph_nodes, 896);
+    assert_eq!(b.arcs, 2 * (b.road_pieces - 4));
     // 20 stops of 1.5 h of work need at least 4 days of 8 hours, whichever travel is used.
     assert!(b.road_days >= 4 && b.straight_days >= 4);
     assert!(b.road_tour_hours > 0.0 && b.straight_tour_hours > 0.0);

@@ -161,7 +161,8 @@ pub struct NodeId(pub u32);
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub struct PieceId(pub u32);
 
-/// One straight road piece between two nodes, the unit of snapping.
+/// One straight road piece between two vertices, the unit of snapping, and where it lies in its
+/// chain.
 #[derive(Debug, Clone, Copy)]
 struct Span {
     a: u32,
@@ -171,14 +172,47 @@ struct Span {
     forward_hours: f64,
     /// Hours b → a, infinite where not allowed.
     backward_hours: f64,
+    chain: u32,
+    /// Whether a → b runs the chain's way (s → t).
+    aligned: bool,
+    /// Position in the chain's list of spans.
+    index: u32,
+    /// Chain hours s → t, hours t → s and metres over the spans before this one.
+    before_forward: f64,
+    before_backward: f64,
+    before_metres: f64,
+}
+
+/// A road between two graph nodes through vertices where nothing else meets (a chain of
+/// spans): the graph's arcs. Driving rules are the same along a chain (a vertex joins two spans
+/// into a chain only when they allow the same directions through it).
+#[derive(Debug, Clone, Copy)]
+struct Chain {
+    /// Graph nodes at the start and end.
+    s: u32,
+    t: u32,
+    /// The chain's spans in s → t order are `chain_spans[first..first + count]`.
+    first: u32,
+    count: u32,
+    /// Vertex at s.
+    start_vertex: u32,
+    forward_hours: f64,
+    backward_hours: f64,
+    metres: f64,
 }
 
 /// What was built, for messages and outputs.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct NetworkStats {
     pub segments: usize,
+    /// Road vertices after merging.
     pub nodes: usize,
-    /// Directed arcs (a two-way road piece is two arcs).
+    /// Road pieces between consecutive vertices.
+    pub spans: usize,
+    /// Graph nodes: vertices where roads meet or end (a vertex joining just two pieces with the
+    /// same driving rules is passed through, not searched).
+    pub graph_nodes: usize,
+    /// Directed graph arcs (a two-way road between graph nodes is two arcs).
     pub arcs: usize,
     /// Road length drivable in at least one direction, km.
     pub road_km: f64,
@@ -272,22 +306,30 @@ impl NodeIndex {
 /// A routable road graph in compressed sparse rows.
 #[derive(Debug, Clone)]
 pub struct RoadNetwork {
-    /// Node coordinates, working CRS.
+    /// Vertex coordinates, working CRS.
     pub nodes: Vec<(f64, f64)>,
-    /// Arcs leaving node v are `first_out[v]..first_out[v + 1]`.
+    /// Arcs leaving graph node v are `first_out[v]..first_out[v + 1]`.
     first_out: Vec<u32>,
     head: Vec<u32>,
     hours: Vec<f64>,
     metres: Vec<f64>,
+    /// Chain of each arc, with the top bit set when the arc runs the chain t → s.
+    arc_chain: Vec<u32>,
+    /// Vertex of each graph node.
+    graph_vertex: Vec<u32>,
+    chains: Vec<Chain>,
+    chain_spans: Vec<u32>,
     spans: Vec<Span>,
     tree: RTree<GeomWithData<Line<[f64; 2]>, u32>>,
-    /// Piece of every node.
+    /// Piece of every vertex.
     piece_of: Vec<u32>,
     pub pieces: Vec<Piece>,
     pub stats: NetworkStats,
     walk_kmh: f64,
     max_walk_m: f64,
 }
+
+const REVERSED: u32 = 1 << 31;
 
 /// A point snapped onto the road network.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -379,56 +421,73 @@ impl Travel {
     }
 }
 
-/// Where a snapped point joins the graph: (node, hours, metres) to leave by, or to arrive by.
+/// Where a snapped point lies on its chain: hours s → point and point → s, metres from s.
+#[derive(Debug, Clone, Copy)]
+struct Position {
+    chain: Chain,
+    forward_before: f64,
+    backward_before: f64,
+    metres_before: f64,
+}
+
+/// Where a snapped point joins the graph: (graph node, hours, metres) to leave by.
 fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
-    let s = network.spans[snap.span as usize];
     if let Some(node) = network.at_node(snap) {
         return vec![(node, 0.0, 0.0)];
     }
+    let p = network.position(snap);
+    let c = p.chain;
     let mut out = Vec::with_capacity(2);
-    if s.forward_hours.is_finite() {
+    if c.forward_hours.is_finite() {
         out.push((
-            s.b,
-            (1.0 - snap.along) * s.forward_hours,
-            (1.0 - snap.along) * s.metres,
+            c.t,
+            c.forward_hours - p.forward_before,
+            c.metres - p.metres_before,
         ));
     }
-    if s.backward_hours.is_finite() {
-        out.push((s.a, snap.along * s.backward_hours, snap.along * s.metres));
+    if c.backward_hours.is_finite() {
+        out.push((c.s, p.backward_before, p.metres_before));
     }
     out
 }
 
+/// Where a snapped point is arrived at from the graph: (graph node, hours, metres) from there.
 fn egress(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
-    let s = network.spans[snap.span as usize];
     if let Some(node) = network.at_node(snap) {
         return vec![(node, 0.0, 0.0)];
     }
+    let p = network.position(snap);
+    let c = p.chain;
     let mut out = Vec::with_capacity(2);
-    if s.forward_hours.is_finite() {
-        out.push((s.a, snap.along * s.forward_hours, snap.along * s.metres));
+    if c.forward_hours.is_finite() {
+        out.push((c.s, p.forward_before, p.metres_before));
     }
-    if s.backward_hours.is_finite() {
+    if c.backward_hours.is_finite() {
         out.push((
-            s.b,
-            (1.0 - snap.along) * s.backward_hours,
-            (1.0 - snap.along) * s.metres,
+            c.t,
+            c.backward_hours - p.backward_before,
+            c.metres - p.metres_before,
         ));
     }
     out
 }
 
-/// Drive along one span from one snapped point to another on the same span, if allowed.
-fn same_span(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64)> {
-    if from.span != to.span || network.at_node(from).is_some() || network.at_node(to).is_some() {
+/// Drive along one chain from one snapped point to another on the same chain, if allowed:
+/// (hours, metres, whether it runs the chain's way).
+fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64, bool)> {
+    if network.at_node(from).is_some() || network.at_node(to).is_some() {
         return None;
     }
-    let s = network.spans[from.span as usize];
-    let d = to.along - from.along;
-    if d >= 0.0 && s.forward_hours.is_finite() {
-        Some((d * s.forward_hours, d * s.metres))
-    } else if d <= 0.0 && s.backward_hours.is_finite() {
-        Some((-d * s.backward_hours, -d * s.metres))
+    let (pf, pt) = (network.position(from), network.position(to));
+    if network.spans[from.span as usize].chain != network.spans[to.span as usize].chain {
+        return None;
+    }
+    let c = pf.chain;
+    let d = pt.metres_before - pf.metres_before;
+    if d >= 0.0 && c.forward_hours.is_finite() {
+        Some((pt.forward_before - pf.forward_before, d, true))
+    } else if d <= 0.0 && c.backward_hours.is_finite() {
+        Some((pf.backward_before - pt.backward_before, -d, false))
     } else {
         None
     }
@@ -438,8 +497,8 @@ fn same_span(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64)
 struct Search {
     dist: Vec<f64>,
     metres: Vec<f64>,
+    /// Arc by which each node was reached, `u32::MAX` for a source.
     pred: Vec<u32>,
-    settled: Vec<bool>,
     touched: Vec<u32>,
     /// Target marks: `mark[v] == stamp` when v is an end node of a point still to settle.
     mark: Vec<u32>,
@@ -453,7 +512,6 @@ impl Search {
             dist: vec![f64::INFINITY; nodes],
             metres: vec![0.0; nodes],
             pred: vec![u32::MAX; nodes],
-            settled: vec![false; nodes],
             touched: Vec::new(),
             mark: vec![0; nodes],
             stamp: 0,
@@ -465,7 +523,6 @@ impl Search {
         for &v in &self.touched {
             self.dist[v as usize] = f64::INFINITY;
             self.pred[v as usize] = u32::MAX;
-            self.settled[v as usize] = false;
         }
         self.touched.clear();
         self.heap.clear();
@@ -500,10 +557,11 @@ impl Search {
         }
         while let Some(Reverse((bits, u))) = self.heap.pop() {
             let ui = u as usize;
-            if self.settled[ui] || f64::from_bits(bits) > self.dist[ui] {
+            // Entries are pushed only on a strict improvement, so the one whose cost equals
+            // the node's distance is its only live entry: each node is settled once.
+            if f64::from_bits(bits) > self.dist[ui] {
                 continue;
             }
-            self.settled[ui] = true;
             if !all && self.mark[ui] == self.stamp {
                 remaining -= 1;
                 if remaining == 0 {
@@ -522,7 +580,7 @@ impl Search {
                     }
                     self.dist[v] = dv;
                     self.metres[v] = mu + network.metres[arc];
-                    self.pred[v] = u;
+                    self.pred[v] = arc as u32;
                     self.heap.push(Reverse((dv.to_bits(), v as u32)));
                 }
             }
@@ -563,8 +621,6 @@ impl RoadNetwork {
             ..NetworkStats::default()
         };
         let mut index = NodeIndex::new(tolerance);
-        // Arcs as (tail, head, hours, metres), and spans.
-        let mut arcs: Vec<(u32, u32, f64, f64)> = Vec::new();
         let mut spans: Vec<Span> = Vec::new();
         for segment in segments {
             let Some(kmh) = options.speeds.speed(segment) else {
@@ -584,18 +640,18 @@ impl RoadNetwork {
                     let hours = metres / (kmh * 1000.0);
                     let forward = matches!(segment.oneway, OneWay::Both | OneWay::Forward);
                     let backward = matches!(segment.oneway, OneWay::Both | OneWay::Reverse);
-                    if forward {
-                        arcs.push((u, v, hours, metres));
-                    }
-                    if backward {
-                        arcs.push((v, u, hours, metres));
-                    }
                     spans.push(Span {
                         a: u,
                         b: v,
                         metres,
                         forward_hours: if forward { hours } else { f64::INFINITY },
                         backward_hours: if backward { hours } else { f64::INFINITY },
+                        chain: u32::MAX,
+                        aligned: true,
+                        index: 0,
+                        before_forward: 0.0,
+                        before_backward: 0.0,
+                        before_metres: 0.0,
                     });
                     stats.road_km += metres / 1000.0;
                 }
@@ -603,32 +659,50 @@ impl RoadNetwork {
             }
         }
         let nodes = index.nodes;
-        if nodes.len() >= u32::MAX as usize || arcs.len() >= u32::MAX as usize {
+        if nodes.len() >= (u32::MAX >> 1) as usize || spans.len() >= (u32::MAX >> 1) as usize {
             return Err(Error::input(format!(
-                "road network of {} nodes and {} arcs is larger than this tool handles (2^32)",
+                "road network of {} vertices and {} pieces is larger than this tool handles (2^31)",
                 nodes.len(),
-                arcs.len()
+                spans.len()
             )));
         }
-        // Compressed sparse rows by a counting sort on the tail (stable: input order kept).
         let n = nodes.len();
-        let mut first_out = vec![0u32; n + 1];
-        for &(u, _, _, _) in &arcs {
-            first_out[u as usize + 1] += 1;
+        let (chains, chain_spans, graph_vertex) = chains(n, &mut spans);
+        // Arcs as (tail, head, hours, metres, chain with direction bit), one per chain and
+        // drivable direction; a chain from a node back to itself gives no arc.
+        let mut arcs: Vec<(u32, u32, f64, f64, u32)> = Vec::new();
+        for (k, c) in chains.iter().enumerate() {
+            if c.s == c.t {
+                continue;
+            }
+            if c.forward_hours.is_finite() {
+                arcs.push((c.s, c.t, c.forward_hours, c.metres, k as u32));
+            }
+            if c.backward_hours.is_finite() {
+                arcs.push((c.t, c.s, c.backward_hours, c.metres, k as u32 | REVERSED));
+            }
         }
-        for v in 0..n {
+        // Compressed sparse rows by a counting sort on the tail (stable: input order kept).
+        let graph_nodes = graph_vertex.len();
+        let mut first_out = vec![0u32; graph_nodes + 1];
+        for a in &arcs {
+            first_out[a.0 as usize + 1] += 1;
+        }
+        for v in 0..graph_nodes {
             first_out[v + 1] += first_out[v];
         }
         let mut fill = first_out.clone();
         let mut head = vec![0u32; arcs.len()];
         let mut hours = vec![0.0; arcs.len()];
         let mut metres = vec![0.0; arcs.len()];
-        for &(u, v, h, m) in &arcs {
+        let mut arc_chain = vec![0u32; arcs.len()];
+        for &(u, v, h, m, c) in &arcs {
             let at = fill[u as usize] as usize;
             fill[u as usize] += 1;
             head[at] = v;
             hours[at] = h;
             metres[at] = m;
+            arc_chain[at] = c;
         }
         drop(arcs);
         // Weakly connected pieces by union-find over spans.
@@ -648,9 +722,17 @@ impl RoadNetwork {
             }
         }
         let roots: Vec<u32> = (0..n as u32).map(|v| find(&mut parent, v)).collect();
+        let mut has_span = vec![false; n];
+        for s in &spans {
+            has_span[s.a as usize] = true;
+            has_span[s.b as usize] = true;
+        }
+        // Vertices of no span (a segment all within the tolerance) belong to no piece.
         let mut root_km: BTreeMap<u32, (f64, usize)> = BTreeMap::new();
-        for &r in &roots {
-            root_km.entry(r).or_default().1 += 1;
+        for (v, &r) in roots.iter().enumerate() {
+            if has_span[v] {
+                root_km.entry(r).or_default().1 += 1;
+            }
         }
         for s in &spans {
             root_km.get_mut(&roots[s.a as usize]).expect("root").0 += s.metres / 1000.0;
@@ -668,7 +750,10 @@ impl RoadNetwork {
                 road_km: km,
             });
         }
-        let piece_of: Vec<u32> = roots.iter().map(|r| number[r]).collect();
+        let piece_of: Vec<u32> = roots
+            .iter()
+            .map(|r| number.get(r).copied().unwrap_or(u32::MAX))
+            .collect();
         let tree = RTree::bulk_load(
             spans
                 .iter()
@@ -680,6 +765,8 @@ impl RoadNetwork {
                 .collect(),
         );
         stats.nodes = n;
+        stats.spans = spans.len();
+        stats.graph_nodes = graph_nodes;
         stats.arcs = head.len();
         Ok(RoadNetwork {
             nodes,
@@ -687,6 +774,10 @@ impl RoadNetwork {
             head,
             hours,
             metres,
+            arc_chain,
+            graph_vertex,
+            chains,
+            chain_spans,
             spans,
             tree,
             piece_of,
@@ -697,14 +788,37 @@ impl RoadNetwork {
         })
     }
 
-    /// The node a snapped point sits on, when it is at (within a micrometre of) a span's end.
+    /// Where a snapped point lies on its chain.
+    fn position(&self, snap: &Snap) -> Position {
+        let span = self.spans[snap.span as usize];
+        let chain = self.chains[span.chain as usize];
+        let share = if span.aligned {
+            snap.along
+        } else {
+            1.0 - snap.along
+        };
+        let (ahead, back) = if span.aligned {
+            (span.forward_hours, span.backward_hours)
+        } else {
+            (span.backward_hours, span.forward_hours)
+        };
+        let partial = |hours: f64| if share > 0.0 { share * hours } else { 0.0 };
+        Position {
+            chain,
+            forward_before: span.before_forward + partial(ahead),
+            backward_before: span.before_backward + partial(back),
+            metres_before: span.before_metres + share * span.metres,
+        }
+    }
+
+    /// The graph node a snapped point sits on, when it is at (within a micrometre of) a
+    /// chain's end.
     fn at_node(&self, snap: &Snap) -> Option<u32> {
-        let s = self.spans[snap.span as usize];
-        let along_m = snap.along * s.metres;
-        if along_m <= 1e-6 {
-            Some(s.a)
-        } else if s.metres - along_m <= 1e-6 {
-            Some(s.b)
+        let p = self.position(snap);
+        if p.metres_before <= 1e-6 {
+            Some(p.chain.s)
+        } else if p.chain.metres - p.metres_before <= 1e-6 {
+            Some(p.chain.t)
         } else {
             None
         }
@@ -736,6 +850,17 @@ impl RoadNetwork {
         })
     }
 
+    /// The vertices of a chain in s → t order.
+    fn chain_vertices(&self, chain: &Chain) -> Vec<u32> {
+        let mut out = vec![chain.start_vertex];
+        let spans = &self.chain_spans[chain.first as usize..(chain.first + chain.count) as usize];
+        for &k in spans {
+            let span = self.spans[k as usize];
+            out.push(if span.aligned { span.b } else { span.a });
+        }
+        out
+    }
+
     fn walk_hours(&self, snap: &Snap) -> f64 {
         snap.walk_m / (self.walk_kmh * 1000.0)
     }
@@ -763,7 +888,7 @@ impl RoadNetwork {
                 .map(|t| {
                     let (snaps, exits, targets) = (&snaps, &exits, &targets);
                     scope.spawn(move || {
-                        let mut search = Search::new(self.nodes.len());
+                        let mut search = Search::new(self.graph_vertex.len());
                         let mut out = Vec::new();
                         for i in (t..n).step_by(threads) {
                             search.run(self, &access(self, &snaps[i]), targets);
@@ -776,7 +901,7 @@ impl RoadNetwork {
                                     continue;
                                 }
                                 let mut best = search.arrive(&exits[j]).map(|(h, m, _)| (h, m));
-                                if let Some((h, m)) = same_span(self, &snaps[i], &snaps[j])
+                                if let Some((h, m, _)) = same_chain(self, &snaps[i], &snaps[j])
                                     && best.is_none_or(|(b, _)| h < b)
                                 {
                                     best = Some((h, m));
@@ -842,34 +967,104 @@ impl RoadNetwork {
     }
 
     /// The road geometry of the fastest drive from one snapped point to another: the point on
-    /// the road where the drive starts, the nodes passed, the point where it ends (walks not
+    /// the road where the drive starts, the vertices passed, the point where it ends (walks not
     /// included). `None` when there is no way.
     pub fn path(&self, from: &Snap, to: &Snap) -> Option<Vec<(f64, f64)>> {
         let ends = egress(self, to);
-        let mut search = Search::new(self.nodes.len());
+        let starts = access(self, from);
+        let mut search = Search::new(self.graph_vertex.len());
         let targets: Vec<u32> = ends.iter().map(|e| e.0).collect();
-        search.run(self, &access(self, from), &targets);
+        search.run(self, &starts, &targets);
         let through = search.arrive(&ends);
-        let direct = same_span(self, from, to);
+        let direct = same_chain(self, from, to);
+        let mut line = vec![from.on_road];
+        // The vertices strictly between a snapped point and its chain's end (or start).
+        let tail = |snap: &Snap, towards_t: bool| -> Vec<(f64, f64)> {
+            if self.at_node(snap).is_some() {
+                return Vec::new();
+            }
+            let span = self.spans[snap.span as usize];
+            let chain = self.chains[span.chain as usize];
+            let vertices = self.chain_vertices(&chain);
+            let k = span.index as usize;
+            let picked: Vec<u32> = if towards_t {
+                vertices[k + 1..].to_vec()
+            } else {
+                vertices[..=k].iter().rev().copied().collect()
+            };
+            picked.iter().map(|&v| self.nodes[v as usize]).collect()
+        };
         match (through, direct) {
-            (None, None) => None,
-            (Some((h, _, _)), Some((d, _))) if d <= h => Some(vec![from.on_road, to.on_road]),
-            (None, Some(_)) => Some(vec![from.on_road, to.on_road]),
+            (None, None) => return None,
+            (through, Some((d, _, aligned))) if through.is_none_or(|(h, _, _)| d <= h) => {
+                let (pf, pt) = (self.position(from), self.position(to));
+                let chain = pf.chain;
+                let vertices = self.chain_vertices(&chain);
+                let (lo, hi) = (
+                    pf.metres_before.min(pt.metres_before),
+                    pf.metres_before.max(pt.metres_before),
+                );
+                let mut between: Vec<(f64, f64)> = Vec::new();
+                let mut at = 0.0;
+                for (k, &span_id) in self.chain_spans
+                    [chain.first as usize..(chain.first + chain.count) as usize]
+                    .iter()
+                    .enumerate()
+                {
+                    at += self.spans[span_id as usize].metres;
+                    if at > lo && at < hi {
+                        between.push(self.nodes[vertices[k + 1] as usize]);
+                    }
+                }
+                if !aligned {
+                    between.reverse();
+                }
+                line.extend(between);
+            }
             (Some((_, _, end)), _) => {
-                let mut chain = vec![end];
+                // Arcs back from the end node to a source.
+                let mut arcs = Vec::new();
                 let mut v = end;
                 while search.pred[v as usize] != u32::MAX {
-                    v = search.pred[v as usize];
-                    chain.push(v);
+                    let arc = search.pred[v as usize];
+                    arcs.push(arc);
+                    let c = self.chains[(self.arc_chain[arc as usize] & !REVERSED) as usize];
+                    v = if self.arc_chain[arc as usize] & REVERSED != 0 {
+                        c.t
+                    } else {
+                        c.s
+                    };
                 }
-                chain.reverse();
-                let mut line = vec![from.on_road];
-                line.extend(chain.iter().map(|&v| self.nodes[v as usize]));
-                line.push(to.on_road);
-                line.dedup();
-                Some(line)
+                arcs.reverse();
+                let first = v;
+                // From the point to the first graph node.
+                if self.at_node(from).is_none() {
+                    let c = self.position(from).chain;
+                    line.extend(tail(from, first == c.t && c.forward_hours.is_finite()));
+                }
+                line.push(self.nodes[self.graph_vertex[first as usize] as usize]);
+                for arc in arcs {
+                    let code = self.arc_chain[arc as usize];
+                    let c = self.chains[(code & !REVERSED) as usize];
+                    let mut vertices = self.chain_vertices(&c);
+                    if code & REVERSED != 0 {
+                        vertices.reverse();
+                    }
+                    line.extend(vertices[1..].iter().map(|&v| self.nodes[v as usize]));
+                }
+                // From the last graph node to the point.
+                if self.at_node(to).is_none() {
+                    let c = self.position(to).chain;
+                    let mut rest = tail(to, end == c.t && c.backward_hours.is_finite());
+                    rest.reverse();
+                    line.extend(rest);
+                }
             }
+            (None, Some(_)) => unreachable!("handled by the guard above"),
         }
+        line.push(to.on_road);
+        line.dedup();
+        Some(line)
     }
 
     /// The road geometry of each leg of a visit of `order` (indices into `travel`'s points),
@@ -885,10 +1080,159 @@ impl RoadNetwork {
     }
 }
 
+/// Group spans into chains between graph nodes: a vertex where exactly two spans meet, leading
+/// to two other vertices and allowing the same directions through, is passed through; every
+/// other vertex with a span is a graph node (and one vertex of each ring of passed-through
+/// vertices). Fills each span's chain fields; gives the chains, their spans in order and the
+/// vertex of each graph node.
+fn chains(n: usize, spans: &mut [Span]) -> (Vec<Chain>, Vec<u32>, Vec<u32>) {
+    // Spans at each vertex, in compressed sparse rows.
+    let mut first = vec![0u32; n + 1];
+    for s in spans.iter() {
+        first[s.a as usize + 1] += 1;
+        first[s.b as usize + 1] += 1;
+    }
+    for v in 0..n {
+        first[v + 1] += first[v];
+    }
+    let mut fill = first.clone();
+    let mut at_vertex = vec![0u32; 2 * spans.len()];
+    for (k, s) in spans.iter().enumerate() {
+        for v in [s.a, s.b] {
+            at_vertex[fill[v as usize] as usize] = k as u32;
+            fill[v as usize] += 1;
+        }
+    }
+    drop(fill);
+    // (into v allowed, out of v allowed) along a span.
+    let rules_at = |span: &Span, v: u32| {
+        if v == span.b {
+            (
+                span.forward_hours.is_finite(),
+                span.backward_hours.is_finite(),
+            )
+        } else {
+            (
+                span.backward_hours.is_finite(),
+                span.forward_hours.is_finite(),
+            )
+        }
+    };
+    let other = |span: &Span, v: u32| if span.a == v { span.b } else { span.a };
+    let mut through: Vec<bool> = (0..n)
+        .map(|v| {
+            let (lo, hi) = (first[v] as usize, first[v + 1] as usize);
+            if hi - lo != 2 {
+                return false;
+            }
+            let v = v as u32;
+            let (e1, e2) = (
+                &spans[at_vertex[lo] as usize],
+                &spans[at_vertex[lo + 1] as usize],
+            );
+            if other(e1, v) == other(e2, v) {
+                return false;
+            }
+            let ((in1, out1), (in2, out2)) = (rules_at(e1, v), rules_at(e2, v));
+            in1 == out2 && in2 == out1
+        })
+        .collect();
+    let mut graph_id = vec![u32::MAX; n];
+    let mut graph_vertex: Vec<u32> = Vec::new();
+    let mut id_of = |v: u32, graph_vertex: &mut Vec<u32>| {
+        if graph_id[v as usize] == u32::MAX {
+            graph_id[v as usize] = graph_vertex.len() as u32;
+            graph_vertex.push(v);
+        }
+        graph_id[v as usize]
+    };
+    let mut chains: Vec<Chain> = Vec::new();
+    let mut chain_spans: Vec<u32> = Vec::with_capacity(spans.len());
+    let mut assigned = vec![false; spans.len()];
+    let mut ring_cursor = 0usize;
+    let mut next_kept = 0usize;
+    loop {
+        // Kept vertices in order, then one vertex of each ring left.
+        let start =
+            if let Some(v) = (next_kept..n).find(|&v| !through[v] && first[v + 1] > first[v]) {
+                next_kept = v + 1;
+                v as u32
+            } else {
+                next_kept = n;
+                while ring_cursor < spans.len() && assigned[ring_cursor] {
+                    ring_cursor += 1;
+                }
+                if ring_cursor == spans.len() {
+                    break;
+                }
+                let v = spans[ring_cursor].a;
+                through[v as usize] = false;
+                v
+            };
+        for slot in first[start as usize]..first[start as usize + 1] {
+            let k0 = at_vertex[slot as usize] as usize;
+            if assigned[k0] {
+                continue;
+            }
+            let chain_id = chains.len() as u32;
+            let first_span = chain_spans.len() as u32;
+            let (mut v, mut k) = (start, k0);
+            let (mut forward, mut backward, mut metres) = (0.0, 0.0, 0.0);
+            let mut index = 0u32;
+            let end = loop {
+                assigned[k] = true;
+                let span = &mut spans[k];
+                let aligned = span.a == v;
+                let (ahead, back) = if aligned {
+                    (span.forward_hours, span.backward_hours)
+                } else {
+                    (span.backward_hours, span.forward_hours)
+                };
+                span.chain = chain_id;
+                span.aligned = aligned;
+                span.index = index;
+                span.before_forward = forward;
+                span.before_backward = backward;
+                span.before_metres = metres;
+                forward += ahead;
+                backward += back;
+                metres += span.metres;
+                chain_spans.push(k as u32);
+                index += 1;
+                let next = if aligned { span.b } else { span.a };
+                if !through[next as usize] || next == start {
+                    break next;
+                }
+                let lo = first[next as usize] as usize;
+                k = if at_vertex[lo] as usize == k {
+                    at_vertex[lo + 1] as usize
+                } else {
+                    at_vertex[lo] as usize
+                };
+                v = next;
+            };
+            let s = id_of(start, &mut graph_vertex);
+            let t = id_of(end, &mut graph_vertex);
+            chains.push(Chain {
+                s,
+                t,
+                first: first_span,
+                count: index,
+                start_vertex: start,
+                forward_hours: forward,
+                backward_hours: backward,
+                metres,
+            });
+        }
+    }
+    (chains, chain_spans, graph_vertex)
+}
+
 /// What [`bench_grid`] measured.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GridBench {
     pub nodes: usize,
+    pub graph_nodes: usize,
     pub road_pieces: usize,
     pub arcs: usize,
     pub stops: usize,
@@ -995,6 +1339,7 @@ pub fn bench_grid(side: usize, stops: usize, threads: usize) -> Result<GridBench
     let straight_s = started.elapsed().as_secs_f64();
     Ok(GridBench {
         nodes: network.stats.nodes,
+        graph_nodes: network.stats.graph_nodes,
         road_pieces: network.spans.len(),
         arcs: network.stats.arcs,
         stops,
