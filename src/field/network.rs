@@ -310,9 +310,7 @@ pub struct RoadNetwork {
     pub nodes: Vec<(f64, f64)>,
     /// Arcs leaving graph node v are `first_out[v]..first_out[v + 1]`.
     first_out: Vec<u32>,
-    head: Vec<u32>,
-    hours: Vec<f64>,
-    metres: Vec<f64>,
+    arcs: Vec<Arc>,
     /// Chain of each arc, with the top bit set when the arc runs the chain t → s.
     arc_chain: Vec<u32>,
     /// Vertex of each graph node.
@@ -330,6 +328,36 @@ pub struct RoadNetwork {
 }
 
 const REVERSED: u32 = 1 << 31;
+
+/// One graph arc, its data side by side for the search's memory traffic.
+#[derive(Debug, Clone, Copy)]
+struct Arc {
+    hours: f64,
+    metres: f64,
+    head: u32,
+}
+
+/// Position of (x, y) (each in 0..2^16) along a Hilbert curve (the classic iterative `xy2d`;
+/// common practice for ordering points so that near points get near numbers).
+fn hilbert(mut x: u32, mut y: u32) -> u64 {
+    let n: u32 = 1 << 16;
+    let mut d = 0u64;
+    let mut s = n / 2;
+    while s > 0 {
+        let rx = u32::from(x & s > 0);
+        let ry = u32::from(y & s > 0);
+        d += u64::from(s) * u64::from(s) * u64::from((3 * rx) ^ ry);
+        if ry == 0 {
+            if rx == 1 {
+                x = n - 1 - x;
+                y = n - 1 - y;
+            }
+            std::mem::swap(&mut x, &mut y);
+        }
+        s /= 2;
+    }
+    d
+}
 
 /// A point snapped onto the road network.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -495,8 +523,8 @@ fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64
 
 /// A reusable Dijkstra search over one network.
 struct Search {
-    dist: Vec<f64>,
-    metres: Vec<f64>,
+    /// Hours and metres of the best path found to each node.
+    best: Vec<(f64, f64)>,
     /// Arc by which each node was reached, `u32::MAX` for a source.
     pred: Vec<u32>,
     touched: Vec<u32>,
@@ -509,8 +537,7 @@ struct Search {
 impl Search {
     fn new(nodes: usize) -> Search {
         Search {
-            dist: vec![f64::INFINITY; nodes],
-            metres: vec![0.0; nodes],
+            best: vec![(f64::INFINITY, 0.0); nodes],
             pred: vec![u32::MAX; nodes],
             touched: Vec::new(),
             mark: vec![0; nodes],
@@ -521,7 +548,7 @@ impl Search {
 
     fn reset(&mut self) {
         for &v in &self.touched {
-            self.dist[v as usize] = f64::INFINITY;
+            self.best[v as usize].0 = f64::INFINITY;
             self.pred[v as usize] = u32::MAX;
         }
         self.touched.clear();
@@ -546,12 +573,11 @@ impl Search {
         }
         let all = targets.is_empty();
         for &(v, h, m) in sources {
-            if h < self.dist[v as usize] {
-                if self.dist[v as usize].is_infinite() {
+            if h < self.best[v as usize].0 {
+                if self.best[v as usize].0.is_infinite() {
                     self.touched.push(v);
                 }
-                self.dist[v as usize] = h;
-                self.metres[v as usize] = m;
+                self.best[v as usize] = (h, m);
                 self.heap.push(Reverse((h.to_bits(), v)));
             }
         }
@@ -559,7 +585,7 @@ impl Search {
             let ui = u as usize;
             // Entries are pushed only on a strict improvement, so the one whose cost equals
             // the node's distance is its only live entry: each node is settled once.
-            if f64::from_bits(bits) > self.dist[ui] {
+            if f64::from_bits(bits) > self.best[ui].0 {
                 continue;
             }
             if !all && self.mark[ui] == self.stamp {
@@ -568,18 +594,16 @@ impl Search {
                     break;
                 }
             }
-            let du = self.dist[ui];
-            let mu = self.metres[ui];
+            let (du, mu) = self.best[ui];
             let range = network.first_out[ui] as usize..network.first_out[ui + 1] as usize;
-            for arc in range {
-                let v = network.head[arc] as usize;
-                let dv = du + network.hours[arc];
-                if dv < self.dist[v] {
-                    if self.dist[v].is_infinite() {
+            for (data, arc) in network.arcs[range.clone()].iter().zip(range) {
+                let v = data.head as usize;
+                let dv = du + data.hours;
+                if dv < self.best[v].0 {
+                    if self.best[v].0.is_infinite() {
                         self.touched.push(v as u32);
                     }
-                    self.dist[v] = dv;
-                    self.metres[v] = mu + network.metres[arc];
+                    self.best[v] = (dv, mu + data.metres);
                     self.pred[v] = arc as u32;
                     self.heap.push(Reverse((dv.to_bits(), v as u32)));
                 }
@@ -591,9 +615,9 @@ impl Search {
     fn arrive(&self, ends: &[(u32, f64, f64)]) -> Option<(f64, f64, u32)> {
         let mut best: Option<(f64, f64, u32)> = None;
         for &(v, h, m) in ends {
-            let d = self.dist[v as usize];
+            let d = self.best[v as usize].0;
             if d.is_finite() && best.is_none_or(|(b, _, _)| d + h < b) {
-                best = Some((d + h, self.metres[v as usize] + m, v));
+                best = Some((d + h, self.best[v as usize].1 + m, v));
             }
         }
         best
@@ -667,7 +691,32 @@ impl RoadNetwork {
             )));
         }
         let n = nodes.len();
-        let (chains, chain_spans, graph_vertex) = chains(n, &mut spans);
+        let (mut chains, chain_spans, mut graph_vertex) = chains(n, &mut spans);
+        // Number graph nodes along a Hilbert curve, so a search's frontier touches memory that
+        // is near together (measured: the 10^6-piece grid of docs/benchmarks.md).
+        if !graph_vertex.is_empty() {
+            let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
+            for &v in &graph_vertex {
+                let p = nodes[v as usize];
+                (x0, y0, x1, y1) = (x0.min(p.0), y0.min(p.1), x1.max(p.0), y1.max(p.1));
+            }
+            let scale = 65535.0 / (x1 - x0).max(y1 - y0).max(1e-9);
+            let key = |v: u32| {
+                let p = nodes[v as usize];
+                hilbert(((p.0 - x0) * scale) as u32, ((p.1 - y0) * scale) as u32)
+            };
+            let mut order: Vec<u32> = (0..graph_vertex.len() as u32).collect();
+            order.sort_by_key(|&g| (key(graph_vertex[g as usize]), g));
+            let mut new_id = vec![0u32; order.len()];
+            for (k, &g) in order.iter().enumerate() {
+                new_id[g as usize] = k as u32;
+            }
+            graph_vertex = order.iter().map(|&g| graph_vertex[g as usize]).collect();
+            for c in &mut chains {
+                c.s = new_id[c.s as usize];
+                c.t = new_id[c.t as usize];
+            }
+        }
         // Arcs as (tail, head, hours, metres, chain with direction bit), one per chain and
         // drivable direction; a chain from a node back to itself gives no arc.
         let mut arcs: Vec<(u32, u32, f64, f64, u32)> = Vec::new();
@@ -692,16 +741,23 @@ impl RoadNetwork {
             first_out[v + 1] += first_out[v];
         }
         let mut fill = first_out.clone();
-        let mut head = vec![0u32; arcs.len()];
-        let mut hours = vec![0.0; arcs.len()];
-        let mut metres = vec![0.0; arcs.len()];
+        let mut arc_data = vec![
+            Arc {
+                hours: 0.0,
+                metres: 0.0,
+                head: 0
+            };
+            arcs.len()
+        ];
         let mut arc_chain = vec![0u32; arcs.len()];
         for &(u, v, h, m, c) in &arcs {
             let at = fill[u as usize] as usize;
             fill[u as usize] += 1;
-            head[at] = v;
-            hours[at] = h;
-            metres[at] = m;
+            arc_data[at] = Arc {
+                hours: h,
+                metres: m,
+                head: v,
+            };
             arc_chain[at] = c;
         }
         drop(arcs);
@@ -767,13 +823,11 @@ impl RoadNetwork {
         stats.nodes = n;
         stats.spans = spans.len();
         stats.graph_nodes = graph_nodes;
-        stats.arcs = head.len();
+        stats.arcs = arc_data.len();
         Ok(RoadNetwork {
             nodes,
             first_out,
-            head,
-            hours,
-            metres,
+            arcs: arc_data,
             arc_chain,
             graph_vertex,
             chains,
@@ -1247,8 +1301,9 @@ pub struct GridBench {
 }
 
 /// A `side` x `side` grid of 100 m streets (every tenth street 65 km/h, the rest 30 km/h,
-/// every vertex jittered up to 10 m so no two paths tie), as road segments, one per street.
-pub fn grid_segments(side: usize) -> Vec<RoadSegment> {
+/// every crossing jittered up to 10 m so no two paths tie) with `shape_points` vertices between
+/// crossings (as a road layer has where streets bend), as road segments, one per street.
+pub fn grid_segments(side: usize, shape_points: usize) -> Vec<RoadSegment> {
     let mut state = 0x2545_f491_4f6c_dd1d_u64;
     let mut jitter: Vec<(f64, f64)> = Vec::with_capacity(side * side);
     for _ in 0..side * side {
@@ -1264,6 +1319,22 @@ pub fn grid_segments(side: usize) -> Vec<RoadSegment> {
         let j = jitter[r * side + c];
         (c as f64 * 100.0 + j.0, r as f64 * 100.0 + j.1)
     };
+    let street = |crossings: Vec<(f64, f64)>| {
+        let mut points = vec![crossings[0]];
+        for w in crossings.windows(2) {
+            for k in 1..=shape_points {
+                let t = k as f64 / (shape_points + 1) as f64;
+                // A gentle bend: 2 m off the straight line.
+                let bend = if k % 2 == 1 { 2.0 } else { -2.0 };
+                points.push((
+                    w[0].0 + t * (w[1].0 - w[0].0) + bend,
+                    w[0].1 + t * (w[1].1 - w[0].1) + bend,
+                ));
+            }
+            points.push(w[1]);
+        }
+        points
+    };
     let class = |k: usize| {
         if k % 10 == 0 {
             "primary"
@@ -1274,7 +1345,7 @@ pub fn grid_segments(side: usize) -> Vec<RoadSegment> {
     let mut out = Vec::with_capacity(2 * side);
     for r in 0..side {
         out.push(RoadSegment {
-            points: (0..side).map(|c| at(r, c)).collect(),
+            points: street((0..side).map(|c| at(r, c)).collect()),
             class: class(r).to_string(),
             oneway: OneWay::Both,
             speed_kmh: None,
@@ -1283,7 +1354,7 @@ pub fn grid_segments(side: usize) -> Vec<RoadSegment> {
     }
     for c in 0..side {
         out.push(RoadSegment {
-            points: (0..side).map(|r| at(r, c)).collect(),
+            points: street((0..side).map(|r| at(r, c)).collect()),
             class: class(c).to_string(),
             oneway: OneWay::Both,
             speed_kmh: None,
@@ -1293,15 +1364,21 @@ pub fn grid_segments(side: usize) -> Vec<RoadSegment> {
     out
 }
 
-/// The road-network benchmark: build a grid of about `2 side^2` road pieces, compute the travel
+/// The road-network benchmark: build a grid of `2 side (side - 1) (shape_points + 1)` road
+/// pieces ([`grid_segments`]), compute the travel
 /// among a depot and `stops` stops spread over it (`threads` searches at a time), order one tour
 /// and split it into 8-hour days of at most 10 stops (1.5 h of work each), and the same with
 /// straight-line travel (x 1.3 at 30 km/h) for comparison. Peak memory is the caller's to read.
-pub fn bench_grid(side: usize, stops: usize, threads: usize) -> Result<GridBench> {
+pub fn bench_grid(
+    side: usize,
+    shape_points: usize,
+    stops: usize,
+    threads: usize,
+) -> Result<GridBench> {
     use crate::field::routing;
     use std::time::Instant;
     let started = Instant::now();
-    let segments = grid_segments(side);
+    let segments = grid_segments(side, shape_points);
     let network = RoadNetwork::build(&segments, &NetworkOptions::default())?;
     drop(segments);
     let build_s = started.elapsed().as_secs_f64();
