@@ -218,7 +218,7 @@ fn grid() -> Grid {
         })
         .collect();
     let class = |k: usize| {
-        if k % 4 == 0 {
+        if k.is_multiple_of(4) {
             "secondary"
         } else {
             "residential"

@@ -1336,7 +1336,7 @@ pub fn grid_segments(side: usize, shape_points: usize) -> Vec<RoadSegment> {
         points
     };
     let class = |k: usize| {
-        if k % 10 == 0 {
+        if k.is_multiple_of(10) {
             "primary"
         } else {
             "residential"
@@ -1482,8 +1482,10 @@ mod tests {
                 OneWay::Both,
             ),
         ];
-        let mut options = NetworkOptions::default();
-        options.speeds = SpeedTable::single(36.0); // 10 m/s
+        let options = NetworkOptions {
+            speeds: SpeedTable::single(36.0), // 10 m/s
+            ..NetworkOptions::default()
+        };
         let net = RoadNetwork::build(&roads, &options).unwrap();
         let t = net.travel(&[(50.0, 0.0), (150.0, 0.0)], 1).unwrap();
         // Forward: 100 m along the one-way. Back: 50 m + 100 + 200 + 100 + 50 m = 500 m.
