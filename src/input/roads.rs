@@ -278,6 +278,20 @@ pub fn read_roads(path: &Path, target: &Crs, fields: &RoadFields) -> Result<Road
     let dataset = open(path)?;
     let driver = dataset.driver().short_name();
     let osm = driver == "OSM";
+    if osm {
+        // GDAL's OSM driver reads every layer in one pass; naming the one wanted lets it skip
+        // the others instead of buffering them (`SET interest_layers`, GDAL OSM driver docs).
+        let wanted = fields.layer.as_deref().unwrap_or("lines");
+        if dataset.layers().any(|l| l.name() == wanted) {
+            dataset
+                .execute_sql(
+                    format!("SET interest_layers = {wanted}"),
+                    None,
+                    gdal::vector::sql::Dialect::DEFAULT,
+                )
+                .map_err(|e| Error::gdal("select the road layer of", path, e))?;
+        }
+    }
     let mut layer = pick_layer(&dataset, path, fields.layer.as_deref(), osm)?;
     let layer_name = layer.name();
     let Some(mut source_srs) = layer.spatial_ref() else {
