@@ -16,18 +16,15 @@ pub mod report;
 pub mod solve;
 
 use crate::app::cli::{Cli, Command};
-use crate::app::{demo, settings};
+use crate::app::{demo, resolve};
 pub use crate::core::error::{Error, Result};
-use crate::core::progress;
+use crate::core::printer::Printer;
 use crate::report::output;
 
 /// Run one command; returns the text for stdout.
 pub fn run(cli: Cli) -> Result<String> {
-    // GDAL's messages reach the user inside our own errors, once, with the file named; keep its
-    // default handler from printing them a second time.
-    gdal::config::set_error_handler(|_, _, _| {});
-    crate::core::memory::cap_gdal_cache();
-    progress::init(match &cli.command {
+    crate::input::gis::init();
+    let printer = Printer::new(match &cli.command {
         Command::Plan(a) => a.inputs.quiet,
         Command::Curve(a) => a.inputs.quiet,
         Command::Simulate(a) => a.inputs.quiet,
@@ -37,28 +34,31 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Demo(a) => a.quiet,
         _ => false,
     });
+    printer.install();
     match cli.command {
         Command::Plan(args) => {
-            if let Some(p) = &args.write_mps
-                && !p.extension().is_some_and(|e| e.eq_ignore_ascii_case("mps"))
-            {
-                return Err(Error::input_with_hint(
-                    format!("`--write-mps {}`: the file must end in .mps", p.display()),
-                    "e.g. `--write-mps plan.mps`",
-                ));
-            }
-            let settings = settings::resolve(&args.inputs)?;
-            let report = commands::plan::run_with(&settings, args.write_mps.as_deref())?;
-            Ok(report.text)
+            let settings = resolve::plan::resolve(&args)?;
+            Ok(commands::plan::run(&settings, printer)?.text)
         }
-        Command::Curve(args) => Ok(commands::curve::run(&args)?.text),
-        Command::Contract(args) => Ok(commands::contract::run_contract(&args)?),
-        Command::Record(args) => Ok(commands::contract::run_record(&args)?),
-        Command::Orders(args) => commands::orders::run(&args),
-        Command::Simulate(args) => commands::simulate::run(&args),
-        Command::Calibrate(args) => commands::calibrate::run(&args),
-        Command::Program(args) => commands::program::run(&args),
-        Command::Demo(args) => Ok(commands::demo::run(&args)?.text),
+        Command::Curve(args) => {
+            let settings = resolve::curve::resolve(&args)?;
+            Ok(commands::curve::run(&settings, printer)?.text)
+        }
+        Command::Contract(args) => {
+            commands::contract::run_contract(&resolve::contract::contract(&args)?)
+        }
+        Command::Record(args) => commands::contract::run_record(&resolve::contract::record(&args)?),
+        Command::Orders(args) => commands::orders::run(&args, printer),
+        Command::Simulate(args) => {
+            commands::simulate::run(&resolve::simulate::resolve(&args)?, printer)
+        }
+        Command::Calibrate(args) => {
+            commands::calibrate::run(&resolve::calibrate::resolve(&args)?, printer)
+        }
+        Command::Program(args) => {
+            commands::program::run(&resolve::program::resolve(&args)?, printer)
+        }
+        Command::Demo(args) => Ok(commands::demo::run(&args, printer)?.text),
         Command::Bench(args) => commands::bench::run(&args),
         Command::MakeDemoInputs(args) => {
             let staging = output::Staging::new(&args.dir, args.force, "make-demo-inputs")?;

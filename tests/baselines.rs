@@ -1,7 +1,10 @@
 //! Today's-practice baselines: each follows its rule exactly on hand-made instances, stays
-//! feasible, and never beats the exact optimum (property test over random instances against
-//! brute-force enumeration).
+//! feasible, and never beats the exact optimum (property test over the tests' random instances,
+//! tests/common, against brute-force enumeration).
 
+mod common;
+
+use common::{random_instance, small_spec};
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
 use hostcut::core::site::{PatchId, Site};
@@ -11,10 +14,9 @@ use hostcut::input::treatments::{Choice, MethodId};
 use hostcut::model::graph::build_graph;
 use hostcut::model::risk::RiskModel;
 use hostcut::planning::baselines::{self, fill_in_order};
-use hostcut::solve::optimise::{brute_force, solve};
+use hostcut::solve::heuristics::brute_force;
+use hostcut::solve::optimise::solve;
 use hostcut::solve::problem::{Limits, Problem};
-use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha8Rng;
 
 fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
     let items = points
@@ -34,6 +36,10 @@ fn patches(points: &[(f64, f64)], stems: &[f64]) -> Patches {
             suitability: None,
         })
         .collect();
+    patches_of(items)
+}
+
+fn patches_of(items: Vec<Patch>) -> Patches {
     Patches {
         crs: Crs::parse("EPSG:32618", "test").unwrap(),
         items,
@@ -142,46 +148,14 @@ fn nearest_and_corridor_orders() {
 fn the_optimum_is_never_worse_than_any_baseline() {
     let mut checked = 0;
     for seed in 0..30u64 {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        let n = rng.gen_range(5..=8);
-        let pts: Vec<(f64, f64)> = (0..n)
-            .map(|_| (rng.gen_range(0.0..1200.0), rng.gen_range(0.0..1200.0)))
-            .collect();
-        let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..400.0)).collect();
-        let pressure: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..4.0)).collect();
-        let p = patches(&pts, &stems);
-        let graph = build_graph(
-            &pts,
-            Kernel {
-                kind: KernelKind::Exp,
-                alpha_m: 300.0,
-            },
-            0.001,
-        );
-        let model = RiskModel::new(&stems, &pressure, &graph);
-        let choices: Vec<Vec<Choice>> = stems
-            .iter()
-            .map(|&s| {
-                if rng.gen_bool(0.15) {
-                    vec![]
-                } else {
-                    two_methods(s)
-                }
-            })
-            .collect();
-        let total: f64 = choices.iter().flatten().map(|c| c.cost).sum::<f64>() / 2.0;
-        let problem = Problem {
-            model: &model,
-            choices,
-            budget: total * rng.gen_range(0.1..0.6),
-            crew_hours: if rng.gen_bool(0.5) {
-                Some(rng.gen_range(1.0..10.0))
-            } else {
-                None
-            },
-            required: vec![false; n],
-            excluded: vec![false; n],
-        };
+        let mut spec = small_spec(seed, 5 + (seed % 4) as usize);
+        spec.methods = 2;
+        spec.required_share = 0.0;
+        spec.excluded_share = 0.0;
+        let inst = random_instance(&spec);
+        let n = inst.len();
+        let p = patches_of(inst.land.patches.clone());
+        let problem = inst.problem();
         let near: Vec<Vec<String>> = (0..n)
             .map(|i| {
                 if i % 3 == 0 {

@@ -282,12 +282,9 @@ fn demo_surveys_calibrate_and_feed_plan_ensemble_and_simulate() {
     );
     assert!(lo < est && est < hi);
     assert!(c["aic_difference"].as_float().unwrap() > 0.0);
-    let rows =
-        csv_rows_of(&std::fs::read_to_string(dir.path().join("cal/calibration.csv")).unwrap());
+    let rows = Table::read(&dir.path().join("cal/calibration.csv")).rows;
     assert_eq!(rows.len(), 12, "6 rows per family");
-    let unassigned = csv_rows_of(
-        &std::fs::read_to_string(dir.path().join("cal/unassigned_surveys.csv")).unwrap(),
-    );
+    let unassigned = Table::read(&dir.path().join("cal/unassigned_surveys.csv")).rows;
     assert_eq!(
         unassigned.len(),
         4,
@@ -382,7 +379,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         stderr(&o)
     );
     // The assignment itself (library): inside a raster patch, nearest within the radius, too far.
-    use hostcut::commands::calibrate::{Placement, Survey, assign, observations};
+    use hostcut::model::calibrate::surveys::{Placement, Survey, assign, observations};
     let sv = |x: f64, y: f64, year: i32, positive: bool| Survey {
         line: 0,
         x,

@@ -580,13 +580,16 @@ fn host_polygons_with_a_stems_field() {
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
-    let rows = csv_rows_of(&patches);
+    let rows = Table::read(&dir.path().join("out/patches.csv")).rows;
     assert_eq!(rows.len(), 2);
-    assert_eq!(rows[0][5], "300");
-    assert_eq!(rows[0][6], "1", "area of a 100 m square is 1 ha");
+    assert_eq!(rows[0].get("stems"), "300");
     assert_eq!(
-        (rows[0][1].as_str(), rows[0][2].as_str()),
+        rows[0].get("area_ha"),
+        "1",
+        "area of a 100 m square is 1 ha"
+    );
+    assert_eq!(
+        (rows[0].get("x"), rows[0].get("y")),
         ("500050", "4480050"),
         "centroid of the square"
     );
@@ -637,21 +640,25 @@ fn raster_patches_split_at_parcels_and_take_their_rules() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let patches = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
-    let rows = csv_rows_of(&patches);
+    let rows = Table::parse(&patches).rows;
     assert_eq!(rows.len(), 2, "{patches}");
-    let west = rows.iter().find(|r| r[11] == "W").unwrap();
-    let east = rows.iter().find(|r| r[11] == "E").unwrap();
-    assert_eq!((west[8].as_str(), west[9].as_str()), ("open", "prohibited"));
+    let west = rows.iter().find(|r| r.get("parcel") == "W").unwrap();
+    let east = rows.iter().find(|r| r.get("parcel") == "E").unwrap();
     assert_eq!(
-        (east[8].as_str(), east[12].as_str(), east[17].as_str()),
+        (west.get("access"), west.get("herbicide")),
+        ("open", "prohibited")
+    );
+    assert_eq!(
+        (east.get("access"), east.get("eligible"), east.get("method")),
         ("denied", "no", "")
     );
     assert_eq!(
-        west[17], "pull_seedlings",
+        west.get("method"),
+        "pull_seedlings",
         "only the non-herbicide method on a prohibited site"
     );
     // 8 cells x 0.04 ha x 100 stems/ha each side.
-    assert_eq!(west[5], "32");
+    assert_eq!(west.get("stems"), "32");
     let plan = std::fs::read_to_string(dir.path().join("out/plan.csv")).unwrap();
     assert!(plan.contains("west office"));
 }

@@ -29,12 +29,8 @@ fn planned(dir: &Path) -> serde_json::Value {
     summary(&dir.join("plan"))
 }
 
-fn rows(path: &Path) -> Vec<csv::StringRecord> {
-    csv::Reader::from_path(path)
-        .unwrap()
-        .records()
-        .map(|r| r.unwrap())
-        .collect()
+fn rows(path: &Path) -> Vec<Row> {
+    Table::read(path).rows
 }
 
 #[test]
@@ -46,9 +42,9 @@ fn bid_schedule_totals_equal_the_plans_cost() {
     assert!(stdout(&o).contains("label is the law"));
     let bid = rows(&dir.path().join("con/bid_schedule.csv"));
     let (items, total) = bid.split_at(bid.len() - 1);
-    let cents = |r: &csv::StringRecord| (r[9].parse::<f64>().unwrap() * 100.0).round() as i64;
+    let cents = |r: &Row| (r.num("estimated_extended") * 100.0).round() as i64;
     let spent = (s["spent"].as_f64().unwrap() * 100.0).round() as i64;
-    assert_eq!(&total[0][0], "TOTAL");
+    assert_eq!(total[0].get("item"), "TOTAL");
     assert_eq!(
         cents(&total[0]),
         spent,
@@ -62,12 +58,14 @@ fn bid_schedule_totals_equal_the_plans_cost() {
     assert_eq!(
         items
             .iter()
-            .map(|r| r[4].parse::<usize>().unwrap())
+            .map(|r| r.get("patches").parse::<usize>().unwrap())
             .sum::<usize>(),
         s["n_treated"].as_u64().unwrap() as usize
     );
     assert!(
-        items.iter().all(|r| r[10].is_empty() && r[11].is_empty()),
+        items
+            .iter()
+            .all(|r| r.get("bid_unit_price").is_empty() && r.get("bid_extended").is_empty()),
         "bidders' columns are blank"
     );
     let template = rows(&dir.path().join("con/completion_template.csv"));
@@ -96,13 +94,13 @@ fn a_bad_completion_file_is_refused_row_by_row() {
     let template = rows(&dir.path().join("con/completion_template.csv"));
     let herbicide = template
         .iter()
-        .find(|r| &r[1] != "pull_seedlings")
+        .find(|r| r.get("method") != "pull_seedlings")
         .expect("a herbicide row")
         .clone();
     let (id, method, stems) = (
-        &herbicide[0],
-        &herbicide[1],
-        herbicide[2].parse::<f64>().unwrap(),
+        herbicide.get("patch_id"),
+        herbicide.get("method"),
+        herbicide.num("planned_stems"),
     );
     let mut csv = String::from(
         "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n",
@@ -115,16 +113,24 @@ fn a_bad_completion_file_is_refused_row_by_row() {
     csv.push_str(&format!(
         "{id},{method},{stems},{stems},2027-08-01,L1,triclopyr,\n"
     )); // 4: duplicate
-    let others: Vec<_> = template.iter().filter(|r| &r[0] != id).collect();
+    let others: Vec<_> = template
+        .iter()
+        .filter(|r| r.get("patch_id") != id)
+        .collect();
     let other = others.first().expect("a second planned patch");
     csv.push_str(&format!(
         "{},{},{},{},2027-01-15,,,\n",
-        &other[0], &other[1], &other[2], &other[2]
+        other.get("patch_id"),
+        other.get("method"),
+        other.get("planned_stems"),
+        other.get("planned_stems")
     )); // 5: outside window (+ licence)
     if let Some(third) = others.get(1) {
         csv.push_str(&format!(
             "{},wrong_method,{},{},2027-08-01,L1,x,\n",
-            &third[0], &third[2], &third[2]
+            third.get("patch_id"),
+            third.get("planned_stems"),
+            third.get("planned_stems")
         )); // 6: method mismatch
     }
     write(dir.path(), "done.csv", &csv);
@@ -165,7 +171,10 @@ fn a_bad_completion_file_is_refused_row_by_row() {
     // A herbicide row without licence or active ingredient, and a malformed date.
     let csv = format!(
         "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes\n{id},{method},{stems},{stems},2027-08-01,,,\n{},{},{},{},08/01/2027,L,x,\n",
-        &other[0], &other[1], &other[2], &other[2]
+        other.get("patch_id"),
+        other.get("method"),
+        other.get("planned_stems"),
+        other.get("planned_stems")
     );
     write(dir.path(), "done2.csv", &csv);
     let o = run(
@@ -213,15 +222,20 @@ fn a_full_round_trip_gives_the_expected_remaining_stems() {
     );
     let mut expected = std::collections::HashMap::new();
     for r in &template {
-        let stems: f64 = r[2].parse().unwrap();
-        let method = catalogue.methods.iter().find(|m| m.id == r[1]).unwrap();
+        let stems = r.num("planned_stems");
+        let method = catalogue
+            .methods
+            .iter()
+            .find(|m| m.id == r.get("method"))
+            .unwrap();
         let month = method.months[0];
         csv.push_str(&format!(
             "{},{},{stems},{stems},2027-{month:02}-15,PA-12345,triclopyr,as planned\n",
-            &r[0], &r[1]
+            r.get("patch_id"),
+            r.get("method")
         ));
         expected.insert(
-            r[0].to_string(),
+            r.get("patch_id").to_string(),
             (
                 stems * (1.0 - method.effectiveness),
                 format!("2028-{month:02}-01"),
@@ -253,17 +267,22 @@ fn a_full_round_trip_gives_the_expected_remaining_stems() {
         })
         .collect();
     for r in &next {
-        let stems: f64 = r[3].parse().unwrap();
-        match expected.get(&r[0]) {
+        let stems = r.num("stems");
+        match expected.get(r.get("id")) {
             Some((left, due)) => {
                 assert!(
                     (stems - left).abs() <= 0.051,
                     "{}: {stems} left, expected {left}",
-                    &r[0]
+                    r.get("id")
                 );
-                assert_eq!(&r[10], due.as_str());
+                assert_eq!(r.get("follow_up_due"), due.as_str());
             }
-            None => assert_eq!(stems, original[&r[0]], "untreated patch {} changed", &r[0]),
+            None => assert_eq!(
+                stems,
+                original[r.get("id")],
+                "untreated patch {} changed",
+                r.get("id")
+            ),
         }
     }
     // Next season plans from it.
@@ -284,7 +303,7 @@ fn a_full_round_trip_gives_the_expected_remaining_stems() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let s = summary(&dir.path().join("next"));
-    let total: f64 = next.iter().map(|r| r[3].parse::<f64>().unwrap()).sum();
+    let total: f64 = next.iter().map(|r| r.num("stems")).sum();
     assert!((s["stems_total"].as_f64().unwrap() - total).abs() < 1e-6);
     assert!(
         std::fs::read_to_string(dir.path().join("rec/record_report.md"))

@@ -211,7 +211,8 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
         .unwrap();
     assert_eq!(points.split_whitespace().count(), 20);
     assert!(
-        svg.contains("season budget (EUR)") && svg.contains("€"),
+        // House style (src/report/format.rs): the code before the amount, no symbol.
+        svg.contains("season budget (EUR)") && svg.contains(": EUR ") && !svg.contains("€"),
         "axis label and currency"
     );
     let md = std::fs::read_to_string(dir.path().join("c/justification.md")).unwrap();

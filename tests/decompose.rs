@@ -1,133 +1,38 @@
-//! The exact component decomposition (src/decompose.rs) against brute-force enumeration on
-//! tiny instances and against the monolithic transportation MIP on larger random ones: patch
+//! The exact component decomposition (src/solve/decompose.rs) against brute-force enumeration on
+//! tiny instances (the tests' random instances, tests/common) and against the monolithic transportation MIP on larger random ones: patch
 //! clusters far enough apart share no link, so the merge must find the same optimum.
 
-use hostcut::core::kernel::Kernel;
+mod common;
+
+use common::{Instance, random_instance, small_spec};
 use hostcut::core::kernel::KernelKind;
-use hostcut::input::treatments::{Choice, MethodId};
-use hostcut::model::graph::build_graph;
-use hostcut::model::risk::RiskModel;
 use hostcut::solve::decompose;
-use hostcut::solve::optimise::{brute_force, solve};
-use hostcut::solve::problem::{Limits, Problem, Status};
-use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha8Rng;
+use hostcut::solve::heuristics::brute_force;
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Limits, Status};
 
-struct Instance {
-    model: RiskModel,
-    choices: Vec<Vec<Choice>>,
-    budget: f64,
-    crew_hours: Option<f64>,
-    required: Vec<bool>,
-    excluded: Vec<bool>,
-}
-
-/// `clusters` groups of 1-4 patches, 50 km apart, kernel cut off well inside that.
-fn instance(seed: u64, clusters: usize) -> Instance {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let mut points = Vec::new();
-    for c in 0..clusters {
-        let size = rng.gen_range(1..=4);
-        for _ in 0..size {
-            points.push((
-                c as f64 * 50_000.0 + rng.gen_range(0.0..800.0),
-                rng.gen_range(0.0..800.0),
-            ));
-        }
-    }
-    let n = points.len();
-    let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..500.0)).collect();
-    let pressure: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..5.0)).collect();
-    let graph = build_graph(
-        &points,
-        Kernel {
-            kind: KernelKind::Exp,
-            alpha_m: rng.gen_range(150.0..500.0),
-        },
-        0.001,
-    );
-    let model = RiskModel::new(&stems, &pressure, &graph);
-    let methods: Vec<(f64, f64, f64, f64)> = (0..3)
-        .map(|_| {
-            (
-                rng.gen_range(0.3..1.0),
-                rng.gen_range(50.0..300.0),
-                rng.gen_range(0.5..5.0),
-                rng.gen_range(0.005..0.05),
-            )
-        })
-        .collect();
-    let choices: Vec<Vec<Choice>> = (0..n)
-        .map(|i| {
-            let allowed: Vec<usize> = if rng.gen_bool(0.1) {
-                vec![]
-            } else if rng.gen_bool(0.2) {
-                vec![2]
-            } else {
-                vec![0, 1, 2]
-            };
-            let factor = rng.gen_range(0.8..1.5);
-            allowed
-                .into_iter()
-                .map(|m| {
-                    let (e, per_patch, per_stem, hours) = methods[m];
-                    Choice {
-                        method: MethodId(m as u16),
-                        cost: (per_patch + per_stem * stems[i]) * factor,
-                        hours: hours * stems[i],
-                        remaining: 1.0 - e,
-                    }
-                })
-                .collect()
-        })
-        .collect();
-    let total: f64 = choices
-        .iter()
-        .map(|c: &Vec<Choice>| c.iter().map(|c| c.cost).fold(0.0, f64::max))
-        .sum();
-    let budget = total * rng.gen_range(0.15..0.6);
-    let crew_hours = rng
-        .gen_bool(0.4)
-        .then(|| stems.iter().sum::<f64>() * rng.gen_range(0.005..0.03));
-    let mut required = vec![false; n];
-    let mut excluded = vec![false; n];
-    for i in 0..n {
-        if !choices[i].is_empty() && rng.gen_bool(0.08) {
-            required[i] = true;
-        } else if rng.gen_bool(0.08) {
-            excluded[i] = true;
-        }
-    }
-    Instance {
-        model,
-        choices,
-        budget,
-        crew_hours,
-        required,
-        excluded,
-    }
-}
-
-fn problem(inst: &Instance) -> Problem<'_> {
-    Problem {
-        model: &inst.model,
-        choices: inst.choices.clone(),
-        budget: inst.budget,
-        crew_hours: inst.crew_hours,
-        required: inst.required.clone(),
-        excluded: inst.excluded.clone(),
-    }
+/// `clusters` groups of patches, their centres uniform on a square 50 km a side per cluster
+/// (so far apart), the kernel exponential and cut off well inside that.
+fn instance(seed: u64, patches: usize, clusters: usize) -> Instance {
+    let mut spec = small_spec(seed, patches);
+    spec.landscape.clusters = clusters;
+    spec.landscape.side_m = 50_000.0 * clusters as f64;
+    spec.landscape.spread_m = 300.0;
+    spec.landscape.kernel.kind = KernelKind::Exp;
+    spec.required_share = 0.08;
+    spec.excluded_share = 0.08;
+    random_instance(&spec)
 }
 
 #[test]
 fn component_merge_equals_brute_force_on_tiny_instances() {
     let mut compared = 0;
     for seed in 0..40 {
-        let inst = instance(seed, 3);
-        if inst.model.len() > 9 {
+        let inst = instance(seed, 3 + (seed % 7) as usize, 3);
+        if inst.land.model.len() > 9 {
             continue;
         }
-        let p = problem(&inst);
+        let p = inst.problem();
         let pieces = decompose::pieces(&p).expect("several small components");
         assert!(pieces.len() >= 2);
         let exact = brute_force(&p);
@@ -161,8 +66,8 @@ fn component_merge_equals_brute_force_on_tiny_instances() {
 fn decomposed_and_monolithic_solves_agree_on_random_instances() {
     let mut compared = 0;
     for seed in 100..120 {
-        let inst = instance(seed, 12);
-        let p = problem(&inst);
+        let inst = instance(seed, 24 + (seed % 12) as usize, 12);
+        let p = inst.problem();
         assert!(
             decompose::pieces(&p).is_some(),
             "seed {seed}: not decomposed"
@@ -202,8 +107,8 @@ fn decomposed_and_monolithic_solves_agree_on_random_instances() {
 /// all-pairs dominance filter over every enumerated plan of a four-patch component.
 #[test]
 fn frontier_is_the_set_of_undominated_plans() {
-    let inst = instance(7, 1);
-    let p = problem(&inst);
+    let inst = instance(7, 4, 1);
+    let p = inst.problem();
     let members: Vec<usize> = (0..p.len()).collect();
     let front = decompose::frontier(&p, &members);
     assert!(!front.is_empty());

@@ -1,37 +1,46 @@
 //! Plans across dispersal scenarios: the weighted-mean, worst-case and least-regret MIPs against
-//! brute-force enumeration on small random ensembles, the robustness guarantees, and the CLI.
+//! brute-force enumeration on small random ensembles (the tests' random instances,
+//! tests/common, under several kernels), the robustness guarantees, and the CLI.
 
 mod common;
 
 use common::*;
 use hostcut::core::kernel::Kernel;
 use hostcut::core::kernel::KernelKind;
-use hostcut::input::treatments::{Choice, MethodId};
+use hostcut::core::rng::SplitMix;
 use hostcut::model::ensemble::combine;
 use hostcut::model::graph::build_graph;
 use hostcut::model::risk::RiskModel;
-use hostcut::solve::optimise::{MinMax, solve, solve_minmax};
-use hostcut::solve::problem::{Assignment, Limits, Problem};
-use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha8Rng;
+use hostcut::solve::mip::minmax::solve_minmax;
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Assignment, Limits, MinMax, Problem};
 
-struct Instance {
+/// The tests' random instance (tests/common, no crew hours, two methods) and 2-3 dispersal
+/// scenarios over its patches: exponential and Cauchy kernels alternating, scales 50-800 m,
+/// weights 0.2-2.
+struct Ensemble {
+    instance: Instance,
     models: Vec<RiskModel>,
     weights: Vec<f64>,
-    choices: Vec<Vec<Choice>>,
-    budget: f64,
-    required: Vec<bool>,
 }
 
-fn instance(seed: u64) -> Instance {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let n = rng.gen_range(5..=7);
-    let points: Vec<(f64, f64)> = (0..n)
-        .map(|_| (rng.gen_range(0.0..1500.0), rng.gen_range(0.0..1500.0)))
+fn instance(seed: u64) -> Ensemble {
+    let mut spec = small_spec(seed, 5 + (seed % 3) as usize);
+    spec.methods = 2;
+    spec.hours_share = None;
+    spec.required_share = 0.05;
+    spec.excluded_share = 0.0;
+    let instance = random_instance(&spec);
+    let mut r = SplitMix::new(seed ^ 0xe5e);
+    let points: Vec<(f64, f64)> = instance.land.patches.iter().map(|p| (p.x, p.y)).collect();
+    let stems: Vec<f64> = instance.land.patches.iter().map(|p| p.stems).collect();
+    let pressure: Vec<f64> = instance
+        .land
+        .patches
+        .iter()
+        .map(|p| p.pressure_override.unwrap_or(1.0))
         .collect();
-    let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..500.0)).collect();
-    let pressure: Vec<f64> = (0..n).map(|_| 1.0 + rng.gen_range(0.0..3.0)).collect();
-    let scenarios = rng.gen_range(2..=3);
+    let scenarios = 2 + (seed % 2) as usize;
     let models = (0..scenarios)
         .map(|s| {
             let kind = if s % 2 == 0 {
@@ -43,54 +52,18 @@ fn instance(seed: u64) -> Instance {
                 &points,
                 Kernel {
                     kind,
-                    alpha_m: rng.gen_range(50.0..800.0),
+                    alpha_m: 50.0 + 750.0 * r.unit(),
                 },
                 0.001,
             );
             RiskModel::new(&stems, &pressure, &graph)
         })
         .collect();
-    let weights = (0..scenarios).map(|_| rng.gen_range(0.2..2.0)).collect();
-    let methods: Vec<(f64, f64, f64)> = (0..2)
-        .map(|_| {
-            (
-                rng.gen_range(0.3..1.0),
-                rng.gen_range(50.0..300.0),
-                rng.gen_range(0.5..5.0),
-            )
-        })
-        .collect();
-    let choices: Vec<Vec<Choice>> = (0..n)
-        .map(|i| {
-            if rng.gen_bool(0.1) {
-                return Vec::new();
-            }
-            methods
-                .iter()
-                .enumerate()
-                .map(|(m, &(e, per_patch, per_stem))| Choice {
-                    method: MethodId(m as u16),
-                    cost: per_patch + per_stem * stems[i],
-                    hours: 0.0,
-                    remaining: 1.0 - e,
-                })
-                .collect()
-        })
-        .collect();
-    let total: f64 = choices
-        .iter()
-        .map(|c| c.iter().map(|c| c.cost).fold(0.0, f64::max))
-        .sum();
-    let mut required = vec![false; n];
-    if let Some(i) = (0..n).find(|&i| !choices[i].is_empty() && rng.gen_bool(0.2)) {
-        required[i] = true;
-    }
-    Instance {
+    let weights = (0..scenarios).map(|_| 0.2 + 1.8 * r.unit()).collect();
+    Ensemble {
+        instance,
         models,
         weights,
-        choices,
-        budget: total * rng.gen_range(0.2..0.6),
-        required,
     }
 }
 
@@ -132,11 +105,11 @@ fn ensemble_mips_equal_brute_force() {
         let combined = combine(&inst.models, &inst.weights);
         let base = Problem {
             model: &combined,
-            choices: inst.choices.clone(),
-            budget: inst.budget,
+            choices: inst.instance.choices.clone(),
+            budget: inst.instance.budget,
             crew_hours: None,
-            required: inst.required.clone(),
-            excluded: vec![false; inst.choices.len()],
+            required: inst.instance.required.clone(),
+            excluded: vec![false; inst.instance.len()],
         };
         let plans = all_plans(&base);
         if plans.is_empty() {
@@ -271,10 +244,8 @@ fn robust_plans_from_the_command_line() {
         let s = summary(&dir.path().join(robust));
         assert_eq!(s["ensemble"]["robust"], robust);
         assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
-        let rows = csv_rows_of(
-            &std::fs::read_to_string(dir.path().join(robust).join("regret.csv")).unwrap(),
-        );
-        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r[0].as_str()).collect();
+        let rows = Table::read(&dir.path().join(robust).join("regret.csv")).rows;
+        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r.get("plan")).collect();
         // mean, (robust), three optima, greedy.
         assert_eq!(
             plans.len(),
@@ -283,21 +254,24 @@ fn robust_plans_from_the_command_line() {
         );
         assert_eq!(rows.len(), plans.len() * 3);
         for r in &rows {
-            let regret: f64 = r[7].parse().unwrap();
+            let regret = r.num("regret");
             assert!(regret >= 0.0);
         }
         // Each scenario's own optimum has no regret in its scenario.
-        for r in rows.iter().filter(|r| r[0].starts_with("optimum:")) {
-            if r[0] == format!("optimum:{}", r[1]) {
-                assert_eq!(r[7].parse::<f64>().unwrap(), 0.0, "{r:?}");
+        for r in rows
+            .iter()
+            .filter(|r| r.get("plan").starts_with("optimum:"))
+        {
+            if r.get("plan") == format!("optimum:{}", r.get("scenario")) {
+                assert_eq!(r.num("regret"), 0.0, "{r:?}");
             }
         }
         if robust == "regret" {
             // The least-regret plan has the smallest worst regret of all candidates.
             let max_regret = |plan: &str| {
                 rows.iter()
-                    .filter(|r| r[0] == plan)
-                    .map(|r| r[8].parse::<f64>().unwrap())
+                    .filter(|r| r.get("plan") == plan)
+                    .map(|r| r.num("regret_pct"))
                     .fold(0.0, f64::max)
             };
             let mine = max_regret("robust_regret");

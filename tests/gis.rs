@@ -162,11 +162,10 @@ fn stems_from_a_geotiff_equal_the_raster_sum() {
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let text = std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap();
-    let mut rdr = csv::Reader::from_reader(text.as_bytes());
-    let stems: Vec<f64> = rdr
-        .records()
-        .map(|r| r.unwrap()[5].parse().unwrap())
+    let stems: Vec<f64> = Table::read(&dir.path().join("out/patches.csv"))
+        .rows
+        .iter()
+        .map(|r| r.num("stems"))
         .collect();
     assert_eq!(stems.len(), 2);
     let expected_total: f64 = v

@@ -145,21 +145,17 @@ fn formula_cells_are_neutralised_everywhere_and_ids_round_trip() {
     ok(&["contract", "--plan", "plan", "--out", "contract"]);
 
     // The crew fills the template as a spreadsheet would save it: the cells as written.
-    let template = std::fs::read_to_string(d.join("contract/completion_template.csv")).unwrap();
-    let mut reader = csv::Reader::from_reader(template.as_bytes());
+    let template = Table::read(&d.join("contract/completion_template.csv"));
     let mut filled = csv::Writer::from_writer(Vec::new());
-    filled
-        .write_record(reader.headers().unwrap().iter())
-        .unwrap();
-    for row in reader.records() {
-        let row = row.unwrap();
-        let stems = row[2].to_string();
+    filled.write_record(&template.columns).unwrap();
+    for row in &template.rows {
+        let stems = row.get("planned_stems");
         filled
             .write_record([
-                &row[0],
-                &row[1],
-                &stems,
-                &stems,
+                row.get("patch_id"),
+                row.get("method"),
+                stems,
+                stems,
                 "2027-06-15",
                 "",
                 "",

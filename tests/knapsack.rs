@@ -152,7 +152,7 @@ fn knapsack_instances_reach_their_optima_through_the_planner() {
     }
 }
 
-/// With no links and one method that removes a patch, the relaxation of src/relax.rs is the
+/// With no links and one method that removes a patch, the relaxation of src/solve/relax/ is the
 /// LP relaxation of the 0-1 knapsack, whose value is Dantzig's bound (Dantzig 1957, from
 /// memory): items by profit/weight, the first that does not fit taken fractionally. On P01–P08
 /// the relaxation's bound on R must equal risk_before - Dantzig's bound and lie below the

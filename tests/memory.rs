@@ -226,12 +226,11 @@ fn a_suitability_raster_larger_than_the_budget_is_read_in_strips() {
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let patches =
-        csv_rows_of(&std::fs::read_to_string(dir.path().join("out/patches.csv")).unwrap());
+    let patches = Table::read(&dir.path().join("out/patches.csv")).rows;
     assert_eq!(patches.len(), 12);
-    // Column 18 is `suitability`: every stand read its own cell of the tile.
+    // Every stand read its own cell of the tile.
     for row in &patches {
-        assert_eq!(row[18], "0.7", "{row:?}");
+        assert_eq!(row.get("suitability"), "0.7", "{row:?}");
     }
 }
 
@@ -296,22 +295,31 @@ fn stands_on_zero_suitability_are_carried_with_zero_risk() {
     );
     let out = dir.path().join("out");
     assert_eq!(summary(&out)["patches_without_host"], 16);
-    let patches = csv_rows_of(&std::fs::read_to_string(out.join("patches.csv")).unwrap());
+    let patches = Table::read(&out.join("patches.csv")).rows;
     assert_eq!(patches.len(), 24, "every stand is listed");
-    let zero: Vec<&Vec<String>> = patches.iter().filter(|r| r[18] == "0").collect();
+    let zero: Vec<&Row> = patches
+        .iter()
+        .filter(|r| r.get("suitability") == "0")
+        .collect();
     assert_eq!(zero.len(), 16);
     for row in &zero {
-        // eligible, risk_share, method.
         assert_eq!(
-            (row[12].as_str(), row[13].as_str(), row[17].as_str()),
+            (
+                row.get("eligible"),
+                row.get("risk_share"),
+                row.get("method")
+            ),
             ("no", "0", ""),
             "{row:?}"
         );
     }
-    let plan = csv_rows_of(&std::fs::read_to_string(out.join("plan.csv")).unwrap());
+    let plan = Table::read(&out.join("plan.csv")).rows;
     assert!(!plan.is_empty(), "the suitable stands are planned");
-    let unsuitable: Vec<&str> = zero.iter().map(|r| r[0].as_str()).collect();
-    assert!(plan.iter().all(|r| !unsuitable.contains(&r[1].as_str())));
+    let unsuitable: Vec<&str> = zero.iter().map(|r| r.get("patch_id")).collect();
+    assert!(
+        plan.iter()
+            .all(|r| !unsuitable.contains(&r.get("patch_id")))
+    );
 }
 
 #[test]

@@ -88,3 +88,64 @@ fn write_mps_needs_an_mps_file_name() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains(".mps"), "{}", stderr(&o));
 }
+
+#[test]
+fn formulation_flag_picks_the_mip_and_is_recorded() {
+    // Both formulations are exact (docs/model.md), so at `--gap 0` they reach the same optimum;
+    // the choice is kept in scenario.resolved.toml only when it is not the default.
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "stands.csv", STANDS);
+    let plan = |out: &str, extra: &[&str]| {
+        let mut args = vec![
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "2500",
+            "--gap",
+            "0",
+            "--out",
+            out,
+            "--quiet",
+        ];
+        args.extend_from_slice(extra);
+        run(dir.path(), &args)
+    };
+    let o = plan("t", &["--write-mps", "t.mps"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = plan("c", &["--formulation", "compact", "--write-mps", "c.mps"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (t, c) = (
+        summary(&dir.path().join("t")),
+        summary(&dir.path().join("c")),
+    );
+    assert_eq!(t["status"], "optimal");
+    assert_eq!(c["status"], "optimal");
+    let (rt, rc) = (
+        t["risk_after"].as_f64().unwrap(),
+        c["risk_after"].as_f64().unwrap(),
+    );
+    assert!(
+        (rt - rc).abs() <= 1e-7 * rt,
+        "transport {rt} vs compact {rc}"
+    );
+    assert_eq!(t["solver_path"], "transport MIP");
+    assert_eq!(c["solver_path"], "compact MIP");
+    let mps = |name: &str| std::fs::read_to_string(dir.path().join(name)).unwrap();
+    assert_ne!(
+        mps("t.mps"),
+        mps("c.mps"),
+        "--write-mps follows --formulation"
+    );
+    let resolved = |out: &str| {
+        std::fs::read_to_string(dir.path().join(out).join("scenario.resolved.toml")).unwrap()
+    };
+    assert!(!resolved("t").contains("formulation"));
+    assert!(resolved("c").contains("formulation = \"compact\""));
+    // The benchmark's baseline is not a plan setting.
+    let o = plan("d", &["--formulation", "direct"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("--formulation"), "{}", stderr(&o));
+}

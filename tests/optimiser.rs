@@ -2,133 +2,15 @@
 //! per patch, checked for budget, hours, required and excluded, with R evaluated by its
 //! definition) on random small instances; and the greedy heuristic's plan against both.
 
-use hostcut::core::kernel::Kernel;
-use hostcut::core::kernel::KernelKind;
-use hostcut::input::treatments::{Choice, MethodId};
-use hostcut::model::graph::build_graph;
-use hostcut::model::risk::RiskModel;
-use hostcut::solve::optimise::{brute_force, greedy, solve};
-use hostcut::solve::problem::{Formulation, Limits, Problem, Status};
+mod common;
+
+use common::{random_instance, small_spec};
+use hostcut::core::scenario::Formulation;
+use hostcut::solve::heuristics::{brute_force, greedy};
+use hostcut::solve::optimise::solve;
+use hostcut::solve::problem::{Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-
-struct Instance {
-    model: RiskModel,
-    choices: Vec<Vec<Choice>>,
-    budget: f64,
-    crew_hours: Option<f64>,
-    required: Vec<bool>,
-    excluded: Vec<bool>,
-}
-
-fn instance(seed: u64) -> Instance {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let n = rng.gen_range(5..=8);
-    let points: Vec<(f64, f64)> = (0..n)
-        .map(|_| (rng.gen_range(0.0..1500.0), rng.gen_range(0.0..1500.0)))
-        .collect();
-    let stems: Vec<f64> = (0..n).map(|_| rng.gen_range(10.0..500.0)).collect();
-    let pressure: Vec<f64> = (0..n)
-        .map(|_| {
-            1.0 + if rng.gen_bool(0.4) {
-                rng.gen_range(0.0..4.0)
-            } else {
-                0.0
-            }
-        })
-        .collect();
-    let kind = if seed.is_multiple_of(2) {
-        KernelKind::Exp
-    } else {
-        KernelKind::Cauchy
-    };
-    let graph = build_graph(
-        &points,
-        Kernel {
-            kind,
-            alpha_m: rng.gen_range(100.0..600.0),
-        },
-        0.001,
-    );
-    let model = RiskModel::new(&stems, &pressure, &graph);
-    // Three methods; the third stands for a non-herbicide method.
-    let methods: Vec<(f64, f64, f64, f64)> = (0..3)
-        .map(|_| {
-            (
-                rng.gen_range(0.3..1.0),
-                rng.gen_range(50.0..300.0),
-                rng.gen_range(0.5..5.0),
-                rng.gen_range(0.005..0.05),
-            )
-        })
-        .collect();
-    let mut choices: Vec<Vec<Choice>> = Vec::new();
-    for i in 0..n {
-        let roll: f64 = rng.r#gen();
-        let allowed: Vec<usize> = if roll < 0.12 {
-            vec![] // access denied
-        } else if roll < 0.3 {
-            vec![2] // herbicide prohibited: only the non-herbicide method
-        } else {
-            vec![0, 1, 2]
-        };
-        let factor = rng.gen_range(0.8..1.5);
-        choices.push(
-            allowed
-                .into_iter()
-                .map(|m| {
-                    let (e, per_patch, per_stem, hours) = methods[m];
-                    Choice {
-                        method: MethodId(m as u16),
-                        cost: (per_patch + per_stem * stems[i]) * factor,
-                        hours: hours * stems[i],
-                        remaining: 1.0 - e,
-                    }
-                })
-                .collect(),
-        );
-    }
-    let total: f64 = choices
-        .iter()
-        .map(|c| c.iter().map(|c| c.cost).fold(0.0, f64::max))
-        .sum();
-    let budget = total * rng.gen_range(0.2..0.7);
-    let crew_hours = if rng.gen_bool(0.5) {
-        Some(stems.iter().sum::<f64>() * rng.gen_range(0.005..0.03))
-    } else {
-        None
-    };
-    let mut required = vec![false; n];
-    let mut excluded = vec![false; n];
-    for i in 0..n {
-        if !choices[i].is_empty() && rng.gen_bool(0.12) {
-            required[i] = true;
-        } else if rng.gen_bool(0.12) {
-            excluded[i] = true;
-        }
-    }
-    Instance {
-        model,
-        choices,
-        budget,
-        crew_hours,
-        required,
-        excluded,
-    }
-}
-
-impl Instance {
-    fn problem(&self) -> Problem<'_> {
-        Problem {
-            model: &self.model,
-            choices: self.choices.clone(),
-            budget: self.budget,
-            crew_hours: self.crew_hours,
-            required: self.required.clone(),
-            excluded: self.excluded.clone(),
-        }
-    }
-}
 
 #[test]
 fn mip_equals_brute_force_on_random_instances() {
@@ -150,7 +32,7 @@ fn check_against_brute_force(formulation: Formulation) {
     let mut infeasible = 0;
     let mut linked = 0;
     for seed in 0..40 {
-        let inst = instance(seed);
+        let inst = random_instance(&small_spec(seed, 5 + (seed % 4) as usize));
         let problem = inst.problem();
         let exact = brute_force(&problem);
         let limits = Limits {
@@ -202,7 +84,7 @@ fn check_against_brute_force(formulation: Formulation) {
                     );
                 }
                 compared += 1;
-                if !inst.model.links.is_empty() {
+                if !inst.land.model.links.is_empty() {
                     linked += 1;
                 }
             }
@@ -220,21 +102,21 @@ fn check_against_brute_force(formulation: Formulation) {
 
 #[test]
 fn zero_budget_gives_the_empty_plan() {
-    let inst = instance(3);
+    let inst = random_instance(&small_spec(3, 8));
     let problem = Problem {
-        model: &inst.model,
+        model: &inst.land.model,
         choices: inst.choices.clone(),
         budget: 0.0,
         crew_hours: None,
-        required: vec![false; inst.model.len()],
-        excluded: vec![false; inst.model.len()],
+        required: vec![false; inst.land.model.len()],
+        excluded: vec![false; inst.land.model.len()],
     };
     let solved = solve(&problem, Limits::new(10.0, 0.0)).unwrap();
     assert!(solved.assignment.iter().all(Option::is_none));
-    assert!((solved.risk_after - inst.model.risk_before()).abs() < 1e-15);
+    assert!((solved.risk_after - inst.land.model.risk_before()).abs() < 1e-15);
 }
 
-/// The Frank–Wolfe bound of the convex reformulation (src/relax.rs) is a lower bound on the
+/// The Frank–Wolfe bound of the convex reformulation (src/solve/relax/convex.rs) is a lower bound on the
 /// optimum found by brute force, and it is sharper than the treat-everything floor on most
 /// instances (the floor ignores the budget).
 #[test]
@@ -243,7 +125,7 @@ fn relaxation_bound_never_exceeds_the_brute_force_optimum() {
     let (mut compared, mut sharper) = (0, 0);
     let mut closed = 0.0;
     for seed in 0..40 {
-        let inst = instance(seed);
+        let inst = random_instance(&small_spec(seed, 5 + (seed % 4) as usize));
         let problem = inst.problem();
         let Some((best_plan, best)) = brute_force(&problem) else {
             continue;
@@ -279,7 +161,7 @@ fn relaxation_bound_never_exceeds_the_brute_force_optimum() {
     );
 }
 
-/// The smallest eigenvalue by Lanczos (src/relax.rs) against nalgebra's symmetric eigensolver
+/// The smallest eigenvalue by Lanczos (src/solve/relax/lanczos.rs) against nalgebra's symmetric eigensolver
 /// (a general-purpose reference library), on random sparse symmetric matrices including ones
 /// with repeated eigenvalues (disconnected identical blocks).
 #[test]
@@ -334,7 +216,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
         .iter()
         .cloned()
         .fold(f64::INFINITY, f64::min);
-    let (theta, residual) = hostcut::solve::relax::smallest_eigenvalue(diag, off);
+    let (theta, residual) = hostcut::solve::relax::lanczos::smallest_eigenvalue(diag, off);
     assert!(
         (theta - reference).abs() <= 1e-8 * (1.0 + reference.abs()),
         "case {case} (n {n}): Lanczos {theta} vs nalgebra {reference}"
@@ -342,7 +224,7 @@ fn check_eigen(diag: &[f64], off: &[(usize, usize, f64)], case: usize) {
     assert!(residual <= 1e-6, "case {case}: residual {residual}");
 }
 
-/// The message-passing bound (src/relax.rs) against the local-polytope LP itself, written
+/// The message-passing bound (src/solve/relax/message_passing.rs) against the local-polytope LP itself, written
 /// out here and solved by HiGHS through good_lp (a general-purpose LP solver from the
 /// registry): one weight x_io per patch option (untreated included unless required), one
 /// y_l,o,o' per link and option pair with y's marginals equal to x (Sherali & Adams 1990's
@@ -356,7 +238,7 @@ fn message_passing_bound_is_below_the_local_polytope_lp_and_close_to_it() {
     use hostcut::solve::relax::{Stop, local_polytope_bound};
     let (mut compared, mut ratio_sum) = (0, 0.0);
     for seed in 100..140 {
-        let inst = instance(seed);
+        let inst = random_instance(&small_spec(seed, 5 + (seed % 4) as usize));
         let problem = inst.problem();
         let Some((_, best)) = brute_force(&problem) else {
             continue;
@@ -387,11 +269,11 @@ fn message_passing_bound_is_below_the_local_polytope_lp_and_close_to_it() {
         let mut objective = Expression::from(0.0);
         for i in 0..n {
             for (k, o) in options[i].iter().enumerate() {
-                objective += inst.model.own[i] * o.2 * o.2 * x[i][k];
+                objective += inst.land.model.own[i] * o.2 * o.2 * x[i][k];
             }
         }
         let mut rows = Vec::new();
-        for l in &inst.model.links {
+        for l in &inst.land.model.links {
             let (a, b) = (l.a, l.b);
             let y: Vec<Vec<_>> = options[a]
                 .iter()

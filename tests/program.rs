@@ -2,75 +2,17 @@
 //! force on tiny multi-season instances, follow-ups are funded whenever the money allows, and
 //! the season-by-season (myopic) plan is never better over the horizon.
 
-use hostcut::core::kernel::Kernel;
-use hostcut::core::kernel::KernelKind;
-use hostcut::core::site::{Access, Herbicide, PatchId, Site};
-use hostcut::input::patches::Patch;
-use hostcut::input::treatments::{Catalogue, choices_for};
-use hostcut::model::graph::build_graph;
-use hostcut::model::risk::RiskModel;
+use hostcut::input::treatments::choices_for;
 use hostcut::planning::program::{self, Horizon, ProgramProblem};
 use hostcut::solve::optimise::solve;
 use hostcut::solve::problem::{Assignment, Limits, Problem, Status};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
-struct Instance {
-    patches: Vec<Patch>,
-    model: RiskModel,
-    catalogue: Catalogue,
-}
-
+/// The tests' random instance (tests/common): `n` patches of the bench's landscape with the
+/// built-in catalogue; the programme tests take its patches, model and catalogue.
 fn instance(seed: u64, n: usize) -> Instance {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let (catalogue, _) = Catalogue::load(None).unwrap();
-    let points: Vec<(f64, f64)> = (0..n)
-        .map(|_| (rng.gen_range(0.0..1200.0), rng.gen_range(0.0..1200.0)))
-        .collect();
-    let patches: Vec<Patch> = (0..n)
-        .map(|i| Patch {
-            id: PatchId(i as u32),
-            label: format!("T{i}"),
-            x: points[i].0,
-            y: points[i].1,
-            stems: rng.gen_range(20.0..400.0),
-            area_ha: None,
-            outline: None,
-            site: Site {
-                parcel: String::new(),
-                access: if rng.gen_bool(0.1) {
-                    Access::Denied
-                } else {
-                    Access::Open
-                },
-                herbicide: if rng.gen_bool(0.2) {
-                    Herbicide::Prohibited
-                } else {
-                    Herbicide::Allowed
-                },
-                cost_factor: rng.gen_range(0.8..1.4),
-                ..Site::default()
-            },
-            pressure_override: None,
-            suitability: None,
-        })
-        .collect();
-    let stems: Vec<f64> = patches.iter().map(|p| p.stems).collect();
-    let pressure: Vec<f64> = (0..n).map(|_| 1.0 + rng.gen_range(0.0..3.0)).collect();
-    let graph = build_graph(
-        &points,
-        Kernel {
-            kind: KernelKind::Exp,
-            alpha_m: rng.gen_range(150.0..500.0),
-        },
-        0.001,
-    );
-    let model = RiskModel::new(&stems, &pressure, &graph);
-    Instance {
-        patches,
-        model,
-        catalogue,
-    }
+    random_instance(&small_spec(seed, n))
 }
 
 fn programme<'a>(
@@ -80,6 +22,7 @@ fn programme<'a>(
     methods: usize,
 ) -> ProgramProblem<'a> {
     let courses = inst
+        .land
         .patches
         .iter()
         .map(|p| {
@@ -91,13 +34,13 @@ fn programme<'a>(
         })
         .collect();
     ProgramProblem {
-        model: &inst.model,
+        model: &inst.land.model,
         courses,
         untreated: horizon.untreated(),
         weights: horizon.weights(),
         budgets,
         hours: None,
-        required: vec![false; inst.patches.len()],
+        required: vec![false; inst.land.patches.len()],
     }
 }
 
@@ -137,6 +80,7 @@ fn one_season_programme_is_the_plan() {
             discount: 0.9,
         };
         let choices: Vec<_> = inst
+            .land
             .patches
             .iter()
             .map(|p| choices_for(&inst.catalogue, p, false))
@@ -147,7 +91,7 @@ fn one_season_programme_is_the_plan() {
             .sum();
         let budget = total * 0.4;
         let plan_problem = Problem {
-            model: &inst.model,
+            model: &inst.land.model,
             choices: choices.clone(),
             budget,
             crew_hours: None,
@@ -332,21 +276,22 @@ fn programme_folders_feed_orders_and_contracts() {
         s["objective"].as_f64().unwrap() <= s["objective_myopic"].as_f64().unwrap() * (1.0 + 1e-9)
     );
     assert_eq!(s["status"], "optimal");
-    let rows = csv_rows_of(&std::fs::read_to_string(dir.path().join("prog/program.csv")).unwrap());
+    let rows = Table::read(&dir.path().join("prog/program.csv")).rows;
     assert!(
-        rows.iter().any(|r| r[2] == "new") && rows.iter().any(|r| r[2] == "follow-up"),
+        rows.iter().any(|r| r.get("action") == "new")
+            && rows.iter().any(|r| r.get("action") == "follow-up"),
         "{rows:?}"
     );
     // Every season's folder is a plan folder: its costs are program.csv's for that season.
     for t in 1..=3 {
         let folder = dir.path().join(format!("prog/season_{t}"));
-        let plan = csv_rows_of(&std::fs::read_to_string(folder.join("plan.csv")).unwrap());
+        let plan = Table::read(&folder.join("plan.csv")).rows;
         let from_program: f64 = rows
             .iter()
-            .filter(|r| r[0] == t.to_string() && r[2] != "none")
-            .map(|r| r[5].parse::<f64>().unwrap())
+            .filter(|r| r.get("season") == t.to_string() && r.get("action") != "none")
+            .map(|r| r.num("cost"))
             .sum();
-        let in_plan: f64 = plan.iter().map(|r| r[4].parse::<f64>().unwrap()).sum();
+        let in_plan: f64 = plan.iter().map(|r| r.num("cost")).sum();
         assert!((from_program - in_plan).abs() < 0.011, "season {t}");
         let ord = format!("ord{t}");
         let o = run(
@@ -398,11 +343,11 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
     let o = go(dir.path(), "plan", &["--budget", "2500", "--out", "plan"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let set = |path: &str| {
-        let mut v: Vec<(String, String)> =
-            csv_rows_of(&std::fs::read_to_string(dir.path().join(path)).unwrap())
-                .into_iter()
-                .map(|r| (r[1].clone(), r[2].clone()))
-                .collect();
+        let mut v: Vec<(String, String)> = Table::read(&dir.path().join(path))
+            .rows
+            .into_iter()
+            .map(|r| (r.get("patch_id").to_string(), r.get("method").to_string()))
+            .collect();
         v.sort();
         v
     };
@@ -476,9 +421,10 @@ cautions = ["LABEL"]
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let methods = |p: &str| -> Vec<String> {
-        csv_rows_of(&std::fs::read_to_string(dir.path().join(p)).unwrap())
+        Table::read(&dir.path().join(p))
+            .rows
             .into_iter()
-            .map(|r| r[2].clone())
+            .map(|r| r.get("method").to_string())
             .collect()
     };
     assert!(methods("no/plan.csv").iter().all(|m| m == "foliar"));

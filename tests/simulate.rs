@@ -179,18 +179,27 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     let sim = rows_of(&dir.path().join("a/sim.csv"));
     // 5 strategies x 9 years (0..=8).
     assert_eq!(sim.len(), 45);
-    let strategies: std::collections::BTreeSet<&str> = sim.iter().map(|r| r[1].as_str()).collect();
+    let strategies: std::collections::BTreeSet<&str> =
+        sim.iter().map(|r| r.get("strategy")).collect();
     assert_eq!(strategies.len(), 5);
     for r in &sim {
-        let v: Vec<f64> = r[2..].iter().map(|x| x.parse().unwrap()).collect();
+        let (p05, p50, p95) = (
+            r.num("occupied_host_p05"),
+            r.num("occupied_host_p50"),
+            r.num("occupied_host_p95"),
+        );
         assert!(
-            v[1] <= v[2] + 1e-12 && v[2] <= v[3] + 1e-12,
+            p05 <= p50 + 1e-12 && p50 <= p95 + 1e-12,
             "p05 <= p50 <= p95: {r:?}"
         );
-        assert!((0.0..=1.0).contains(&v[0]));
+        assert!((0.0..=1.0).contains(&r.num("occupied_host_mean")));
     }
     // Year 0 is the same for every strategy (treatment starts in year 1).
-    let year0: Vec<&String> = sim.iter().filter(|r| r[0] == "0").map(|r| &r[2]).collect();
+    let year0: Vec<&str> = sim
+        .iter()
+        .filter(|r| r.get("year") == "0")
+        .map(|r| r.get("occupied_host_mean"))
+        .collect();
     assert!(year0.windows(2).all(|w| w[0] == w[1]));
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(dir.path().join("a/sim.json")).unwrap())
@@ -217,8 +226,8 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     assert_eq!(bands, 5, "one 5-95% band per strategy");
 }
 
-fn rows_of(path: &std::path::Path) -> Vec<Vec<String>> {
-    csv_rows_of(&std::fs::read_to_string(path).unwrap())
+fn rows_of(path: &std::path::Path) -> Vec<Row> {
+    Table::read(path).rows
 }
 
 /// Long-distance movement reaches a cluster beyond the ordinary kernel's links: two clusters

@@ -72,17 +72,6 @@ fn plan_with(dir: &Path, out: &str, extra: &[&str]) -> std::process::Output {
     run(dir, &args)
 }
 
-fn read_rows(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut r = csv::Reader::from_path(path).unwrap();
-    let header = r.headers().unwrap().iter().map(String::from).collect();
-    (
-        header,
-        r.records()
-            .map(|x| x.unwrap().iter().map(String::from).collect())
-            .collect(),
-    )
-}
-
 #[test]
 fn a_layer_of_ones_changes_nothing() {
     let dir = tempfile::tempdir().unwrap();
@@ -147,22 +136,16 @@ fn zero_suitability_host_is_never_worth_treating() {
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let (_, plan) = read_rows(&dir.path().join("out/plan.csv"));
+    let plan = Table::read(&dir.path().join("out/plan.csv")).rows;
     assert!(
-        plan.iter().all(|r| r[1] != "big"),
+        plan.iter().all(|r| r.get("patch_id") != "big"),
         "a patch with suitability 0 was treated"
     );
     assert_eq!(plan.len(), 2);
-    let (header, patches) = read_rows(&dir.path().join("out/patches.csv"));
-    let share = header.iter().position(|h| h == "risk_share").unwrap();
-    let suit = header.iter().position(|h| h == "suitability").unwrap();
-    let big = patches.iter().find(|r| r[0] == "big").unwrap();
-    assert_eq!(
-        big[share].parse::<f64>().unwrap(),
-        0.0,
-        "s = 0 contributes nothing to R"
-    );
-    assert_eq!(big[suit], "0");
+    let patches = Table::read(&dir.path().join("out/patches.csv")).rows;
+    let big = patches.iter().find(|r| r.get("patch_id") == "big").unwrap();
+    assert_eq!(big.num("risk_share"), 0.0, "s = 0 contributes nothing to R");
+    assert_eq!(big.get("suitability"), "0");
     // The value is checked: above 1 is refused with the line named.
     write(
         dir.path(),
@@ -237,8 +220,7 @@ fn patch_means_match_gdalwarp_onto_the_host_grid() {
         max_patch_ha: None,
     };
     let (components, _) = hostcut::input::patches::label_cells(&hostgrid, &[], options, 64);
-    let (header, rows) = read_rows(&dir.path().join("out/patches.csv"));
-    let suit = header.iter().position(|h| h == "suitability").unwrap();
+    let rows = Table::read(&dir.path().join("out/patches.csv")).rows;
     assert_eq!(rows.len(), components.len());
     for (row, component) in rows.iter().zip(&components) {
         let expected = component
@@ -246,14 +228,14 @@ fn patch_means_match_gdalwarp_onto_the_host_grid() {
             .map(|c| grid.values[c])
             .sum::<f64>()
             / component.cells as f64;
-        let got: f64 = row[suit].parse().unwrap();
+        let got = row.num("suitability");
         assert!(
             (got - expected).abs() < 2e-3,
             "patch {}: {got} vs gdalwarp {expected}",
-            row[0]
+            row.get("patch_id")
         );
     }
-    let values: Vec<f64> = rows.iter().map(|r| r[suit].parse().unwrap()).collect();
+    let values: Vec<f64> = rows.iter().map(|r| r.num("suitability")).collect();
     assert!(
         values.iter().any(|v| (v - values[0]).abs() > 0.05),
         "the gradient must show: {values:?}"

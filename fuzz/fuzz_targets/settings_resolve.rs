@@ -13,7 +13,7 @@ fuzz_target!(|data: &[u8]| {
             // Never read files named by the fuzzer.
             let p = &plan.inputs;
             if p.scenario.is_none() && p.ensemble.is_none() && p.calibration.is_none() {
-                let _ = hostcut::app::settings::resolve(&plan.inputs);
+                let _ = hostcut::app::resolve::resolve(&plan.inputs);
             }
         }
     }

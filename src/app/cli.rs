@@ -1,5 +1,5 @@
 //! Command-line arguments as plain data. Nothing here validates or reads files: the resolve step
-//! in [`crate::app::settings`] merges these flags with a scenario file and defaults.
+//! in [`crate::app::resolve`] merges these flags with a scenario file and defaults.
 
 use std::path::PathBuf;
 
@@ -218,6 +218,10 @@ pub struct PlanArgs {
     /// Refuse inputs and models estimated to need more memory than this (GB; default 16)
     #[arg(long, value_name = "GB", allow_negative_numbers = true)]
     pub max_memory_gb: Option<f64>,
+    /// Which exact MIP to build: `transport` (default; the tightest bound) or `compact` (fewer
+    /// columns, weaker bound; for comparison)
+    #[arg(long, value_enum)]
+    pub formulation: Option<crate::core::scenario::Formulation>,
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,

@@ -1,6 +1,6 @@
-//! Stage 7, the application: command-line arguments (plain clap data), the resolve step and the
-//! demo landscape.
+//! Stage 7, the application: command-line arguments (plain clap data), one resolve step per
+//! subcommand (flags → typed settings) and the demo landscape.
 
 pub mod cli;
 pub mod demo;
-pub mod settings;
+pub mod resolve;

@@ -8,10 +8,11 @@ use crate::app::cli::BenchArgs;
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::kernel::KernelKind;
-use crate::input::treatments::{self, Catalogue};
-use crate::model::synthetic::{self, Spec};
+use crate::core::scenario::Formulation;
+use crate::model::synthetic::Spec;
+use crate::solve::instance::{Instance, InstanceSpec};
 use crate::solve::optimise;
-use crate::solve::problem::{Formulation, Limits, Problem};
+use crate::solve::problem::Limits;
 
 pub fn run(args: &BenchArgs) -> Result<String> {
     if let Some(side) = args.raster_side {
@@ -51,29 +52,10 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         epsilon: 1e-3,
         seed: args.seed,
     };
-    let land = synthetic::generate(&spec);
-    let (catalogue, _) = Catalogue::load(None)?;
-    let choices: Vec<_> = land
-        .patches
-        .iter()
-        .map(|p| {
-            treatments::choices_for(&catalogue, p, false)
-                .into_iter()
-                .filter(|c| (c.method.0 as usize) < args.methods)
-                .collect::<Vec<_>>()
-        })
-        .collect();
-    let n = land.patches.len();
-    let mut problem = Problem {
-        model: &land.model,
-        choices,
-        budget: f64::INFINITY,
-        crew_hours: None,
-        required: vec![false; n],
-        excluded: vec![false; n],
-    };
-    let everything = problem.cost(&problem.everything().0);
-    problem.budget = (args.budget_share * everything * 100.0).round() / 100.0;
+    let instance = Instance::generate(&InstanceSpec::new(spec, args.methods, args.budget_share))?;
+    let land = &instance.land;
+    let problem = instance.problem();
+    let n = problem.len();
     let mut t = String::new();
     let _ = writeln!(
         t,
@@ -90,7 +72,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
         "method", "status", "risk after", "bound", "gap", "seconds"
     );
     let clock = std::time::Instant::now();
-    if let Some((_, r)) = optimise::greedy(&problem) {
+    if let Some((_, r)) = crate::solve::heuristics::greedy(&problem) {
         let _ = writeln!(
             t,
             "{:<10} {:>12} {:>14.8} {:>14} {:>10} {:>9.2}",
@@ -135,7 +117,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
     }
     if let Some(path) = &args.write_mps {
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
-        optimise::write_mps(&problem, &path, Formulation::Direct)?;
+        crate::solve::mip::mps::write_mps(&problem, &path, Formulation::Direct)?;
         let _ = writeln!(t, "direct formulation's MIP written to {}", path.display());
     }
     Ok(t)

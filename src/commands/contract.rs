@@ -4,40 +4,29 @@
 
 use std::fmt::Write as _;
 
-use crate::app::cli::{ContractArgs, RecordArgs};
+use crate::app::resolve::contract::{ContractSettings, RecordSettings};
 use crate::core::cautions;
-use crate::core::error::{Error, Result};
+use crate::core::error::Result;
 use crate::field::contract::{self, PlanFolder};
 use crate::report::chart::{escape, thousands};
 use crate::report::output::{self, Staging};
 
+/// Contract money is billed money: to the cent (house style in `report::format`).
 fn money(code: &str, cents: i64) -> String {
-    let symbol = if code == "USD" {
-        "$".to_string()
-    } else {
-        format!("{code} ")
-    };
-    format!(
-        "{symbol}{}.{:02}",
-        thousands((cents / 100) as f64),
-        (cents % 100).abs()
-    )
+    crate::report::format::money_cents(code, cents)
 }
 
-pub fn run_contract(args: &ContractArgs) -> Result<String> {
-    let folder = PlanFolder::read(&args.plan_dir)?;
-    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force, "contract")?;
+pub fn run_contract(settings: &ContractSettings) -> Result<String> {
+    let folder = &settings.folder;
+    let staging = Staging::new(&settings.out, settings.force, "contract")?;
     let currency = folder.catalogue.currency.clone();
-    let items = contract::line_items(&folder);
+    let items = contract::line_items(folder);
     let total: i64 = items.iter().map(|i| i.cents).sum();
 
     // Bid schedule.
     let mut rows = Vec::new();
     for item in &items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         rows.push(vec![
             item.number.to_string(),
             item.method.clone(),
@@ -113,7 +102,7 @@ pub fn run_contract(args: &ContractArgs) -> Result<String> {
     )?;
 
     // Scope of work.
-    let (md, html) = scope_of_work(&folder, &items, total);
+    let (md, html) = scope_of_work(folder, &items, total);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())?;
@@ -175,9 +164,7 @@ fn scope_of_work(
             p.near_water().unwrap_or_default()
         ));
     }
-    let water_checked = folder.summary["site_rules"]["water_checked"]
-        .as_bool()
-        .unwrap_or(false);
+    let water_checked = folder.summary.site_rules.water_checked;
     if !water_checked {
         rules.push("No water layer was given when this plan was made: the contractor checks every site for streams, ponds, wells and wetlands before herbicide work and keeps the label's buffers.".into());
     }
@@ -185,9 +172,7 @@ fn scope_of_work(
         sections.push(("Site rules".into(), rules));
     }
     for item in items {
-        let method = folder
-            .method(&item.method)
-            .expect("line items come from catalogue methods");
+        let method = folder.catalogue.method(item.method_id);
         let mut lines = vec![
             format!(
                 "Work: {} on {} patches ({} stems{}), site class: {}.",
@@ -271,11 +256,10 @@ fn scope_of_work(
     (md, html)
 }
 
-pub fn run_record(args: &RecordArgs) -> Result<String> {
-    let folder = PlanFolder::read(&args.plan_dir)?;
-    let done = contract::check_completion(&folder, &args.completed)?;
-    let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
-    let staging = Staging::new(&out, args.force, "record")?;
+pub fn run_record(settings: &RecordSettings) -> Result<String> {
+    let folder = &settings.folder;
+    let done = contract::check_completion(folder, &settings.completed)?;
+    let staging = Staging::new(&settings.out, settings.force, "record")?;
     let by_patch: std::collections::HashMap<&str, &contract::Done> =
         done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
     let mut rows = Vec::new();
@@ -283,7 +267,7 @@ pub fn run_record(args: &RecordArgs) -> Result<String> {
     for p in &folder.patches {
         let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
             Some(d) => {
-                let method = folder.method(&d.method).expect("checked");
+                let method = folder.catalogue.method(d.method_id);
                 let removed = d.treated_stems * method.effectiveness;
                 treated_stems += d.treated_stems;
                 removed_stems += removed;

@@ -1,179 +1,64 @@
 //! `hostcut curve`: the exact plan at many budgets → curve.csv, curve.svg and a justification
 //! page (justification.md / .html) a grant writer can paste.
 
-use std::fmt::Write as _;
-
 use super::plan::RunReport;
-use crate::app::cli::CurveArgs;
-use crate::app::settings;
+use crate::app::resolve::curve::CurveSettings;
 use crate::core::cautions;
-use crate::core::error::{Error, Result};
-use crate::core::scenario;
+use crate::core::error::Result;
+use crate::core::printer::Printer;
 use crate::planning::baselines;
-use crate::planning::curve::{self, Point};
-use crate::planning::prepare::{self, Prepared};
-use crate::report::chart::{self, Marker, Series, Style, escape, thousands};
-use crate::report::output::{self, Staging};
+use crate::planning::curve;
+use crate::report::curve::{self as curve_report, Money};
 use crate::solve::problem::Limits;
 
-/// A currency code and the symbol shown before amounts.
-#[derive(Debug, Clone)]
-pub struct Money {
-    pub code: String,
-    pub symbol: String,
-}
-
-impl Money {
-    pub fn new(code: &str) -> Money {
-        let code = code.trim().to_ascii_uppercase();
-        let symbol = match code.as_str() {
-            "USD" => "$",
-            "CAD" => "CA$",
-            "AUD" => "A$",
-            "NZD" => "NZ$",
-            "EUR" => "€",
-            "GBP" => "£",
-            "JPY" => "¥",
-            _ => "",
-        };
-        let symbol = if symbol.is_empty() {
-            format!("{code} ")
-        } else {
-            symbol.to_string()
-        };
-        Money { code, symbol }
-    }
-
-    pub fn fmt(&self, amount: f64) -> String {
-        format!("{}{}", self.symbol, thousands(amount))
-    }
-}
-
-const RULES: [(&str, &str, Style); 3] = [
-    ("biggest_first", "biggest stands first", Style::Dotted),
-    ("nearest_first", "nearest the depot first", Style::DashDot),
-    (
-        "corridor_first",
-        "along the corridors first",
-        Style::LongDash,
-    ),
-];
-
-pub fn run(args: &CurveArgs) -> Result<RunReport> {
-    let mut inputs = args.inputs.clone();
-    if inputs.budget.is_some() {
-        return Err(Error::input_with_hint(
-            "`hostcut curve` plans at many budgets, not one `--budget`",
-            "use `--budgets 5000,10000,20000` or `--budget-range 0:60000:20`",
-        ));
-    }
-    if let Some(dir) = &args.plan_dir {
-        inputs.scenario = Some(settings::plan_folder_scenario(dir)?);
-    }
-    for b in &args.budgets {
-        if !(b.is_finite() && *b >= 0.0) {
-            return Err(Error::input_with_hint(
-                format!("`--budgets`: {b} is not a budget of 0 or more"),
-                "e.g. `--budgets 5000,10000,20000`",
-            ));
-        }
-    }
-    if args.jobs == 0 {
-        return Err(Error::input("`--jobs` must be at least 1"));
-    }
-    let range = args
-        .budget_range
-        .as_deref()
-        .map(curve::parse_range)
-        .transpose()?;
-    let settings = settings::resolve_with(&inputs, false)?;
+pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
+    let settings = &resolved.settings;
     let s = &settings.scenario;
-    if s.ensemble.is_some() {
-        return Err(Error::input_with_hint(
-            "`hostcut curve` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
-            "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
-        ));
-    }
-    let staging = Staging::new(&settings.out, settings.force, "curve")?;
-    let progress = |msg: &str| settings.progress(msg);
-    let prepared = prepare::prepare(s, &progress)?;
+    let (staging, prepared) = super::stage_and_prepare(settings, "curve", printer)?;
     let money = Money::new(
-        args.currency
+        resolved
+            .currency
             .as_deref()
             .unwrap_or(&prepared.catalogue.currency),
     );
-    let budgets = if !args.budgets.is_empty() {
-        args.budgets.clone()
-    } else {
-        let (min, max, steps) = range.unwrap_or((0.0, prepared.cost_of_everything(), 20));
-        curve::budget_range(min, max, steps)
-    };
-    let depot = s
-        .plan
-        .depot
-        .map(|[x, y]| (x, y))
-        .unwrap_or_else(|| baselines::default_depot(&prepared.patches, &prepared.eligible));
-    progress(&format!("solving {} budget levels", budgets.len()));
+    let budgets = resolved.budgets.levels(&prepared);
+    let depot = baselines::depot(s.plan.depot, &prepared.patches, &prepared.eligible);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(settings.deadline(), s.solver.gap)
     };
-    let points = curve::trace(
+    let curve::Curve { points, analysis } = curve::plan_curve(
         &prepared,
         &budgets,
         s.plan.crew_hours,
         limits,
         depot,
-        args.jobs,
+        resolved.jobs,
+        printer,
     )?;
-    let risk_before = prepared.model.risk_before();
-    let analysis = Analysis::new(&points, risk_before);
-
-    staging.write("curve.csv", curve_csv(&points, risk_before)?)?;
-    let svg = curve_svg(&points, &analysis, &money);
-    staging.write("curve.svg", &svg)?;
-    let page = Page::new(&prepared, &points, &analysis, &money, s);
-    staging.write("justification.md", page.markdown())?;
-    staging.write("justification.html", page.html(&svg))?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(prepared.patches.water_checked)
-        ),
-    )?;
-    let mut inputs_only = prepared.resolved.clone();
-    inputs_only.plan.budget = None;
-    output::write_provenance(
-        &staging,
-        &inputs_only,
-        &prepared.catalogue_text,
-        "Inputs and settings of this curve; its budgets are in curve.csv.",
-    )?;
+    curve_report::write(&staging, &prepared, &points, &analysis, &money, s)?;
     let out = staging.commit()?;
 
-    let mut text = String::new();
-    let _ = writeln!(
-        text,
+    let risk_before = prepared.model.risk_before();
+    let mut text = printer.text();
+    text.line(format_args!(
         "hostcut curve: {} budget levels from {} to {} on {} patches",
         points.len(),
         money.fmt(points.first().map(|p| p.budget).unwrap_or(0.0)),
         money.fmt(points.last().map(|p| p.budget).unwrap_or(0.0)),
         prepared.patches.len()
-    );
-    let _ = writeln!(
-        text,
+    ));
+    text.line(format_args!(
         "  {:.1} s of `--time-limit-s {}` (the limit on the whole command, shared by the levels)",
         settings.deadline().elapsed_s(),
         s.solver.time_limit_s
-    );
+    ));
     for p in &points {
-        let _ = writeln!(
-            text,
+        text.line(format_args!(
             "  {:>12}  {:>5.1}% less risk  {:>3} patches  {} (gap {:.1e}){}",
             money.fmt(p.budget),
-            reduction(p.risk_after, risk_before),
+            curve::analysis::reduction(p.risk_after, risk_before),
             p.n_treated,
             p.status.as_str(),
             p.gap,
@@ -182,555 +67,32 @@ pub fn run(args: &CurveArgs) -> Result<RunReport> {
             } else {
                 ""
             }
-        );
+        ));
     }
     if let Some(k) = analysis.knee {
-        let _ = writeln!(
-            text,
+        text.line(format_args!(
             "knee (Kneedle): about {} buys {:.1}% less risk; past it each extra 1,000 buys less",
             money.fmt(points[k].budget),
             analysis.reductions[k]
-        );
+        ));
     }
     for (fraction, at) in &analysis.thresholds {
         if let Some(k) = at {
-            let _ = writeln!(
-                text,
+            text.line(format_args!(
                 "{:.0}% of the attainable reduction by {}",
                 fraction * 100.0,
                 money.fmt(points[*k].budget)
-            );
+            ));
         }
     }
-    let _ = writeln!(
-        text,
+    text.line(format_args!(
         "outputs in {}: curve.csv, curve.svg, justification.md, justification.html",
         out.display()
-    );
+    ));
     text.push('\n');
     text.push_str(&cautions::standing_text());
-    Ok(RunReport { out, text })
-}
-
-fn reduction(risk_after: f64, risk_before: f64) -> f64 {
-    if risk_before > 0.0 {
-        100.0 * (1.0 - risk_after / risk_before)
-    } else {
-        0.0
-    }
-}
-
-/// Knee, thresholds and slopes of a curve.
-pub struct Analysis {
-    pub reductions: Vec<f64>,
-    pub greedy: Vec<f64>,
-    pub knee: Option<usize>,
-    /// (fraction of the attainable reduction, first point reaching it).
-    pub thresholds: Vec<(f64, Option<usize>)>,
-    /// Slope to the previous point, percentage points per 1,000.
-    pub marginal: Vec<Option<f64>>,
-}
-
-impl Analysis {
-    pub fn new(points: &[Point], risk_before: f64) -> Analysis {
-        let reductions: Vec<f64> = points
-            .iter()
-            .map(|p| reduction(p.risk_after, risk_before))
-            .collect();
-        let greedy = points
-            .iter()
-            .map(|p| reduction(p.greedy_risk_after, risk_before))
-            .collect();
-        let budgets: Vec<f64> = points.iter().map(|p| p.budget).collect();
-        let knee = curve::kneedle(&budgets, &reductions);
-        let thresholds = [0.5, 0.8, 0.9]
-            .iter()
-            .map(|&f| (f, curve::first_reaching(&reductions, f)))
-            .collect();
-        let marginal = (0..points.len())
-            .map(|k| {
-                if k == 0 || points[k].budget <= points[k - 1].budget {
-                    None
-                } else {
-                    Some(
-                        (reductions[k] - reductions[k - 1])
-                            / (points[k].budget - points[k - 1].budget)
-                            * 1000.0,
-                    )
-                }
-            })
-            .collect();
-        Analysis {
-            reductions,
-            greedy,
-            knee,
-            thresholds,
-            marginal,
-        }
-    }
-}
-
-fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
-    let mut w = crate::core::csv_cells::Writer::new();
-    let mut header = vec![
-        "budget",
-        "spent",
-        "risk_after",
-        "reduction_pct",
-        "marginal_reduction_per_1000",
-        "n_treated",
-        "stems_treated",
-        "crew_hours",
-        "status",
-        "gap",
-        "bound",
-        "from_smaller_budget",
-        "greedy_risk_after",
-        "greedy_reduction_pct",
-    ];
-    for (name, _, _) in RULES {
-        header.push(match name {
-            "biggest_first" => "biggest_first_risk_after",
-            "nearest_first" => "nearest_first_risk_after",
-            _ => "corridor_first_risk_after",
-        });
-    }
-    w.row(&header)?;
-    let analysis = Analysis::new(points, risk_before);
-    let f = |v: f64| {
-        if v.is_finite() {
-            format!("{v}")
-        } else {
-            String::new()
-        }
-    };
-    for (k, p) in points.iter().enumerate() {
-        let mut row = vec![
-            f(p.budget),
-            format!("{:.2}", p.spent),
-            f(p.risk_after),
-            format!("{:.4}", analysis.reductions[k]),
-            analysis.marginal[k]
-                .map(|m| format!("{m:.4}"))
-                .unwrap_or_default(),
-            p.n_treated.to_string(),
-            format!("{:.1}", p.stems_treated),
-            format!("{:.2}", p.crew_hours),
-            p.status.as_str().to_string(),
-            f(p.gap),
-            f(p.bound),
-            if p.from_neighbour {
-                "yes".into()
-            } else {
-                "no".into()
-            },
-            f(p.greedy_risk_after),
-            format!("{:.4}", analysis.greedy[k]),
-        ];
-        for (name, _, _) in RULES {
-            row.push(
-                p.baselines
-                    .iter()
-                    .find(|b| b.0 == name)
-                    .map(|b| f(b.1))
-                    .unwrap_or_default(),
-            );
-        }
-        w.row(&row)?;
-    }
-    w.into_bytes()
-}
-
-fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
-    let risk_before = if let Some(p) = points.first() {
-        p.risk_after / (1.0 - analysis.reductions[0] / 100.0).max(1e-300)
-    } else {
-        1.0
-    };
-    let budget: Vec<f64> = points.iter().map(|p| p.budget).collect();
-    let mut series = vec![
-        Series {
-            id: "optimal".into(),
-            label: "optimal plan (exact MIP)".into(),
-            points: budget
-                .iter()
-                .cloned()
-                .zip(analysis.reductions.iter().cloned())
-                .collect(),
-            style: Style::Main,
-        },
-        Series {
-            id: "greedy".into(),
-            label: "greedy benefit-per-cost".into(),
-            points: budget
-                .iter()
-                .cloned()
-                .zip(analysis.greedy.iter().cloned())
-                .collect(),
-            style: Style::Dashed,
-        },
-    ];
-    for (name, label, style) in RULES {
-        let pts = points
-            .iter()
-            .map(|p| {
-                (
-                    p.budget,
-                    p.baselines
-                        .iter()
-                        .find(|b| b.0 == name)
-                        .map(|b| reduction(b.1, risk_before))
-                        .unwrap_or(f64::NAN),
-                )
-            })
-            .collect();
-        series.push(Series {
-            id: name.into(),
-            label: label.into(),
-            points: pts,
-            style,
-        });
-    }
-    // One marker per budget: the knee and any thresholds that fall on the same level share it.
-    let mut markers: Vec<Marker> = Vec::new();
-    let mut mark = |k: usize, what: String, strong: bool| match markers
-        .iter_mut()
-        .find(|m| m.x == points[k].budget)
-    {
-        Some(m) => {
-            m.label = format!("{what}, {}", m.label);
-            m.strong |= strong;
-        }
-        None => markers.push(Marker {
-            x: points[k].budget,
-            label: format!("{what}: {}", money.fmt(points[k].budget)),
-            strong,
-        }),
-    };
-    if let Some(k) = analysis.knee {
-        mark(k, "knee".to_string(), true);
-    }
-    for (fraction, at) in &analysis.thresholds {
-        if let Some(k) = at {
-            mark(*k, format!("{:.0}% of attainable", fraction * 100.0), false);
-        }
-    }
-    let top = analysis
-        .reductions
-        .iter()
-        .chain(&analysis.greedy)
-        .cloned()
-        .filter(|v| v.is_finite())
-        .fold(0.0, f64::max);
-    let y_max = ((top / 10.0).ceil() * 10.0).clamp(10.0, 100.0);
-    let symbol = money.symbol.clone();
-    chart::line_chart(
-        "Risk reduction bought at each budget",
-        &format!("season budget ({})", money.code),
-        "reduction in connected-host risk (%)",
-        &move |x| format!("{symbol}{}", thousands(x)),
-        y_max,
-        &series,
-        &markers,
-    )
-}
-
-/// The justification page's content, rendered as Markdown or HTML.
-struct Page {
-    title: String,
-    intro: Vec<String>,
-    table_header: Vec<String>,
-    table: Vec<Vec<String>>,
-    findings: Vec<String>,
-    compare_header: Vec<String>,
-    compare: Vec<Vec<String>>,
-    core: Vec<(String, String)>,
-    assumptions: Vec<String>,
-    cautions: Vec<String>,
-}
-
-impl Page {
-    fn new(
-        prepared: &Prepared,
-        points: &[Point],
-        a: &Analysis,
-        money: &Money,
-        s: &scenario::Scenario,
-    ) -> Page {
-        let patches = &prepared.patches;
-        let total_stems: f64 = patches.items.iter().map(|p| p.stems).sum();
-        let intro = vec![
-            format!(
-                "This page shows what each season budget buys in reduced spotted lanternfly establishment risk, by treating tree-of-heaven (the insect's preferred host) where it counts most. The programme area holds {} host patches with about {} stems; {} of them can be treated under the access and herbicide rules.",
-                patches.len(),
-                thousands(total_stems),
-                prepared.eligible.iter().filter(|e| **e).count()
-            ),
-            "Every budget level below is an optimal plan found by an exact optimiser for that budget (or, where the optimiser stopped early, the best plan found with its proven distance from optimal), not an extrapolation from one plan.".to_string(),
-            "What the numbers are: a ranking of relative risk under the stated assumptions, the share of connected tree-of-heaven host that treatment removes, weighted by how close patches are to each other and to the rail lines, roads and known populations that bring the insect in. It is not a forecast of where the insect will be or when.".to_string(),
-        ];
-        let table_header = [
-            "Budget",
-            "Spent",
-            "Patches",
-            "Stems",
-            "Hectares",
-            "Risk reduction",
-            "Cost per % point",
-            "Extra % per 1,000",
-            "Solver",
-        ]
-        .iter()
-        .map(|s| s.to_string())
-        .collect();
-        let table = points
-            .iter()
-            .enumerate()
-            .map(|(k, p)| {
-                vec![
-                    money.fmt(p.budget),
-                    money.fmt(p.spent),
-                    p.n_treated.to_string(),
-                    thousands(p.stems_treated),
-                    if p.area_ha_treated > 0.0 {
-                        format!("{:.1}", p.area_ha_treated)
-                    } else {
-                        "n/a".into()
-                    },
-                    format!("{:.1}%", a.reductions[k]),
-                    if a.reductions[k] > 0.0 {
-                        money.fmt(p.spent / a.reductions[k])
-                    } else {
-                        "-".into()
-                    },
-                    a.marginal[k]
-                        .map(|m| format!("{m:.2}"))
-                        .unwrap_or_else(|| "-".into()),
-                    match p.status {
-                        crate::solve::problem::Status::Optimal => "optimal".to_string(),
-                        other => format!("{} (within {:.3}%)", other.as_str(), 100.0 * p.gap),
-                    },
-                ]
-            })
-            .collect();
-        let mut findings = Vec::new();
-        if let Some(k) = a.knee {
-            findings.push(format!(
-                "Returns start to fall off at about {} (the knee of the curve, found with the Kneedle method of Satopää et al. 2011): it buys {:.1}% less risk. Beyond it each extra 1,000 buys less than before.",
-                money.fmt(points[k].budget),
-                a.reductions[k]
-            ));
-        }
-        for (fraction, at) in &a.thresholds {
-            if let Some(k) = at {
-                findings.push(format!(
-                    "{:.0}% of the attainable reduction ({:.1}% of all risk) is reached by {}.",
-                    fraction * 100.0,
-                    a.reductions[*k],
-                    money.fmt(points[*k].budget)
-                ));
-            }
-        }
-        if let (Some(last), Some(&top)) = (points.last(), a.reductions.last()) {
-            findings.push(format!(
-                "The largest budget studied, {}, buys {:.1}% less risk.",
-                money.fmt(last.budget),
-                top
-            ));
-        }
-        let compare_header = [
-            "Budget",
-            "Optimal plan",
-            "Greedy rule",
-            "Biggest first",
-            "Nearest first",
-            "Corridors first",
-        ]
-        .iter()
-        .map(|s| s.to_string())
-        .collect();
-        let risk_before = prepared.model.risk_before();
-        let compare = points
-            .iter()
-            .enumerate()
-            .map(|(k, p)| {
-                let mut row = vec![
-                    money.fmt(p.budget),
-                    format!("{:.1}%", a.reductions[k]),
-                    format!("{:.1}%", a.greedy[k]),
-                ];
-                for (name, _, _) in RULES {
-                    row.push(
-                        p.baselines
-                            .iter()
-                            .find(|b| b.0 == name)
-                            .filter(|b| b.1.is_finite())
-                            .map(|b| format!("{:.1}%", reduction(b.1, risk_before)))
-                            .unwrap_or_else(|| "-".into()),
-                    );
-                }
-                row
-            })
-            .collect();
-        // Core list: patches every plan at or above a level keeps.
-        let mut core = Vec::new();
-        let mut levels: Vec<usize> = a
-            .knee
-            .into_iter()
-            .chain(a.thresholds.iter().filter_map(|t| t.1))
-            .collect();
-        levels.sort_unstable();
-        levels.dedup();
-        for k in levels {
-            let kept: Vec<&str> = (0..patches.len())
-                .filter(|&i| points[k..].iter().all(|p| p.assignment[i].is_some()))
-                .map(|i| patches.items[i].label.as_str())
-                .collect();
-            let list = if kept.is_empty() {
-                "none in common".to_string()
-            } else if kept.len() > 40 {
-                format!("{} and {} more", kept[..40].join(", "), kept.len() - 40)
-            } else {
-                kept.join(", ")
-            };
-            core.push((
-                format!(
-                    "{} and above ({} patches)",
-                    money.fmt(points[k].budget),
-                    kept.len()
-                ),
-                list,
-            ));
-        }
-        let assumptions = vec![
-            format!("Dispersal kernel: {:?}, scale {} m, links kept where the kernel is at least {}.", s.model.kernel, s.model.alpha_m, s.model.epsilon).to_lowercase().replacen("dispersal", "Dispersal", 1),
-            format!("Corridors: {}.", if s.corridors.is_empty() { "none".to_string() } else { s.corridors.iter().map(|c| format!("{} (weight {}, within {} m)", c.name, c.weight, c.buffer_m)).collect::<Vec<_>>().join("; ") }),
-            format!("Crew hours: {}.", s.plan.crew_hours.map(|h| format!("at most {h} per season")).unwrap_or_else(|| "not limited".into())),
-            "Treatment costs and effectiveness come from the treatment catalogue used (treatments.used.toml); prices marked illustrative there must be replaced by local contract prices before a budget is requested.".to_string(),
-            match &s.host.suitability {
-                Some(p) => format!("Host is weighted by the establishment suitability layer {} (effective host = stems x suitability).", p.display()),
-                None => "No establishment suitability layer: all host counts fully.".to_string(),
-            },
-            "Treated patches need follow-up visits for root suckers in the next two or three seasons; those costs are not in these figures.".to_string(),
-        ];
-        let cautions = cautions::STANDING
-            .iter()
-            .filter_map(|c| cautions::lookup(c))
-            .map(|c| c.text.to_string())
-            .collect();
-        Page {
-            title: "What each budget buys: tree-of-heaven treatment against spotted lanternfly"
-                .into(),
-            intro,
-            table_header,
-            table,
-            findings,
-            compare_header,
-            compare,
-            core,
-            assumptions,
-            cautions,
-        }
-    }
-
-    fn markdown(&self) -> String {
-        let mut t = format!("# {}\n\n", self.title);
-        for p in &self.intro {
-            let _ = writeln!(t, "{p}\n");
-        }
-        let table = |t: &mut String, header: &[String], rows: &[Vec<String>]| {
-            let _ = writeln!(t, "| {} |", header.join(" | "));
-            let _ = writeln!(
-                t,
-                "|{}|",
-                header.iter().map(|_| "---").collect::<Vec<_>>().join("|")
-            );
-            for r in rows {
-                let _ = writeln!(t, "| {} |", r.join(" | "));
-            }
-            t.push('\n');
-        };
-        t.push_str("## What each budget level buys\n\n");
-        table(&mut t, &self.table_header, &self.table);
-        t.push_str("## Where returns fall off\n\n");
-        for f in &self.findings {
-            let _ = writeln!(t, "- {f}");
-        }
-        t.push_str("\n## Against the usual rules of thumb (risk reduction at the same budget)\n\n");
-        table(&mut t, &self.compare_header, &self.compare);
-        t.push_str("## Core list: patches every larger plan keeps\n\n");
-        for (level, list) in &self.core {
-            let _ = writeln!(t, "- **{level}**: {list}");
-        }
-        t.push_str("\n## Assumptions\n\n");
-        for a in &self.assumptions {
-            let _ = writeln!(t, "- {a}");
-        }
-        t.push_str("\n## Safety and legal cautions\n\nAny herbicide work in these plans must follow the product label and local rules:\n\n");
-        for c in &self.cautions {
-            let _ = writeln!(t, "- {c}");
-        }
-        t
-    }
-
-    fn html(&self, svg: &str) -> String {
-        let mut t =
-            String::from("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n");
-        let _ = writeln!(t, "<title>{}</title>", escape(&self.title));
-        t.push_str(
-            "<style>body{font-family:Helvetica,Arial,sans-serif;max-width:60em;margin:2em auto;padding:0 1em;color:#111;line-height:1.4}\
-             table{border-collapse:collapse;margin:1em 0;font-size:0.92em}th,td{border:1px solid #999;padding:0.3em 0.6em;text-align:right}\
-             th{background:#eee}td:first-child,th:first-child{text-align:left}.chart svg{max-width:100%;height:auto}\
-             @media print{body{margin:0}h2{page-break-after:avoid}table{page-break-inside:avoid}}</style></head><body>\n",
-        );
-        let _ = writeln!(t, "<h1>{}</h1>", escape(&self.title));
-        for p in &self.intro {
-            let _ = writeln!(t, "<p>{}</p>", escape(p));
-        }
-        let _ = writeln!(t, "<div class=\"chart\">{svg}</div>");
-        let table = |t: &mut String, header: &[String], rows: &[Vec<String>]| {
-            t.push_str("<table><thead><tr>");
-            for h in header {
-                let _ = write!(t, "<th>{}</th>", escape(h));
-            }
-            t.push_str("</tr></thead><tbody>\n");
-            for r in rows {
-                t.push_str("<tr>");
-                for c in r {
-                    let _ = write!(t, "<td>{}</td>", escape(c));
-                }
-                t.push_str("</tr>\n");
-            }
-            t.push_str("</tbody></table>\n");
-        };
-        t.push_str("<h2>What each budget level buys</h2>\n");
-        table(&mut t, &self.table_header, &self.table);
-        t.push_str("<h2>Where returns fall off</h2><ul>\n");
-        for f in &self.findings {
-            let _ = writeln!(t, "<li>{}</li>", escape(f));
-        }
-        t.push_str(
-            "</ul><h2>Against the usual rules of thumb (risk reduction at the same budget)</h2>\n",
-        );
-        table(&mut t, &self.compare_header, &self.compare);
-        t.push_str("<h2>Core list: patches every larger plan keeps</h2><ul>\n");
-        for (level, list) in &self.core {
-            let _ = writeln!(
-                t,
-                "<li><strong>{}</strong>: {}</li>",
-                escape(level),
-                escape(list)
-            );
-        }
-        t.push_str("</ul><h2>Assumptions</h2><ul>\n");
-        for a in &self.assumptions {
-            let _ = writeln!(t, "<li>{}</li>", escape(a));
-        }
-        t.push_str("</ul><h2>Safety and legal cautions</h2><p>Any herbicide work in these plans must follow the product label and local rules:</p><ul>\n");
-        for c in &self.cautions {
-            let _ = writeln!(t, "<li>{}</li>", escape(c));
-        }
-        t.push_str("</ul></body></html>\n");
-        t
-    }
+    Ok(RunReport {
+        out,
+        text: text.into_string(),
+    })
 }

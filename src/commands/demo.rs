@@ -5,13 +5,14 @@
 
 use crate::app::cli::{DemoArgs, PlanArgs};
 use crate::app::demo;
-use crate::app::settings;
+use crate::app::resolve;
 use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::report::output::Staging;
 
 use super::plan::RunReport;
 
-pub fn run(args: &DemoArgs) -> Result<RunReport> {
+pub fn run(args: &DemoArgs, printer: Printer) -> Result<RunReport> {
     // `--time-limit-s` of the demo scenario counts from here, inputs written included.
     let started = std::time::Instant::now();
     let out = std::path::absolute(&args.out).map_err(|e| Error::io("resolve", &args.out, e))?;
@@ -21,12 +22,11 @@ pub fn run(args: &DemoArgs) -> Result<RunReport> {
     let plan_args = PlanArgs {
         scenario: Some(staged_inputs.join("scenario.toml")),
         out: Some(out.clone()),
-        quiet: args.quiet,
         ..Default::default()
     };
-    let mut settings = settings::resolve(&plan_args)?;
+    let mut settings = resolve::resolve(&plan_args)?;
     settings.started = started;
-    let mut text = super::plan::run_into(&settings, &staging, None)?;
+    let mut text = super::plan::run_into(&settings, &staging, None, printer)?;
     let out = staging.commit()?;
     text.push_str(&format!(
         "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\n",

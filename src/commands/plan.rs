@@ -1,19 +1,20 @@
 //! `hostcut plan`: layers in → patches → graph → model → optimiser → plan → outputs.
 
-use std::fmt::Write as _;
 use std::path::PathBuf;
 
-use crate::app::settings::Settings;
+use crate::app::resolve::Settings;
+use crate::app::resolve::plan::PlanSettings;
 use crate::core::cautions;
 use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::input::patches;
 use crate::input::treatments::Catalogue;
 use crate::planning::baselines;
+use crate::planning::ensemble;
 use crate::planning::plan;
 use crate::planning::prepare;
 use crate::report::output::{self, Outputs, Staging};
-use crate::solve::optimise;
-use crate::solve::problem::{Limits, Problem, Status};
+use crate::solve::problem::{Limits, Status};
 
 /// What a finished run reports back to the caller.
 #[derive(Debug)]
@@ -23,18 +24,15 @@ pub struct RunReport {
     pub text: String,
 }
 
-/// Run the whole planning job for resolved settings.
-pub fn run(settings: &Settings) -> Result<RunReport> {
-    run_with(settings, None)
-}
-
-/// As [`run`], also writing the exact MIP in MPS to `mps` when given.
-pub fn run_with(settings: &Settings, mps: Option<&std::path::Path>) -> Result<RunReport> {
+/// Run the whole planning job for resolved settings, also writing the exact MIP in MPS when
+/// asked (`--write-mps`).
+pub fn run(resolved: &PlanSettings, printer: Printer) -> Result<RunReport> {
+    let (settings, mps) = (&resolved.settings, resolved.write_mps.as_deref());
     if let Some(path) = mps {
         output::check_new_file(path, "--write-mps")?;
     }
     let staging = Staging::new(&settings.out, settings.force, "plan")?;
-    let text = run_into(settings, &staging, mps)?;
+    let text = run_into(settings, &staging, mps, printer)?;
     let out = staging.commit()?;
     Ok(RunReport { out, text })
 }
@@ -44,19 +42,27 @@ pub fn run_into(
     settings: &Settings,
     staging: &Staging,
     mps: Option<&std::path::Path>,
+    printer: Printer,
 ) -> Result<String> {
     let s = &settings.scenario;
-    let progress = |msg: &str| settings.progress(msg);
+    let progress = printer.progress_fn();
     let mut prepared = prepare::prepare(s, &progress)?;
     let budget = s.plan.budget.unwrap_or(0.0);
-    let deadline = keep_for_outputs(settings, prepared.patches.len(), 1);
+    let deadline = plan::keep_for_outputs(
+        settings.deadline(),
+        s.solver.time_limit_s,
+        prepared.patches.len(),
+        1,
+        printer,
+    );
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
+        formulation: s.solver.formulation,
         ..Limits::until(deadline, s.solver.gap)
     };
     // Across dispersal scenarios the plan's model becomes their weighted mean.
     let ensemble = match &s.ensemble {
-        Some(e) => Some(super::ensemble::solve(
+        Some(e) => Some(ensemble::solve(
             &mut prepared,
             e,
             budget,
@@ -85,57 +91,24 @@ pub fn run_into(
         }
         let path = std::path::absolute(path).map_err(|e| Error::io("resolve", path, e))?;
         output::write_new_file(&path, "--write-mps", |temporary| {
-            optimise::write_mps(
-                &problem,
-                temporary,
-                crate::solve::problem::Formulation::Transport,
-            )
+            crate::solve::mip::mps::write_mps(&problem, temporary, s.solver.formulation)
         })?;
     }
-    let solved = match &ensemble {
-        Some(e) => e.chosen.clone(),
-        None => {
-            progress("optimising");
-            let _spinner = crate::core::progress::Stage::spinner(&format!(
-                "optimising {} patches (time limit {} s for the whole command, {:.1} s left; gap {})",
-                problem.len(),
-                s.solver.time_limit_s,
-                deadline.remaining_s(),
-                s.solver.gap
-            ));
-            optimise::solve(&problem, limits)?
-        }
-    };
-    if solved.status == Status::Infeasible {
-        return Err(infeasible_requirements(&problem, patches, budget));
-    }
-    match solved.status {
-        Status::TimeLimit => eprintln!(
-            "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
-            s.solver.time_limit_s,
-            deadline.elapsed_s(),
-            if solved.path == optimise::NOT_STARTED {
-                "; what was left was too little to start the exact search on a model this size"
-            } else {
-                ""
-            },
-            100.0 * solved.gap
-        ),
-        Status::NoImprovingMove => eprintln!(
-            "warning: the local search found no improving move left after {:.1} s (of the {} s limit); the plan is the best found; proven gap on the remaining risk {:.3}%",
-            solved.seconds,
-            s.solver.time_limit_s,
-            100.0 * solved.gap
-        ),
-        _ => {}
-    }
+    let solved = plan::search(
+        &problem,
+        ensemble.as_ref().map(|e| &e.chosen),
+        limits,
+        &s.solver,
+        patches,
+        printer,
+    )?;
     let plan = plan::assemble(
         patches, model, catalogue, &problem, &solved, &s.model, &deadline,
     );
 
     if !plan.metrics_converged {
-        eprintln!(
-            "warning: lambda_M and the establishment probabilities stopped before converging (the time limit or their iteration cap); their values in summary.json and patches.csv are approximate"
+        printer.note(
+            "warning: lambda_M and the establishment probabilities stopped before converging (the time limit or their iteration cap); their values in summary.json and patches.csv are approximate",
         );
     }
     let outputs = Outputs {
@@ -154,11 +127,7 @@ pub fn run_into(
         graph.edges.len(),
         &s.model,
     );
-    let depot = s
-        .plan
-        .depot
-        .map(|[x, y]| (x, y))
-        .unwrap_or_else(|| baselines::default_depot(patches, eligible));
+    let depot = baselines::depot(s.plan.depot, patches, eligible);
     let baselines = baselines::all(
         &problem,
         patches,
@@ -168,7 +137,7 @@ pub fn run_into(
     );
     summary.depot = [depot.0, depot.1];
     summary.suitability_layer = s.host.suitability.as_ref().map(|p| p.display().to_string());
-    summary.baselines = baseline_summaries(
+    summary.baselines = baselines::baseline_summaries(
         &problem,
         patches,
         &baselines,
@@ -191,7 +160,7 @@ pub fn run_into(
         catalogue_text,
         "Every input and parameter this plan used; repeat it with `hostcut plan --scenario scenario.resolved.toml --out NEW`.",
     )?;
-    let mut text = human_summary(&summary, &plan, patches, catalogue, staging.out());
+    let mut text = human_summary(&summary, &plan, patches, catalogue, staging.out(), printer);
     if let Some(e) = &ensemble {
         text = text.replacen("\noutputs in", &format!("\n{}outputs in", e.text), 1);
         text = text.replacen(
@@ -201,148 +170,11 @@ pub fn run_into(
         );
     }
     if plan.status != Status::Infeasible
-        && let Some(line) = comparison_line(&baselines, plan.risk_after)
+        && let Some(line) = baselines::comparison_line(&baselines, plan.risk_after)
     {
         text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
     }
     Ok(text)
-}
-
-/// Seconds the metrics and the outputs take per patch after the search, measured on a 88,583-
-/// patch raster plan (8.2 s writing plan.csv, patches.csv and plan.geojson with outlines,
-/// 0.1 s of metrics; docs/benchmarks.md), rounded up.
-pub const OUTPUT_S_PER_PATCH: f64 = 1e-4;
-
-/// The command's deadline keeping time after the searches for `folders` plan folders of
-/// `patches` patches; says so on stderr when reading the layers and writing the outputs leave
-/// no time to search.
-pub fn keep_for_outputs(
-    settings: &Settings,
-    patches: usize,
-    folders: usize,
-) -> crate::core::deadline::Deadline {
-    let outputs_s = OUTPUT_S_PER_PATCH * (patches * folders) as f64;
-    let deadline = settings.deadline().keeping(outputs_s);
-    if deadline.passed() {
-        eprintln!(
-            "warning: reading the layers took {:.1} s and writing the outputs of {patches} patches needs about {outputs_s:.1} s more: `--time-limit-s {}` leaves no time to search, so the plan is the best start (greedy or relaxation rounding)",
-            deadline.elapsed_s(),
-            settings.scenario.solver.time_limit_s
-        );
-    }
-    deadline
-}
-
-/// Why the required patches cannot all be treated: their cheapest methods against the limits.
-fn infeasible_requirements(problem: &Problem, patches: &patches::Patches, budget: f64) -> Error {
-    let required: Vec<usize> = (0..problem.len())
-        .filter(|&i| problem.required[i])
-        .collect();
-    let cheapest = |i: usize, f: &dyn Fn(&crate::input::treatments::Choice) -> f64| {
-        problem.choices[i]
-            .iter()
-            .map(f)
-            .fold(f64::INFINITY, f64::min)
-    };
-    let cost: f64 = required.iter().map(|&i| cheapest(i, &|c| c.cost)).sum();
-    let hours: f64 = required.iter().map(|&i| cheapest(i, &|c| c.hours)).sum();
-    let ids: Vec<&str> = required
-        .iter()
-        .map(|&i| patches.items[i].label.as_str())
-        .collect();
-    let what = match problem.crew_hours {
-        Some(h) if hours > h => {
-            format!("need at least {hours:.1} crew hours, more than the {h} available")
-        }
-        _ if cost > budget => format!(
-            "cost at least {cost:.2} with their cheapest methods, more than the budget of {budget:.2}"
-        ),
-        _ => "cannot all be treated within the budget and crew hours together".to_string(),
-    };
-    Error::input_with_hint(
-        format!(
-            "no plan fits: the required patches ({}) {what}",
-            ids.join(", ")
-        ),
-        "raise `--budget` / `--crew-hours`, or require fewer patches",
-    )
-}
-
-/// summary.json's `baselines`.
-pub fn baseline_summaries(
-    problem: &Problem,
-    patches: &patches::Patches,
-    baselines: &[baselines::Baseline],
-    risk_before: f64,
-    plan_risk: f64,
-) -> serde_json::Map<String, serde_json::Value> {
-    let mut map = serde_json::Map::new();
-    for b in baselines {
-        let value = match &b.assignment {
-            None => serde_json::json!({ "feasible": false }),
-            Some(a) => {
-                let n_treated = a.iter().filter(|x| x.is_some()).count();
-                let stems: f64 = a
-                    .iter()
-                    .enumerate()
-                    .filter(|(_, x)| x.is_some())
-                    .map(|(i, _)| patches.items[i].stems)
-                    .sum();
-                serde_json::json!({
-                    "feasible": true,
-                    "risk_after": b.risk_after,
-                    "reduction_pct": if risk_before > 0.0 { 100.0 * (1.0 - b.risk_after / risk_before) } else { 0.0 },
-                    "spent": problem.cost(a),
-                    "crew_hours": problem.hours(a),
-                    "n_treated": n_treated,
-                    "stems_treated": stems,
-                    "risk_ratio_to_plan": if plan_risk > 0.0 { b.risk_after / plan_risk } else { f64::NAN },
-                })
-            }
-        };
-        map.insert(b.name.to_string(), value);
-    }
-    map
-}
-
-/// "this plan leaves N× less risk than treating the biggest stands first", against the best
-/// of the rule-of-thumb baselines a person would otherwise follow, or a plain statement that a
-/// baseline is as good.
-pub fn comparison_line(baselines: &[baselines::Baseline], plan_risk: f64) -> Option<String> {
-    let biggest = baselines.iter().find(|b| b.name == "biggest_first")?;
-    let mut lines = Vec::new();
-    for b in baselines.iter().filter(|b| b.assignment.is_some()) {
-        let ratio = if plan_risk > 0.0 {
-            b.risk_after / plan_risk
-        } else {
-            f64::INFINITY
-        };
-        if ratio <= 1.0005 {
-            lines.push(format!(
-                "  {} does as well as this plan here (same remaining risk within 0.05%)",
-                b.phrase
-            ));
-        } else {
-            // Small differences read better as a percentage than as "1.00×".
-            let amount = if ratio < 1.1 {
-                format!("{:.1}% less risk", 100.0 * (1.0 - 1.0 / ratio))
-            } else {
-                format!("{ratio:.2}× less risk")
-            };
-            if b.name == biggest.name {
-                lines.insert(0, format!("this plan leaves {amount} than {}", b.phrase));
-            } else {
-                lines.push(format!("  and {amount} than {}", b.phrase));
-            }
-        }
-    }
-    if biggest.assignment.is_none() {
-        lines.insert(
-            0,
-            "the biggest-first rule cannot fit the required patches".to_string(),
-        );
-    }
-    Some(lines.join("\n"))
 }
 
 fn human_summary(
@@ -351,58 +183,53 @@ fn human_summary(
     patches: &patches::Patches,
     catalogue: &Catalogue,
     out: &std::path::Path,
+    printer: Printer,
 ) -> String {
-    let mut t = String::new();
+    let mut t = printer.text();
     let c = &summary.currency;
-    let _ = writeln!(
-        t,
+    let money = crate::report::format::money;
+    t.line(format_args!(
         "hostcut plan: {} patches, {} links, {} eligible for treatment",
         summary.n_patches, summary.n_edges, summary.n_eligible
-    );
+    ));
     if let Some(layer) = &summary.suitability_layer {
-        let _ = writeln!(
-            t,
+        t.line(format_args!(
             "  host weighted by the establishment suitability layer {layer}"
-        );
+        ));
     }
     if patches.dropped_slivers > 0 {
-        let _ = writeln!(
-            t,
+        t.line(format_args!(
             "  {} sliver patches below the minimum size were dropped",
             patches.dropped_slivers
-        );
+        ));
     }
     match plan.status {
         Status::Infeasible => {
-            let _ = writeln!(
-                t,
+            t.line(format_args!(
                 "no plan fits: the required patches cost more than the budget or crew hours allow (status infeasible)"
-            );
+            ));
         }
         _ => {
             if plan.rows.is_empty() {
-                let _ = writeln!(
-                    t,
-                    "the budget of {:.0} {c} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
-                    summary.budget
-                );
+                t.line(format_args!(
+                    "the budget of {} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
+                    money(c, summary.budget)
+                ));
             }
-            let _ = writeln!(
-                t,
-                "treat {} patches ({:.0} stems) for {:.2} {c} of {:.2} {c}, {:.1} crew hours",
+            t.line(format_args!(
+                "treat {} patches ({:.0} stems) for {} of {}, {:.1} crew hours",
                 summary.n_treated,
                 summary.stems_treated,
-                summary.spent,
-                summary.budget,
+                money(c, summary.spent),
+                money(c, summary.budget),
                 summary.crew_hours
-            );
-            let _ = writeln!(
-                t,
+            ));
+            t.line(format_args!(
                 "connected-host risk index R {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
                 small(summary.risk_before),
                 small(summary.risk_after),
                 summary.risk_reduction_pct
-            );
+            ));
             if let (Some(g), Some(gr)) = (summary.greedy_reduction_pct, summary.greedy_risk_after) {
                 let more = if summary.risk_after > 0.0 {
                     100.0 * (gr / summary.risk_after - 1.0)
@@ -410,27 +237,23 @@ fn human_summary(
                     0.0
                 };
                 if more > 0.05 {
-                    let _ = writeln!(
-                        t,
+                    t.line(format_args!(
                         "  the greedy benefit-per-cost plan would cut {g:.1}%, leaving {more:.1}% more risk than this plan"
-                    );
+                    ));
                 } else if more < -0.05 {
                     // Only a plan that minimises something else (a robust ensemble plan) can be
                     // beaten on R by greedy.
-                    let _ = writeln!(
-                        t,
+                    t.line(format_args!(
                         "  the greedy benefit-per-cost plan would cut {g:.1}%, {:.2}% less risk than this plan on this measure (this plan is chosen for robustness across the dispersal scenarios instead)",
                         -more
-                    );
+                    ));
                 } else {
-                    let _ = writeln!(
-                        t,
+                    t.line(format_args!(
                         "  the greedy benefit-per-cost plan would cut {g:.1}%: as good as this plan to within {more:.2}% here"
-                    );
+                    ));
                 }
             }
-            let _ = writeln!(
-                t,
+            t.line(format_args!(
                 "metapopulation capacity {} -> {}{}",
                 small(summary.lambda_before),
                 small(summary.lambda_after),
@@ -442,7 +265,7 @@ fn human_summary(
                 } else {
                     String::new()
                 }
-            );
+            ));
             let status = match plan.status {
                 Status::Optimal => "proven optimal".to_string(),
                 Status::GapLimit => format!(
@@ -464,20 +287,18 @@ fn human_summary(
                 Some("regret") => " on the largest regret",
                 _ => "",
             };
-            let _ = writeln!(
-                t,
+            t.line(format_args!(
                 "optimiser{objective}: {status} (status {}, gap {:.2e}, {:.1} s; {}, bound from {})",
                 plan.status.as_str(),
                 plan.gap,
                 plan.solve_seconds,
                 plan.solver_path,
                 plan.bound_from
-            );
+            ));
             for row in plan.rows.iter().take(5) {
                 let p = &patches.items[row.patch.index()];
-                let _ = writeln!(
-                    t,
-                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>10.2} {c}  [{}]",
+                t.line(format_args!(
+                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>12}  [{}]",
                     plan.rows
                         .iter()
                         .position(|r| r.patch == row.patch)
@@ -486,26 +307,28 @@ fn human_summary(
                     p.label,
                     catalogue.method(row.choice.method).id,
                     p.stems,
-                    row.choice.cost,
+                    money(c, row.choice.cost),
                     row.cautions.join(" ")
-                );
+                ));
             }
             if plan.rows.len() > 5 {
-                let _ = writeln!(t, "  ... {} more in plan.csv", plan.rows.len() - 5);
+                t.line(format_args!(
+                    "  ... {} more in plan.csv",
+                    plan.rows.len() - 5
+                ));
             }
         }
     }
-    let _ = writeln!(
-        t,
+    t.line(format_args!(
         "outputs in {}: plan.csv, patches.csv, plan.geojson, summary.json, cautions.txt, scenario.resolved.toml",
         out.display()
-    );
+    ));
     t.push('\n');
     t.push_str(&cautions::standing_text());
     t.push('\n');
     t.push_str(cautions::site_check_text(patches.water_checked));
     t.push('\n');
-    t
+    t.into_string()
 }
 
 /// A share-squared quantity for the terminal: six decimals, or three significant figures in

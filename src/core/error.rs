@@ -51,31 +51,6 @@ impl Error {
         }
     }
 
-    /// A GDAL failure on `path`, with GDAL's own message and none of its plumbing.
-    pub fn gdal(
-        action: &'static str,
-        path: impl Into<PathBuf>,
-        err: gdal::errors::GdalError,
-    ) -> Self {
-        use gdal::errors::GdalError;
-        let message = match &err {
-            GdalError::CplError { msg, .. } | GdalError::NullPointer { msg, .. }
-                if !msg.trim().is_empty() =>
-            {
-                msg.trim().to_string()
-            }
-            GdalError::NullPointer { .. } | GdalError::CplError { .. } => {
-                "not a format GDAL can read, or the file is damaged or truncated".to_string()
-            }
-            other => other.to_string().trim().to_string(),
-        };
-        Error::Gdal {
-            action,
-            path: path.into(),
-            message,
-        }
-    }
-
     /// A read or write failure on `path`.
     pub fn io(action: &'static str, path: impl Into<PathBuf>, source: std::io::Error) -> Self {
         Error::Io {

@@ -380,12 +380,6 @@ pub struct LinkCount {
     pub at_least: usize,
 }
 
-/// Cap GDAL's block cache at [`GDAL_CACHE_MB`] (before any raster is read).
-pub fn cap_gdal_cache() {
-    // GDAL reads the option when its cache is first used.
-    let _ = gdal::config::set_config_option("GDAL_CACHEMAX", &GDAL_CACHE_MB.to_string());
-}
-
 /// The process's address-space limit (`ulimit -v`) in bytes, if any.
 fn address_space_limit() -> Option<u64> {
     rustix::process::getrlimit(rustix::process::Resource::As).current

@@ -1,8 +1,9 @@
 //! Progress bars on long stages (raster labelling, optimising, budget curves), drawn on
 //! stderr only when it is a terminal and the command is not `--quiet`; pipes, files and CI
-//! logs get the plain stage lines alone.
+//! logs get the plain stage lines alone. Commands make bars through their
+//! [`crate::core::printer::Printer`]; the process-wide switch below serves only the stages
+//! not yet handed a printer (the raster labeller in `input::patches`).
 
-use std::io::IsTerminal;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Duration;
 
@@ -10,12 +11,9 @@ use indicatif::{ProgressBar, ProgressStyle};
 
 static ENABLED: AtomicBool = AtomicBool::new(false);
 
-/// Turn bars on for this process when stderr is a terminal, `quiet` is off and
-/// `HOSTCUT_NO_PROGRESS` is unset.
-pub fn init(quiet: bool) {
-    let on = !quiet
-        && std::io::stderr().is_terminal()
-        && std::env::var_os("HOSTCUT_NO_PROGRESS").is_none();
+/// Turn bars on or off for the stages without a printer; set once from the command's printer
+/// ([`crate::core::printer::Printer::install`]).
+pub fn set_bars(on: bool) {
     ENABLED.store(on, Ordering::Relaxed);
 }
 
@@ -29,7 +27,12 @@ pub struct Stage(Option<ProgressBar>);
 impl Stage {
     /// A bar over `len` steps of `unit` (e.g. "rows", "budgets").
     pub fn bar(what: &str, len: u64, unit: &str) -> Stage {
-        if !enabled() {
+        Stage::bar_if(enabled(), what, len, unit)
+    }
+
+    /// As [`Stage::bar`], drawn when `draw` (the printer's choice).
+    pub fn bar_if(draw: bool, what: &str, len: u64, unit: &str) -> Stage {
+        if !draw {
             return Stage(None);
         }
         let bar = ProgressBar::new(len);
@@ -45,7 +48,12 @@ impl Stage {
 
     /// A spinner with the time spent, for a stage without countable steps (a time-limited solve).
     pub fn spinner(what: &str) -> Stage {
-        if !enabled() {
+        Stage::spinner_if(enabled(), what)
+    }
+
+    /// As [`Stage::spinner`], drawn when `draw` (the printer's choice).
+    pub fn spinner_if(draw: bool, what: &str) -> Stage {
+        if !draw {
             return Stage(None);
         }
         let bar = ProgressBar::new_spinner();
@@ -56,6 +64,11 @@ impl Stage {
         bar.tick();
         bar.enable_steady_tick(Duration::from_millis(200));
         Stage(Some(bar))
+    }
+
+    /// Whether anything is drawn.
+    pub fn is_drawn(&self) -> bool {
+        self.0.is_some()
     }
 
     pub fn set(&self, position: u64) {
@@ -85,7 +98,7 @@ mod tests {
 
     #[test]
     fn stages_are_silent_when_disabled() {
-        init(true);
+        set_bars(false);
         assert!(!enabled());
         let s = Stage::bar("labelling", 10, "rows");
         s.set(5);

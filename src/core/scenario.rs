@@ -2,7 +2,7 @@
 //! `scenario.resolved.toml` a run writes back, with its sections (host, access, site layers,
 //! corridors, detections, model, plan, solver, ensemble) and the calibration file. Reading and
 //! the schema live here, in the earliest stage, because every input stage reads its section;
-//! merging flags over it and validating it is `app::settings`.
+//! merging flags over it and validating it is `app::resolve`.
 //!
 //! # Units
 //! Distances in metres, areas in hectares, densities in stems per hectare, money in the currency
@@ -451,6 +451,33 @@ pub struct SolverSection {
     pub gap: f64,
     /// Refuse inputs or models whose estimated memory exceeds this (GB).
     pub max_memory_gb: f64,
+    /// Which exact MIP formulation to build (`--formulation`); left out of the resolved
+    /// scenario when it is the default.
+    #[serde(skip_serializing_if = "Formulation::is_default")]
+    pub formulation: Formulation,
+}
+
+/// Which exact linearisation of the link products the MIP builds (docs/model.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum Formulation {
+    /// One z per pair of options at each link, with transportation marginals (the default:
+    /// the tightest LP bound)
+    #[default]
+    Transport,
+    /// One u per link and choice of one end, plus McCormick's envelope row (for comparison)
+    Compact,
+    /// The textbook baseline: one binary per patch and method, one product variable per link
+    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (`hostcut bench` only)
+    #[value(skip)]
+    #[serde(skip)]
+    Direct,
+}
+
+impl Formulation {
+    pub fn is_default(&self) -> bool {
+        *self == Formulation::Transport
+    }
 }
 
 impl Default for SolverSection {
@@ -459,6 +486,7 @@ impl Default for SolverSection {
             time_limit_s: 120.0,
             gap: 1e-4,
             max_memory_gb: 16.0,
+            formulation: Formulation::Transport,
         }
     }
 }

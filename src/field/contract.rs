@@ -9,191 +9,13 @@
 //! Money in the catalogue's currency; stems as counts; areas in hectares; dates as YYYY-MM-DD.
 
 use std::collections::{BTreeMap, HashMap};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use serde::Deserialize;
 
 use crate::core::error::{Error, Result};
-use crate::input::treatments::{Catalogue, Method};
-
-/// One treated patch as plan.csv records it.
-#[derive(Debug, Clone, Deserialize)]
-pub struct PlannedPatch {
-    pub priority: usize,
-    pub patch_id: String,
-    pub method: String,
-    pub stems: f64,
-    pub cost: f64,
-    pub crew_hours: f64,
-    #[serde(default)]
-    pub reduction_pct: f64,
-    #[serde(default)]
-    pub x: f64,
-    #[serde(default)]
-    pub y: f64,
-    pub access: String,
-    pub herbicide: String,
-    #[serde(default)]
-    pub parcel: String,
-    #[serde(default)]
-    pub contact: String,
-    #[serde(default)]
-    pub cautions: String,
-    /// The site's rules in words (no herbicide, restricted conditions, water nearby).
-    #[serde(default)]
-    pub site_notes: String,
-}
-
-impl PlannedPatch {
-    /// Whether the site forbids herbicide.
-    pub fn no_herbicide(&self) -> bool {
-        self.herbicide == "prohibited"
-    }
-
-    /// The restricted-site conditions from `site_notes`, if the site is restricted.
-    pub fn restriction(&self) -> Option<&str> {
-        (self.herbicide == "restricted").then(|| {
-            self.site_notes
-                .split("; ")
-                .find(|n| n.starts_with("restricted site"))
-                .unwrap_or("restricted site: herbicide only under the site's conditions; confirm them with the site manager")
-        })
-    }
-
-    /// The water note from `site_notes` (e.g. `near water: Mill Creek (12 m)`), if any.
-    pub fn near_water(&self) -> Option<&str> {
-        self.site_notes
-            .split("; ")
-            .find(|n| n.starts_with("near water"))
-    }
-}
-
-/// One patch as patches.csv records it.
-#[derive(Debug, Clone, Deserialize)]
-pub struct PatchRecord {
-    pub patch_id: String,
-    pub x: f64,
-    pub y: f64,
-    pub stems: f64,
-    #[serde(default)]
-    pub area_ha: Option<f64>,
-    pub pressure: f64,
-    pub access: String,
-    pub herbicide: String,
-    pub cost_factor: f64,
-    #[serde(default)]
-    pub suitability: Option<f64>,
-    #[serde(default)]
-    pub eligible: String,
-    #[serde(default)]
-    pub method: String,
-}
-
-/// A plan folder's outputs, read back.
-#[derive(Debug, Clone)]
-pub struct PlanFolder {
-    pub dir: PathBuf,
-    pub planned: Vec<PlannedPatch>,
-    pub patches: Vec<PatchRecord>,
-    pub catalogue: Catalogue,
-    /// The CRS named in summary.json, for the next season's `--crs`.
-    pub crs: String,
-    /// summary.json as written by the plan.
-    pub summary: serde_json::Value,
-}
-
-fn read_csv<T: for<'de> Deserialize<'de>>(path: &Path) -> Result<Vec<T>> {
-    let mut reader = csv::Reader::from_path(path).map_err(|e| {
-        Error::input_with_hint(
-            format!("cannot read `{}`: {e}", path.display()),
-            "give the `--out` folder of a `hostcut plan` run",
-        )
-    })?;
-    let headers = reader
-        .headers()
-        .map_err(|e| {
-            Error::input_with_hint(
-                format!("`{}`, line 1: {e}", path.display()),
-                "the plan folder's files must not be edited; run `hostcut plan` again",
-            )
-        })?
-        .clone();
-    let mut out = Vec::new();
-    for (k, record) in reader.records().enumerate() {
-        // Cells the tool neutralised for spreadsheets ([`crate::core::csv_cells`]) read as they were.
-        let row = record
-            .and_then(|r| crate::core::csv_cells::restored(&r).deserialize(Some(&headers)))
-            .map_err(|e| {
-                Error::input_with_hint(
-                    format!("`{}`, line {}: {e}", path.display(), k + 2),
-                    "the plan folder's files must not be edited; run `hostcut plan` again",
-                )
-            })?;
-        out.push(row);
-    }
-    Ok(out)
-}
-
-impl PlanFolder {
-    pub fn read(dir: &Path) -> Result<PlanFolder> {
-        for f in [
-            "plan.csv",
-            "patches.csv",
-            "treatments.used.toml",
-            "summary.json",
-        ] {
-            if !dir.join(f).is_file() {
-                return Err(Error::input_with_hint(
-                    format!("`{}` is not a plan folder (no {f})", dir.display()),
-                    "give the `--out` folder of a `hostcut plan` or `hostcut demo` run",
-                ));
-            }
-        }
-        let planned = read_csv(&dir.join("plan.csv"))?;
-        let patches = read_csv(&dir.join("patches.csv"))?;
-        let (catalogue, _) = Catalogue::load(Some(&dir.join("treatments.used.toml")))?;
-        let summary: serde_json::Value = serde_json::from_str(
-            &std::fs::read_to_string(dir.join("summary.json"))
-                .map_err(|e| Error::io("read", dir.join("summary.json"), e))?,
-        )
-        .map_err(|e| {
-            Error::input(format!(
-                "`{}`: summary.json is not valid JSON ({e})",
-                dir.display()
-            ))
-        })?;
-        let crs = summary["crs"].as_str().unwrap_or_default().to_string();
-        let folder = PlanFolder {
-            dir: dir.to_path_buf(),
-            planned,
-            patches,
-            catalogue,
-            crs,
-            summary,
-        };
-        for p in &folder.planned {
-            if folder.method(&p.method).is_none() {
-                return Err(Error::input(format!(
-                    "`{}`: plan.csv names method `{}`, which treatments.used.toml does not have",
-                    dir.display(),
-                    p.method
-                )));
-            }
-        }
-        Ok(folder)
-    }
-
-    pub fn method(&self, id: &str) -> Option<&Method> {
-        self.catalogue.methods.iter().find(|m| m.id == id)
-    }
-
-    pub fn area_of(&self, id: &str) -> Option<f64> {
-        self.patches
-            .iter()
-            .find(|p| p.patch_id == id)
-            .and_then(|p| p.area_ha)
-    }
-}
+pub use crate::field::plan_folder::{PatchRecord, PlanFolder, PlannedPatch};
+use crate::input::treatments::{Method, MethodId};
 
 /// Site class of a treated patch for the bid schedule.
 pub fn site_class(p: &PlannedPatch, method: &Method) -> &'static str {
@@ -211,6 +33,7 @@ pub fn site_class(p: &PlannedPatch, method: &Method) -> &'static str {
 pub struct LineItem {
     pub number: usize,
     pub method: String,
+    pub method_id: MethodId,
     pub site_class: &'static str,
     pub patch_ids: Vec<String>,
     pub stems: f64,
@@ -231,23 +54,17 @@ pub fn line_items(folder: &PlanFolder) -> Vec<LineItem> {
             .position(|x| *x == c)
             .unwrap_or(3)
     };
-    let mut groups: BTreeMap<(usize, usize), LineItem> = BTreeMap::new();
+    let mut groups: BTreeMap<(MethodId, usize), LineItem> = BTreeMap::new();
     for p in &folder.planned {
-        let Some((m_index, method)) = folder
-            .catalogue
-            .methods
-            .iter()
-            .enumerate()
-            .find(|(_, m)| m.id == p.method)
-        else {
-            continue;
-        };
+        let method = folder.method_of(p);
+        let m_index = p.method_id;
         let class = site_class(p, method);
         let item = groups
             .entry((m_index, order(class)))
             .or_insert_with(|| LineItem {
                 number: 0,
                 method: p.method.clone(),
+                method_id: p.method_id,
                 site_class: class,
                 patch_ids: Vec::new(),
                 stems: 0.0,
@@ -324,6 +141,7 @@ pub struct CompletionRow {
 pub struct Done {
     pub patch_id: String,
     pub method: String,
+    pub method_id: MethodId,
     pub treated_stems: f64,
     pub date: (i32, u8, u8),
 }
@@ -434,9 +252,7 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
                 row.patch_id, plan.stems
             ));
         }
-        let method = folder
-            .method(&plan.method)
-            .expect("checked when the plan folder was read");
+        let method = folder.method_of(plan);
         match parse_date(&row.date) {
             None => problems.push(format!(
                 "line {line}: date `{}` is not a date like 2027-08-15",
@@ -466,6 +282,7 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
                 done.push(Done {
                     patch_id: row.patch_id.clone(),
                     method: plan.method.clone(),
+                    method_id: plan.method_id,
                     treated_stems: treated,
                     date,
                 });

@@ -5,4 +5,5 @@ pub mod calendar;
 pub mod contract;
 pub mod network;
 pub mod orders;
+pub mod plan_folder;
 pub mod routing;

@@ -15,12 +15,17 @@
 //! Travel time is straight-line distance x detour factor / speed: an assumption the outputs
 //! state, not a road network.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet, HashMap};
+use std::path::Path;
+
+use geo::Geometry;
 
 use crate::core::error::{Error, Result};
 use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::routing::{self, Matrix};
+use crate::input::gis::{self, Crs};
+use crate::input::treatments::MethodId;
 
 /// Common practice (from memory): about 2 stops of patch work per hour is already brisk; a crew
 /// sheet with more than a dozen sites is hard to follow.
@@ -49,6 +54,7 @@ pub struct Stop {
     pub part: usize,
     pub parts: usize,
     pub method: String,
+    pub method_id: MethodId,
     pub stems: f64,
     pub work_hours: f64,
     /// Travel from the previous stop (or the depot) to this one.
@@ -183,6 +189,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 part,
                 parts,
                 method: p.method.clone(),
+                method_id: p.method_id,
                 stems,
                 work_hours: hours,
                 travel_hours: 0.0,
@@ -196,9 +203,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
     // 2. Days per season window.
     let mut groups: BTreeMap<Vec<u8>, Vec<usize>> = BTreeMap::new();
     for (k, s) in stops.iter().enumerate() {
-        let method = folder
-            .method(&s.method)
-            .expect("plan folder methods checked on read");
+        let method = folder.catalogue.method(s.method_id);
         let mut months = method.months.clone();
         months.sort_unstable();
         months.dedup();
@@ -407,6 +412,44 @@ fn consolidate(
         .collect()
 }
 
+/// The default first working day: today if today is inside a window of a method in the plan,
+/// else the first of the next month that opens one.
+pub fn default_start(folder: &PlanFolder, today: Date) -> Date {
+    let months: BTreeSet<u8> = folder
+        .planned
+        .iter()
+        .map(|p| folder.method_of(p))
+        .flat_map(|m| m.months.iter().copied())
+        .collect();
+    if months.is_empty() || months.contains(&today.month) {
+        return today;
+    }
+    for k in 1..=12 {
+        let m0 = (today.month as u32 - 1 + k) % 12 + 1;
+        let year = today.year + ((today.month as u32 - 1 + k) / 12) as i32;
+        if months.contains(&(m0 as u8)) {
+            return Date::new(year, m0 as u8, 1).expect("valid first of month");
+        }
+    }
+    today
+}
+
+/// The patch outlines of the plan's map (plan.geojson), by patch id, in the working CRS; empty
+/// when the folder has no map (a plan from an inventory of points).
+pub fn outlines(plan_dir: &Path, crs: &Crs) -> Result<HashMap<String, Geometry<f64>>> {
+    let plan_map = plan_dir.join("plan.geojson");
+    let mut outlines = HashMap::new();
+    if plan_map.is_file() {
+        let layer = gis::read_vector(&plan_map, None, crs, None, "the plan's map", "--plan")?;
+        for f in layer.features {
+            if let Some(id) = f.fields.get("patch_id") {
+                outlines.insert(id.as_text(), f.geometry);
+            }
+        }
+    }
+    Ok(outlines)
+}
+
 /// What the crew is told to do at one stop, in plain words, and the dates that follow from it.
 #[derive(Debug, Clone)]
 pub struct Instructions {
@@ -424,7 +467,7 @@ pub fn fell_after(date: Date) -> Date {
 
 pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Instructions {
     let p = &folder.planned[stop.row];
-    let method = folder.method(&p.method).expect("checked on read");
+    let method = folder.method_of(p);
     let mut text = Vec::new();
     if p.no_herbicide() {
         text.push("NO HERBICIDE ON THIS SITE.".to_string());

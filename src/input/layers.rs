@@ -19,7 +19,7 @@ use crate::input::inventory::Stand;
 /// Counts of what a run skipped, by reason (`host_cells_not_finite`,
 /// `parcel_features_without_geometry`, ...): shown on stderr and in summary.json, so nothing is
 /// dropped without a word.
-#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Skipped(pub std::collections::BTreeMap<String, usize>);
 
 impl Skipped {
@@ -479,19 +479,17 @@ fn open_host(
             "check the path given to `--host`",
         ));
     }
-    let dataset = gdal::Dataset::open(path).map_err(|e| Error::gdal("open", path, e))?;
-    if dataset.raster_count() > 0 {
-        drop(dataset);
+    let kind = gis::dataset_kind(path)?;
+    if kind == gis::DatasetKind::Raster {
         let raster = gis::open_raster(path, assume, budget)?;
         return Ok((raster.crs.clone(), Host::Raster(raster)));
     }
-    if dataset.layer_count() == 0 {
+    if kind == gis::DatasetKind::Neither {
         return Err(Error::input(format!(
             "host layer `{}` has neither a raster band nor a vector layer",
             path.display()
         )));
     }
-    drop(dataset);
     let crs = gis::vector_crs(path, layer, assume, "host layer", "--host-layer")?;
     let layer = gis::read_vector(path, layer, &crs, assume, "host layer", "--host-layer")?;
     layer.require_field(stems_field, "host layer", "--stems-field")?;

@@ -6,6 +6,6 @@ pub mod inventory;
 pub mod label;
 pub mod layers;
 pub mod patches;
-pub mod roads;
+pub use gis::roads;
 pub mod suitability;
 pub mod treatments;

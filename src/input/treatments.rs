@@ -19,7 +19,7 @@ use crate::input::patches::Patch;
 pub const BUILTIN: &str = include_str!("../../models/treatments.toml");
 
 /// Index of a method in the catalogue.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub struct MethodId(pub u16);
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -206,6 +206,14 @@ impl Catalogue {
             }
         }
         Ok(())
+    }
+
+    /// The id of the method named `name`, if the catalogue has it.
+    pub fn find(&self, name: &str) -> Option<MethodId> {
+        self.methods
+            .iter()
+            .position(|m| m.id == name)
+            .map(|k| MethodId(k as u16))
     }
 
     pub fn method(&self, id: MethodId) -> &Method {

@@ -2,7 +2,7 @@
 //! same patches. The weighted-mean objective is one combined risk model (R is linear in its
 //! weights, so sum_s w_s R_s has own terms sum_s w_s pi_i^s a_i^2 and link weights
 //! sum_s w_s w_ij^s over the union of links); the worst-case and largest-regret objectives are
-//! solved exactly by [`crate::solve::optimise::solve_minmax`].
+//! solved exactly by [`crate::solve::mip::minmax::solve_minmax`].
 
 use std::collections::BTreeMap;
 

@@ -205,34 +205,15 @@ fn write_raster_to(
     path: &std::path::Path,
     spec: RasterSpec,
 ) -> crate::core::error::Result<()> {
-    use crate::core::error::Error;
-    use gdal::DriverManager;
-    let fail = |e| Error::gdal("write", path, e);
-    let driver = DriverManager::get_driver_by_name("GTiff").map_err(fail)?;
-    let options = gdal::raster::RasterCreationOptions::from_iter([
-        "TILED=YES",
-        "BLOCKXSIZE=256",
-        "BLOCKYSIZE=256",
-        "BIGTIFF=IF_SAFER",
-    ]);
-    let mut ds = driver
-        .create_with_band_type_with_options::<f32, _>(partial, spec.width, spec.height, 1, &options)
-        .map_err(fail)?;
-    ds.set_geo_transform(&[400_000.0, spec.cell_m, 0.0, 4_600_000.0, 0.0, -spec.cell_m])
-        .map_err(fail)?;
-    let srs = gdal::spatial_ref::SpatialRef::from_epsg(32618).map_err(fail)?;
-    ds.set_spatial_ref(&srs).map_err(fail)?;
-    let mut band = ds.rasterband(1).map_err(fail)?;
     let painter = RasterPainter::new(spec);
-    let mut row0 = 0;
-    while row0 < spec.height {
-        let rows = 256.min(spec.height - row0);
-        let mut buffer = gdal::raster::Buffer::new((spec.width, rows), painter.rows(row0, rows));
-        band.write((0, row0 as isize), (spec.width, rows), &mut buffer)
-            .map_err(fail)?;
-        row0 += rows;
-    }
-    Ok(())
+    crate::input::gis::write_geotiff_strips(
+        partial,
+        path,
+        (spec.width, spec.height),
+        [400_000.0, spec.cell_m, 0.0, 4_600_000.0, 0.0, -spec.cell_m],
+        32618,
+        |row0, rows| painter.rows(row0, rows),
+    )
 }
 
 #[cfg(test)]

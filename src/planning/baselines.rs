@@ -7,13 +7,13 @@
 //! - `biggest_first`: by stems, largest first (ties by patch order);
 //! - `nearest_first`: by distance from the depot, nearest first;
 //! - `corridor_first`: patches within any corridor buffer first, then by stems, largest first;
-//! - `greedy`: the adaptive benefit-per-cost greedy of [`crate::solve::optimise::greedy`].
+//! - `greedy`: the adaptive benefit-per-cost greedy of [`crate::solve::heuristics::greedy`].
 //!
 //! # Units
 //! Depot coordinates in the working CRS (metres).
 
 use crate::input::patches::Patches;
-use crate::solve::optimise::greedy;
+use crate::solve::heuristics::greedy;
 use crate::solve::problem::{Assignment, Problem};
 
 /// One baseline plan and its result.
@@ -89,6 +89,13 @@ pub fn corridor_first_order(patches: &Patches, near_corridor: &[Vec<String>]) ->
     order
 }
 
+/// The depot the distance rules start from: the scenario's `depot`, else [`default_depot`].
+pub fn depot(given: Option<[f64; 2]>, patches: &Patches, eligible: &[bool]) -> (f64, f64) {
+    given
+        .map(|[x, y]| (x, y))
+        .unwrap_or_else(|| default_depot(patches, eligible))
+}
+
 /// The default depot: the plain centroid of the eligible patches (of all patches if none is).
 pub fn default_depot(patches: &Patches, eligible: &[bool]) -> (f64, f64) {
     let chosen: Vec<usize> = (0..patches.len()).filter(|&i| eligible[i]).collect();
@@ -147,4 +154,81 @@ pub fn all(
         assignment: g.map(|g| g.0),
     });
     out
+}
+
+/// summary.json's `baselines`.
+pub fn baseline_summaries(
+    problem: &Problem,
+    patches: &Patches,
+    baselines: &[Baseline],
+    risk_before: f64,
+    plan_risk: f64,
+) -> serde_json::Map<String, serde_json::Value> {
+    let mut map = serde_json::Map::new();
+    for b in baselines {
+        let value = match &b.assignment {
+            None => serde_json::json!({ "feasible": false }),
+            Some(a) => {
+                let n_treated = a.iter().filter(|x| x.is_some()).count();
+                let stems: f64 = a
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, x)| x.is_some())
+                    .map(|(i, _)| patches.items[i].stems)
+                    .sum();
+                serde_json::json!({
+                    "feasible": true,
+                    "risk_after": b.risk_after,
+                    "reduction_pct": if risk_before > 0.0 { 100.0 * (1.0 - b.risk_after / risk_before) } else { 0.0 },
+                    "spent": problem.cost(a),
+                    "crew_hours": problem.hours(a),
+                    "n_treated": n_treated,
+                    "stems_treated": stems,
+                    "risk_ratio_to_plan": if plan_risk > 0.0 { b.risk_after / plan_risk } else { f64::NAN },
+                })
+            }
+        };
+        map.insert(b.name.to_string(), value);
+    }
+    map
+}
+
+/// "this plan leaves N× less risk than treating the biggest stands first", against the best
+/// of the rule-of-thumb baselines a person would otherwise follow, or a plain statement that a
+/// baseline is as good.
+pub fn comparison_line(baselines: &[Baseline], plan_risk: f64) -> Option<String> {
+    let biggest = baselines.iter().find(|b| b.name == "biggest_first")?;
+    let mut lines = Vec::new();
+    for b in baselines.iter().filter(|b| b.assignment.is_some()) {
+        let ratio = if plan_risk > 0.0 {
+            b.risk_after / plan_risk
+        } else {
+            f64::INFINITY
+        };
+        if ratio <= 1.0005 {
+            lines.push(format!(
+                "  {} does as well as this plan here (same remaining risk within 0.05%)",
+                b.phrase
+            ));
+        } else {
+            // Small differences read better as a percentage than as "1.00×".
+            let amount = if ratio < 1.1 {
+                format!("{:.1}% less risk", 100.0 * (1.0 - 1.0 / ratio))
+            } else {
+                format!("{ratio:.2}× less risk")
+            };
+            if b.name == biggest.name {
+                lines.insert(0, format!("this plan leaves {amount} than {}", b.phrase));
+            } else {
+                lines.push(format!("  and {amount} than {}", b.phrase));
+            }
+        }
+    }
+    if biggest.assignment.is_none() {
+        lines.insert(
+            0,
+            "the biggest-first rule cannot fit the required patches".to_string(),
+        );
+    }
+    Some(lines.join("\n"))
 }

@@ -2,7 +2,10 @@
 //! plan, the baselines, budget curves and multi-season programs.
 
 pub mod baselines;
+pub mod calibrate;
 pub mod curve;
+pub mod ensemble;
 pub mod plan;
 pub mod prepare;
 pub mod program;
+pub mod simulate;

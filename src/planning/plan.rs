@@ -6,12 +6,16 @@
 //! treatment, per 1,000 currency units, at the row's place in the priority order.
 
 use crate::core::deadline::Deadline;
+use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::core::scenario::ModelSection;
+use crate::core::scenario::SolverSection;
 use crate::core::site::PatchId;
 use crate::input::patches::Patches;
 use crate::input::treatments::{self, Catalogue, Choice, MethodId};
 use crate::model::risk::RiskModel;
-use crate::solve::problem::{Problem, Solved, Status};
+use crate::solve::optimise;
+use crate::solve::problem::{BoundSource, Limits, Problem, Solved, SolverPath, Status};
 
 /// One treated patch.
 #[derive(Debug, Clone)]
@@ -49,8 +53,8 @@ pub struct Plan {
     pub gap: f64,
     pub solve_seconds: f64,
     /// How the plan was searched for and which proof gave the bound ([`Solved`]'s).
-    pub solver_path: &'static str,
-    pub bound_from: &'static str,
+    pub solver_path: SolverPath,
+    pub bound_from: BoundSource,
 }
 
 impl Plan {
@@ -186,4 +190,117 @@ pub fn assemble(
         solver_path: solved.path,
         bound_from: solved.bound_from,
     }
+}
+
+/// Seconds the metrics and the outputs take per patch after the search, measured on a 88,583-
+/// patch raster plan (8.2 s writing plan.csv, patches.csv and plan.geojson with outlines,
+/// 0.1 s of metrics; docs/benchmarks.md), rounded up.
+pub const OUTPUT_S_PER_PATCH: f64 = 1e-4;
+
+/// The command's deadline (`command`) keeping time after the searches for `folders` plan folders of
+/// `patches` patches; says so on stderr when reading the layers and writing the outputs leave
+/// no time to search.
+pub fn keep_for_outputs(
+    command: Deadline,
+    time_limit_s: f64,
+    patches: usize,
+    folders: usize,
+    printer: Printer,
+) -> Deadline {
+    let outputs_s = OUTPUT_S_PER_PATCH * (patches * folders) as f64;
+    let deadline = command.keeping(outputs_s);
+    if deadline.passed() {
+        printer.note(format_args!(
+            "warning: reading the layers took {:.1} s and writing the outputs of {patches} patches needs about {outputs_s:.1} s more: `--time-limit-s {time_limit_s}` leaves no time to search, so the plan is the best start (greedy or relaxation rounding)",
+            deadline.elapsed_s(),
+        ));
+    }
+    deadline
+}
+
+/// Why the required patches cannot all be treated: their cheapest methods against the limits.
+pub fn infeasible_requirements(problem: &Problem, patches: &Patches, budget: f64) -> Error {
+    let required: Vec<usize> = (0..problem.len())
+        .filter(|&i| problem.required[i])
+        .collect();
+    let cheapest = |i: usize, f: &dyn Fn(&crate::input::treatments::Choice) -> f64| {
+        problem.choices[i]
+            .iter()
+            .map(f)
+            .fold(f64::INFINITY, f64::min)
+    };
+    let cost: f64 = required.iter().map(|&i| cheapest(i, &|c| c.cost)).sum();
+    let hours: f64 = required.iter().map(|&i| cheapest(i, &|c| c.hours)).sum();
+    let ids: Vec<&str> = required
+        .iter()
+        .map(|&i| patches.items[i].label.as_str())
+        .collect();
+    let what = match problem.crew_hours {
+        Some(h) if hours > h => {
+            format!("need at least {hours:.1} crew hours, more than the {h} available")
+        }
+        _ if cost > budget => format!(
+            "cost at least {cost:.2} with their cheapest methods, more than the budget of {budget:.2}"
+        ),
+        _ => "cannot all be treated within the budget and crew hours together".to_string(),
+    };
+    Error::input_with_hint(
+        format!(
+            "no plan fits: the required patches ({}) {what}",
+            ids.join(", ")
+        ),
+        "raise `--budget` / `--crew-hours`, or require fewer patches",
+    )
+}
+
+/// The plan's search (or `chosen`, the ensemble's plan), a spinner meanwhile; an infeasible
+/// result is the input error naming the required patches, and a search stopped by the time
+/// limit or out of moves says so on stderr.
+pub fn search(
+    problem: &Problem,
+    chosen: Option<&Solved>,
+    limits: Limits,
+    solver: &SolverSection,
+    patches: &Patches,
+    printer: Printer,
+) -> Result<Solved> {
+    let deadline = limits.deadline;
+    let solved = match chosen {
+        Some(chosen) => chosen.clone(),
+        None => {
+            printer.progress("optimising");
+            let _spinner = printer.spinner(&format!(
+                "optimising {} patches (time limit {} s for the whole command, {:.1} s left; gap {})",
+                problem.len(),
+                solver.time_limit_s,
+                deadline.remaining_s(),
+                solver.gap
+            ));
+            optimise::solve(problem, limits)?
+        }
+    };
+    if solved.status == Status::Infeasible {
+        return Err(infeasible_requirements(problem, patches, problem.budget));
+    }
+    match solved.status {
+        Status::TimeLimit => printer.note(format_args!(
+            "warning: the optimiser stopped at the time limit (`--time-limit-s {}` for the whole command, {:.1} s used{}); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            solver.time_limit_s,
+            deadline.elapsed_s(),
+            if solved.path == SolverPath::NotStarted {
+                "; what was left was too little to start the exact search on a model this size"
+            } else {
+                ""
+            },
+            100.0 * solved.gap
+        )),
+        Status::NoImprovingMove => printer.note(format_args!(
+            "warning: the local search found no improving move left after {:.1} s (of the {} s limit); the plan is the best found; proven gap on the remaining risk {:.3}%",
+            solved.seconds,
+            solver.time_limit_s,
+            100.0 * solved.gap
+        )),
+        _ => {}
+    }
+    Ok(solved)
 }

@@ -4,6 +4,7 @@
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::memory::{Budget, RasterCost};
+use crate::core::printer;
 use crate::core::scenario::Scenario;
 use crate::input::layers;
 use crate::input::patches::{self, Patches};
@@ -60,10 +61,10 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     ));
     // Skips and defaulted rules are said even under `--quiet`: they change what was planned.
     for line in patches.skipped.lines() {
-        eprintln!("note: {line}");
+        printer::note(format_args!("note: {line}"));
     }
     for note in &patches.notes {
-        eprintln!("note: {note}");
+        printer::note(format_args!("note: {note}"));
     }
     if !patches.water_checked && !patches.items.is_empty() {
         progress("no water layer given: sites are not checked for nearby water (WATER_UNCHECKED)");
@@ -149,9 +150,9 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
                 excluded[i] = true;
             }
         }
-        eprintln!(
+        printer::note(format_args!(
             "note: {without_host} patches have no host the insect can establish on (suitability 0 or 0 stems): kept in patches.csv with risk 0, not planned for treatment unless required"
-        );
+        ));
     }
     let model = RiskModel::new(&host, &pressure.values, &graph);
     progress(&format!(

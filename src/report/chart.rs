@@ -118,19 +118,7 @@ fn tick_step(range: f64, target: usize) -> f64 {
         }
 }
 
-/// Format a number with thousands separators.
-pub fn thousands(v: f64) -> String {
-    let rounded = v.round() as i64;
-    let digits = rounded.abs().to_string();
-    let mut out = String::new();
-    for (k, c) in digits.chars().enumerate() {
-        if k > 0 && (digits.len() - k).is_multiple_of(3) {
-            out.push(',');
-        }
-        out.push(c);
-    }
-    if rounded < 0 { format!("-{out}") } else { out }
-}
+pub use crate::report::format::thousands;
 
 /// A line chart: title, axis labels, series, vertical markers; y from 0 to `y_max`.
 pub fn line_chart(

@@ -1,5 +1,12 @@
 //! Stage 6, outputs: the output folder (staging, atomic swap) and its writers, charts and maps.
 
+pub mod calibrate;
 pub mod chart;
+pub mod curve;
+pub mod format;
 pub mod map;
+pub mod orders;
 pub mod output;
+pub mod program;
+pub mod simulate;
+pub mod staging;

@@ -16,7 +16,7 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::core::error::Result;
 use crate::solve::components::component_members;
-use crate::solve::highs::Built;
+use crate::solve::mip::highs::Built;
 use crate::solve::problem::{Assignment, Problem};
 
 /// Components with more plans than this are not enumerated (the problem is then solved whole).
@@ -251,7 +251,7 @@ fn pareto(mut all: Vec<Point>, hours_matter: bool) -> Vec<Point> {
 
 /// The merge MIP: y binary per frontier point, one point per component, the budget and hours
 /// rows, objective R (scaled). `x_columns` maps each patch's choice to the columns of the
-/// points that give it, so [`crate::solve::highs::run_highs`] reads the plan back as usual.
+/// points that give it, so [`crate::solve::mip::highs::run_highs`] reads the plan back as usual.
 pub(crate) fn build_merge(
     problem: &Problem,
     pieces: &[Piece],

@@ -1,9 +1,12 @@
-//! Stage 3, the optimiser: the problem and its answer, the heuristics and MIP formulations, the
-//! HiGHS runner, decomposition by components and the relaxation bounds.
+//! Stage 3, the optimiser: the problem and its answer (`problem`), the heuristics, the exact MIP
+//! formulations and their HiGHS runner (`mip`), decomposition by components, the relaxation
+//! bounds (`relax`), and the orchestrator that picks among them (`optimise`).
 
 pub mod components;
 pub mod decompose;
-pub mod highs;
+pub mod heuristics;
+pub mod instance;
+pub mod mip;
 pub mod optimise;
 pub mod problem;
 pub mod relax;

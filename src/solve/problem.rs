@@ -7,6 +7,7 @@
 //! Costs in catalogue currency, hours in crew hours, R in share-squared units.
 
 use crate::core::deadline::Deadline;
+use crate::core::scenario::Formulation;
 use crate::input::treatments::Choice;
 use crate::model::risk::RiskModel;
 
@@ -67,13 +68,101 @@ pub struct Solved {
     pub seconds: f64,
     /// The better of adaptive benefit/cost greedy and the best single item.
     pub greedy: Option<(Assignment, f64)>,
-    /// How the plan was searched for, e.g. `transport MIP`, `component merge MIP`,
-    /// `relaxation and local search` (see docs/model.md).
-    pub path: &'static str,
-    /// Which proof gave `bound`: `exact` (nothing to choose, or everything fits),
-    /// `floor` (treat-everything), `relaxation` (convex relaxation, src/relax.rs) or
-    /// `HiGHS dual bound`.
-    pub bound_from: &'static str,
+    /// How the plan was searched for (see docs/model.md).
+    pub path: SolverPath,
+    /// Which proof gave `bound`.
+    pub bound_from: BoundSource,
+}
+
+/// How a plan was searched for; [`SolverPath::as_str`] is the text in `summary.json` and the
+/// console (see docs/model.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SolverPath {
+    /// No patch can be treated, or there is no risk.
+    NothingToChoose,
+    /// Treating everything with its most effective method fits.
+    EverythingFits,
+    /// The greedy or rounded start was already within the gap of the bound.
+    GreedyAndRounding,
+    /// The model was too large for HiGHS: relaxation bound and local search alone.
+    RelaxationAndLocalSearch,
+    /// Components small enough to enumerate, merged exactly under the one budget.
+    ComponentMerge,
+    TransportMip,
+    CompactMip,
+    DirectMip,
+    /// The exact search had too little time left to start: the plan is the best start
+    /// (greedy, relaxation rounding or a neighbour's plan) and the bound is the one known
+    /// without it.
+    NotStarted,
+    /// No plan satisfies the required patches within the budget and hours.
+    Infeasible,
+    /// The ensemble's min-max MIP.
+    MinMaxMip,
+    /// The ensemble's best start was within the gap of the known floor.
+    StartWithinGap,
+}
+
+impl SolverPath {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            SolverPath::NothingToChoose => "nothing to choose",
+            SolverPath::EverythingFits => "everything fits",
+            SolverPath::GreedyAndRounding => "greedy and relaxation rounding",
+            SolverPath::RelaxationAndLocalSearch => "relaxation and local search",
+            SolverPath::ComponentMerge => "component merge MIP",
+            SolverPath::TransportMip => "transport MIP",
+            SolverPath::CompactMip => "compact MIP",
+            SolverPath::DirectMip => "direct MIP",
+            SolverPath::NotStarted => "best start; too little time left to start the MIP",
+            SolverPath::Infeasible => "infeasible",
+            SolverPath::MinMaxMip => "min-max MIP",
+            SolverPath::StartWithinGap => "start within the gap of the floor",
+        }
+    }
+}
+
+impl std::fmt::Display for SolverPath {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// Which proof gave a solve's bound; [`BoundSource::as_str`] is the text in `summary.json` and
+/// the console.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BoundSource {
+    /// Nothing to choose, or everything fits: the plan is the optimum.
+    Exact,
+    /// The risk of treating everything (a bound at any budget).
+    Floor,
+    /// The relaxation bound (`solve::relax`).
+    Relaxation,
+    /// HiGHS's dual bound on the MIP.
+    HighsDual,
+    /// An ensemble's min-max plan bounded by the scenarios' own proven bounds.
+    ScenarioBounds,
+    /// No bound: the problem is infeasible.
+    None,
+}
+
+impl BoundSource {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            BoundSource::Exact => "exact",
+            BoundSource::Floor => "floor",
+            BoundSource::Relaxation => "relaxation",
+            BoundSource::HighsDual => "HiGHS dual bound",
+            BoundSource::ScenarioBounds => "the scenarios' own bounds",
+            BoundSource::None => "none",
+        }
+    }
+}
+
+impl std::fmt::Display for BoundSource {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
 }
 
 const FEASIBILITY: f64 = 1e-9;
@@ -184,24 +273,13 @@ pub struct Limits {
     pub gap: f64,
     /// HiGHS threads (None: 2, whatever the machine, for reproducible plans).
     pub threads: Option<u32>,
+    /// Which exact MIP to build (`--formulation`, or the benchmark's choice).
     pub formulation: Formulation,
     /// Refuse to build a model estimated to need more than this many GB.
     pub max_memory_gb: f64,
     /// Use the relaxation bound, its rounded plan and local search beside HiGHS (off only for
     /// the benchmark's plain-HiGHS baseline).
     pub assist: bool,
-}
-
-/// Which exact linearisation of the link products to build (docs/model.md).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Formulation {
-    /// One z per pair of options at each link, with transportation marginals (default).
-    Transport,
-    /// One u per link and choice of one end, plus McCormick's envelope row.
-    Compact,
-    /// The textbook baseline: one binary per patch and method, one product variable per link
-    /// and pair of methods with Fortet's inequality y >= x + x' - 1 (for benchmarks).
-    Direct,
 }
 
 impl Limits {
@@ -211,21 +289,45 @@ impl Limits {
         Limits::until(Deadline::after(time_limit_s), gap)
     }
 
-    /// Limits ending at `deadline`, with the default formulation; `HOSTCUT_FORMULATION=compact`
-    /// picks the compact one (for developers comparing the two).
+    /// Limits ending at `deadline`, with the default (transportation) formulation.
     pub fn until(deadline: Deadline, gap: f64) -> Limits {
-        let formulation = match std::env::var("HOSTCUT_FORMULATION").as_deref() {
-            Ok("compact") => Formulation::Compact,
-            Ok("direct") => Formulation::Direct,
-            _ => Formulation::Transport,
-        };
         Limits {
             deadline,
             gap,
             threads: None,
-            formulation,
+            formulation: Formulation::Transport,
             max_memory_gb: f64::INFINITY,
             assist: true,
         }
+    }
+}
+
+/// Several risk models over the same patches (an ensemble of dispersal scenarios) and what to
+/// minimise over them: the largest of R_s - offset_s (offsets 0: the worst-case R; offsets =
+/// each scenario's least achievable R: the largest regret).
+#[derive(Debug, Clone)]
+pub struct MinMax<'a> {
+    pub models: Vec<&'a RiskModel>,
+    pub offsets: Vec<f64>,
+}
+
+impl MinMax<'_> {
+    /// max_s (R_s(a) - offset_s).
+    pub fn value(&self, problem: &Problem, a: &Assignment) -> f64 {
+        let r = problem.remaining(a);
+        self.models
+            .iter()
+            .zip(&self.offsets)
+            .map(|(m, o)| m.risk(&r) - o)
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
+    /// max_s R_s(a): the risk that remains in the worst scenario.
+    pub fn worst_risk(&self, problem: &Problem, a: &Assignment) -> f64 {
+        let r = problem.remaining(a);
+        self.models
+            .iter()
+            .map(|m| m.risk(&r))
+            .fold(f64::NEG_INFINITY, f64::max)
     }
 }

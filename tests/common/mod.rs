@@ -73,14 +73,6 @@ pub fn geotiff(
     band.write((0, 0), (width, height), &mut buffer).unwrap();
 }
 
-/// The data rows of CSV text, as strings.
-pub fn csv_rows_of(text: &str) -> Vec<Vec<String>> {
-    csv::Reader::from_reader(text.as_bytes())
-        .records()
-        .map(|r| r.unwrap().iter().map(String::from).collect())
-        .collect()
-}
-
 /// Headless Chromium, or `None` (the test then says so and passes) — except under CI, where
 /// .ci/run installs it and its absence is a failure.
 pub fn chromium() -> Option<PathBuf> {
@@ -119,4 +111,109 @@ pub fn chromium_run(chromium: &Path, scratch: &Path, args: &[String], page: &Pat
         .arg(format!("file://{}", page.display()))
         .output()
         .expect("run chromium")
+}
+
+pub use hostcut::solve::instance::{Instance, InstanceSpec};
+
+/// The tests' random instance spec, for `hostcut bench`'s generator
+/// (`hostcut::solve::instance`): `patches` patches in one cloud on a 1.5 km square (so most
+/// link), the kernel exponential on even seeds and Cauchy on odd ones with a scale of 100-600 m,
+/// three methods, a budget of 20-70 % of treating everything, crew hours on every other seed,
+/// and about one patch in eight required and one in eight excluded. Tests change fields to
+/// fit (e.g. `clusters`, `side_m` for far-apart components).
+pub fn small_spec(seed: u64, patches: usize) -> InstanceSpec {
+    use hostcut::core::kernel::{Kernel, KernelKind};
+    use hostcut::model::synthetic::Spec;
+    let mut r = hostcut::core::rng::SplitMix::new(seed.wrapping_mul(0x9e37_79b9) ^ 0x7e57);
+    let alpha_m = 100.0 + 500.0 * r.unit();
+    let budget_share = 0.2 + 0.5 * r.unit();
+    let hours = 0.3 + 0.5 * r.unit();
+    InstanceSpec {
+        landscape: Spec {
+            patches,
+            clusters: 1,
+            side_m: 1500.0,
+            spread_m: 400.0,
+            kernel: Kernel {
+                kind: if seed.is_multiple_of(2) {
+                    KernelKind::Exp
+                } else {
+                    KernelKind::Cauchy
+                },
+                alpha_m,
+            },
+            epsilon: 0.001,
+            seed,
+        },
+        methods: 3,
+        budget_share,
+        hours_share: (seed % 4 >= 2).then_some(hours),
+        required_share: 0.12,
+        excluded_share: 0.12,
+    }
+}
+
+/// Generate the instance of `spec` (the generator is the library's; a failure is a bug).
+pub fn random_instance(spec: &InstanceSpec) -> Instance {
+    Instance::generate(spec).expect("generate a random instance")
+}
+
+/// A CSV file read by column name: `Table::read(path)`, then `table.rows[k].get("column")`.
+pub struct Table {
+    pub columns: Vec<String>,
+    pub rows: Vec<Row>,
+}
+
+/// One data row of a [`Table`].
+#[derive(Debug, Clone)]
+pub struct Row {
+    columns: std::rc::Rc<Vec<String>>,
+    cells: Vec<String>,
+}
+
+impl Table {
+    pub fn read(path: &Path) -> Table {
+        let text = std::fs::read_to_string(path)
+            .unwrap_or_else(|e| panic!("read {}: {e}", path.display()));
+        Table::parse(&text)
+    }
+
+    pub fn parse(text: &str) -> Table {
+        let mut reader = csv::Reader::from_reader(text.as_bytes());
+        let columns: Vec<String> = reader.headers().unwrap().iter().map(String::from).collect();
+        let shared = std::rc::Rc::new(columns.clone());
+        let rows = reader
+            .records()
+            .map(|r| Row {
+                columns: shared.clone(),
+                cells: r.unwrap().iter().map(String::from).collect(),
+            })
+            .collect();
+        Table { columns, rows }
+    }
+
+    pub fn len(&self) -> usize {
+        self.rows.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.rows.is_empty()
+    }
+}
+
+impl Row {
+    /// The cell under `column`; panics naming the columns when there is none.
+    pub fn get(&self, column: &str) -> &str {
+        match self.columns.iter().position(|c| c == column) {
+            Some(k) => &self.cells[k],
+            None => panic!("no column `{column}` in {:?}", self.columns),
+        }
+    }
+
+    /// The cell under `column` as a number.
+    pub fn num(&self, column: &str) -> f64 {
+        let cell = self.get(column);
+        cell.parse()
+            .unwrap_or_else(|_| panic!("`{column}` = `{cell}` is not a number"))
+    }
 }

@@ -5,33 +5,65 @@
 //! # Units
 //! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
 
+pub mod analysis;
+pub mod point;
+
+pub use analysis::{first_reaching, kneedle};
+pub use point::Point;
+
 use crate::core::deadline::Deadline;
 use crate::core::error::{Error, Result};
+use crate::core::printer::Printer;
 use crate::planning::baselines;
+use crate::planning::curve::analysis::Analysis;
 use crate::planning::prepare::Prepared;
-use crate::solve::optimise::{greedy, solve_from};
+use crate::solve::heuristics::greedy;
+use crate::solve::optimise::solve_from;
 use crate::solve::problem::{Assignment, Limits, Status};
 
-/// One budget level.
+/// The budgets a curve is planned at.
 #[derive(Debug, Clone)]
-pub struct Point {
-    pub budget: f64,
-    pub assignment: Assignment,
-    pub risk_after: f64,
-    pub bound: f64,
-    pub gap: f64,
-    pub status: Status,
-    /// True when the solver's own plan was worse than a smaller budget's, which was used instead.
-    pub from_neighbour: bool,
-    pub spent: f64,
-    pub crew_hours: f64,
-    pub n_treated: usize,
-    pub stems_treated: f64,
-    pub area_ha_treated: f64,
-    pub greedy_risk_after: f64,
-    /// (baseline name, risk after) for biggest_first, nearest_first, corridor_first.
-    pub baselines: Vec<(&'static str, f64)>,
-    pub seconds: f64,
+pub enum Budgets {
+    /// `--budgets`: these levels.
+    Listed(Vec<f64>),
+    /// `--budget-range MIN:MAX:STEPS`, or (none given) 20 levels from 0 to the cost of treating
+    /// everything eligible.
+    Range(Option<(f64, f64, usize)>),
+}
+
+impl Budgets {
+    pub fn levels(&self, prepared: &Prepared) -> Vec<f64> {
+        match self {
+            Budgets::Listed(levels) => levels.clone(),
+            Budgets::Range(range) => {
+                let (min, max, steps) = range.unwrap_or((0.0, prepared.cost_of_everything(), 20));
+                budget_range(min, max, steps)
+            }
+        }
+    }
+}
+
+/// A solved curve and what it says.
+pub struct Curve {
+    pub points: Vec<Point>,
+    pub analysis: Analysis,
+}
+
+/// The exact plan at each of `budgets` ([`trace`]) and its analysis; one progress line, then a
+/// bar over the levels.
+pub fn plan_curve(
+    prepared: &Prepared,
+    budgets: &[f64],
+    crew_hours: Option<f64>,
+    limits: Limits,
+    depot: (f64, f64),
+    jobs: usize,
+    printer: Printer,
+) -> Result<Curve> {
+    printer.progress(&format!("solving {} budget levels", budgets.len()));
+    let points = trace(prepared, budgets, crew_hours, limits, depot, jobs, printer)?;
+    let analysis = Analysis::new(&points, prepared.model.risk_before());
+    Ok(Curve { points, analysis })
 }
 
 /// `steps` budgets evenly from `min` to `max` inclusive (one point when steps is 1).
@@ -89,6 +121,7 @@ pub fn trace(
     limits: Limits,
     depot: (f64, f64),
     jobs: usize,
+    printer: Printer,
 ) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
     budgets.sort_by(f64::total_cmp);
@@ -99,11 +132,7 @@ pub fn trace(
         ..limits
     };
     let budgets = &budgets;
-    let bar = crate::core::progress::Stage::bar(
-        "solving the budget curve",
-        budgets.len() as u64,
-        "budgets",
-    );
+    let bar = printer.bar("solving the budget curve", budgets.len() as u64, "budgets");
     let every: Vec<usize> = (0..budgets.len()).collect();
     let mut points = in_queue(&every, jobs, limits.deadline, |k, deadline| {
         let point = solve_point(
@@ -316,43 +345,6 @@ pub fn make_monotone(prepared: &Prepared, points: &mut [Point], crew_hours: Opti
             fill_totals(prepared, point, crew_hours);
         }
     }
-}
-
-/// Kneedle (Satopää, Albrecht, Irwin & Raghavan 2011), offline form for a concave increasing
-/// curve: normalise x and y to [0, 1] and take the point where y_n - x_n is largest (the
-/// earliest such point on ties). None for fewer than three points or a flat curve.
-pub fn kneedle(xs: &[f64], ys: &[f64]) -> Option<usize> {
-    if xs.len() < 3 || xs.len() != ys.len() {
-        return None;
-    }
-    let (x0, x1) = (
-        xs.iter().cloned().fold(f64::INFINITY, f64::min),
-        xs.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
-    );
-    let (y0, y1) = (
-        ys.iter().cloned().fold(f64::INFINITY, f64::min),
-        ys.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
-    );
-    if x1 <= x0 || y1 <= y0 {
-        return None;
-    }
-    let mut best: Option<(usize, f64)> = None;
-    for k in 0..xs.len() {
-        let d = (ys[k] - y0) / (y1 - y0) - (xs[k] - x0) / (x1 - x0);
-        if best.is_none_or(|(_, b)| d > b + 1e-12) {
-            best = Some((k, d));
-        }
-    }
-    best.filter(|(_, d)| *d > 0.0).map(|(k, _)| k)
-}
-
-/// The first point whose reduction reaches `fraction` of the largest reduction on the curve.
-pub fn first_reaching(reductions: &[f64], fraction: f64) -> Option<usize> {
-    let top = reductions.iter().cloned().fold(0.0, f64::max);
-    if top <= 0.0 {
-        return None;
-    }
-    reductions.iter().position(|r| *r >= fraction * top - 1e-12)
 }
 
 #[cfg(test)]

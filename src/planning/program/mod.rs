@@ -16,12 +16,16 @@
 //! # Exactness
 //! Each course fixes a patch's whole host profile h_t, so R_t is quadratic in the course
 //! indicators only through products of two patches' indicators. The transportation formulation
-//! of the single-season MIP (see `optimise.rs`) linearises these exactly: one binary per course
+//! of the single-season MIP (see `solve/mip/transport.rs`) linearises these exactly: one binary per course
 //! ("untreated" included) and one z per pair of courses of each linked pair, with marginals; the
 //! objective coefficient of z_kl is sum_t d^(t-1) w_ij h_it(k) h_jt(l). No approximation is made
 //! beyond the dynamics above; courses dominated by another course of the same patch (no more
 //! cost or hours in any season, no more host in any season) are dropped without changing the
 //! optimum.
+
+mod run;
+
+pub use run::{ProgramRun, plan_program};
 
 use good_lp::solvers::highs::highs;
 use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
@@ -30,7 +34,7 @@ use crate::core::error::{Error, Result};
 use crate::input::patches::Patch;
 use crate::input::treatments::{Catalogue, Choice};
 use crate::model::risk::RiskModel;
-use crate::solve::highs::{Built, run_highs};
+use crate::solve::mip::highs::{Built, run_highs};
 use crate::solve::problem::{Assignment, Limits, OPTIMAL_GAP, Status};
 
 /// What a course does in one season.
@@ -432,7 +436,7 @@ pub fn solve(
     // A model HiGHS could not start on before the deadline is not built: the start stands, with
     // the floor as its bound.
     if let Some(w) = &warm
-        && crate::solve::highs::highs_cannot_finish(columns(p), &limits)
+        && crate::solve::mip::highs::highs_cannot_finish(columns(p), &limits)
     {
         let v = p.objective(w);
         let bound = floor.min(v).max(0.0);

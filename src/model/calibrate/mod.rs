@@ -17,8 +17,13 @@
 //!   With every patch surveyed every year it *is* the exact likelihood; with gaps it is an
 //!   approximation whose bias the tests measure against the exact one.
 //!
+//! The survey records themselves (reading, reprojection, assignment to patches) are in
+//! [`surveys`].
+//!
 //! Surveys are taken as perfect (a negative means empty): detection error is not modelled.
 //! Unobserved patches in the first year start at the share of positives among those surveyed.
+
+pub mod surveys;
 
 use argmin::core::{CostFunction, Executor};
 use argmin::solver::neldermead::NelderMead;

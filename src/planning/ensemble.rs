@@ -13,8 +13,11 @@ use crate::model::ensemble;
 use crate::model::graph::LinkFinder;
 use crate::model::risk::RiskModel;
 use crate::planning::prepare::Prepared;
-use crate::solve::optimise::{self, MinMax};
-use crate::solve::problem::{Assignment, Limits, Problem, Solved, Status};
+use crate::solve::mip::minmax::solve_minmax;
+use crate::solve::optimise;
+use crate::solve::problem::{
+    Assignment, BoundSource, Limits, MinMax, Problem, Solved, SolverPath, Status,
+};
 
 /// What the plan command needs back.
 pub struct EnsembleRun {
@@ -176,7 +179,7 @@ pub fn solve(
                 .zip(&mm.offsets)
                 .map(|(o, off)| o.bound - off)
                 .fold(f64::NEG_INFINITY, f64::max);
-            let r = optimise::solve_minmax(&base, &mm, next_limits(), &starts, floor)?;
+            let r = solve_minmax(&base, &mm, next_limits(), &starts, floor)?;
             let objective = match robust {
                 Robust::Worst => "worst-case R over the scenarios".to_string(),
                 _ => {
@@ -195,9 +198,11 @@ pub fn solve(
                     greedy: greedy.clone(),
                     path: r.path,
                     bound_from: match r.path {
-                        "min-max MIP" => "HiGHS dual bound",
-                        "everything fits" | "nothing to choose" => "exact",
-                        _ => "the scenarios' own bounds",
+                        SolverPath::MinMaxMip => BoundSource::HighsDual,
+                        SolverPath::EverythingFits | SolverPath::NothingToChoose => {
+                            BoundSource::Exact
+                        }
+                        _ => BoundSource::ScenarioBounds,
                     },
                 },
                 objective,

@@ -1,6 +1,6 @@
 //! The HiGHS runner: solve a built model with the run's limits, a fixed seed and thread count,
 //! and read the assignment and the dual bound back. The formulations that build the model are
-//! in `optimise`.
+//! in the sibling files of `mip`.
 
 use std::time::Instant;
 

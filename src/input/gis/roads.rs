@@ -32,7 +32,7 @@ use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform};
 use gdal::vector::{LayerAccess, OGRwkbGeometryType, geometry_type_flatten};
 
 use crate::core::error::{Error, Result};
-use crate::input::gis::Crs;
+use super::{Crs, gdal_error};
 
 /// Which attributes of the road layer hold what, and which layer to read.
 #[derive(Debug, Clone, PartialEq)]
@@ -143,7 +143,7 @@ fn open(path: &Path) -> Result<Dataset> {
             "check the path given with `--roads`",
         ));
     }
-    Dataset::open(path).map_err(|e| Error::gdal("open", path, e))
+    Dataset::open(path).map_err(|e| gdal_error("open", path, e))
 }
 
 /// The layer's own name for `wanted`: the same name, in any case, or a Shapefile's 10-character
@@ -257,10 +257,10 @@ fn pick_layer<'a>(
         ))),
         (1, _) => dataset
             .layer(0)
-            .map_err(|e| Error::gdal("read the first layer of", path, e)),
+            .map_err(|e| gdal_error("read the first layer of", path, e)),
         (_, [only]) => dataset
             .layer(*only)
-            .map_err(|e| Error::gdal("read a layer of", path, e)),
+            .map_err(|e| gdal_error("read a layer of", path, e)),
         _ => Err(Error::input_with_hint(
             format!(
                 "road layer `{}` has {} layers ({}); which one holds the roads?",
@@ -289,7 +289,7 @@ pub fn read_roads(path: &Path, target: &Crs, fields: &RoadFields) -> Result<Road
                     None,
                     gdal::vector::sql::Dialect::DEFAULT,
                 )
-                .map_err(|e| Error::gdal("select the road layer of", path, e))?;
+                .map_err(|e| gdal_error("select the road layer of", path, e))?;
         }
     }
     let mut layer = pick_layer(&dataset, path, fields.layer.as_deref(), osm)?;
@@ -311,7 +311,7 @@ pub fn read_roads(path: &Path, target: &Crs, fields: &RoadFields) -> Result<Road
             .unwrap_or_else(|| "an unnamed CRS".to_string()),
     };
     let transform = CoordTransform::new(&source_srs, &target.srs()?)
-        .map_err(|e| Error::gdal("set up a reprojection for", path, e))?;
+        .map_err(|e| gdal_error("set up a reprojection for", path, e))?;
 
     let names: Vec<String> = layer.defn().fields().map(|f| f.name()).collect();
     let other_tags = if osm {
@@ -354,7 +354,7 @@ pub fn read_roads(path: &Path, target: &Crs, fields: &RoadFields) -> Result<Road
         layer
             .defn()
             .field_index(name)
-            .map_err(|e| Error::gdal("read the fields of", path, e))
+            .map_err(|e| gdal_error("read the fields of", path, e))
     };
     let column_index = |source: &FieldSource| -> Result<Option<usize>> {
         match source {

@@ -1,0 +1,67 @@
+//! `hostcut curve`: the planning flags without `--budget`, the budget levels, `--jobs` and
+//! `--currency`.
+
+use super::Settings;
+use crate::app::cli::CurveArgs;
+use crate::core::error::{Error, Result};
+use crate::planning::curve::{self, Budgets};
+
+/// Settings of one `curve` run.
+#[derive(Debug, Clone)]
+pub struct CurveSettings {
+    pub settings: Settings,
+    pub budgets: Budgets,
+    pub jobs: usize,
+    /// `--currency`: the code shown on amounts instead of the catalogue's.
+    pub currency: Option<String>,
+}
+
+pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
+    if args.inputs.budget.is_some() {
+        return Err(Error::input_with_hint(
+            "`hostcut curve` plans at many budgets, not one `--budget`",
+            "use `--budgets 5000,10000,20000` or `--budget-range 0:60000:20`",
+        ));
+    }
+    let plan_folder = args
+        .plan_dir
+        .as_deref()
+        .map(super::plan_folder_scenario)
+        .transpose()?;
+    for b in &args.budgets {
+        if !(b.is_finite() && *b >= 0.0) {
+            return Err(Error::input_with_hint(
+                format!("`--budgets`: {b} is not a budget of 0 or more"),
+                "e.g. `--budgets 5000,10000,20000`",
+            ));
+        }
+    }
+    if args.jobs == 0 {
+        return Err(Error::input("`--jobs` must be at least 1"));
+    }
+    let range = args
+        .budget_range
+        .as_deref()
+        .map(curve::parse_range)
+        .transpose()?;
+    let mut inputs = args.inputs.clone();
+    if plan_folder.is_some() {
+        inputs.scenario = plan_folder;
+    }
+    let settings = super::planning(inputs, None, false)?;
+    super::refuse_ensemble(
+        &settings,
+        "`hostcut curve` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
+        "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
+    )?;
+    Ok(CurveSettings {
+        settings,
+        budgets: if args.budgets.is_empty() {
+            Budgets::Range(range)
+        } else {
+            Budgets::Listed(args.budgets.clone())
+        },
+        jobs: args.jobs,
+        currency: args.currency.clone(),
+    })
+}

@@ -1,0 +1,71 @@
+//! Raw arguments → resolved settings, one resolve step per subcommand.
+//!
+//! The clap structs of [`crate::app::cli`] stay plain data. Each subcommand's `resolve` checks
+//! its own flags, then (for the subcommands that plan) runs the shared preamble once: `--plan
+//! DIR` stands for that folder's scenario.resolved.toml, the flags are laid over the scenario
+//! file over defaults ([`scenario`]), every number is validated ([`validate`]), and a
+//! single-kernel command refuses an ensemble. What comes out is typed settings the command hands
+//! to the library; nothing here reads a layer or solves anything.
+//!
+//! # Units
+//! Distances in metres, areas in hectares, densities in stems per hectare, money in the currency
+//! of the treatment catalogue, time in hours (crew) or seconds (solver).
+
+pub mod calibrate;
+pub mod contract;
+pub mod curve;
+pub mod plan;
+pub mod program;
+pub mod scenario;
+pub mod simulate;
+pub mod validate;
+
+use std::path::{Path, PathBuf};
+
+use crate::app::cli::PlanArgs;
+use crate::core::deadline::Deadline;
+use crate::core::error::{Error, Result};
+use crate::core::scenario::Scenario;
+
+pub use scenario::{plan_folder_scenario, resolve, resolve_with};
+pub use validate::validate;
+
+/// The resolved scenario of one planning run plus its run-only switches.
+#[derive(Debug, Clone)]
+pub struct Settings {
+    pub scenario: Scenario,
+    pub out: PathBuf,
+    pub force: bool,
+    /// When the command started (before any layer is read): `--time-limit-s` counts from here.
+    pub started: std::time::Instant,
+}
+
+impl Settings {
+    /// The deadline of every search of this command: `--time-limit-s` from the command's start,
+    /// less the reserve for writing outputs ([`crate::core::deadline::OUTPUT_RESERVE`]).
+    pub fn deadline(&self) -> Deadline {
+        Deadline::for_command(self.started, self.scenario.solver.time_limit_s)
+    }
+}
+
+/// The shared preamble of the subcommands that plan: `plan_dir` (`--plan DIR`) stands for that
+/// folder's scenario.resolved.toml under the flags, which are laid over it and validated;
+/// `need_budget` false for commands that choose their own budgets.
+pub fn planning(
+    mut inputs: PlanArgs,
+    plan_dir: Option<&Path>,
+    need_budget: bool,
+) -> Result<Settings> {
+    if let Some(dir) = plan_dir {
+        inputs.scenario = Some(plan_folder_scenario(dir)?);
+    }
+    resolve_with(&inputs, need_budget)
+}
+
+/// Refuse an ensemble for a command that works on one dispersal kernel.
+pub fn refuse_ensemble(settings: &Settings, message: &str, hint: &str) -> Result<()> {
+    if settings.scenario.ensemble.is_some() {
+        return Err(Error::input_with_hint(message, hint));
+    }
+    Ok(())
+}

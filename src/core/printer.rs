@@ -1,0 +1,149 @@
+//! One printer for every command: quiet, normal, or normal with progress bars on a terminal.
+//!
+//! stdout carries the results: a command gathers them in a [`Text`] (lines that `--quiet` keeps
+//! and details it drops) and the binary prints it at the end. stderr carries progress lines
+//! ([`Printer::progress`], silenced by `--quiet`), notes and warnings ([`Printer::note`], said
+//! even under `--quiet` because they change what was planned) and bars ([`Printer::bar`],
+//! drawn only on a terminal).
+
+use std::fmt::{Display, Write as _};
+use std::io::IsTerminal;
+
+use crate::core::progress::{self, Stage};
+
+/// How a command talks to the person running it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Printer {
+    /// `--quiet`: results and warnings only.
+    Quiet,
+    /// Progress lines on stderr, no bars (stderr is a pipe, a file or a CI log, or
+    /// `HOSTCUT_NO_PROGRESS` is set).
+    Normal,
+    /// Progress lines and bars: stderr is a terminal.
+    Progress,
+}
+
+impl Printer {
+    /// The printer for a command run with or without `--quiet`; bars when stderr is a terminal
+    /// and `HOSTCUT_NO_PROGRESS` is unset.
+    pub fn new(quiet: bool) -> Printer {
+        if quiet {
+            Printer::Quiet
+        } else if std::io::stderr().is_terminal()
+            && std::env::var_os("HOSTCUT_NO_PROGRESS").is_none()
+        {
+            Printer::Progress
+        } else {
+            Printer::Normal
+        }
+    }
+
+    /// Make this printer's choice of bars the one for stages that are not handed a printer
+    /// (the raster labeller in `input::patches`). Called once, by [`crate::run`].
+    pub fn install(self) {
+        progress::set_bars(self == Printer::Progress);
+    }
+
+    pub fn is_quiet(self) -> bool {
+        self == Printer::Quiet
+    }
+
+    /// A progress line on stderr, unless `--quiet`.
+    pub fn progress(self, message: &str) {
+        if !self.is_quiet() {
+            eprintln!("{message}");
+        }
+    }
+
+    /// A note or warning on stderr, said even under `--quiet` (the text carries its own
+    /// `note:` / `warning:`).
+    pub fn note(self, message: impl Display) {
+        note(message);
+    }
+
+    /// A bar over `len` steps of `unit`, drawn only on a terminal.
+    pub fn bar(self, what: &str, len: u64, unit: &str) -> Stage {
+        Stage::bar_if(self == Printer::Progress, what, len, unit)
+    }
+
+    /// A spinner with the time spent, drawn only on a terminal.
+    pub fn spinner(self, what: &str) -> Stage {
+        Stage::spinner_if(self == Printer::Progress, what)
+    }
+
+    /// The progress lines as a callback, for library stages that take one.
+    pub fn progress_fn(self) -> impl Fn(&str) {
+        move |message: &str| self.progress(message)
+    }
+
+    /// An empty stdout text for this printer.
+    pub fn text(self) -> Text {
+        Text {
+            text: String::new(),
+            quiet: self.is_quiet(),
+        }
+    }
+}
+
+/// A note or warning on stderr, for the stages handed a progress callback rather than a
+/// printer: notes are said under every printer, `--quiet` included.
+pub fn note(message: impl Display) {
+    eprintln!("{message}");
+}
+
+/// A command's stdout, gathered line by line.
+#[derive(Debug, Clone)]
+pub struct Text {
+    text: String,
+    quiet: bool,
+}
+
+impl Text {
+    /// A line printed always.
+    pub fn line(&mut self, line: impl Display) {
+        let _ = writeln!(self.text, "{line}");
+    }
+
+    /// A line dropped under `--quiet` (headers, output folders).
+    pub fn detail(&mut self, line: impl Display) {
+        if !self.quiet {
+            self.line(line);
+        }
+    }
+
+    /// Text as it is (already ending in a newline where it should).
+    pub fn push_str(&mut self, text: &str) {
+        self.text.push_str(text);
+    }
+
+    pub fn push(&mut self, c: char) {
+        self.text.push(c);
+    }
+
+    pub fn into_string(self) -> String {
+        self.text
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn quiet_text_keeps_lines_and_drops_details() {
+        let mut t = Printer::Quiet.text();
+        t.detail("header");
+        t.line(format_args!("result {}", 1));
+        assert_eq!(t.into_string(), "result 1\n");
+        let mut t = Printer::Normal.text();
+        t.detail("header");
+        t.line("result");
+        assert_eq!(t.into_string(), "header\nresult\n");
+    }
+
+    #[test]
+    fn bars_are_not_drawn_off_a_terminal() {
+        assert!(!Printer::Quiet.bar("labelling", 10, "rows").is_drawn());
+        assert!(!Printer::Normal.spinner("optimising").is_drawn());
+    }
+}

@@ -1,0 +1,252 @@
+//! A plan checked against the stochastic spread simulation: the plan, no action, the greedy
+//! rule, densest-first and random feasible plans run through the patch-occupancy model
+//! ([`crate::model::simulate`]) with common random numbers, and what the runs say.
+//!
+//! # Units
+//! Occupied host as a share of all host (0–1) in the traces, in percent in the summary.
+
+use serde::Serialize;
+
+use crate::core::error::{Error, Result};
+use crate::core::kernel::Kernel;
+use crate::core::printer::Printer;
+use crate::model::graph;
+use crate::model::simulate::{self, Landscape, Params, Trace, Treatment};
+use crate::planning::baselines;
+use crate::planning::prepare::Prepared;
+use crate::solve::optimise;
+use crate::solve::problem::{Assignment, Limits, Problem};
+
+/// The strategies simulated, in order: id and label.
+pub const STRATEGIES: [(&str, &str); 5] = [
+    ("none", "no treatment"),
+    ("plan", "the plan"),
+    ("greedy", "greedy benefit-per-cost"),
+    ("density", "densest stands first"),
+    ("random", "random feasible plans (mean)"),
+];
+
+/// How long and how often to simulate.
+#[derive(Debug, Clone, Copy)]
+pub struct Runs {
+    pub years: u32,
+    pub runs: u32,
+    pub seed: u64,
+    /// Worker threads.
+    pub jobs: usize,
+}
+
+#[derive(Serialize)]
+pub struct Difference {
+    pub mean: f64,
+    pub ci95_low: f64,
+    pub ci95_high: f64,
+}
+
+#[derive(Serialize)]
+pub struct StrategyJson {
+    pub name: &'static str,
+    pub patches_treated: Option<usize>,
+    pub cost: Option<f64>,
+    pub risk_after: Option<f64>,
+    pub final_occupied_host_pct_mean: f64,
+    pub mean_occupied_host_pct_over_years: f64,
+}
+
+/// sim.json.
+#[derive(Serialize)]
+pub struct SimJson {
+    pub years: u32,
+    pub runs: u32,
+    pub seed: u64,
+    pub params: Params,
+    pub budget: f64,
+    pub initially_occupied_patches: usize,
+    pub strategies: Vec<StrategyJson>,
+    /// none minus plan, percentage points of all host, final year (paired over runs).
+    pub plan_advantage_final_pct: Difference,
+    /// none minus plan, mean over years 1..=years of occupied host, percentage points.
+    pub plan_advantage_mean_pct: Difference,
+    /// The untreated landscape's mean-field equilibrium occupied host (% of host), for
+    /// comparison with the simulated long run.
+    pub equilibrium_occupied_host_pct: f64,
+    pub lambda_m_before: f64,
+}
+
+/// The runs of every strategy ([`STRATEGIES`], same order) and their summary.
+pub struct Simulation {
+    pub traces: Vec<Trace>,
+    pub summary: SimJson,
+}
+
+/// The plan to simulate when no plan folder is given: solved at the problem's budget.
+pub fn solve_plan(problem: &Problem, limits: Limits, printer: Printer) -> Result<Assignment> {
+    printer.progress("solving the plan");
+    let solved = optimise::solve(problem, limits)?;
+    if solved.status == crate::solve::problem::Status::Infeasible {
+        return Err(Error::input(
+            "the required patches do not fit the budget and hours: there is no plan to simulate",
+        ));
+    }
+    Ok(solved.assignment)
+}
+
+/// Patches by stems per hectare (stems where the area is unknown), densest first.
+fn density_order(prepared: &Prepared) -> Vec<usize> {
+    let items = &prepared.patches.items;
+    let density = |i: usize| {
+        let p = &items[i];
+        match p.area_ha {
+            Some(a) if a > 0.0 => p.stems / a,
+            _ => p.stems,
+        }
+    };
+    let mut order: Vec<usize> = (0..items.len()).collect();
+    order.sort_by(|&a, &b| density(b).total_cmp(&density(a)).then(a.cmp(&b)));
+    order
+}
+
+/// A random feasible plan for run `run`: eligible patches in a random order (Fisher–Yates on
+/// the run's own stream), each treated with its most effective method while it fits.
+fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
+    let mut order: Vec<usize> = (0..problem.len()).collect();
+    let mut g = simulate::stream(seed, run, 0, 1);
+    for k in (1..order.len()).rev() {
+        let j = (g.unit() * (k + 1) as f64) as usize;
+        order.swap(k, j.min(k));
+    }
+    let a = baselines::fill_in_order(problem, &order).unwrap_or_else(|| vec![None; problem.len()]);
+    problem.remaining(&a)
+}
+
+pub fn pct(v: f64) -> f64 {
+    v * 100.0
+}
+
+/// Simulate `plan` and the other strategies on the prepared landscape.
+pub fn simulate_plan(
+    prepared: &Prepared,
+    problem: &Problem,
+    plan: &Assignment,
+    params: Params,
+    runs: Runs,
+    printer: Printer,
+) -> Result<Simulation> {
+    let budget = problem.budget;
+    let greedy = crate::solve::heuristics::greedy(problem).map(|g| g.0);
+    let density = baselines::fill_in_order(problem, &density_order(prepared));
+    let none: Assignment = vec![None; problem.len()];
+
+    let model = &prepared.model;
+    let long_links = match params.long_distance {
+        Some(ld) => {
+            let points: Vec<(f64, f64)> =
+                prepared.patches.items.iter().map(|p| (p.x, p.y)).collect();
+            let far = Kernel {
+                kind: prepared.kernel.kind,
+                alpha_m: prepared.kernel.alpha_m * ld.multiple,
+            };
+            graph::build_graph_within(
+                &points,
+                far,
+                prepared.epsilon,
+                &prepared.budget,
+                "the long-distance links of the simulation",
+                prepared.raster_cost(),
+                prepared.resolved.host.suitability.is_some(),
+            )?
+            .edges
+            .iter()
+            .map(|e| (e.a.index(), e.b.index(), e.kernel))
+            .collect()
+        }
+        None => Vec::new(),
+    };
+    let landscape = Landscape {
+        long_links,
+        ..prepared.landscape()
+    };
+    let seed = runs.seed;
+    let random = |run: u64| random_plan(problem, seed, run);
+    let fixed =
+        |a: &Option<Assignment>| Treatment::Fixed(problem.remaining(a.as_ref().unwrap_or(&none)));
+    let treatments = vec![
+        Treatment::Fixed(problem.remaining(&none)),
+        Treatment::Fixed(problem.remaining(plan)),
+        fixed(&greedy),
+        fixed(&density),
+        Treatment::PerRun(&random),
+    ];
+    printer.progress(&format!(
+        "simulating {} strategies x {} runs x {} years",
+        treatments.len(),
+        runs.runs,
+        runs.years
+    ));
+    let traces = simulate::simulate(
+        &landscape,
+        &params,
+        &treatments,
+        runs.years,
+        runs.runs,
+        seed,
+        runs.jobs,
+    );
+
+    let diff = |f: &dyn Fn(&Trace, usize) -> f64| -> Difference {
+        let d: Vec<f64> = (0..runs.runs as usize)
+            .map(|k| pct(f(&traces[0], k) - f(&traces[1], k)))
+            .collect();
+        let (mean, lo, hi) = simulate::mean_ci(&d);
+        Difference {
+            mean,
+            ci95_low: lo,
+            ci95_high: hi,
+        }
+    };
+    let years = runs.years as usize;
+    let final_of = |t: &Trace, k: usize| t.occupied_host[k][years];
+    let mean_of = |t: &Trace, k: usize| t.occupied_host[k][1..].iter().sum::<f64>() / years as f64;
+    let assignments: [Option<&Assignment>; 5] = [
+        Some(&none),
+        Some(plan),
+        greedy.as_ref(),
+        density.as_ref(),
+        None,
+    ];
+    let strategies = STRATEGIES
+        .iter()
+        .zip(&traces)
+        .zip(assignments)
+        .map(|(((name, _), t), a)| StrategyJson {
+            name,
+            patches_treated: a.map(|a| a.iter().filter(|o| o.is_some()).count()),
+            cost: a.map(|a| (problem.cost(a) * 100.0).round() / 100.0 + 0.0),
+            risk_after: a.map(|a| problem.risk(a)),
+            final_occupied_host_pct_mean: pct((0..runs.runs as usize)
+                .map(|k| final_of(t, k))
+                .sum::<f64>()
+                / runs.runs as f64),
+            mean_occupied_host_pct_over_years: pct((0..runs.runs as usize)
+                .map(|k| mean_of(t, k))
+                .sum::<f64>()
+                / runs.runs as f64),
+        })
+        .collect::<Vec<_>>();
+    let eq = simulate::equilibrium(&landscape, &params, &vec![1.0; model.len()]);
+    let equilibrium_host: f64 = eq.iter().zip(&model.share).map(|(p, a)| p * a).sum();
+    let summary = SimJson {
+        years: runs.years,
+        runs: runs.runs,
+        seed,
+        params,
+        budget,
+        initially_occupied_patches: landscape.initial.iter().filter(|o| **o).count(),
+        plan_advantage_final_pct: diff(&final_of),
+        plan_advantage_mean_pct: diff(&mean_of),
+        strategies,
+        equilibrium_occupied_host_pct: pct(equilibrium_host),
+        lambda_m_before: model.capacity(&vec![1.0; model.len()]).lambda,
+    };
+    Ok(Simulation { traces, summary })
+}

@@ -1,0 +1,97 @@
+//! One formatter for the numbers and money every output shows, so a budget reads the same in the
+//! terminal, the orders report, the curve and the contract.
+//!
+//! # House style
+//! - **Money is the ISO code, a space, then the amount with thousands separators**: `USD 12,345`.
+//!   No symbols: `$` alone does not say which dollar, and the catalogue's `currency` is a code.
+//! - **Whole units** ([`money`]) wherever money is an overview or a choice between plans: run
+//!   summaries on stdout (plan, program, orders), the orders report, the curve's justification
+//!   and chart.
+//! - **Cents** ([`money_cents`]) wherever money is billed: the contract's scope of work, its bid
+//!   total and the record of completed work, which must add up to the cent.
+//! - **Chart ticks** are plain numbers ([`thousands`]); the axis label names the currency.
+//! - **Never `-0`**: a value that rounds to zero is shown as zero, without a sign ([`fixed`]).
+//!
+//! # Units
+//! Money in the catalogue's currency (its `currency` code); cents are hundredths of it.
+
+/// A number rounded to a whole with thousands separators: `1234567.4` → `1,234,567`.
+pub fn thousands(v: f64) -> String {
+    let rounded = v.round() as i64;
+    let digits = rounded.unsigned_abs().to_string();
+    let mut out = String::new();
+    for (k, c) in digits.chars().enumerate() {
+        if k > 0 && (digits.len() - k).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    if rounded < 0 { format!("-{out}") } else { out }
+}
+
+/// `digits` decimals, never `-0.00` (an empty sum of f64 is -0.0, and tiny negatives round to
+/// it).
+pub fn fixed(v: f64, digits: usize) -> String {
+    let text = format!("{v:.digits$}");
+    match text.strip_prefix('-') {
+        Some(rest) if rest.chars().all(|c| c == '0' || c == '.') => rest.to_string(),
+        _ => text,
+    }
+}
+
+/// Money in whole units: `money("USD", 12345.6)` → `USD 12,346`.
+pub fn money(code: &str, amount: f64) -> String {
+    format!("{} {}", code.trim(), thousands(amount))
+}
+
+/// Money to the cent: `money_cents("USD", 1234567)` → `USD 12,345.67`.
+pub fn money_cents(code: &str, cents: i64) -> String {
+    let sign = if cents < 0 { "-" } else { "" };
+    let cents = cents.unsigned_abs();
+    format!(
+        "{} {sign}{}.{:02}",
+        code.trim(),
+        thousands((cents / 100) as f64),
+        cents % 100
+    )
+}
+
+/// A percentage with `digits` decimals and the sign: `percent(12.345, 1)` → `12.3%`.
+pub fn percent(v: f64, digits: usize) -> String {
+    format!("{}%", fixed(v, digits))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Expected strings are the house style above (common practice: ISO 4217 code before the
+    // amount, comma thousands separators as in en-US/en-CA).
+    #[test]
+    fn money_in_whole_units_and_cents() {
+        assert_eq!(money("USD", 12345.6), "USD 12,346");
+        assert_eq!(money("CAD", 1000.0), "CAD 1,000");
+        assert_eq!(money("EUR", 0.0), "EUR 0");
+        assert_eq!(money_cents("CAD", 100_000), "CAD 1,000.00");
+        assert_eq!(money_cents("USD", 1_234_567), "USD 12,345.67");
+        assert_eq!(money_cents("USD", -5), "USD -0.05");
+        assert_eq!(money_cents("USD", 0), "USD 0.00");
+    }
+
+    #[test]
+    fn no_negative_zero() {
+        assert_eq!(fixed(-0.0, 2), "0.00");
+        assert_eq!(fixed(-0.001, 2), "0.00");
+        assert_eq!(fixed(-0.01, 2), "-0.01");
+        assert_eq!(percent(-0.0, 1), "0.0%");
+        assert_eq!(thousands(-0.4), "0");
+        assert_eq!(money("USD", -0.2), "USD 0");
+    }
+
+    #[test]
+    fn thousands_separators() {
+        assert_eq!(thousands(1234567.4), "1,234,567");
+        assert_eq!(thousands(999.0), "999");
+        assert_eq!(thousands(-45000.0), "-45,000");
+    }
+}

@@ -1,0 +1,369 @@
+//! report.html: a self-contained printable report — overview, budget curve, schedule at a glance,
+//! cautions, and one page per crew-day.
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::fmt::Write as _;
+
+use crate::core::cautions;
+use crate::core::error::Result;
+use crate::field::contract;
+use crate::field::orders::{self, CrewDay};
+use crate::field::plan_folder::Summary;
+use crate::input::gis;
+use crate::input::treatments::MethodId;
+use crate::report::chart::escape;
+use crate::report::format::{money, thousands};
+
+use super::svg::{day_map, legend, overview_map};
+use super::{Orders, day_label};
+
+const CSS: &str = r#"
+@page { size: Letter; margin: 12mm; }
+* { box-sizing: border-box; }
+body { font-family: "DejaVu Sans", Arial, Helvetica, sans-serif; font-size: 10pt; color: #111; margin: 0; }
+.page { padding: 0; }
+.page + .page { break-before: page; page-break-before: always; }
+@media screen { .page { max-width: 8in; margin: 0 auto 24px auto; padding: 16px; border-bottom: 2px solid #ccc; } }
+h1 { font-size: 16pt; margin: 0 0 6px 0; }
+h2 { font-size: 13pt; margin: 0 0 6px 0; }
+h3 { font-size: 10.5pt; margin: 8px 0 4px 0; }
+p { margin: 3px 0; }
+table { border-collapse: collapse; width: 100%; font-size: 8.5pt; }
+th, td { border: 1px solid #999; padding: 2px 4px; text-align: left; vertical-align: top; }
+th { background: #eee; }
+td.n { text-align: right; white-space: nowrap; }
+.warn { border: 2px solid #000; padding: 4px 6px; margin: 6px 0; font-weight: bold; }
+.legend span.sw { display: inline-block; width: 12px; height: 12px; border: 1px solid #333; vertical-align: middle; margin: 0 4px 0 10px; }
+.small { font-size: 8pt; }
+.cautions p { margin: 2px 0; }
+svg { display: block; }
+.curve svg { max-width: 7.4in; height: auto; }
+.flag { font-weight: bold; font-size: 10.5pt; margin: 1px 0 3px 0; padding: 1px 4px; border: 2px solid #000; white-space: normal; }
+.flag.noherb { background: #000; color: #fff; }
+.siterules { border: 3px solid #000; padding: 4px 8px; margin: 6px 0; font-size: 10pt; }
+.siterules ul { margin: 2px 0 0 16px; padding: 0; }
+.sign { margin-top: 8px; }
+table.stops td { padding: 1px 3px; }
+table.stops td.nw { white-space: nowrap; }
+.day .cautions { columns: 2; column-gap: 14px; font-size: 7.5pt; }
+.day h3 { margin: 5px 0 2px 0; }
+.day ul { margin: 2px 0; padding-left: 16px; }
+"#;
+
+fn status_line(summary: &Summary) -> String {
+    match (summary.status.as_str(), summary.gap) {
+        ("optimal", _) => "proven optimal for this budget".into(),
+        ("gap_limit", Some(g)) => format!(
+            "the optimiser stopped at its requested gap: proven within {:.3}% of the least achievable risk",
+            g * 100.0
+        ),
+        ("time_limit", Some(g)) => format!(
+            "the optimiser hit its time limit: proven within {:.2}% of the least achievable risk",
+            g * 100.0
+        ),
+        ("no_improving_move", Some(g)) => format!(
+            "the optimiser's search found no improving move left: proven within {:.2}% of the least achievable risk",
+            g * 100.0
+        ),
+        (s, _) => format!("optimiser status {s}"),
+    }
+}
+
+/// The plan's risk reduction in percent; 0 when the folder does not say.
+fn reduction_pct(summary: &Summary) -> f64 {
+    if summary.risk_reduction_pct.is_finite() {
+        summary.risk_reduction_pct
+    } else {
+        0.0
+    }
+}
+
+/// Crew-days listed on the schedule page.
+const GLANCE: usize = 40;
+
+pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<String> {
+    let folder = ctx.folder;
+    let s = &ctx.schedule;
+    let o = &ctx.options;
+    let summary = &folder.summary;
+    let currency = folder.catalogue.currency.as_str();
+    let mut h = String::new();
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>Work orders: tree-of-heaven treatment</title><style>{CSS}</style></head><body>\n"
+    );
+
+    // Page 1: overview.
+    let stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
+    let cost: f64 = folder.planned.iter().map(|p| p.cost).sum();
+    let first = s.scheduled().filter_map(|d| d.date).min();
+    let last = s.last_date();
+    let _ = write!(
+        h,
+        "<section class=\"page\" id=\"overview\"><h1>Work orders: tree-of-heaven treatment</h1>"
+    );
+    let _ = write!(
+        h,
+        "<p>This season's plan treats <b>{} patches</b> ({} stems) for <b>{}</b> of a {} budget. It cuts the spotted lanternfly establishment risk index by <b>{:.1}%</b> ({}). The index ranks relative risk under the plan's assumptions; it is not a forecast.</p>",
+        folder.planned.len(),
+        thousands(stems),
+        money(currency, cost),
+        // A folder without a budget (older versions) shows the plan's cost as its budget.
+        money(
+            currency,
+            if summary.budget > 0.0 {
+                summary.budget
+            } else {
+                cost
+            }
+        ),
+        reduction_pct(summary),
+        escape(&status_line(summary)),
+    );
+    let _ = write!(
+        h,
+        "<p>The work is {} crew-day{} for {} crew{} working {} from {}{}: {:.1} hours of work and {:.1} hours of travel.{}</p>",
+        s.days.len(),
+        if s.days.len() == 1 { "" } else { "s" },
+        o.crews,
+        if o.crews == 1 { "" } else { "s" },
+        escape(&o.workdays.to_string()),
+        o.start,
+        match (first, last) {
+            (Some(a), Some(b)) => format!(" (first day {a}, last day {b})"),
+            _ => String::new(),
+        },
+        s.days.iter().map(|d| d.work_hours()).sum::<f64>() + 0.0,
+        s.days.iter().map(|d| d.travel_hours()).sum::<f64>() + 0.0,
+        if s.split_patches > 0 {
+            format!(
+                " {} large patch{} spread over several days.",
+                s.split_patches,
+                if s.split_patches == 1 {
+                    " is"
+                } else {
+                    "es are"
+                }
+            )
+        } else {
+            String::new()
+        }
+    );
+    for m in &s.missing {
+        let _ = write!(
+            h,
+            "<p class=\"warn\">Not enough crew time: {} crew-day{} of {} cannot be done inside its window ({}). Add crews or workdays, start earlier, or carry the work to next season. Those days are listed as unscheduled.</p>",
+            m.crew_days,
+            if m.crew_days == 1 { "" } else { "s" },
+            escape(&m.methods.join(" and ")),
+            escape(&contract::window(&m.months))
+        );
+    }
+    h.push_str(&overview_map(ctx));
+    h.push_str(&legend(ctx));
+    let _ = write!(
+        h,
+        "<p class=\"small\">Map in {} (metres; north arrow shows grid north). Travel times assume straight-line distance &times; {} at {} km/h between sites, an assumption rather than a road network; depot {}.</p>",
+        escape(&ctx.crs.name),
+        o.detour,
+        o.speed_kmh,
+        if s.depot_is_default {
+            "at the centroid of the treated patches".to_string()
+        } else {
+            format!("at {:.0}, {:.0}", s.depot.0, s.depot.1)
+        }
+    );
+    h.push_str("<p class=\"small\"><b>Before any herbicide work:</b> apply every product per its label; the label is the law. Read the cautions on the last page.</p></section>\n");
+
+    // Page 2 (optional): the budget curve.
+    if let Some(svg) = curve_svg {
+        let body = svg.find("<svg").map(|k| &svg[k..]).unwrap_or(svg);
+        let _ = writeln!(
+            h,
+            "<section class=\"page\" id=\"curve\"><h2>What each budget buys</h2><p>Risk reduction against season budget, each point an optimised plan (from <code>hostcut curve</code>). This plan spends {} and cuts risk by {:.1}%.</p><div class=\"curve\">{body}</div></section>",
+            money(currency, cost),
+            reduction_pct(summary)
+        );
+    }
+
+    // The schedule at a glance, one line per crew-day (the first GLANCE, so it stays one page).
+    let _ = write!(
+        h,
+        "<section class=\"page\" id=\"schedule\"><h2>Schedule at a glance</h2><table><tr><th>Crew-day</th><th>Patches</th><th>Stops</th><th>Work h</th><th>Travel h</th></tr>"
+    );
+    for d in s.days.iter().take(GLANCE) {
+        let mut ids: Vec<&str> = d.stops.iter().map(|s| s.patch_id.as_str()).collect();
+        ids.dedup();
+        let _ = write!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{:.1}</td><td class=\"n\">{:.1}</td></tr>",
+            escape(&day_label(d)),
+            escape(&ids.join(", ")),
+            d.stops.len(),
+            d.work_hours(),
+            d.travel_hours()
+        );
+    }
+    if s.days.len() > GLANCE {
+        let _ = write!(
+            h,
+            "<tr><td colspan=\"5\">... and {} more crew-days: see orders.csv and the pages that follow</td></tr>",
+            s.days.len() - GLANCE
+        );
+    }
+    h.push_str("</table></section>\n");
+
+    let _ = write!(
+        h,
+        "<section class=\"page\" id=\"cautions\"><h2>Cautions for every site</h2><div class=\"cautions\"><p>These orders say where treatment buys the most risk reduction and how long it should take. They are not a pesticide recommendation: apply any product per its label, and defer to local codes and licensed practice.</p>"
+    );
+    for c in cautions::ALL {
+        let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
+    }
+    h.push_str("<p>Felling: treated stems may be felled only 30 days or more after treatment (Penn State Extension; USDA Forest Service 2014). Follow-up: survivors and root suckers usually need treatment for two or three more seasons; the follow-up date on each order is the start of the method's window next season.</p></div></section>\n");
+
+    // One page per crew-day.
+    for d in &s.days {
+        day_page(ctx, d, &mut h);
+    }
+    h.push_str("</body></html>\n");
+    Ok(h)
+}
+
+/// The site's rules in large type above the method: a crew must not miss them.
+fn site_rule_flags(p: &crate::field::contract::PlannedPatch) -> String {
+    let mut flags = String::new();
+    if p.no_herbicide() {
+        flags.push_str("<div class=\"flag noherb\">NO HERBICIDE ON THIS SITE</div>");
+    }
+    if let Some(r) = p.restriction() {
+        let _ = write!(
+            flags,
+            "<div class=\"flag restricted\">RESTRICTED SITE: {}</div>",
+            escape(r.trim_start_matches("restricted site: "))
+        );
+    }
+    if let Some(w) = p.near_water() {
+        let _ = write!(
+            flags,
+            "<div class=\"flag water\">NEAR WATER: {}</div>",
+            escape(w.trim_start_matches("near water: "))
+        );
+    }
+    flags
+}
+
+fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
+    let folder = ctx.folder;
+    let _ = write!(
+        h,
+        "<section class=\"page day\"><h2>{}</h2>",
+        escape(&day_label(d))
+    );
+    let _ = write!(
+        h,
+        "<p>Leave the depot, {} stop{}, back to the depot: <b>{:.1} h work + {:.1} h travel = {:.1} h</b> of a {} h day.</p>",
+        d.stops.len(),
+        if d.stops.len() == 1 { "" } else { "s" },
+        d.work_hours(),
+        d.travel_hours(),
+        d.hours(),
+        ctx.options.day_hours
+    );
+    h.push_str(&day_map(ctx, d));
+    let ruled: Vec<String> = d
+        .stops
+        .iter()
+        .enumerate()
+        .filter_map(|(k, s)| {
+            let p = &folder.planned[s.row];
+            (!p.site_notes.is_empty() && p.access != "permission" || p.no_herbicide()).then(|| {
+                format!(
+                    "stop {} ({}): {}",
+                    k + 1,
+                    escape(&s.patch_id),
+                    escape(&p.site_notes)
+                )
+            })
+        })
+        .collect();
+    if !ruled.is_empty() {
+        let _ = write!(
+            h,
+            "<div class=\"siterules\"><b>Site rules today:</b><ul><li>{}</li></ul></div>",
+            ruled.join("</li><li>")
+        );
+    }
+    let to = gis::ToLonLat::new(&ctx.crs).ok();
+    h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
+    let mut codes: BTreeSet<String> = BTreeSet::new();
+    let mut methods: BTreeMap<String, (MethodId, orders::Instructions)> = BTreeMap::new();
+    for (k, s) in d.stops.iter().enumerate() {
+        let p = &folder.planned[s.row];
+        let ll = to
+            .as_ref()
+            .and_then(|t| t.points(&[(s.x, s.y)]).ok())
+            .map(|v| format!("{:.5}, {:.5}", v[0].1, v[0].0))
+            .unwrap_or_default();
+        for c in p.cautions.split(';').filter(|c| !c.is_empty()) {
+            codes.insert(c.to_string());
+        }
+        let ins = orders::instructions(folder, s, d.date);
+        methods
+            .entry(s.method.clone())
+            .or_insert((s.method_id, ins));
+        let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
+            ("permission", false) => format!("permission first: {}", p.contact),
+            ("permission", true) => "permission first".to_string(),
+            (a, false) => format!("{a}; {}", p.contact),
+            (a, true) => a.to_string(),
+        };
+        let _ = write!(
+            h,
+            "<tr><td class=\"n\">{}</td><td class=\"nw\">{}{}{}</td><td class=\"nw\">{}{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small nw\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
+            k + 1,
+            escape(&s.patch_id),
+            if s.parts > 1 {
+                format!(" ({}/{})", s.part, s.parts)
+            } else {
+                String::new()
+            },
+            if p.parcel.is_empty() {
+                String::new()
+            } else {
+                format!(" &middot; {}", escape(&p.parcel))
+            },
+            site_rule_flags(p),
+            escape(&s.method.replace('_', " ")),
+            s.stems,
+            s.work_hours,
+            escape(&getting_in),
+            ll,
+            escape(&p.cautions.replace(';', " "))
+        );
+    }
+    h.push_str("</table>");
+    h.push_str("<h3>How</h3><ul class=\"small\">");
+    for (method_id, ins) in methods.values() {
+        let method = folder.catalogue.method(*method_id);
+        let mut line = escape(&method.label);
+        if method.herbicide {
+            line.push_str(". <b>Apply per the product label.</b>");
+        }
+        if let Some(f) = ins.fell_after {
+            let _ = write!(line, " Do not fell treated stems before {f}.");
+        }
+        if let Some(f) = &ins.follow_up {
+            let _ = write!(line, " Follow-up visit from {}.", escape(f));
+        }
+        let _ = write!(h, "<li>{line}</li>");
+    }
+    h.push_str("</ul><h3>Cautions at these sites</h3><div class=\"cautions small\">");
+    for code in &codes {
+        if let Some(c) = cautions::lookup(code) {
+            let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
+        }
+    }
+    h.push_str("<p>Defer to local codes and licensed practice.</p></div>");
+    h.push_str("<p class=\"sign small\">Crew lead: ____________________ &nbsp; Date: __________ &nbsp; Applicator licence no.: ______________</p></section>\n");
+}

@@ -1,0 +1,194 @@
+//! The `orders` report: from a plan folder's crew-day schedule to the files a crew and a manager
+//! read — orders.csv ([`csv`]), orders.geojson and orders.gpkg ([`gpkg`]), the printable
+//! report.html ([`html`], with its SVG maps in [`svg`]), cautions.txt and orders.json.
+//!
+//! Takes the [`Schedule`] built in `field::orders` and the plan folder it came from; writes
+//! into a [`Staging`] folder the command commits.
+//!
+//! # Units
+//! Coordinates in the plan's working CRS (metres), lon/lat in WGS 84; hours as decimal hours;
+//! money through [`crate::report::format`].
+
+mod csv;
+mod gpkg;
+mod html;
+mod svg;
+
+use std::collections::HashMap;
+
+use geo::{Geometry, LineString};
+use serde::Serialize;
+
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::field::contract::{self, PlanFolder};
+use crate::field::orders::{CrewDay, Options, Schedule};
+use crate::input::gis::{self, Crs};
+use crate::report::output::Staging;
+
+/// Colour-blind-safe colours for methods, in catalogue order (Okabe & Ito 2008 palette).
+const METHOD_COLOURS: [&str; 6] = [
+    "#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9",
+];
+const UNTREATED: &str = "#c8c8c8";
+const NOT_ELIGIBLE: &str = "#ffffff";
+
+#[derive(Serialize)]
+pub struct MissingJson {
+    pub window: String,
+    pub methods: Vec<String>,
+    pub crew_days: usize,
+}
+
+#[derive(Serialize)]
+pub struct OrdersJson {
+    pub plan: String,
+    pub crs: String,
+    pub depot: [f64; 2],
+    pub depot_is_default: bool,
+    pub crews: usize,
+    pub day_hours: f64,
+    pub speed_kmh: f64,
+    pub detour_factor: f64,
+    pub workdays: String,
+    pub start_date: String,
+    pub first_date: Option<String>,
+    pub last_date: Option<String>,
+    pub treated_patches: usize,
+    pub split_patches: usize,
+    pub crew_days: usize,
+    pub scheduled_crew_days: usize,
+    pub missing_crew_days: usize,
+    pub missing: Vec<MissingJson>,
+    pub travel_hours: f64,
+    pub work_hours: f64,
+    pub report_overview_pages: usize,
+    pub report_crew_day_pages: usize,
+}
+
+/// What the report is drawn from: the plan folder, its CRS, the schedule and the patch outlines.
+pub struct Orders<'a> {
+    pub folder: &'a PlanFolder,
+    pub crs: Crs,
+    pub schedule: Schedule,
+    pub options: Options,
+    pub outlines: HashMap<String, Geometry<f64>>,
+    colours: HashMap<String, &'static str>,
+}
+
+impl<'a> Orders<'a> {
+    pub fn new(
+        folder: &'a PlanFolder,
+        crs: Crs,
+        schedule: Schedule,
+        options: Options,
+        outlines: HashMap<String, Geometry<f64>>,
+    ) -> Orders<'a> {
+        let colours = folder
+            .catalogue
+            .methods
+            .iter()
+            .enumerate()
+            .map(|(k, m)| (m.id.clone(), METHOD_COLOURS[k % METHOD_COLOURS.len()]))
+            .collect();
+        Orders {
+            folder,
+            crs,
+            schedule,
+            options,
+            outlines,
+            colours,
+        }
+    }
+}
+
+/// Writes orders.csv, orders.geojson, orders.gpkg, report.html, cautions.txt and orders.json into
+/// `staging` (the caller commits it) and gives orders.json's content. `curve_svg` is a budget
+/// curve to include as a page of its own.
+pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result<OrdersJson> {
+    staging.write("orders.csv", csv::orders_csv(ctx)?)?;
+    gpkg::write_maps(ctx, staging)?;
+    // Overview, schedule at a glance, cautions, and the budget curve when there is one.
+    let overview_pages = 3 + usize::from(curve_svg.is_some());
+    let report = html::report_html(ctx, curve_svg)?;
+    staging.write("report.html", report)?;
+    staging.write("cautions.txt", cautions::standing_text())?;
+    let s = &ctx.schedule;
+    let o = &ctx.options;
+    let summary = OrdersJson {
+        plan: ctx.folder.dir.display().to_string(),
+        crs: ctx.crs.name.clone(),
+        depot: [s.depot.0, s.depot.1],
+        depot_is_default: s.depot_is_default,
+        crews: o.crews,
+        day_hours: o.day_hours,
+        speed_kmh: o.speed_kmh,
+        detour_factor: o.detour,
+        workdays: o.workdays.to_string(),
+        start_date: o.start.to_string(),
+        first_date: s
+            .scheduled()
+            .filter_map(|d| d.date)
+            .min()
+            .map(|d| d.to_string()),
+        last_date: s.last_date().map(|d| d.to_string()),
+        treated_patches: ctx.folder.planned.len(),
+        split_patches: s.split_patches,
+        crew_days: s.days.len(),
+        scheduled_crew_days: s.scheduled().count(),
+        missing_crew_days: s.missing_days(),
+        missing: s
+            .missing
+            .iter()
+            .map(|m| MissingJson {
+                window: contract::window(&m.months),
+                methods: m.methods.clone(),
+                crew_days: m.crew_days,
+            })
+            .collect(),
+        travel_hours: round2(s.days.iter().map(|d| d.travel_hours()).sum()),
+        work_hours: round2(s.days.iter().map(|d| d.work_hours()).sum()),
+        report_overview_pages: overview_pages,
+        report_crew_day_pages: s.days.len(),
+    };
+    let json = serde_json::to_string_pretty(&summary)
+        .map_err(|e| Error::Internal(format!("orders.json: {e}")))?;
+    staging.write("orders.json", json + "\n")?;
+    Ok(summary)
+}
+
+/// Two decimals, and never "-0" (an empty sum of f64 is -0.0).
+fn round2(v: f64) -> f64 {
+    (v * 100.0).round() / 100.0 + 0.0
+}
+
+fn f2(v: f64) -> String {
+    crate::report::format::fixed(v, 2)
+}
+
+/// The stops of the schedule with their lon/lat, day by day.
+fn stop_lonlats(ctx: &Orders) -> Result<Vec<Vec<(f64, f64)>>> {
+    let to = gis::ToLonLat::new(&ctx.crs)?;
+    ctx.schedule
+        .days
+        .iter()
+        .map(|d| to.points(&d.stops.iter().map(|s| (s.x, s.y)).collect::<Vec<_>>()))
+        .collect()
+}
+
+fn day_label(d: &CrewDay) -> String {
+    match (d.crew, d.date) {
+        (Some(c), Some(date)) => {
+            format!("Crew {c}, day {} - {} {date}", d.day, date.weekday_name())
+        }
+        _ => format!("Unscheduled crew-day {} (outside the season window)", d.day),
+    }
+}
+
+fn route_line(ctx: &Orders, d: &CrewDay) -> LineString<f64> {
+    let depot = ctx.schedule.depot;
+    let mut pts = vec![depot];
+    pts.extend(d.stops.iter().map(|s| (s.x, s.y)));
+    pts.push(depot);
+    LineString::from(pts)
+}

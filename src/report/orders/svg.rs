@@ -1,0 +1,167 @@
+//! The report's SVG maps: the overview of every patch by plan status, its legend, and one route map
+//! per crew-day.
+
+use std::collections::HashMap;
+use std::fmt::Write as _;
+
+use geo::Geometry;
+
+use crate::field::orders::CrewDay;
+use crate::report::chart::escape;
+use crate::report::map::{self, Frame};
+
+use super::{NOT_ELIGIBLE, Orders, UNTREATED, route_line};
+
+/// The overview map: every patch coloured by plan status, depot, legend, scale bar, north.
+pub(super) fn overview_map(ctx: &Orders) -> String {
+    let geoms: Vec<&Geometry<f64>> = ctx.outlines.values().collect();
+    let mut points: Vec<(f64, f64)> = ctx.folder.patches.iter().map(|p| (p.x, p.y)).collect();
+    points.push(ctx.schedule.depot);
+    let Some(b) = map::bounds(&geoms, &points) else {
+        return String::new();
+    };
+    let f = Frame::fit(b, 720.0, 520.0, 500.0);
+    let mut svg = format!(
+        r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="map of patches by plan status"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
+        f.width, f.height, f.width, f.height
+    );
+    let planned: HashMap<&str, &str> = ctx
+        .folder
+        .planned
+        .iter()
+        .map(|p| (p.patch_id.as_str(), p.method.as_str()))
+        .collect();
+    for rec in &ctx.folder.patches {
+        let fill = match planned.get(rec.patch_id.as_str()) {
+            Some(m) => ctx.colours.get(*m).copied().unwrap_or("#000"),
+            None if rec.eligible == "no" => NOT_ELIGIBLE,
+            None => UNTREATED,
+        };
+        match ctx.outlines.get(&rec.patch_id) {
+            Some(g @ (Geometry::Polygon(_) | Geometry::MultiPolygon(_))) => {
+                let _ = write!(
+                    svg,
+                    r##"<path d="{}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></path>"##,
+                    f.path(g),
+                    escape(&rec.patch_id)
+                );
+            }
+            // Inventory stands are points: a circle sized by stems (area proportional).
+            _ => {
+                let (x, y) = f.px(rec.x, rec.y);
+                let r = (rec.stems.max(0.0).sqrt() * 0.25).clamp(2.5, 9.0);
+                let _ = write!(
+                    svg,
+                    r##"<circle cx="{x:.1}" cy="{y:.1}" r="{r:.1}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></circle>"##,
+                    escape(&rec.patch_id)
+                );
+            }
+        }
+    }
+    // Priority numbers beside the first ten treated patches.
+    for p in ctx.folder.planned.iter().take(10) {
+        let (x, y) = f.px(p.x, p.y);
+        let _ = write!(
+            svg,
+            r##"<text x="{:.1}" y="{:.1}" font-size="9" font-weight="bold" stroke="#fff" stroke-width="2.5" paint-order="stroke">{}</text>"##,
+            x + 4.0,
+            y - 4.0,
+            p.priority
+        );
+    }
+    let (dx, dy) = f.px(ctx.schedule.depot.0, ctx.schedule.depot.1);
+    let _ = write!(
+        svg,
+        r##"<rect x="{:.1}" y="{:.1}" width="9" height="9" fill="#000"><title>depot</title></rect>"##,
+        dx - 4.5,
+        dy - 4.5
+    );
+    svg.push_str(&f.scale_bar());
+    svg.push_str(&f.north_arrow());
+    svg.push_str("</svg>");
+    svg
+}
+
+pub(super) fn legend(ctx: &Orders) -> String {
+    let mut used: Vec<&str> = Vec::new();
+    for m in &ctx.folder.catalogue.methods {
+        if ctx.folder.planned.iter().any(|p| p.method == m.id) {
+            used.push(&m.id);
+        }
+    }
+    let mut s = String::from(r#"<p class="legend small">"#);
+    for m in used {
+        let _ = write!(
+            s,
+            r#"<span class="sw" style="background:{}"></span>treat: {}"#,
+            ctx.colours[m],
+            escape(m)
+        );
+    }
+    let _ = write!(
+        s,
+        r#"<span class="sw" style="background:{UNTREATED}"></span>not treated this season<span class="sw" style="background:{NOT_ELIGIBLE}"></span>not eligible (access or herbicide rules)<span class="sw" style="background:#000"></span>depot; numbers = plan priority</p>"#
+    );
+    s
+}
+
+pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
+    let depot = ctx.schedule.depot;
+    let geoms: Vec<&Geometry<f64>> = d
+        .stops
+        .iter()
+        .filter_map(|s| ctx.outlines.get(&s.patch_id))
+        .collect();
+    let mut points: Vec<(f64, f64)> = d.stops.iter().map(|s| (s.x, s.y)).collect();
+    points.push(depot);
+    let Some(b) = map::bounds(&geoms, &points) else {
+        return String::new();
+    };
+    let f = Frame::fit(b, 720.0, 210.0, 300.0);
+    let mut svg = format!(
+        r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="route map"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
+        f.width, f.height, f.width, f.height
+    );
+    for g in &geoms {
+        let _ = write!(
+            svg,
+            r##"<path d="{}" fill="#9ecae1" stroke="#333" stroke-width="0.6"/>"##,
+            f.path(g)
+        );
+    }
+    let line: Vec<String> = route_line(ctx, d)
+        .0
+        .iter()
+        .map(|c| {
+            let (x, y) = f.px(c.x, c.y);
+            format!("{x:.1},{y:.1}")
+        })
+        .collect();
+    let _ = write!(
+        svg,
+        r##"<polyline points="{}" fill="none" stroke="#000" stroke-width="1.4" stroke-dasharray="5,3"/>"##,
+        line.join(" ")
+    );
+    let (dx, dy) = f.px(depot.0, depot.1);
+    let _ = write!(
+        svg,
+        r##"<rect x="{:.1}" y="{:.1}" width="10" height="10" fill="#000"/><text x="{:.1}" y="{:.1}" font-size="10">depot</text>"##,
+        dx - 5.0,
+        dy - 5.0,
+        dx + 8.0,
+        dy + 4.0
+    );
+    for (k, s) in d.stops.iter().enumerate() {
+        let (x, y) = f.px(s.x, s.y);
+        let _ = write!(
+            svg,
+            r##"<circle cx="{x:.1}" cy="{y:.1}" r="8" fill="#fff" stroke="#000" stroke-width="1.2"/><text x="{x:.1}" y="{:.1}" font-size="9" text-anchor="middle" font-weight="bold">{}</text>"##,
+            y + 3.2,
+            k + 1
+        );
+    }
+    svg.push_str(&f.scale_bar());
+    svg.push_str(&f.north_arrow());
+    svg.push_str("</svg>");
+    svg
+}

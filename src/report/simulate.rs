@@ -1,0 +1,125 @@
+//! The simulation's outputs: sim.csv (occupied host per year and strategy), patch_occupancy.csv,
+//! sim.svg (mean and 5–95 % band), sim.json and cautions.txt.
+//!
+//! # Units
+//! Occupied host as a share of all host (0–1) in the CSVs, in percent on the chart.
+
+use crate::core::cautions;
+use crate::core::error::{Error, Result};
+use crate::model::simulate;
+use crate::planning::prepare::Prepared;
+use crate::planning::simulate::{STRATEGIES, Simulation, pct};
+use crate::report::chart::{self, Series, Style};
+use crate::report::output::Staging;
+
+/// The line style of each of [`STRATEGIES`], same order.
+const STYLES: [Style; 5] = [
+    Style::LongDash,
+    Style::Main,
+    Style::Dashed,
+    Style::Dotted,
+    Style::DashDot,
+];
+
+fn num(v: f64) -> String {
+    if v.is_finite() {
+        format!("{}", (v * 1e6).round() / 1e6)
+    } else {
+        String::new()
+    }
+}
+
+pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result<()> {
+    let (traces, years, runs) = (&sim.traces, sim.summary.years, sim.summary.runs);
+    // sim.csv
+    let mut w = crate::core::csv_cells::Writer::new();
+    w.row([
+        "year",
+        "strategy",
+        "occupied_host_mean",
+        "occupied_host_p05",
+        "occupied_host_p50",
+        "occupied_host_p95",
+        "occupied_patches_mean",
+    ])?;
+    let mut bands = Vec::new();
+    let mut lines = Vec::new();
+    for (((name, label), style), t) in STRATEGIES.iter().zip(STYLES).zip(traces) {
+        let mut band = Vec::new();
+        let mut line = Vec::new();
+        for year in 0..=years as usize {
+            let mut v: Vec<f64> = t.occupied_host.iter().map(|r| r[year]).collect();
+            v.sort_by(f64::total_cmp);
+            let mean = v.iter().sum::<f64>() / v.len() as f64;
+            let count = t
+                .occupied_patches
+                .iter()
+                .map(|r| r[year] as f64)
+                .sum::<f64>()
+                / t.occupied_patches.len() as f64;
+            let (p05, p50, p95) = (
+                simulate::quantile(&v, 0.05),
+                simulate::quantile(&v, 0.5),
+                simulate::quantile(&v, 0.95),
+            );
+            w.row([
+                year.to_string(),
+                name.to_string(),
+                num(mean),
+                num(p05),
+                num(p50),
+                num(p95),
+                num(count),
+            ])?;
+            band.push((year as f64, pct(p05), pct(p95)));
+            line.push((year as f64, pct(mean)));
+        }
+        bands.push(band);
+        lines.push(Series {
+            id: name.to_string(),
+            label: label.to_string(),
+            points: line,
+            style,
+        });
+    }
+    staging.write("sim.csv", w.into_bytes()?)?;
+
+    // patch_occupancy.csv
+    let mut w = crate::core::csv_cells::Writer::new();
+    let mut header = vec!["patch_id".to_string()];
+    header.extend(STRATEGIES.iter().map(|s| s.0.to_string()));
+    w.row(&header)?;
+    for (i, p) in prepared.patches.items.iter().enumerate() {
+        let mut row = vec![p.label.clone()];
+        for t in traces {
+            row.push(num(t.final_occupied[i] as f64 / runs as f64));
+        }
+        w.row(&row)?;
+    }
+    staging.write("patch_occupancy.csv", w.into_bytes()?)?;
+
+    // sim.svg
+    let y_max = bands
+        .iter()
+        .flatten()
+        .map(|b| b.2)
+        .fold(1.0, f64::max)
+        .ceil();
+    let svg = chart::fan_chart(
+        &format!("Occupied host over {years} years ({runs} runs; mean and 5-95% band)"),
+        "year (treatment at the start of year 1)",
+        "occupied host (% of all host)",
+        &|x| format!("{x:.0}"),
+        (y_max * 1.1).ceil(),
+        &lines,
+        &[],
+        &bands,
+    );
+    staging.write("sim.svg", &svg)?;
+
+    let json = serde_json::to_string_pretty(&sim.summary)
+        .map_err(|e| Error::Internal(format!("sim.json: {e}")))?;
+    staging.write("sim.json", json + "\n")?;
+    staging.write("cautions.txt", cautions::standing_text())?;
+    Ok(())
+}
