@@ -31,8 +31,8 @@ use gdal::Dataset;
 use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform};
 use gdal::vector::{LayerAccess, OGRwkbGeometryType, geometry_type_flatten};
 
-use crate::core::error::{Error, Result};
 use super::{Crs, gdal_error};
+use crate::core::error::{Error, Result};
 
 /// Which attributes of the road layer hold what, and which layer to read.
 #[derive(Debug, Clone, PartialEq)]
