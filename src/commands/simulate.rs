@@ -64,6 +64,31 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
         );
     }
     text.detail(format_args!(
+        "strategy minus plan, occupied host in percentage points (negative: better than the plan; 95% CI over {} paired runs):",
+        runs.runs
+    ));
+    text.detail(format_args!(
+        "  {:<8} {:>24} {:>24}",
+        "strategy",
+        format!("year {}", runs.years),
+        "mean over the years"
+    ));
+    for v in &summary.versus_plan {
+        text.detail(format_args!(
+            "  {:<8} {:>7.2} ({:>6.2} to {:>6.2}) {:>7.2} ({:>6.2} to {:>6.2})",
+            v.strategy,
+            v.final_diff_pct,
+            v.final_ci95[0],
+            v.final_ci95[1],
+            v.mean_diff_pct,
+            v.mean_ci95[0],
+            v.mean_ci95[1]
+        ));
+    }
+    if let Some(verdict) = &summary.verdict {
+        text.line(verdict.as_str());
+    }
+    text.detail(format_args!(
         "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, cautions.txt",
         out.display()
     ));
