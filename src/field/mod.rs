@@ -7,3 +7,4 @@ pub mod network;
 pub mod orders;
 pub mod plan_folder;
 pub mod routing;
+pub mod travel;

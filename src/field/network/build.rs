@@ -92,8 +92,7 @@ impl NodeIndex {
     }
 }
 
-/// A routable road graph in compressed sparse rows.
-
+/// Position of (x, y) (each in 0..2^16) along a Hilbert curve (the classic iterative `xy2d`;
 /// common practice for ordering points so that near points get near numbers).
 fn hilbert(mut x: u32, mut y: u32) -> u64 {
     let n: u32 = 1 << 16;

@@ -84,6 +84,15 @@ impl SpeedTable {
         self.classes.insert(class.trim().to_ascii_lowercase(), kmh);
     }
 
+    /// Every drivable class, and any class not in the table, at `kmh`; classes that are not
+    /// driven stay so.
+    pub fn drive_all_at(&mut self, kmh: f64) {
+        for speed in self.classes.values_mut().flatten() {
+            *speed = kmh;
+        }
+        self.default_kmh = kmh;
+    }
+
     /// The speed of a segment: `None` when its class is not driven, else its own speed, its
     /// class's, or the default.
     pub fn speed(&self, segment: &RoadSegment) -> Option<f64> {
@@ -194,6 +203,7 @@ pub struct Piece {
     pub road_km: f64,
 }
 
+/// A routable road graph in compressed sparse rows.
 #[derive(Debug, Clone)]
 pub struct RoadNetwork {
     /// Vertex coordinates, working CRS.
@@ -226,8 +236,6 @@ pub(super) struct Arc {
     pub(super) metres: f64,
     pub(super) head: u32,
 }
-
-/// Position of (x, y) (each in 0..2^16) along a Hilbert curve (the classic iterative `xy2d`;
 
 /// A point snapped onto the road network.
 #[derive(Debug, Clone, Copy, PartialEq)]
