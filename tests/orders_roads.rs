@@ -370,3 +370,83 @@ fn without_a_depot_the_outputs_say_it_is_assumed() {
         true
     );
 }
+
+/// The demo's invented county routed on its invented roads (`demo-inputs/roads.gpkg`, made by
+/// `make-demo-inputs`): every treated patch is scheduled, and every crew-day with a stand east
+/// of Hollin Run drives over the one bridge, on Mill Road between Concessions 8 and 9 [D: the
+/// generator cuts every other road at the stream].
+#[test]
+fn the_demo_county_is_routed_over_its_one_bridge() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let o = run(d, &["demo", "--out", "demo", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(
+        d,
+        &[
+            "orders",
+            "--plan",
+            "demo",
+            "--roads",
+            "demo/inputs/roads.gpkg",
+            "--depot",
+            "501250,4471750",
+            "--start-date",
+            "2027-04-01",
+            "--crews",
+            "2",
+            "--out",
+            "ord",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("travel: road network"));
+    let info = json_file(&d.join("ord/orders.json"));
+    assert_eq!(info["roads"]["pieces"], 1);
+    assert!(info["unreachable"].as_array().unwrap().is_empty());
+    let plan = rows(&d.join("demo/plan.csv"));
+    let stops = rows(&d.join("ord/orders.csv"));
+    for p in &plan {
+        assert!(stops.iter().any(|r| r["patch_id"] == p["patch_id"]));
+    }
+    // The bridge's two ends, in the working CRS (X0 = 500000, Y0 = 4470000 in src/app/demo.rs).
+    let bridge = [(503_750.0, 4_471_750.0), (504_250.0, 4_471_750.0)];
+    let wkt = hostcut::input::gis::Crs::parse("EPSG:32618", "test")
+        .unwrap()
+        .wkt;
+    let geojson = json_file(&d.join("ord/orders.geojson"));
+    let mut east_days = 0;
+    for f in geojson["features"].as_array().unwrap() {
+        let p = &f["properties"];
+        if p["kind"] != "route" {
+            continue;
+        }
+        let key = (p["crew"].to_string(), p["day"].to_string());
+        let day_crew = |r: &&HashMap<String, String>| {
+            (r["crew"].as_str(), r["day"].as_str()) == (key.0.as_str(), key.1.as_str())
+        };
+        // East of the stream's easternmost point (x = 504,500).
+        if !stops
+            .iter()
+            .filter(day_crew)
+            .any(|r| num(r, "x") > 504_600.0)
+        {
+            continue;
+        }
+        east_days += 1;
+        let lonlat: Vec<(f64, f64)> = f["geometry"]["coordinates"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| (c[0].as_f64().unwrap(), c[1].as_f64().unwrap()))
+            .collect();
+        let xy = hostcut::input::gis::transform_points("EPSG:4326", &wkt, &lonlat).unwrap();
+        for end in bridge {
+            assert!(
+                xy.iter().any(|p| (p.0 - end.0).hypot(p.1 - end.1) < 0.5),
+                "a route east of Hollin Run misses the bridge end {end:?}"
+            );
+        }
+    }
+    assert!(east_days > 0, "no crew-day east of Hollin Run");
+}
