@@ -44,6 +44,7 @@ fn main() {
         "road tour + day split:    {:.2} s  ({:.1} h travel, {} days)",
         b.routes_s, b.road_tour_hours, b.road_days
     );
+    println!("route geometry, all days: {:.2} s", b.geometry_s);
     println!(
         "straight-line matrix + tour + split: {:.2} s  ({:.1} h travel, {} days)",
         b.straight_s, b.straight_tour_hours, b.straight_days

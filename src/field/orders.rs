@@ -284,6 +284,8 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         groups.entry(months).or_default().push(k);
     }
     let mut days: Vec<CrewDay> = Vec::new();
+    // Each day's visit (depot, points, depot), for its route line.
+    let mut visits: Vec<Vec<usize>> = Vec::new();
     for (months, members) in &groups {
         // The group's points: the depot, then each member's patch.
         let keep: Vec<usize> = std::iter::once(0)
@@ -328,9 +330,14 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
                 stops: day_stops,
                 return_hours: m.get(prev, 0),
                 return_km: legs.km(keep[prev], 0),
-                route: legs.route(travel, &visit),
+                route: Vec::new(),
             });
+            visits.push(visit);
         }
+    }
+
+    for (day, route) in days.iter_mut().zip(legs.routes(travel, &visits)) {
+        day.route = route;
     }
 
     // 3. Calendar.

@@ -228,6 +228,37 @@ impl Legs {
             .unwrap_or_default()
     }
 
+    /// [`Legs::route`] of each visit, the searches spread over the machine's threads (up to 4).
+    pub fn routes(&self, model: &TravelModel, visits: &[Vec<usize>]) -> Vec<Vec<(f64, f64)>> {
+        let threads = std::thread::available_parallelism()
+            .map(|t| t.get())
+            .unwrap_or(1)
+            .clamp(1, 4)
+            .min(visits.len().max(1));
+        if threads == 1 || self.road.is_none() {
+            return visits.iter().map(|v| self.route(model, v)).collect();
+        }
+        let mut out: Vec<Vec<(f64, f64)>> = vec![Vec::new(); visits.len()];
+        std::thread::scope(|scope| {
+            let handles: Vec<_> = (0..threads)
+                .map(|t| {
+                    scope.spawn(move || {
+                        (t..visits.len())
+                            .step_by(threads)
+                            .map(|k| (k, self.route(model, &visits[k])))
+                            .collect::<Vec<_>>()
+                    })
+                })
+                .collect();
+            for h in handles {
+                for (k, line) in h.join().expect("a route thread panicked") {
+                    out[k] = line;
+                }
+            }
+        });
+        out
+    }
+
     /// The line a crew follows on a visit of `order` (indices into the points, e.g. `[0, 3, 1,
     /// 0]`): along the roads with the walks to and from each stand, or straight lines without
     /// roads.

@@ -20,6 +20,8 @@ pub struct GridBench {
     pub build_s: f64,
     pub travel_s: f64,
     pub routes_s: f64,
+    /// Road geometry of every day's route (depot, stops, depot), as `orders` draws it.
+    pub geometry_s: f64,
     pub road_tour_hours: f64,
     pub road_days: usize,
     pub straight_s: f64,
@@ -123,23 +125,45 @@ pub fn bench_grid(
     let work: Vec<f64> = std::iter::once(0.0)
         .chain(std::iter::repeat_n(1.5, stops))
         .collect();
-    let plan = |m: &Matrix| -> Result<(f64, usize)> {
+    let plan = |m: &Matrix| -> Result<(f64, usize, Vec<Vec<usize>>)> {
         let nodes: Vec<usize> = (1..m.len()).collect();
         let starts = if nodes.len() > 400 { 2 } else { 8 };
         let tour = routing::heuristic(m, &nodes, starts);
         let cuts = routing::split(m, &tour, &work, 8.0, 10)
             .ok_or_else(|| Error::Internal("a bench stop does not fit a day".into()))?;
-        Ok((routing::tour_length(m, &tour), cuts.len()))
+        let days = cuts
+            .iter()
+            .map(|c| {
+                let mut visit = vec![0];
+                visit.extend(&tour[c.from..c.to]);
+                visit.push(0);
+                visit
+            })
+            .collect();
+        Ok((routing::tour_length(m, &tour), cuts.len(), days))
     };
     let started = Instant::now();
     let travel = network.travel(&points, threads)?;
     let travel_s = started.elapsed().as_secs_f64();
     let started = Instant::now();
-    let (road_tour_hours, road_days) = plan(&travel.matrix())?;
+    let (road_tour_hours, road_days, visits) = plan(&travel.matrix())?;
     let routes_s = started.elapsed().as_secs_f64();
     let started = Instant::now();
+    // As `orders` does it (`field::travel::Legs::routes`): days spread over the threads.
+    std::thread::scope(|scope| {
+        for t in 0..threads.max(1) {
+            let (network, travel, visits) = (&network, &travel, &visits);
+            scope.spawn(move || {
+                for visit in visits.iter().skip(t).step_by(threads.max(1)) {
+                    std::hint::black_box(network.route(travel, visit));
+                }
+            });
+        }
+    });
+    let geometry_s = started.elapsed().as_secs_f64();
+    let started = Instant::now();
     let straight = Matrix::from_points(&points, 1.3, 30.0);
-    let (straight_tour_hours, straight_days) = plan(&straight)?;
+    let (straight_tour_hours, straight_days, _) = plan(&straight)?;
     let straight_s = started.elapsed().as_secs_f64();
     Ok(GridBench {
         nodes: network.stats.nodes,
@@ -150,6 +174,7 @@ pub fn bench_grid(
         build_s,
         travel_s,
         routes_s,
+        geometry_s,
         road_tour_hours,
         road_days,
         straight_s,
