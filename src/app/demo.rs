@@ -61,8 +61,11 @@ fn crossing(a: (f64, f64), b: (f64, f64), c: (f64, f64), d: (f64, f64)) -> Optio
     }
     let t = ((c.0 - a.0) * sy - (c.1 - a.1) * sx) / denominator;
     let u = ((c.0 - a.0) * ry - (c.1 - a.1) * rx) / denominator;
-    (t > 1e-9 && t < 1.0 - 1e-9 && u > 1e-9 && u < 1.0 - 1e-9)
-        .then(|| (a.0 + t * rx, a.1 + t * ry, t))
+    (t > 1e-9 && t < 1.0 - 1e-9 && u > 1e-9 && u < 1.0 - 1e-9).then_some((
+        a.0 + t * rx,
+        a.1 + t * ry,
+        t,
+    ))
 }
 
 fn crosses(a: (f64, f64), b: (f64, f64), line: &[(f64, f64)]) -> bool {

@@ -168,11 +168,14 @@ impl TravelModel {
                     .map(|t| t.get())
                     .unwrap_or(1)
                     .min(4);
-                let travel = r.network.travel(points, threads)?;
+                let mut travel = r.network.travel(points, threads)?;
+                // The matrices move here; the travel keeps its snaps for the route lines.
+                let hours = std::mem::take(&mut travel.hours);
+                let km = std::mem::take(&mut travel.km);
                 Ok(Legs {
                     n,
-                    hours: travel.hours.clone(),
-                    km: travel.km.clone(),
+                    hours,
+                    km,
                     points: points.to_vec(),
                     road: Some(travel),
                 })
