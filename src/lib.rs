@@ -48,7 +48,7 @@ pub fn run(cli: Cli) -> Result<String> {
             commands::contract::run_contract(&resolve::contract::contract(&args)?)
         }
         Command::Record(args) => commands::contract::run_record(&resolve::contract::record(&args)?),
-        Command::Orders(args) => commands::orders::run(&args, printer),
+        Command::Orders(args) => commands::orders::run(resolve::orders::resolve(&args)?, printer),
         Command::Simulate(args) => {
             commands::simulate::run(&resolve::simulate::resolve(&args)?, printer)
         }

@@ -512,12 +512,36 @@ pub struct OrdersArgs {
     /// Working hours per crew-day, travel included
     #[arg(long, value_name = "H", default_value_t = 8.0)]
     pub day_hours: f64,
-    /// Average travel speed between sites, km/h
-    #[arg(long, value_name = "KMH", default_value_t = 30.0)]
-    pub speed_kmh: f64,
-    /// Road distance over straight-line distance (an assumption, stated in the outputs)
-    #[arg(long, value_name = "F", default_value_t = 1.3)]
-    pub detour_factor: f64,
+    /// Average travel speed between sites, km/h, for straight-line travel (without `--roads`)
+    /// [default: 30]
+    #[arg(long, value_name = "KMH")]
+    pub speed_kmh: Option<f64>,
+    /// Road distance over straight-line distance, for straight-line travel (without `--roads`;
+    /// an assumption, stated in the outputs) [default: 1.3]
+    #[arg(long, value_name = "F")]
+    pub detour_factor: Option<f64>,
+    /// Road layer to route the crews on (any GDAL line layer: GeoPackage, Shapefile,
+    /// OpenStreetMap .osm.pbf); without it travel is straight line x detour
+    #[arg(long, value_name = "FILE")]
+    pub roads: Option<PathBuf>,
+    /// Layer to read in a multi-layer `--roads` file [default: `lines` for OpenStreetMap, else
+    /// the only line layer]
+    #[arg(long, value_name = "NAME", requires = "roads")]
+    pub roads_layer: Option<String>,
+    /// Field of `--roads` with the road class (OpenStreetMap `highway` values get stated
+    /// default speeds) [default: highway]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_class_field: Option<String>,
+    /// Field of `--roads` saying a road is one-way (yes/1/T/FT forward, -1/TF reverse)
+    /// [default: oneway]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_oneway_field: Option<String>,
+    /// Field of `--roads` with the road's own speed, km/h or "N mph" [default: maxspeed]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_speed_field: Option<String>,
+    /// One speed for every drivable road, km/h, instead of the class table and the layer's speeds
+    #[arg(long, value_name = "KMH", requires = "roads")]
+    pub road_speed_kmh: Option<f64>,
     /// First working day, YYYY-MM-DD [default: the season's first window opening from today]
     #[arg(long, value_name = "DATE")]
     pub start_date: Option<String>,

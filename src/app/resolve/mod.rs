@@ -14,6 +14,7 @@
 pub mod calibrate;
 pub mod contract;
 pub mod curve;
+pub mod orders;
 pub mod plan;
 pub mod program;
 pub mod scenario;
