@@ -281,6 +281,25 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
             text.contains(verdict) && verdict.contains("hostcut program"),
             "{text}"
         );
+        // Every strategy that beats the plan in some year is named, with a reason ("Why:").
+        let labels = [
+            ("greedy", "greedy benefit-per-cost"),
+            ("density", "densest stands first"),
+            ("biggest", "biggest stands first"),
+            ("corridor", "stands along the corridors first"),
+            ("random", "random feasible plans"),
+        ];
+        for v in versus {
+            let beats = v["per_year"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|y| y["ci95"][1].as_f64().unwrap() < 0.0);
+            let label = labels.iter().find(|l| l.0 == v["strategy"]).unwrap().1;
+            if beats {
+                assert!(verdict.contains(label) && verdict.contains("Why:"), "{verdict}");
+            }
+        }
     }
     // Proxy check (issue 22): the plan, the four rules and 12 random plans scored by R and by
     // the simulation; Spearman's rho recomputed by scipy.stats.spearmanr (the reference; scipy
