@@ -226,7 +226,10 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
             .unwrap()
     };
     let versus = json["versus_plan"].as_array().expect("versus_plan");
-    let names: Vec<&str> = versus.iter().map(|v| v["strategy"].as_str().unwrap()).collect();
+    let names: Vec<&str> = versus
+        .iter()
+        .map(|v| v["strategy"].as_str().unwrap())
+        .collect();
     assert_eq!(names, ["greedy", "density", "random"]);
     for v in versus {
         let name = v["strategy"].as_str().unwrap();
@@ -235,16 +238,28 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
         for y in per_year {
             let year = y["year"].as_u64().unwrap() as usize;
             let recomputed = mean_at(name, year) - mean_at("plan", year);
-            let ci = [y["ci95"][0].as_f64().unwrap(), y["ci95"][1].as_f64().unwrap()];
-            assert!((y["diff_pct"].as_f64().unwrap() - recomputed).abs() < 2e-4, "{name} {y}");
-            assert!(ci[0] - 2e-4 <= recomputed && recomputed <= ci[1] + 2e-4, "{name} {y}");
+            let ci = [
+                y["ci95"][0].as_f64().unwrap(),
+                y["ci95"][1].as_f64().unwrap(),
+            ];
+            assert!(
+                (y["diff_pct"].as_f64().unwrap() - recomputed).abs() < 2e-4,
+                "{name} {y}"
+            );
+            assert!(
+                ci[0] - 2e-4 <= recomputed && recomputed <= ci[1] + 2e-4,
+                "{name} {y}"
+            );
         }
         let final_diff = mean_at(name, 8) - mean_at("plan", 8);
         let ci = &v["final_ci95"];
         assert!((v["final_diff_pct"].as_f64().unwrap() - final_diff).abs() < 2e-4);
         assert!(ci[0].as_f64().unwrap() - 2e-4 <= final_diff);
         assert!(final_diff <= ci[1].as_f64().unwrap() + 2e-4);
-        let mean_diff = (1..=8).map(|y| mean_at(name, y) - mean_at("plan", y)).sum::<f64>() / 8.0;
+        let mean_diff = (1..=8)
+            .map(|y| mean_at(name, y) - mean_at("plan", y))
+            .sum::<f64>()
+            / 8.0;
         let ci = &v["mean_ci95"];
         assert!((v["mean_diff_pct"].as_f64().unwrap() - mean_diff).abs() < 2e-4);
         assert!(ci[0].as_f64().unwrap() - 2e-4 <= mean_diff);
@@ -252,11 +267,23 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     }
     // The verdict is written exactly when some strategy matches or beats the plan in some year.
     let some_match = versus.iter().any(|v| {
-        v["per_year"].as_array().unwrap().iter().any(|y| y["ci95"][0].as_f64().unwrap() <= 0.0)
+        v["per_year"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|y| y["ci95"][0].as_f64().unwrap() <= 0.0)
     });
-    assert_eq!(json["verdict"].is_string(), some_match, "{}", json["verdict"]);
+    assert_eq!(
+        json["verdict"].is_string(),
+        some_match,
+        "{}",
+        json["verdict"]
+    );
     if let Some(verdict) = json["verdict"].as_str() {
-        assert!(text.contains(verdict) && verdict.contains("hostcut program"), "{text}");
+        assert!(
+            text.contains(verdict) && verdict.contains("hostcut program"),
+            "{text}"
+        );
     }
     let occ = rows_of(&dir.path().join("a/patch_occupancy.csv"));
     assert_eq!(occ.len(), 108);

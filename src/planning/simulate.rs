@@ -109,8 +109,12 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
             .iter()
             .find(|(id, _)| *id == v.strategy)
             .map_or(v.strategy, |s| s.1);
-        let better: Vec<usize> =
-            v.per_year.iter().filter(|y| y.ci95[1] < 0.0).map(|y| y.year).collect();
+        let better: Vec<usize> = v
+            .per_year
+            .iter()
+            .filter(|y| y.ci95[1] < 0.0)
+            .map(|y| y.year)
+            .collect();
         let tied: Vec<usize> = v
             .per_year
             .iter()
@@ -302,7 +306,9 @@ pub fn simulate_plan(
     let equilibrium_host: f64 = eq.iter().zip(&model.share).map(|(p, a)| p * a).sum();
     let n = runs.runs as usize;
     let paired = |s: usize, f: &dyn Fn(&Trace, usize) -> f64| -> (f64, [f64; 2]) {
-        let d: Vec<f64> = (0..n).map(|k| pct(f(&traces[s], k) - f(&traces[1], k))).collect();
+        let d: Vec<f64> = (0..n)
+            .map(|k| pct(f(&traces[s], k) - f(&traces[1], k)))
+            .collect();
         let (m, lo, hi) = simulate::mean_ci(&d);
         (m, [lo, hi])
     };
@@ -313,8 +319,13 @@ pub fn simulate_plan(
             let (mean_diff_pct, mean_ci95) = paired(s, &mean_of);
             let per_year = (1..=years)
                 .map(|year| {
-                    let (diff_pct, ci95) = paired(s, &|t: &Trace, k: usize| t.occupied_host[k][year]);
-                    YearDiff { year, diff_pct, ci95 }
+                    let (diff_pct, ci95) =
+                        paired(s, &|t: &Trace, k: usize| t.occupied_host[k][year]);
+                    YearDiff {
+                        year,
+                        diff_pct,
+                        ci95,
+                    }
                 })
                 .collect();
             VersusPlan {
