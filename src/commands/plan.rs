@@ -46,7 +46,7 @@ pub fn run_into(
 ) -> Result<String> {
     let s = &settings.scenario;
     let progress = printer.progress_fn();
-    let mut prepared = prepare::prepare(s, &progress)?;
+    let mut prepared = prepare::prepare(s, &progress, printer.bars())?;
     let budget = s.plan.budget.unwrap_or(0.0);
     let deadline = plan::keep_for_outputs(
         settings.deadline(),
