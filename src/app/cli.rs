@@ -301,15 +301,15 @@ pub struct SimulateArgs {
     /// Simulate the plan in this plan folder, with its inputs and settings
     #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
     pub plan_dir: Option<PathBuf>,
-    /// Years to simulate (treatment at the start of year 1)
-    #[arg(long, default_value_t = 10)]
-    pub years: u32,
-    /// Stochastic runs per strategy (the same random numbers for every strategy)
-    #[arg(long, default_value_t = 500)]
-    pub runs: u32,
-    /// Seed of the random streams; the same seed gives byte-identical outputs
-    #[arg(long, default_value_t = 42)]
-    pub seed: u64,
+    /// Years to simulate (treatment at the start of year 1) [default: 10]
+    #[arg(long)]
+    pub years: Option<u32>,
+    /// Stochastic runs per strategy (the same random numbers for every strategy) [default: 500]
+    #[arg(long)]
+    pub runs: Option<u32>,
+    /// Seed of the random streams; the same seed gives byte-identical outputs [default: 42]
+    #[arg(long)]
+    pub seed: Option<u64>,
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
@@ -325,18 +325,18 @@ pub struct SimulateArgs {
     /// iota: introductions per unit of pressure (average-patch equivalents of occupied host) [default: 0.05, or the `--calibration` fit]
     #[arg(long)]
     pub introduction: Option<f64>,
-    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
-    #[arg(long, default_value_t = 0.1)]
-    pub regrowth: f64,
-    /// Share of a saturated patch's colonisation pressure that travels far (0 = off)
-    #[arg(long, default_value_t = 0.0)]
-    pub long_distance_share: f64,
-    /// Long-distance kernel scale as a multiple of alpha
-    #[arg(long, default_value_t = 10.0)]
-    pub long_distance_multiple: f64,
-    /// Years a patch must stay occupied to count as saturated
-    #[arg(long, default_value_t = 3)]
-    pub long_distance_after_years: u32,
+    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g))) [default: 0.1]
+    #[arg(long)]
+    pub regrowth: Option<f64>,
+    /// Share of a saturated patch's colonisation pressure that travels far (0 = off) [default: 0]
+    #[arg(long)]
+    pub long_distance_share: Option<f64>,
+    /// Long-distance kernel scale as a multiple of alpha [default: 10]
+    #[arg(long)]
+    pub long_distance_multiple: Option<f64>,
+    /// Years a patch must stay occupied to count as saturated [default: 3]
+    #[arg(long)]
+    pub long_distance_after_years: Option<u32>,
 }
 
 /// Flags of `hostcut calibrate`.
