@@ -2,6 +2,7 @@
 
 pub mod calibrate;
 pub mod chart;
+pub mod contract;
 pub mod curve;
 pub mod format;
 pub mod map;
