@@ -8,6 +8,7 @@ pub mod format;
 pub mod map;
 pub mod orders;
 pub mod output;
+pub mod plan;
 pub mod program;
 pub mod simulate;
 pub mod staging;
