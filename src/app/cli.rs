@@ -262,18 +262,25 @@ pub struct CurveArgs {
     pub jobs: usize,
 }
 
-/// Flags of `hostcut contract`.
+/// `--out DIR` and `--force`, for the commands that read a plan folder and write another.
 #[derive(Debug, Clone, Args)]
-pub struct ContractArgs {
-    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
-    #[arg(long = "plan", value_name = "DIR")]
-    pub plan_dir: PathBuf,
+pub struct OutFolder {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
     /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
+}
+
+/// Flags of `hostcut contract`.
+#[derive(Debug, Clone, Args)]
+pub struct ContractArgs {
+    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
+    #[arg(long = "plan", value_name = "DIR")]
+    pub plan_dir: PathBuf,
+    #[command(flatten)]
+    pub output: OutFolder,
 }
 
 /// Flags of `hostcut record`.
@@ -285,12 +292,8 @@ pub struct RecordArgs {
     /// The filled completion file (from `hostcut contract`'s completion_template.csv)
     #[arg(long, value_name = "CSV")]
     pub completed: PathBuf,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
 }
 
 /// Flags of `hostcut simulate`.

@@ -31,8 +31,8 @@ pub fn contract(args: &ContractArgs) -> Result<ContractSettings> {
     let folder = PlanFolder::read(&args.plan_dir)?;
     Ok(ContractSettings {
         folder,
-        out: absolute(&args.out)?,
-        force: args.force,
+        out: absolute(&args.output.out)?,
+        force: args.output.force,
     })
 }
 
@@ -41,7 +41,7 @@ pub fn record(args: &RecordArgs) -> Result<RecordSettings> {
     Ok(RecordSettings {
         folder,
         completed: args.completed.clone(),
-        out: absolute(&args.out)?,
-        force: args.force,
+        out: absolute(&args.output.out)?,
+        force: args.output.force,
     })
 }

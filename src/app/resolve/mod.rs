@@ -62,6 +62,29 @@ pub fn planning(
     resolve_with(&inputs, need_budget)
 }
 
+/// The preamble of `curve` and `program`, after their own flags: the plan folder's scenario
+/// (`plan_folder`, read before their flags were checked so a wrong `--plan` is said first)
+/// under the flags, resolved without a budget, an ensemble refused with `message` and `hint`.
+pub fn single_kernel(
+    args: &PlanArgs,
+    plan_folder: Option<PathBuf>,
+    message: &str,
+    hint: &str,
+) -> Result<Settings> {
+    let mut inputs = args.clone();
+    if plan_folder.is_some() {
+        inputs.scenario = plan_folder;
+    }
+    let settings = planning(inputs, None, false)?;
+    refuse_ensemble(&settings, message, hint)?;
+    Ok(settings)
+}
+
+/// A plan folder's scenario.resolved.toml, when `--plan DIR` is given.
+pub fn plan_folder_of(plan_dir: Option<&Path>) -> Result<Option<PathBuf>> {
+    plan_dir.map(plan_folder_scenario).transpose()
+}
+
 /// Refuse an ensemble for a command that works on one dispersal kernel.
 pub fn refuse_ensemble(settings: &Settings, message: &str, hint: &str) -> Result<()> {
     if settings.scenario.ensemble.is_some() {
