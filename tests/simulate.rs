@@ -532,6 +532,20 @@ fn simulate_writes_a_record_that_repeats_the_run() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     same("sp", "sp2");
+    // Another command reading the record says that it sets the table aside, and its own
+    // record does not carry it (a setting the user gave is never dropped silently).
+    let o = run(
+        d,
+        &["plan", "--scenario", rec, "--out", "replanned", "--quiet"],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("[simulate] table applies to `hostcut simulate` only"),
+        "{}",
+        stderr(&o)
+    );
+    let replanned = std::fs::read_to_string(d.join("replanned/scenario.resolved.toml")).unwrap();
+    assert!(!replanned.contains("[simulate]"), "{replanned}");
     // The simulation's folder is not a plan folder.
     let o = run(d, &["simulate", "--plan", "sim", "--out", "x", "--quiet"]);
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));

@@ -43,6 +43,7 @@ pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
     let settings = super::single_kernel(
         &args.inputs,
         plan_folder,
+        "curve",
         "`hostcut curve` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
         "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
     )?;

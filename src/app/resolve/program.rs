@@ -53,6 +53,7 @@ pub fn resolve(args: &ProgramArgs) -> Result<ProgramSettings> {
     let settings = super::single_kernel(
         &args.inputs,
         plan_folder,
+        "program",
         "`hostcut program` works on one dispersal kernel",
         "give one kernel, e.g. `--kernel exp:200`",
     )?;
