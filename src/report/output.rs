@@ -48,6 +48,19 @@ pub fn write_record(
     staging.write(name, format!("# {header}\n{}", resolved.to_toml()?))
 }
 
+/// cautions.txt of a folder that plans (plan, curve, programme): the standing cautions and the
+/// site check (whether a water layer was given).
+pub fn write_cautions(staging: &Staging, water_checked: bool) -> Result<()> {
+    staging.write(
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(water_checked)
+        ),
+    )
+}
+
 /// Scientific notation for values that span many orders of magnitude.
 fn sci(v: f64) -> String {
     if !v.is_finite() {
@@ -267,14 +280,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         &fields,
         &features,
     )?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(patches.water_checked)
-        ),
-    )?;
+    write_cautions(staging, patches.water_checked)?;
     Ok(())
 }
 
