@@ -31,31 +31,17 @@ pub struct Stdout<'a> {
     pub comparison: Option<&'a str>,
 }
 
-/// The whole stdout of `hostcut plan`.
+/// The whole stdout of `hostcut plan`: the plan, then the ensemble's lines and the
+/// comparison with the rules of thumb (when there are), the files, and the cautions.
 pub fn text(s: &Stdout, printer: Printer) -> String {
-    let mut text = human_summary(s.summary, s.plan, s.patches, s.catalogue, s.out, printer);
-    if let Some(lines) = s.ensemble {
-        text = text.replacen("\noutputs in", &format!("\n{lines}outputs in"), 1);
-        text = text.replacen(
-            "cautions.txt, scenario",
-            "cautions.txt, regret.csv, scenario",
-            1,
-        );
-    }
-    if let Some(line) = s.comparison {
-        text = text.replacen("\noutputs in", &format!("\n{line}\noutputs in"), 1);
-    }
-    text
-}
-
-fn human_summary(
-    summary: &output::Summary,
-    plan: &plan::Plan,
-    patches: &patches::Patches,
-    catalogue: &Catalogue,
-    out: &Path,
-    printer: Printer,
-) -> String {
+    let Stdout {
+        summary,
+        plan,
+        patches,
+        catalogue,
+        out,
+        ..
+    } = *s;
     let mut t = printer.text();
     let c = &summary.currency;
     let money = crate::report::format::money;
@@ -190,9 +176,16 @@ fn human_summary(
             }
         }
     }
+    if let Some(lines) = s.ensemble {
+        t.push_str(lines);
+    }
+    if let Some(line) = s.comparison {
+        t.line(line);
+    }
     t.line(format_args!(
-        "outputs in {}: plan.csv, patches.csv, plan.geojson, summary.json, cautions.txt, scenario.resolved.toml",
-        out.display()
+        "outputs in {}: plan.csv, patches.csv, plan.geojson, summary.json, cautions.txt, {}scenario.resolved.toml",
+        out.display(),
+        if s.ensemble.is_some() { "regret.csv, " } else { "" }
     ));
     t.push('\n');
     t.push_str(&cautions::standing_text());
