@@ -73,9 +73,13 @@ pub struct PlanArgs {
     /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha,suitability]
     #[arg(long, value_name = "CSV")]
     pub inventory: Option<PathBuf>,
-    /// Projected CRS (metres) of the inventory's x,y, e.g. EPSG:32618
+    /// CRS of the inventory's x,y, e.g. EPSG:32618 or 32618; lon/lat (EPSG:4326, CRS84) is
+    /// projected into the local UTM zone, a CRS in feet (e.g. EPSG:2272) into its metre form
     #[arg(long, value_name = "CRS")]
     pub crs: Option<String>,
+    /// Work CRS (projected, metres) to convert the inventory into, instead of the default
+    #[arg(long, value_name = "CRS")]
+    pub work_crs: Option<String>,
     /// CRS to assume for a raster or vector layer that carries none
     #[arg(long, value_name = "CRS")]
     pub assume_crs: Option<String>,
@@ -281,6 +285,9 @@ pub struct ContractArgs {
     pub plan_dir: PathBuf,
     #[command(flatten)]
     pub output: OutFolder,
+    /// Units of printed areas: ha (hectares) or ac (international acres, 1 ac = 0.40468564224 ha)
+    #[arg(long, value_name = "UNIT", default_value = "ha", value_parser = ["ha", "ac"])]
+    pub area_units: String,
 }
 
 /// Flags of `hostcut record`.
@@ -292,6 +299,13 @@ pub struct RecordArgs {
     /// The filled completion file (from `hostcut contract`'s completion_template.csv)
     #[arg(long, value_name = "CSV")]
     pub completed: PathBuf,
+    /// Stems treated above the plan's estimate are accepted with a warning up to this share of
+    /// the planned stems, in percent; beyond it the file is refused
+    #[arg(long, value_name = "PCT", default_value_t = 25.0)]
+    pub extra_stems_tolerance_pct: f64,
+    /// Accept stems treated above the plan beyond the tolerance (after confirming the count)
+    #[arg(long)]
+    pub accept_extra_stems: bool,
     #[command(flatten)]
     pub output: OutFolder,
 }

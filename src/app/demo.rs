@@ -138,7 +138,7 @@ fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
             "permission",
             "allowed",
             1.1,
-            "Owner on file, call 555-0123",
+            "the owner on file, 555-0123",
         ),
         (
             "Millbrook School District",

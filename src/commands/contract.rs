@@ -4,7 +4,8 @@
 
 use crate::app::resolve::contract::{ContractSettings, RecordSettings};
 use crate::core::error::Result;
-use crate::field::contract;
+use crate::core::printer;
+use crate::field::{contract, plan_folder};
 use crate::report::contract as contract_report;
 use crate::report::output::Staging;
 
@@ -12,16 +13,20 @@ pub fn run_contract(settings: &ContractSettings) -> Result<String> {
     let folder = &settings.folder;
     let staging = Staging::new(&settings.out, settings.force, "contract")?;
     let items = contract::line_items(folder);
-    contract_report::write_bid(&staging, folder, &items)?;
+    contract_report::write_bid(&staging, folder, &items, settings.area_units)?;
     let out = staging.commit()?;
     Ok(contract_report::bid_text(folder, &items, &out))
 }
 
 pub fn run_record(settings: &RecordSettings) -> Result<String> {
     let folder = &settings.folder;
-    let done = contract::check_completion(folder, &settings.completed)?;
+    let completion = contract::check_completion(folder, &settings.completed, settings.extra)?;
+    for w in &completion.warnings {
+        printer::note(format_args!("warning: {w}"));
+    }
+    let outlines = plan_folder::outlines(folder)?;
     let staging = Staging::new(&settings.out, settings.force, "record")?;
-    let season = contract::season(folder, &done);
+    let season = contract::season(folder, &completion, &outlines);
     contract_report::write_season(&staging, folder, &season)?;
     let out = staging.commit()?;
     Ok(contract_report::season_text(&season, &out))

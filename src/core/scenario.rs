@@ -263,6 +263,10 @@ pub struct HostSection {
     /// CRS assumed for layers without one.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub assume_crs: Option<String>,
+    /// Work CRS (projected, metres) an inventory in another CRS is converted into; default: the
+    /// inventory's own when metric, the local UTM zone for lon/lat, the metre form of a feet CRS.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub work_crs: Option<String>,
     /// Establishment suitability raster (0..1); effective host = stems x suitability.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub suitability: Option<PathBuf>,
@@ -284,6 +288,7 @@ impl Default for HostSection {
             inventory: None,
             crs: None,
             assume_crs: None,
+            work_crs: None,
             suitability: None,
             stems_field: "stems".into(),
             id_field: None,

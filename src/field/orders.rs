@@ -509,7 +509,7 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
             if p.contact.is_empty() {
                 String::new()
             } else {
-                format!(": {}", p.contact)
+                format!(": call {} before entry", p.contact)
             }
         ));
     }

@@ -157,6 +157,8 @@ pub struct Layers {
     /// Plain statements about rules that took their default (e.g. parcels with no herbicide
     /// value), shown on stderr and in summary.json.
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// The layers and fields actually read.
     pub bindings: Bindings,
 }
@@ -168,11 +170,37 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         Some(def) => Some(Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
+    let mut inventory_note = None;
     let (crs, host) = if let Some(path) = &s.host.inventory {
-        let crs = Crs::parse(s.host.crs.as_deref().unwrap_or_default(), "`--crs`")?;
-        let stands = crate::input::inventory::read_inventory(path)?;
+        let mut stands = crate::input::inventory::read_inventory(path)?;
+        let points: Vec<(f64, f64)> = stands.iter().map(|s| (s.x, s.y)).collect();
+        let projected = gis::project_points(
+            s.host.crs.as_deref().unwrap_or_default(),
+            s.host.work_crs.as_deref(),
+            &points,
+            &format!("inventory `{}` (`--crs`)", path.display()),
+        )?;
+        for (stand, &(x, y)) in stands.iter_mut().zip(&projected.points) {
+            stand.x = x;
+            stand.y = y;
+            if let Some((wkt, line)) = &stand.outline_wkt {
+                let from = s.host.crs.as_deref().unwrap_or_default();
+                stand.outline = Some(gis::outline_from_wkt(wkt, from, &projected.crs).map_err(
+                    |why| {
+                        Error::input_with_hint(
+                            format!(
+                                "inventory `{}`, line {line}, column `outline`: {why}",
+                                path.display()
+                            ),
+                            "give a POLYGON or MULTIPOLYGON in WKT, in the inventory's CRS, or leave the cell empty",
+                        )
+                    },
+                )?);
+            }
+        }
+        inventory_note = projected.note;
         (
-            crs,
+            projected.crs,
             Host::Inventory {
                 path: path.clone(),
                 stands,
@@ -195,7 +223,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
     };
     let host_extent = host_extent(&host);
     let mut skipped = Skipped::default();
-    let mut notes = Vec::new();
+    let mut notes: Vec<String> = Vec::new();
     let mut bindings = Bindings::default();
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);
@@ -386,6 +414,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         sensitive,
         skipped,
         notes,
+        crs_conversion: inventory_note,
         bindings,
     })
 }

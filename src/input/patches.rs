@@ -61,6 +61,8 @@ pub struct Patches {
     pub skipped: Skipped,
     /// Plain notes on rules that took their default (from the access layer).
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// Whether the sites were checked against water layers.
     pub water_checked: bool,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
@@ -573,6 +575,12 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                 if let Some(c) = s.cost_factor {
                     site.cost_factor = c;
                 }
+                if let Some(p) = &s.parcel {
+                    site.parcel = p.clone();
+                }
+                if let Some(c) = &s.contact {
+                    site.contact = c.clone();
+                }
                 items.push(Patch {
                     id: PatchId(items.len() as u32),
                     label: s.id.clone(),
@@ -580,7 +588,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                     y: s.y,
                     stems: s.stems,
                     area_ha: s.area_ha,
-                    outline: None,
+                    outline: s.outline.clone(),
                     site,
                     pressure_override: s.pressure,
                     suitability: s.suitability,
@@ -602,6 +610,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
         dropped_slivers,
         skipped,
         notes: layers.notes.clone(),
+        crs_conversion: layers.crs_conversion.clone(),
         water_checked: layers.water_checked,
         source,
         runs,

@@ -65,6 +65,9 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prep
     for line in patches.skipped.lines() {
         printer::note(format_args!("note: {line}"));
     }
+    if let Some(note) = &patches.crs_conversion {
+        printer::note(format_args!("note: {note}"));
+    }
     for note in &patches.notes {
         printer::note(format_args!("note: {note}"));
     }
@@ -73,6 +76,11 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prep
     }
     let mut resolved = s.clone();
     layers.bindings.apply(&mut resolved);
+    // The work CRS an inventory was converted into (the UTM zone chosen for lon/lat, the metre
+    // form of a feet CRS) is recorded, so the resolved scenario repeats it.
+    if resolved.host.inventory.is_some() {
+        resolved.host.work_crs = Some(patches.crs.name.clone());
+    }
 
     let by_label = patches.by_label();
     let mut required = vec![false; patches.len()];

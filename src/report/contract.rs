@@ -5,7 +5,8 @@
 //!
 //! # Units
 //! Money in the catalogue's currency, to the cent (billed money; house style in
-//! `report::format`); stems as counts; hectares.
+//! `report::format`); stems as counts; areas computed in hectares and printed in the contract's
+//! `--area-units` ([`AreaUnit`]: hectares or international acres).
 
 use std::fmt::Write as _;
 use std::path::Path;
@@ -14,6 +15,7 @@ use crate::core::cautions;
 use crate::core::error::Result;
 use crate::field::contract::{self, LineItem, PlanFolder, Season};
 use crate::report::chart::{escape, thousands};
+use crate::report::format::AreaUnit;
 use crate::report::output::{self, Staging};
 
 /// Contract money is billed money: to the cent (house style in `report::format`).
@@ -22,8 +24,13 @@ fn money(code: &str, cents: i64) -> String {
 }
 
 /// `hostcut contract`'s files: the bid schedule, the completion template (in priority order),
-/// the scope of work and the standing cautions.
-pub fn write_bid(staging: &Staging, folder: &PlanFolder, items: &[LineItem]) -> Result<()> {
+/// the scope of work and the standing cautions; areas printed in `area_units`.
+pub fn write_bid(
+    staging: &Staging,
+    folder: &PlanFolder,
+    items: &[LineItem],
+    area_units: AreaUnit,
+) -> Result<()> {
     let total = total(items);
     let mut rows = Vec::new();
     for item in items {
@@ -35,7 +42,9 @@ pub fn write_bid(staging: &Staging, folder: &PlanFolder, items: &[LineItem]) -> 
             item.site_class.to_string(),
             item.patch_ids.len().to_string(),
             format!("{:.1}", item.stems),
-            item.hectares.map(|h| format!("{h:.2}")).unwrap_or_default(),
+            item.hectares
+                .map(|h| format!("{:.2}", area_units.from_ha(h)))
+                .unwrap_or_default(),
             "stem".into(),
             format!("{:.4}", item.cents as f64 / 100.0 / item.stems.max(1e-9)),
             format!("{:.2}", item.cents as f64 / 100.0),
@@ -64,7 +73,7 @@ pub fn write_bid(staging: &Staging, folder: &PlanFolder, items: &[LineItem]) -> 
         "site_class",
         "patches",
         "stems",
-        "hectares",
+        area_units.column(),
         "unit",
         "estimated_unit_price",
         "estimated_extended",
@@ -84,6 +93,9 @@ pub fn write_bid(staging: &Staging, folder: &PlanFolder, items: &[LineItem]) -> 
             String::new(),
             String::new(),
             String::new(),
+            String::new(),
+            p.parcel.clone(),
+            p.contact.clone(),
         ]);
     }
     let header = [
@@ -95,13 +107,16 @@ pub fn write_bid(staging: &Staging, folder: &PlanFolder, items: &[LineItem]) -> 
         "applicator_licence",
         "product_active_ingredient",
         "notes",
+        "reason",
+        "parcel",
+        "contact",
     ];
     staging.write(
         "completion_template.csv",
         output::csv_bytes(&header, &rows)?,
     )?;
 
-    let (md, html) = scope_of_work(folder, items, total);
+    let (md, html) = scope_of_work(folder, items, total, area_units);
     staging.write("scope_of_work.md", md)?;
     staging.write("scope_of_work.html", html)?;
     staging.write("cautions.txt", cautions::standing_text())
@@ -131,6 +146,7 @@ pub fn scope_of_work(
     folder: &PlanFolder,
     items: &[contract::LineItem],
     total: i64,
+    area_units: AreaUnit,
 ) -> (String, String) {
     let currency = &folder.catalogue.currency;
     let mut sections: Vec<(String, Vec<String>)> = Vec::new();
@@ -188,7 +204,7 @@ pub fn scope_of_work(
                 item.patch_ids.len(),
                 thousands(item.stems),
                 item.hectares
-                    .map(|h| format!(", {h:.1} ha"))
+                    .map(|h| format!(", {:.1} {}", area_units.from_ha(h), area_units.symbol()))
                     .unwrap_or_default(),
                 item.site_class
             ),
@@ -206,7 +222,25 @@ pub fn scope_of_work(
         ];
         match item.site_class {
             "restricted site" => lines.push("Restricted site: herbicide use only under the site's extra conditions (e.g. near a school, water supply or sensitive habitat); confirm them in writing with the site manager before work.".into()),
-            "permission" => lines.push("Landowner permission: obtain written permission from the owner or manager listed in the plan before entering; carry it on site.".into()),
+            "permission" => {
+                lines.push("Landowner permission: obtain written permission from the owner or manager listed in the plan before entering; carry it on site.".into());
+                for p in folder
+                    .planned
+                    .iter()
+                    .filter(|p| item.patch_ids.contains(&p.patch_id) && !p.contact.is_empty())
+                {
+                    lines.push(format!(
+                        "Patch {}{}: call {} before entry.",
+                        p.patch_id,
+                        if p.parcel.is_empty() {
+                            String::new()
+                        } else {
+                            format!(" (parcel {})", p.parcel)
+                        },
+                        p.contact
+                    ));
+                }
+            }
             _ => {}
         }
         let codes: std::collections::BTreeSet<&str> = folder
@@ -240,7 +274,7 @@ pub fn scope_of_work(
     sections.push((
         "What the contractor reports back".into(),
         vec![
-            "completion_template.csv filled in, one row per planned patch: treated_stems (blank if the patch was not done), date (YYYY-MM-DD), applicator_licence and product_active_ingredient for every herbicide treatment, and notes. `hostcut record` checks it against the plan.".into(),
+            "completion_template.csv filled in, one row per planned patch: treated_stems (blank if the patch was not done), date (YYYY-MM-DD), applicator_licence and product_active_ingredient for every herbicide treatment, and notes. A method other than the planned one is accepted only where it is eligible at the site (herbicide rule, water, restricted site), with the `method` changed and a `reason` given; stems above the plan's estimate by more than 25 % are refused until the count is confirmed. `hostcut record` checks it against the plan.".into(),
         ],
     ));
     let title = "Scope of work: tree-of-heaven treatment";
@@ -284,6 +318,10 @@ pub fn write_season(staging: &Staging, folder: &PlanFolder, season: &Season) -> 
                 p.area_ha.map(|a| format!("{a}")).unwrap_or_default(),
                 p.suitability.map(|s| format!("{s}")).unwrap_or_default(),
                 n.follow_up_due.clone(),
+                p.parcel.clone(),
+                p.contact.clone(),
+                p.corridors.clone(),
+                n.outline.clone(),
             ]
         })
         .collect();
@@ -299,6 +337,10 @@ pub fn write_season(staging: &Staging, folder: &PlanFolder, season: &Season) -> 
         "area_ha",
         "suitability",
         "follow_up_due",
+        "parcel",
+        "contact",
+        "corridors",
+        "outline",
     ];
     staging.write("inventory.next.csv", output::csv_bytes(&header, &rows)?)?;
     staging.write("record_report.md", record_report(folder, season))
@@ -335,21 +377,50 @@ fn record_report(folder: &PlanFolder, season: &Season) -> String {
         report,
         "\nPlan next season from it: `hostcut plan --inventory inventory.next.csv --crs {} --budget AMOUNT --out NEXT` (the `pressure` column keeps this season's corridor and detection pressure; delete it to recompute from layers).",
         if folder.crs.is_empty() {
-            "EPSG:NNNN"
+            "EPSG:NNNN".to_string()
+        } else if folder.crs.contains(' ') {
+            format!("'{}'", folder.crs)
         } else {
-            &folder.crs
+            folder.crs.clone()
         }
     );
+    if !season.substituted.is_empty() {
+        report.push_str("\n## Methods other than planned\n\n| patch | planned | used | reason |\n|---|---|---|---|\n");
+        for d in &season.substituted {
+            let _ = writeln!(
+                report,
+                "| {} | {} | {} | {} |",
+                d.patch_id,
+                d.substituted_for.as_deref().unwrap_or_default(),
+                d.method,
+                d.reason.replace('|', "/")
+            );
+        }
+    }
+    if !season.warnings.is_empty() {
+        report.push_str("\n## Warnings\n\n");
+        for w in season.warnings {
+            let _ = writeln!(report, "- {w}");
+        }
+    }
     report
 }
 
 /// `hostcut record`'s stdout.
 pub fn season_text(season: &Season, out: &Path) -> String {
     format!(
-        "hostcut record: {} of {} planned patches done, {} stems treated\noutputs in {}: inventory.next.csv, record_report.md\n",
+        "hostcut record: {} of {} planned patches done, {} stems treated{}\noutputs in {}: inventory.next.csv, record_report.md\n",
         season.done_patches,
         season.planned_patches,
         thousands(season.treated_stems),
+        if season.warnings.is_empty() {
+            String::new()
+        } else {
+            format!(
+                " ({} warning(s), in record_report.md)",
+                season.warnings.len()
+            )
+        },
         out.display()
     )
 }

@@ -95,3 +95,50 @@ mod tests {
         assert_eq!(thousands(-45000.0), "-45,000");
     }
 }
+
+/// Hectares in one international acre: 0.40468564224 (NIST Handbook 44, Appendix C: 1 acre =
+/// 4,046.856 422 4 m²).
+pub const HECTARES_PER_ACRE: f64 = 0.404_685_642_24;
+
+/// The unit printed areas are shown in (`--area-units`); computed areas stay in hectares.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum AreaUnit {
+    #[default]
+    Hectares,
+    Acres,
+}
+
+impl AreaUnit {
+    /// `ha` or `ac` as `--area-units` takes them.
+    pub fn parse(text: &str) -> Option<AreaUnit> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "ha" | "hectares" => Some(AreaUnit::Hectares),
+            "ac" | "acres" => Some(AreaUnit::Acres),
+            _ => None,
+        }
+    }
+
+    /// An area given in hectares, in this unit.
+    pub fn from_ha(self, ha: f64) -> f64 {
+        match self {
+            AreaUnit::Hectares => ha,
+            AreaUnit::Acres => ha / HECTARES_PER_ACRE,
+        }
+    }
+
+    /// The short symbol: `ha` or `ac`.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            AreaUnit::Hectares => "ha",
+            AreaUnit::Acres => "ac",
+        }
+    }
+
+    /// The column name for a table: `hectares` or `acres`.
+    pub fn column(self) -> &'static str {
+        match self {
+            AreaUnit::Hectares => "hectares",
+            AreaUnit::Acres => "acres",
+        }
+    }
+}

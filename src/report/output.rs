@@ -190,6 +190,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(o.suitability[i], 6),
             p.site.water.as_str().into(),
             p.site.notes(),
+            p.site.contact.clone(),
+            o.pressure.corridors[i].join(";"),
         ]);
     }
     let header = [
@@ -214,6 +216,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "suitability",
         "water",
         "site_notes",
+        "contact",
+        "corridors",
     ];
     staging.write("patches.csv", csv_bytes(&header, &rows)?)?;
 
@@ -337,6 +341,7 @@ pub fn summary(
         dropped_slivers: o.patches.dropped_slivers,
         host_source: o.patches.source.to_string(),
         crs: o.patches.crs.name.clone(),
+        crs_conversion: o.patches.crs_conversion.clone(),
         kernel: format!("{:?}", model.kernel).to_lowercase(),
         alpha_m: model.alpha_m,
         epsilon: model.epsilon,

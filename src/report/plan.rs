@@ -49,6 +49,10 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
         "hostcut plan: {} patches, {} links, {} eligible for treatment",
         summary.n_patches, summary.n_edges, summary.n_eligible
     ));
+    t.line(format_args!(
+        "  work CRS {} (x, y in plan.csv and patches.csv; lon, lat in WGS 84)",
+        patches.crs.name
+    ));
     if let Some(layer) = &summary.suitability_layer {
         t.line(format_args!(
             "  host weighted by the establishment suitability layer {layer}"
