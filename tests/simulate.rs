@@ -485,3 +485,140 @@ fn simulate_takes_the_plan_inputs_directly() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("at least 1"));
 }
+
+/// `simulate` keeps a record of the run, `simulate.resolved.toml` (the inputs as read and a
+/// `[simulate]` table of every setting), and the record repeats the run byte for byte, as
+/// `scenario.resolved.toml` does for `plan` (common practice: a run's provenance file repeats
+/// it). It is not `scenario.resolved.toml`, so the folder is not taken for a plan folder.
+#[test]
+fn simulate_writes_a_record_that_repeats_the_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(
+        d,
+        "stands.csv",
+        "id,x,y,stems,pressure\nA,500000,4480000,300,3\nB,500150,4480050,180,1\nC,500400,4480000,220,1\nD,500600,4480200,90,1\n",
+    );
+    let inputs = ["--inventory", "stands.csv", "--crs", "EPSG:32618"];
+    let ok = |args: &[&str]| {
+        let o = run(d, args);
+        assert!(o.status.success(), "{args:?}: {}", stderr(&o));
+    };
+    let same = |a: &str, b: &str| {
+        for f in ["sim.json", "sim.csv", "patch_occupancy.csv"] {
+            assert_eq!(
+                std::fs::read(d.join(a).join(f)).unwrap(),
+                std::fs::read(d.join(b).join(f)).unwrap(),
+                "{f}: {a} and {b} differ"
+            );
+        }
+    };
+    // Planned here at the budget, with settings away from every default.
+    let flags = [
+        "--budget",
+        "1500",
+        "--years",
+        "5",
+        "--runs",
+        "40",
+        "--seed",
+        "11",
+        "--extinction",
+        "0.3",
+        "--regrowth",
+        "0.2",
+        "--long-distance-share",
+        "0.1",
+        "--quiet",
+    ];
+    ok(&[&["simulate"][..], &inputs, &flags, &["--out", "sim"]].concat());
+    assert!(!d.join("sim/scenario.resolved.toml").exists());
+    let record = d.join("sim/simulate.resolved.toml");
+    let s = hostcut::core::scenario::read_scenario(&record).unwrap();
+    assert_eq!(s.plan.budget, Some(1500.0));
+    let t = s.simulate.expect("the [simulate] table");
+    assert_eq!((t.years, t.runs, t.seed), (Some(5), Some(40), Some(11)));
+    assert_eq!(t.extinction, Some(0.3));
+    assert_eq!(t.regrowth, Some(0.2));
+    assert_eq!(t.long_distance_share, Some(0.1));
+    // The defaults taken are recorded too (model::simulate::Params::default, the flags' help).
+    assert_eq!(t.colonisation, Some(0.5));
+    assert_eq!(t.long_distance_multiple, Some(10.0));
+    assert_eq!(t.plan, None);
+
+    let rec = record.to_str().unwrap();
+    ok(&["simulate", "--scenario", rec, "--out", "again", "--quiet"]);
+    same("sim", "again");
+    // A flag given again wins over the record's table.
+    ok(&[
+        "simulate",
+        "--scenario",
+        rec,
+        "--seed",
+        "12",
+        "--out",
+        "reseeded",
+        "--quiet",
+    ]);
+    let t = hostcut::core::scenario::read_scenario(&d.join("reseeded/simulate.resolved.toml"))
+        .unwrap()
+        .simulate
+        .unwrap();
+    assert_eq!((t.seed, t.runs), (Some(12), Some(40)));
+    assert_ne!(
+        std::fs::read(d.join("sim/sim.csv")).unwrap(),
+        std::fs::read(d.join("reseeded/sim.csv")).unwrap()
+    );
+
+    // A plan folder's plan: the record names the folder, and repeats from anywhere.
+    ok(&[
+        &["plan"][..],
+        &inputs,
+        &["--budget", "1500", "--out", "p", "--quiet"],
+    ]
+    .concat());
+    ok(&[
+        "simulate", "--plan", "p", "--runs", "30", "--years", "4", "--out", "sp", "--quiet",
+    ]);
+    let t = hostcut::core::scenario::read_scenario(&d.join("sp/simulate.resolved.toml"))
+        .unwrap()
+        .simulate
+        .unwrap();
+    assert_eq!(
+        t.plan.map(|p| std::fs::canonicalize(p).unwrap()),
+        Some(std::fs::canonicalize(d.join("p")).unwrap())
+    );
+    let moved = d.join("elsewhere");
+    std::fs::create_dir(&moved).unwrap();
+    let o = run(
+        &moved,
+        &[
+            "simulate",
+            "--scenario",
+            d.join("sp/simulate.resolved.toml").to_str().unwrap(),
+            "--out",
+            "../sp2",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    same("sp", "sp2");
+    // Another command reading the record says that it sets the table aside, and its own
+    // record does not carry it (a setting the user gave is never dropped silently).
+    let o = run(
+        d,
+        &["plan", "--scenario", rec, "--out", "replanned", "--quiet"],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("[simulate] table applies to `hostcut simulate` only"),
+        "{}",
+        stderr(&o)
+    );
+    let replanned = std::fs::read_to_string(d.join("replanned/scenario.resolved.toml")).unwrap();
+    assert!(!replanned.contains("[simulate]"), "{replanned}");
+    // The simulation's folder is not a plan folder.
+    let o = run(d, &["simulate", "--plan", "sim", "--out", "x", "--quiet"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("not a plan folder"), "{}", stderr(&o));
+}

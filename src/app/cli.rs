@@ -280,18 +280,25 @@ pub struct CurveArgs {
     pub jobs: usize,
 }
 
-/// Flags of `hostcut contract`.
+/// `--out DIR` and `--force`, for the commands that read a plan folder and write another.
 #[derive(Debug, Clone, Args)]
-pub struct ContractArgs {
-    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
-    #[arg(long = "plan", value_name = "DIR")]
-    pub plan_dir: PathBuf,
+pub struct OutFolder {
     /// Output folder (must be new or empty unless `--force`)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
     /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
     #[arg(long)]
     pub force: bool,
+}
+
+/// Flags of `hostcut contract`.
+#[derive(Debug, Clone, Args)]
+pub struct ContractArgs {
+    /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
+    #[arg(long = "plan", value_name = "DIR")]
+    pub plan_dir: PathBuf,
+    #[command(flatten)]
+    pub output: OutFolder,
     /// Units of printed areas: ha (hectares) or ac (international acres, 1 ac = 0.40468564224 ha)
     #[arg(long, value_name = "UNIT", default_value = "ha", value_parser = ["ha", "ac"])]
     pub area_units: String,
@@ -313,12 +320,8 @@ pub struct RecordArgs {
     /// Accept stems treated above the plan beyond the tolerance (after confirming the count)
     #[arg(long)]
     pub accept_extra_stems: bool,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
 }
 
 /// Flags of `hostcut simulate`.
@@ -329,22 +332,23 @@ pub struct SimulateArgs {
     /// Simulate the plan in this plan folder, with its inputs and settings
     #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
     pub plan_dir: Option<PathBuf>,
-    /// Years to simulate (treatment at the start of year 1)
-    #[arg(long, default_value_t = 10)]
-    pub years: u32,
-    /// Stochastic runs per strategy (the same random numbers for every strategy)
-    #[arg(long, default_value_t = 500)]
-    pub runs: u32,
-    /// Seed of the random streams; the same seed gives byte-identical outputs
-    #[arg(long, default_value_t = 42)]
-    pub seed: u64,
+    /// Years to simulate (treatment at the start of year 1) [default: 10]
+    #[arg(long)]
+    pub years: Option<u32>,
+    /// Stochastic runs per strategy (the same random numbers for every strategy) [default: 500]
+    #[arg(long)]
+    pub runs: Option<u32>,
+    /// Seed of the random streams; the same seed gives byte-identical outputs [default: 42]
+    #[arg(long)]
+    pub seed: Option<u64>,
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
     /// Random feasible plans simulated besides the plan and the rules, to check whether plans
     /// with a lower R also leave less host occupied (proxy.csv, sim.json `proxy_check`); 0: none
-    #[arg(long, default_value_t = 12)]
-    pub proxy_plans: usize,
+    /// [default: 12]
+    #[arg(long)]
+    pub proxy_plans: Option<usize>,
     /// e: yearly extinction probability of an average-sized untreated patch [default: 0.2, or the `--calibration` fit]
     #[arg(long)]
     pub extinction: Option<f64>,
@@ -357,18 +361,18 @@ pub struct SimulateArgs {
     /// iota: introductions per unit of pressure (average-patch equivalents of occupied host) [default: 0.05, or the `--calibration` fit]
     #[arg(long)]
     pub introduction: Option<f64>,
-    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
-    #[arg(long, default_value_t = 0.1)]
-    pub regrowth: f64,
-    /// Share of a saturated patch's colonisation pressure that travels far (0 = off)
-    #[arg(long, default_value_t = 0.0)]
-    pub long_distance_share: f64,
-    /// Long-distance kernel scale as a multiple of alpha
-    #[arg(long, default_value_t = 10.0)]
-    pub long_distance_multiple: f64,
-    /// Years a patch must stay occupied to count as saturated
-    #[arg(long, default_value_t = 3)]
-    pub long_distance_after_years: u32,
+    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g))) [default: 0.1]
+    #[arg(long)]
+    pub regrowth: Option<f64>,
+    /// Share of a saturated patch's colonisation pressure that travels far (0 = off) [default: 0]
+    #[arg(long)]
+    pub long_distance_share: Option<f64>,
+    /// Long-distance kernel scale as a multiple of alpha [default: 10]
+    #[arg(long)]
+    pub long_distance_multiple: Option<f64>,
+    /// Years a patch must stay occupied to count as saturated [default: 3]
+    #[arg(long)]
+    pub long_distance_after_years: Option<u32>,
 }
 
 /// Flags of `hostcut calibrate`.

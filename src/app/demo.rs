@@ -12,6 +12,7 @@ use std::path::Path;
 use geo::{LineString, MultiPolygon, Point, Polygon};
 
 use crate::core::error::{Error, Result};
+use crate::core::progress::Bars;
 use crate::input::gis::{self, Crs, Property};
 
 pub use crate::core::rng::SplitMix;
@@ -573,7 +574,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 fn surveys_csv(dir: &Path) -> Result<String> {
     use crate::model::simulate::{self, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
-    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {})?;
+    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {}, Bars::Hidden)?;
     let landscape = prepared.landscape();
     let truth = Params {
         extinction: 0.25,

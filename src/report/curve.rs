@@ -137,14 +137,7 @@ pub fn write(
     let page = Page::new(prepared, points, analysis, money, s, context);
     staging.write("justification.md", page.markdown())?;
     staging.write("justification.html", page.html(&svg))?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(prepared.patches.water_checked)
-        ),
-    )?;
+    output::write_cautions(staging, prepared.patches.water_checked)?;
     let mut inputs_only = prepared.resolved.clone();
     inputs_only.plan.budget = None;
     output::write_provenance(

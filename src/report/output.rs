@@ -16,8 +16,27 @@ pub use crate::report::staging::{MARKER, Staging, check_new_file, write_new_file
 /// Make a run repeatable: keep the catalogue it used as `treatments.used.toml` and write
 /// `scenario.resolved.toml` pointing at it, under a one-line `header` comment. Paths inside the
 /// output folder are written relative to it, so the folder can be moved or copied.
+/// `scenario.resolved.toml` marks a plan folder (or a curve's or programme's); a command
+/// whose folder is not one names its record otherwise ([`write_record`]).
 pub fn write_provenance(
     staging: &Staging,
+    scenario: &crate::core::scenario::Scenario,
+    catalogue_text: &str,
+    header: &str,
+) -> Result<()> {
+    write_record(
+        staging,
+        "scenario.resolved.toml",
+        scenario,
+        catalogue_text,
+        header,
+    )
+}
+
+/// As [`write_provenance`], the record written as `name` (e.g. `simulate.resolved.toml`).
+pub fn write_record(
+    staging: &Staging,
+    name: &str,
     scenario: &crate::core::scenario::Scenario,
     catalogue_text: &str,
     header: &str,
@@ -26,9 +45,19 @@ pub fn write_provenance(
     let mut resolved = scenario.clone();
     resolved.plan.treatments = Some(staging.path("treatments.used.toml"));
     resolved.relative_to(staging.dir(), staging.out());
+    staging.write(name, format!("# {header}\n{}", resolved.to_toml()?))
+}
+
+/// cautions.txt of a folder that plans (plan, curve, programme): the standing cautions and the
+/// site check (whether a water layer was given).
+pub fn write_cautions(staging: &Staging, water_checked: bool) -> Result<()> {
     staging.write(
-        "scenario.resolved.toml",
-        format!("# {header}\n{}", resolved.to_toml()?),
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(water_checked)
+        ),
     )
 }
 
@@ -245,14 +274,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         &fields,
         &features,
     )?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(patches.water_checked)
-        ),
-    )?;
+    write_cautions(staging, patches.water_checked)?;
     Ok(())
 }
 

@@ -200,14 +200,7 @@ pub fn write(
             .map_err(|e| Error::Internal(format!("summary: {e}")))?
             + "\n",
     )?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(prepared.patches.water_checked)
-        ),
-    )?;
+    output::write_cautions(staging, prepared.patches.water_checked)?;
     output::write_provenance(
         staging,
         &prepared.resolved,

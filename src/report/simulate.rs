@@ -6,11 +6,12 @@
 
 use crate::core::cautions;
 use crate::core::error::{Error, Result};
+use crate::core::scenario::SimulateSection;
 use crate::model::simulate;
 use crate::planning::prepare::Prepared;
 use crate::planning::simulate::{self as planning_sim, Simulation, pct};
 use crate::report::chart::{self, Marker, Series, Style};
-use crate::report::output::Staging;
+use crate::report::output::{self, Staging};
 
 /// The line style of each strategy (black and white print tells them apart by dash).
 fn style(id: &str) -> Style {
@@ -32,6 +33,29 @@ fn num(v: f64) -> String {
         String::new()
     }
 }
+
+/// The run's record, `simulate.resolved.toml` (not `scenario.resolved.toml`, which marks a plan
+/// folder): the inputs as read, the catalogue kept beside it, and the `[simulate]` table of
+/// what the simulation ran with, so `hostcut simulate --scenario simulate.resolved.toml`
+/// repeats it.
+pub fn write_record(
+    staging: &Staging,
+    prepared: &Prepared,
+    record: &SimulateSection,
+) -> Result<()> {
+    let mut scenario = prepared.resolved.clone();
+    scenario.simulate = Some(record.clone());
+    output::write_record(
+        staging,
+        RECORD,
+        &scenario,
+        &prepared.catalogue_text,
+        "Every input and setting this simulation used; repeat it with `hostcut simulate --scenario simulate.resolved.toml --out NEW` (a flag given again wins over its [simulate] entry).",
+    )
+}
+
+/// The file name of the simulation's record.
+pub const RECORD: &str = "simulate.resolved.toml";
 
 pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result<()> {
     let (traces, years, runs) = (&sim.traces, sim.summary.years, sim.summary.runs);

@@ -31,11 +31,7 @@ pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
             "use `--budgets 5000,10000,20000` or `--budget-range 0:60000:20`",
         ));
     }
-    let plan_folder = args
-        .plan_dir
-        .as_deref()
-        .map(super::plan_folder_scenario)
-        .transpose()?;
+    let plan_folder = super::plan_folder_of(args.plan_dir.as_deref())?;
     for b in &args.budgets {
         if !(b.is_finite() && *b >= 0.0) {
             return Err(Error::input_with_hint(
@@ -65,13 +61,10 @@ pub fn resolve(args: &CurveArgs) -> Result<CurveSettings> {
         .as_deref()
         .map(curve::parse_range)
         .transpose()?;
-    let mut inputs = args.inputs.clone();
-    if plan_folder.is_some() {
-        inputs.scenario = plan_folder;
-    }
-    let settings = super::planning(inputs, None, false)?;
-    super::refuse_ensemble(
-        &settings,
+    let settings = super::single_kernel(
+        &args.inputs,
+        plan_folder,
+        "curve",
         "`hostcut curve` works on one dispersal kernel; the scenarios of an ensemble apply to `hostcut plan`",
         "give one kernel, e.g. `--kernel exp:200`, to curve each scenario in turn",
     )?;
