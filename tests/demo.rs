@@ -67,6 +67,18 @@ fn committed_demo_inputs_match_the_generator() {
             "{f} differs: remake demo-inputs"
         );
     }
+    // The road layer: the same segments, class, one-way flag, in the same order.
+    let crs = hostcut::input::gis::Crs::parse("EPSG:32618", "demo").unwrap();
+    let roads = |p: std::path::PathBuf| {
+        hostcut::input::roads::read_roads(&p, &crs, &Default::default())
+            .unwrap()
+            .segments
+    };
+    assert_eq!(
+        roads(repo.join("roads.gpkg")),
+        roads(dir.path().join("roads.gpkg")),
+        "roads.gpkg differs: remake demo-inputs"
+    );
     let read = |p: std::path::PathBuf| hostcut::input::gis::read_raster(&p, None).unwrap();
     let (a, b) = (
         read(repo.join("host.tif")),

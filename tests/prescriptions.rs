@@ -319,7 +319,12 @@ fn optimum_over_prescriptions_equals_brute_force() {
         let s = summary(&out);
         let scenario =
             hostcut::core::scenario::read_scenario(&out.join("scenario.resolved.toml")).unwrap();
-        let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}).unwrap();
+        let prepared = hostcut::planning::prepare::prepare(
+            &scenario,
+            &|_| {},
+            hostcut::core::progress::Bars::Hidden,
+        )
+        .unwrap();
         let problem = hostcut::solve::problem::Problem {
             model: &prepared.model,
             choices: prepared.choices.clone(),

@@ -258,12 +258,37 @@ pub struct CurveArgs {
     /// patch with its most effective method, 20 budgets)
     #[arg(long, value_name = "MIN:MAX:STEPS")]
     pub budget_range: Option<String>,
-    /// Currency code shown in the outputs (default: the treatment catalogue's)
+    /// Currency of the outputs (default: the treatment catalogue's); another currency than the
+    /// catalogue's needs `--exchange-rate`
     #[arg(long, value_name = "CODE")]
     pub currency: Option<String>,
+    /// Units of `--currency` per unit of the catalogue's currency; every amount is converted and
+    /// the rate is stated on the page
+    #[arg(long, value_name = "RATE", requires = "currency")]
+    pub exchange_rate: Option<f64>,
+    /// Title of the justification page (default: a description of what it shows)
+    #[arg(long)]
+    pub title: Option<String>,
+    /// Place the page is about, e.g. the programme area, shown under the title
+    #[arg(long)]
+    pub place: Option<String>,
+    /// Date shown under the title, as written (e.g. 2027-03-01)
+    #[arg(long)]
+    pub date: Option<String>,
     /// Budget points solved at once (each worker solves a run of neighbouring budgets)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+}
+
+/// `--out DIR` and `--force`, for the commands that read a plan folder and write another.
+#[derive(Debug, Clone, Args)]
+pub struct OutFolder {
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// Flags of `hostcut contract`.
@@ -272,12 +297,8 @@ pub struct ContractArgs {
     /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
     #[arg(long = "plan", value_name = "DIR")]
     pub plan_dir: PathBuf,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
     /// Units of printed areas: ha (hectares) or ac (international acres, 1 ac = 0.40468564224 ha)
     #[arg(long, value_name = "UNIT", default_value = "ha", value_parser = ["ha", "ac"])]
     pub area_units: String,
@@ -299,12 +320,8 @@ pub struct RecordArgs {
     /// Accept stems treated above the plan beyond the tolerance (after confirming the count)
     #[arg(long)]
     pub accept_extra_stems: bool,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
 }
 
 /// Flags of `hostcut simulate`.
@@ -315,18 +332,23 @@ pub struct SimulateArgs {
     /// Simulate the plan in this plan folder, with its inputs and settings
     #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
     pub plan_dir: Option<PathBuf>,
-    /// Years to simulate (treatment at the start of year 1)
-    #[arg(long, default_value_t = 10)]
-    pub years: u32,
-    /// Stochastic runs per strategy (the same random numbers for every strategy)
-    #[arg(long, default_value_t = 500)]
-    pub runs: u32,
-    /// Seed of the random streams; the same seed gives byte-identical outputs
-    #[arg(long, default_value_t = 42)]
-    pub seed: u64,
+    /// Years to simulate (treatment at the start of year 1) [default: 10]
+    #[arg(long)]
+    pub years: Option<u32>,
+    /// Stochastic runs per strategy (the same random numbers for every strategy) [default: 500]
+    #[arg(long)]
+    pub runs: Option<u32>,
+    /// Seed of the random streams; the same seed gives byte-identical outputs [default: 42]
+    #[arg(long)]
+    pub seed: Option<u64>,
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+    /// Random feasible plans simulated besides the plan and the rules, to check whether plans
+    /// with a lower R also leave less host occupied (proxy.csv, sim.json `proxy_check`); 0: none
+    /// [default: 12]
+    #[arg(long)]
+    pub proxy_plans: Option<usize>,
     /// e: yearly extinction probability of an average-sized untreated patch [default: 0.2, or the `--calibration` fit]
     #[arg(long)]
     pub extinction: Option<f64>,
@@ -339,18 +361,18 @@ pub struct SimulateArgs {
     /// iota: introductions per unit of pressure (average-patch equivalents of occupied host) [default: 0.05, or the `--calibration` fit]
     #[arg(long)]
     pub introduction: Option<f64>,
-    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
-    #[arg(long, default_value_t = 0.1)]
-    pub regrowth: f64,
-    /// Share of a saturated patch's colonisation pressure that travels far (0 = off)
-    #[arg(long, default_value_t = 0.0)]
-    pub long_distance_share: f64,
-    /// Long-distance kernel scale as a multiple of alpha
-    #[arg(long, default_value_t = 10.0)]
-    pub long_distance_multiple: f64,
-    /// Years a patch must stay occupied to count as saturated
-    #[arg(long, default_value_t = 3)]
-    pub long_distance_after_years: u32,
+    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g))) [default: 0.1]
+    #[arg(long)]
+    pub regrowth: Option<f64>,
+    /// Share of a saturated patch's colonisation pressure that travels far (0 = off) [default: 0]
+    #[arg(long)]
+    pub long_distance_share: Option<f64>,
+    /// Long-distance kernel scale as a multiple of alpha [default: 10]
+    #[arg(long)]
+    pub long_distance_multiple: Option<f64>,
+    /// Years a patch must stay occupied to count as saturated [default: 3]
+    #[arg(long)]
+    pub long_distance_after_years: Option<u32>,
 }
 
 /// Flags of `hostcut calibrate`.
@@ -494,12 +516,36 @@ pub struct OrdersArgs {
     /// Working hours per crew-day, travel included
     #[arg(long, value_name = "H", default_value_t = 8.0)]
     pub day_hours: f64,
-    /// Average travel speed between sites, km/h
-    #[arg(long, value_name = "KMH", default_value_t = 30.0)]
-    pub speed_kmh: f64,
-    /// Road distance over straight-line distance (an assumption, stated in the outputs)
-    #[arg(long, value_name = "F", default_value_t = 1.3)]
-    pub detour_factor: f64,
+    /// Average travel speed between sites, km/h, for straight-line travel (without `--roads`)
+    /// [default: 30]
+    #[arg(long, value_name = "KMH")]
+    pub speed_kmh: Option<f64>,
+    /// Road distance over straight-line distance, for straight-line travel (without `--roads`;
+    /// an assumption, stated in the outputs) [default: 1.3]
+    #[arg(long, value_name = "F")]
+    pub detour_factor: Option<f64>,
+    /// Road layer to route the crews on (any GDAL line layer: GeoPackage, Shapefile,
+    /// OpenStreetMap .osm.pbf); without it travel is straight line x detour
+    #[arg(long, value_name = "FILE")]
+    pub roads: Option<PathBuf>,
+    /// Layer to read in a multi-layer `--roads` file [default: `lines` for OpenStreetMap, else
+    /// the only line layer]
+    #[arg(long, value_name = "NAME", requires = "roads")]
+    pub roads_layer: Option<String>,
+    /// Field of `--roads` with the road class (OpenStreetMap `highway` values get stated
+    /// default speeds) [default: highway]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_class_field: Option<String>,
+    /// Field of `--roads` saying a road is one-way (yes/1/T/FT forward, -1/TF reverse)
+    /// [default: oneway]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_oneway_field: Option<String>,
+    /// Field of `--roads` with the road's own speed, km/h or "N mph" [default: maxspeed]
+    #[arg(long, value_name = "FIELD", requires = "roads")]
+    pub roads_speed_field: Option<String>,
+    /// One speed for every drivable road, km/h, instead of the class table and the layer's speeds
+    #[arg(long, value_name = "KMH", requires = "roads")]
+    pub road_speed_kmh: Option<f64>,
     /// First working day, YYYY-MM-DD [default: the season's first window opening from today]
     #[arg(long, value_name = "DATE")]
     pub start_date: Option<String>,

@@ -12,6 +12,7 @@ use std::path::Path;
 use geo::{LineString, MultiPolygon, Point, Polygon};
 
 use crate::core::error::{Error, Result};
+use crate::core::progress::Bars;
 use crate::input::gis::{self, Crs, Property};
 
 pub use crate::core::rng::SplitMix;
@@ -49,6 +50,142 @@ fn stream() -> Vec<(f64, f64)> {
         (X0 + 4_500.0, Y0 + 1_300.0),
         (X0 + 4_300.0, Y0),
     ]
+}
+
+/// Where two segments a–b and c–d cross (strictly inside both), if they do.
+fn crossing(a: (f64, f64), b: (f64, f64), c: (f64, f64), d: (f64, f64)) -> Option<(f64, f64, f64)> {
+    let (rx, ry) = (b.0 - a.0, b.1 - a.1);
+    let (sx, sy) = (d.0 - c.0, d.1 - c.1);
+    let denominator = rx * sy - ry * sx;
+    if denominator.abs() < 1e-12 {
+        return None;
+    }
+    let t = ((c.0 - a.0) * sy - (c.1 - a.1) * sx) / denominator;
+    let u = ((c.0 - a.0) * ry - (c.1 - a.1) * rx) / denominator;
+    (t > 1e-9 && t < 1.0 - 1e-9 && u > 1e-9 && u < 1.0 - 1e-9).then_some((
+        a.0 + t * rx,
+        a.1 + t * ry,
+        t,
+    ))
+}
+
+fn crosses(a: (f64, f64), b: (f64, f64), line: &[(f64, f64)]) -> bool {
+    line.windows(2)
+        .any(|w| crossing(a, b, w[0], w[1]).is_some())
+}
+
+/// Inside the reservoir (the host raster's nodata ellipse).
+fn in_reservoir(p: (f64, f64)) -> bool {
+    ((p.0 - (X0 + 4_700.0)) / 500.0).powi(2) + ((p.1 - (Y0 + 700.0)) / 300.0).powi(2) < 1.0
+}
+
+/// One road of the demo layer: vertices, OpenStreetMap class, name, one-way value.
+pub struct DemoRoad {
+    pub points: Vec<(f64, f64)>,
+    pub class: &'static str,
+    pub name: String,
+    pub oneway: &'static str,
+}
+
+/// The demo's road layer (invented): township roads every 500 m east–west and concession roads
+/// every 500 m north–south, Route 17 (the highway corridor) as a primary road, all meeting at
+/// shared vertices where they cross. Hollin Run is crossed by one bridge only, on Mill Road (y =
+/// 1,750 m): every other road ends before the stream, and roads stop at the reservoir's shore.
+/// Concession 6 (x = 2,750 m) is one-way northbound north of Township Road 6.
+pub fn roads() -> Vec<DemoRoad> {
+    let mut roads: Vec<DemoRoad> = Vec::new();
+    for k in 0..8 {
+        let y = Y0 + 250.0 + 500.0 * k as f64;
+        let mill = k == 3;
+        roads.push(DemoRoad {
+            points: vec![(X0, y), (X0 + 6_000.0, y)],
+            class: if mill { "secondary" } else { "tertiary" },
+            name: if mill {
+                "Mill Road".to_string()
+            } else {
+                format!("Township Road {}", k + 1)
+            },
+            oneway: "no",
+        });
+    }
+    for k in 0..12 {
+        let x = X0 + 250.0 + 500.0 * k as f64;
+        roads.push(DemoRoad {
+            points: vec![(x, Y0), (x, Y0 + 4_000.0)],
+            class: "residential",
+            name: format!("Concession {}", k + 1),
+            oneway: "no",
+        });
+    }
+    roads.push(DemoRoad {
+        points: highway(),
+        class: "primary",
+        name: "Route 17".to_string(),
+        oneway: "no",
+    });
+    // Every crossing becomes a vertex of both roads.
+    let lines: Vec<Vec<(f64, f64)>> = roads.iter().map(|r| r.points.clone()).collect();
+    for (i, road) in roads.iter_mut().enumerate() {
+        let mut points = Vec::new();
+        for w in lines[i].windows(2) {
+            let mut on: Vec<(f64, f64, f64)> = Vec::new();
+            for (j, other) in lines.iter().enumerate() {
+                if j == i {
+                    continue;
+                }
+                on.extend(
+                    other
+                        .windows(2)
+                        .filter_map(|v| crossing(w[0], w[1], v[0], v[1])),
+                );
+            }
+            on.sort_by(|a, b| a.2.total_cmp(&b.2));
+            points.push(w[0]);
+            points.extend(on.iter().map(|&(x, y, _)| (x, y)));
+        }
+        points.extend(lines[i].last().copied());
+        road.points = points;
+    }
+    // Cut the pieces that would cross Hollin Run (but Mill Road's bridge) or the reservoir;
+    // Concession 6 is two pieces, one-way north of Township Road 6.
+    let mut out: Vec<DemoRoad> = Vec::new();
+    for road in &roads {
+        let bridge = road.name == "Mill Road";
+        let split_at = (road.name == "Concession 6").then_some(Y0 + 2_750.0);
+        let mut piece: Vec<(f64, f64)> = Vec::new();
+        let mut flush = |piece: &mut Vec<(f64, f64)>| {
+            if piece.len() >= 2 {
+                let one_way = split_at.is_some_and(|y| piece[0].1 >= y - 1e-6);
+                out.push(DemoRoad {
+                    points: std::mem::take(piece),
+                    class: road.class,
+                    name: road.name.clone(),
+                    oneway: if one_way { "yes" } else { road.oneway },
+                });
+            }
+            piece.clear();
+        };
+        for w in road.points.windows(2) {
+            let mid = ((w[0].0 + w[1].0) / 2.0, (w[0].1 + w[1].1) / 2.0);
+            let blocked = (!bridge && crosses(w[0], w[1], &stream()))
+                || in_reservoir(w[0])
+                || in_reservoir(w[1])
+                || in_reservoir(mid);
+            if blocked {
+                flush(&mut piece);
+                continue;
+            }
+            if split_at.is_some_and(|y| (w[0].1 - y).abs() < 1e-6) {
+                flush(&mut piece);
+            }
+            if piece.is_empty() {
+                piece.push(w[0]);
+            }
+            piece.push(w[1]);
+        }
+        flush(&mut piece);
+    }
+    out
 }
 
 /// Sensitive sites (invented): a primary school and a public well.
@@ -354,6 +491,32 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
         &name,
         &[(line(highway()), vec![Property::Text("Route 17".into())])],
     )?;
+    let road_fields = [
+        ("highway", Property::Text(String::new())),
+        ("name", Property::Text(String::new())),
+        ("oneway", Property::Text(String::new())),
+    ];
+    let road_features: Vec<_> = roads()
+        .into_iter()
+        .map(|r| {
+            (
+                line(r.points),
+                vec![
+                    Property::Text(r.class.into()),
+                    Property::Text(r.name),
+                    Property::Text(r.oneway.into()),
+                ],
+            )
+        })
+        .collect();
+    gis::write_vector(
+        &dir.join("roads.gpkg"),
+        "GPKG",
+        "roads",
+        &crs,
+        &road_fields,
+        &road_features,
+    )?;
     gis::write_vector(
         &dir.join("water.gpkg"),
         "GPKG",
@@ -411,6 +574,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
          - host.tif: tree-of-heaven stems per hectare, 20 m cells, EPSG:32618, nodata = -9999 (a reservoir)\n\
          - parcels.gpkg: 24 parcels with access (open/permission/denied), herbicide (allowed/restricted/prohibited), cost_factor, contact\n\
          - rail.gpkg, highway.gpkg: transport corridors\n\
+         - roads.gpkg: the county's roads (layer `roads`: `highway` class, `name`, `oneway`), township roads every 500 m east-west, concessions every 500 m north-south, Route 17; Hollin Run is crossed only by the Mill Road bridge (use with `hostcut orders --roads`; the county yard is at 501250,4471750)\n\
          - water.gpkg: Hollin Run, a stream (patches within 15 m get only methods the catalogue allows near water)\n\
          - sensitive.gpkg: a school and a public well (patches within 30 m are restricted sites)\n\
          - detections.gpkg: known lanternfly populations\n\
@@ -427,7 +591,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 fn surveys_csv(dir: &Path) -> Result<String> {
     use crate::model::simulate::{self, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
-    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {})?;
+    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {}, Bars::Hidden)?;
     let landscape = prepared.landscape();
     let truth = Params {
         extinction: 0.25,

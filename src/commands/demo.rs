@@ -29,8 +29,11 @@ pub fn run(args: &DemoArgs, printer: Printer) -> Result<RunReport> {
     let mut text = super::plan::run_into(&settings, &staging, None, printer)?;
     let out = staging.commit()?;
     text.push_str(&format!(
-        "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\n",
-        out.join("inputs").display()
+        "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\nwork orders with the crews routed on the county's roads from its yard:\n  hostcut orders --plan {} --roads {} --depot 501250,4471750 --out {}-orders\n",
+        out.join("inputs").display(),
+        out.display(),
+        out.join("inputs").join("roads.gpkg").display(),
+        out.display()
     ));
     Ok(RunReport { out, text })
 }

@@ -32,6 +32,7 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
     let runs = resolved.runs;
     let sim = simulate::simulate_plan(&prepared, &problem, &plan, resolved.params, runs, printer)?;
     simulate_report::write(&staging, &prepared, &sim)?;
+    simulate_report::write_record(&staging, &prepared, &resolved.record)?;
     let out = staging.commit()?;
 
     let summary = &sim.summary;
@@ -88,9 +89,13 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
     if let Some(verdict) = &summary.verdict {
         text.line(verdict.as_str());
     }
+    if let Some(check) = &summary.proxy_check {
+        text.line(check.reading.as_str());
+    }
     text.detail(format_args!(
-        "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, cautions.txt",
-        out.display()
+        "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, {}cautions.txt, simulate.resolved.toml",
+        out.display(),
+        if summary.proxy_check.is_some() { "proxy.csv, " } else { "" }
     ));
     text.push('\n');
     text.push_str(&cautions::standing_text());
@@ -113,21 +118,9 @@ fn plan_of_folder(prepared: &Prepared, dir: &std::path::Path) -> Result<Assignme
                 ))
             })?
             .index();
-        // With size classes the row's prescription names the choice (several prescriptions
-        // share a primary method); without, its method does.
-        let (by_class, _) = prepared
-            .catalogue
-            .stems_by_class(&prepared.patches.items[i]);
-        let o = prepared.choices[i]
-            .iter()
-            .position(|c| {
-                if row.prescription.is_empty() {
-                    prepared.catalogue.methods[c.method.0 as usize].id == row.method
-                } else {
-                    crate::input::treatments::prescription_text(&prepared.catalogue, c, &by_class)
-                        == row.prescription
-                }
-            })
+        // With size classes the row's prescription names the choice; without, its method does.
+        let o = prepared
+            .choice_named(i, &row.method, &row.prescription)
             .ok_or_else(|| {
                 Error::input(format!(
                     "`{}`: plan.csv treats `{}` with `{}`, which is not one of its choices now",

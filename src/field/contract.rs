@@ -466,6 +466,104 @@ pub fn follow_up_due(method: &Method, date: (i32, u8, u8)) -> String {
     format!("{:04}-{:02}-01", date.0 + 1, first)
 }
 
+/// One row of next season's inventory: a patch of the plan folder with the stems left after
+/// the work done (at the effectiveness of the method used) and its follow-up date.
+#[derive(Debug, Clone)]
+pub struct NextStand<'a> {
+    pub patch: &'a PatchRecord,
+    pub stems: f64,
+    /// YYYY-MM-DD, or empty for a patch not treated.
+    pub follow_up_due: String,
+    /// The patch's outline as WKT in the folder's work CRS, or empty when it has none.
+    pub outline: String,
+}
+
+/// What `hostcut record` tells of the season: next season's inventory and planned against done.
+#[derive(Debug, Clone)]
+pub struct Season<'a> {
+    pub next: Vec<NextStand<'a>>,
+    /// The patches treated with a method other than planned, in completion-file order.
+    pub substituted: Vec<&'a Done>,
+    /// The completion check's warnings (stems above the plan, substituted methods).
+    pub warnings: &'a [String],
+    pub planned_patches: usize,
+    pub done_patches: usize,
+    pub planned_stems: f64,
+    pub treated_stems: f64,
+    pub removed_stems: f64,
+    /// The plan's estimate, in cents.
+    pub planned_cents: i64,
+    /// The estimate pro rata by the stems treated, in cents.
+    pub done_cents: i64,
+}
+
+/// The season the completion file reports: stems removed at each method's effectiveness,
+/// follow-up dates, the outlines carried over (`outlines`, by patch id, from
+/// [`crate::field::plan_folder::outlines`]), and the plan's cost pro rata by the stems treated.
+pub fn season<'a>(
+    folder: &'a PlanFolder,
+    completion: &'a Completion,
+    outlines: &BTreeMap<String, String>,
+) -> Season<'a> {
+    let done = &completion.done;
+    let by_patch: HashMap<&str, &Done> = done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
+    let (mut treated_stems, mut removed_stems) = (0.0, 0.0);
+    let mut next = Vec::new();
+    for p in &folder.patches {
+        let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
+            Some(d) => {
+                // The method actually used (an eligible substitute counts at its own
+                // effectiveness); a crew count above the estimate replaces it.
+                let method = folder.catalogue.method(d.method_id);
+                let removed = d.treated_stems * method.effectiveness;
+                treated_stems += d.treated_stems;
+                removed_stems += removed;
+                (
+                    (p.stems.max(d.treated_stems) - removed).max(0.0),
+                    follow_up_due(method, d.date),
+                )
+            }
+            None => (p.stems, String::new()),
+        };
+        next.push(NextStand {
+            patch: p,
+            stems,
+            follow_up_due: due,
+            outline: outlines.get(&p.patch_id).cloned().unwrap_or_default(),
+        });
+    }
+    let planned_stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
+    let planned_cents: i64 = folder
+        .planned
+        .iter()
+        .map(|p| (p.cost * 100.0).round() as i64)
+        .sum();
+    let done_cents: i64 = folder
+        .planned
+        .iter()
+        .filter_map(|p| {
+            by_patch
+                .get(p.patch_id.as_str())
+                .map(|d| ((p.cost * d.treated_stems / p.stems.max(1e-9)) * 100.0).round() as i64)
+        })
+        .sum();
+    Season {
+        next,
+        substituted: done
+            .iter()
+            .filter(|d| d.substituted_for.is_some())
+            .collect(),
+        warnings: &completion.warnings,
+        planned_patches: folder.planned.len(),
+        done_patches: done.len(),
+        planned_stems,
+        treated_stems,
+        removed_stems,
+        planned_cents,
+        done_cents,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -1,8 +1,10 @@
 //! Stage 5, from a plan to the field: reading a plan folder back, contracts, work orders, routes
-//! and the calendar.
+//! on the road network and the calendar.
 
 pub mod calendar;
 pub mod contract;
+pub mod network;
 pub mod orders;
 pub mod plan_folder;
 pub mod routing;
+pub mod travel;

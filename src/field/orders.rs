@@ -12,8 +12,11 @@
 //!    first and, within a window, the days that buy the most risk reduction first. Days that do
 //!    not fit inside their window are kept, undated, and counted as missing crew-days.
 //!
-//! Travel time is straight-line distance x detour factor / speed: an assumption the outputs
-//! state, not a road network.
+//! Travel comes from the [`TravelModel`]: shortest drives on a road network (`--roads`), or
+//! straight-line distance x detour factor / speed, an assumption the outputs state. A stand no
+//! road from the depot reaches is not scheduled and is listed in [`Schedule::unreached`]
+//! (`field::travel` says why); one farther than the walk limit from a road is scheduled with the
+//! walk counted and listed in [`Schedule::far_from_road`].
 
 use std::collections::{BTreeMap, BTreeSet, HashMap};
 use std::path::Path;
@@ -24,6 +27,7 @@ use crate::core::error::{Error, Result};
 use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::routing::{self, Matrix};
+use crate::field::travel::{TravelModel, unreachable_reason};
 use crate::input::gis::{self, Crs};
 use crate::input::treatments::MethodId;
 
@@ -37,8 +41,6 @@ pub struct Options {
     pub depot: Option<(f64, f64)>,
     pub crews: usize,
     pub day_hours: f64,
-    pub speed_kmh: f64,
-    pub detour: f64,
     pub start: Date,
     pub workdays: Workdays,
     pub max_stops: usize,
@@ -62,6 +64,9 @@ pub struct Stop {
     pub work_hours: f64,
     /// Travel from the previous stop (or the depot) to this one.
     pub travel_hours: f64,
+    /// Kilometres driven from the previous stop (or the depot): road km, or straight-line km x
+    /// the detour factor without roads.
+    pub travel_km: f64,
     pub x: f64,
     pub y: f64,
     pub value_pct: f64,
@@ -79,11 +84,17 @@ pub struct CrewDay {
     pub stops: Vec<Stop>,
     /// Travel from the last stop back to the depot.
     pub return_hours: f64,
+    pub return_km: f64,
+    /// The line driven (and walked) from the depot through the stops and back, working CRS.
+    pub route: Vec<(f64, f64)>,
 }
 
 impl CrewDay {
     pub fn travel_hours(&self) -> f64 {
         self.stops.iter().map(|s| s.travel_hours).sum::<f64>() + self.return_hours
+    }
+    pub fn travel_km(&self) -> f64 {
+        self.stops.iter().map(|s| s.travel_km).sum::<f64>() + self.return_km
     }
     pub fn work_hours(&self) -> f64 {
         self.stops.iter().map(|s| s.work_hours).sum()
@@ -112,6 +123,30 @@ pub struct Schedule {
     pub days: Vec<CrewDay>,
     pub missing: Vec<Missing>,
     pub split_patches: usize,
+    /// `road network` or `straight line`, and the sentence that says how travel was found.
+    pub travel_model: &'static str,
+    pub travel_text: String,
+    /// Treated patches no road from the depot reaches (or none back): not scheduled.
+    pub unreached: Vec<Unreached>,
+    /// The depot (`patch_id` `depot`) and stands farther from a road than the walk limit.
+    pub far_from_road: Vec<FarFromRoad>,
+}
+
+/// A treated patch left unscheduled because no road joins it to the depot.
+#[derive(Debug, Clone)]
+pub struct Unreached {
+    /// Row of plan.csv.
+    pub row: usize,
+    pub patch_id: String,
+    pub reason: String,
+}
+
+/// A point farther from every road than the walk limit (the walk is counted at walking speed).
+#[derive(Debug, Clone)]
+pub struct FarFromRoad {
+    pub patch_id: String,
+    pub walk_m: f64,
+    pub max_walk_m: f64,
 }
 
 impl Schedule {
@@ -138,8 +173,12 @@ pub fn default_depot(folder: &PlanFolder) -> Option<(f64, f64)> {
 }
 
 /// Build the crew-days for a plan folder.
-pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
-    if o.crews == 0 || o.day_hours <= 0.0 || o.speed_kmh <= 0.0 || o.detour < 1.0 {
+pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Result<Schedule> {
+    let straight_ok = match travel {
+        TravelModel::StraightLine { detour, speed_kmh } => *speed_kmh > 0.0 && *detour >= 1.0,
+        TravelModel::Roads(_) => true,
+    };
+    if o.crews == 0 || o.day_hours <= 0.0 || !straight_ok {
         return Err(Error::input(
             "crews must be at least 1, day hours and speed above 0, and the detour factor at least 1",
         ));
@@ -150,12 +189,46 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
         .or_else(|| default_depot(folder))
         .unwrap_or((0.0, 0.0));
 
+    // Travel among the depot (point 0) and every treated patch (point row + 1).
+    let points: Vec<(f64, f64)> = std::iter::once(depot)
+        .chain(folder.planned.iter().map(|p| (p.x, p.y)))
+        .collect();
+    let legs = travel.legs(&points)?;
+    let unreached: Vec<Unreached> = legs
+        .unreachable()
+        .iter()
+        .map(|(k, u)| Unreached {
+            row: k - 1,
+            patch_id: folder.planned[k - 1].patch_id.clone(),
+            reason: unreachable_reason(u),
+        })
+        .collect();
+    let max_walk_m = match travel {
+        TravelModel::Roads(r) => r.max_walk_m,
+        TravelModel::StraightLine { .. } => f64::INFINITY,
+    };
+    let far_from_road = legs
+        .far_from_road()
+        .iter()
+        .map(|&(k, walk_m)| FarFromRoad {
+            patch_id: if k == 0 {
+                "depot".to_string()
+            } else {
+                folder.planned[k - 1].patch_id.clone()
+            },
+            walk_m,
+            max_walk_m,
+        })
+        .collect();
+
     // 1. Stops, split where one day is not enough.
-    let hours_of = |d_m: f64| d_m * o.detour / (o.speed_kmh * 1000.0);
     let mut stops: Vec<Stop> = Vec::new();
     let mut split_patches = 0;
     for (row, p) in folder.planned.iter().enumerate() {
-        let round_trip = 2.0 * hours_of((p.x - depot.0).hypot(p.y - depot.1));
+        if unreached.iter().any(|u| u.row == row) {
+            continue;
+        }
+        let round_trip = legs.hours(0, row + 1) + legs.hours(row + 1, 0);
         let room = o.day_hours - round_trip;
         if room <= 0.05 * o.day_hours {
             return Err(Error::input_with_hint(
@@ -171,7 +244,9 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
         if parts > 1 {
             split_patches += 1;
         }
-        let mut stems_left = p.stems;
+        // Whole stems (a crew counts stems; a raster's estimate is rounded), the last part
+        // taking the rest, so the parts sum to the patch's stems.
+        let mut stems_left = p.stems.round();
         for part in 1..=parts {
             let hours = if part == parts {
                 p.crew_hours - room * (parts - 1) as f64
@@ -179,11 +254,10 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 room
             };
             let share = hours / p.crew_hours.max(1e-12);
-            // Stems in tenths, the last part taking the rest, so the parts sum to the plan's stems.
             let stems = if part == parts {
-                (stems_left * 10.0).round() / 10.0
+                stems_left
             } else {
-                (p.stems * share * 10.0).round() / 10.0
+                (p.stems.round() * share).round().min(stems_left)
             };
             stems_left -= stems;
             stops.push(Stop {
@@ -200,6 +274,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 stems,
                 work_hours: hours,
                 travel_hours: 0.0,
+                travel_km: 0.0,
                 x: p.x,
                 y: p.y,
                 value_pct: p.reduction_pct * share,
@@ -232,15 +307,18 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
         groups.entry(months).or_default().push(k);
     }
     let mut days: Vec<CrewDay> = Vec::new();
+    // Each day's visit (depot, points, depot), for its route line.
+    let mut visits: Vec<Vec<usize>> = Vec::new();
     for (months, members) in &groups {
-        let points: Vec<(f64, f64)> = std::iter::once(depot)
-            .chain(members.iter().map(|&k| (stops[k].x, stops[k].y)))
+        // The group's points: the depot, then each member's patch.
+        let keep: Vec<usize> = std::iter::once(0)
+            .chain(members.iter().map(|&k| stops[k].row + 1))
             .collect();
-        let m = Matrix::from_points(&points, o.detour, o.speed_kmh);
+        let m = legs.matrix(&keep);
         let work: Vec<f64> = std::iter::once(0.0)
             .chain(members.iter().map(|&k| stops[k].work_hours))
             .collect();
-        let nodes: Vec<usize> = (1..points.len()).collect();
+        let nodes: Vec<usize> = (1..keep.len()).collect();
         let tour = if nodes.len() <= routing::EXACT_MAX {
             routing::exact(&m, &nodes)
         } else {
@@ -259,9 +337,14 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
             for &node in &ordered {
                 let mut s = stops[members[node - 1]].clone();
                 s.travel_hours = m.get(prev, node);
+                s.travel_km = legs.km(keep[prev], keep[node]);
                 prev = node;
                 day_stops.push(s);
             }
+            let visit: Vec<usize> = std::iter::once(0)
+                .chain(ordered.iter().map(|&node| keep[node]))
+                .chain(std::iter::once(0))
+                .collect();
             days.push(CrewDay {
                 crew: None,
                 day: 0,
@@ -269,8 +352,15 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
                 months: months.clone(),
                 stops: day_stops,
                 return_hours: m.get(prev, 0),
+                return_km: legs.km(keep[prev], 0),
+                route: Vec::new(),
             });
+            visits.push(visit);
         }
+    }
+
+    for (day, route) in days.iter_mut().zip(legs.routes(travel, &visits)) {
+        day.route = route;
     }
 
     // 3. Calendar.
@@ -339,6 +429,10 @@ pub fn schedule(folder: &PlanFolder, o: &Options) -> Result<Schedule> {
         days,
         missing,
         split_patches,
+        travel_model: travel.name(),
+        travel_text: travel.describe(),
+        unreached,
+        far_from_road,
     })
 }
 

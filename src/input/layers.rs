@@ -659,36 +659,31 @@ fn read_parcels(
                 .map(|v| v.as_text())
                 .filter(|t| !t.is_empty())
         };
-        let access = match text("access") {
-            None => {
-                if field_of("access").is_some() {
-                    *defaulted.entry("access").or_insert(0) += 1;
-                }
-                Access::Open
+        // A rule's text on this feature; a field the layer has but this parcel leaves empty
+        // takes the default, counted for the notes (a rule is never dropped silently).
+        let mut rule = |name: &'static str| {
+            let t = text(name);
+            if t.is_none() && field_of(name).is_some() {
+                *defaulted.entry(name).or_insert(0) += 1;
             }
-            Some(t) => Access::parse(&t).ok_or_else(|| {
-                Error::input_with_hint(
-                    format!(
-                        "{}: unknown access `{t}`",
-                        at(field_of("access").unwrap_or_default())
-                    ),
-                    "use open, permission or denied",
-                )
-            })?,
+            t
         };
-        let herbicide = match text("herbicide") {
-            None => {
-                if field_of("herbicide").is_some() {
-                    *defaulted.entry("herbicide").or_insert(0) += 1;
-                }
-                Herbicide::Allowed
-            }
+        let unknown = |name: &str, what: &str, t: &str, hint: &str| {
+            let at = at(field_of(name).unwrap_or_default());
+            Error::input_with_hint(format!("{at}: unknown {what} `{t}`"), hint)
+        };
+        let access = match rule("access") {
+            None => Access::Open,
+            Some(t) => Access::parse(&t)
+                .ok_or_else(|| unknown("access", "access", &t, "use open, permission or denied"))?,
+        };
+        let herbicide = match rule("herbicide") {
+            None => Herbicide::Allowed,
             Some(t) => Herbicide::parse(&t).ok_or_else(|| {
-                Error::input_with_hint(
-                    format!(
-                        "{}: unknown herbicide rule `{t}`",
-                        at(field_of("herbicide").unwrap_or_default())
-                    ),
+                unknown(
+                    "herbicide",
+                    "herbicide rule",
+                    &t,
                     "use allowed, restricted or prohibited",
                 )
             })?,

@@ -1,10 +1,11 @@
 //! Stage 1, inputs in: GDAL (only here and in the writers of `report`), the layers, the stand
-//! inventory, labelling, patches, suitability and the treatment catalogue.
+//! inventory, labelling, patches, road layers, suitability and the treatment catalogue.
 
 pub mod gis;
 pub mod inventory;
 pub mod label;
 pub mod layers;
 pub mod patches;
+pub use gis::roads;
 pub mod suitability;
 pub mod treatments;

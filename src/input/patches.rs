@@ -14,6 +14,7 @@ use rstar::primitives::{GeomWithData, Rectangle};
 
 use crate::core::error::{Error, Result};
 use crate::core::memory::{Budget, RasterCost};
+use crate::core::progress::Bars;
 use crate::core::scenario::HostSection;
 use crate::core::site::{Herbicide, PatchId, Site, Water};
 use crate::input::gis::{self, Crs, Frame, Grid};
@@ -133,19 +134,22 @@ pub fn label_strips(
         strip,
         &Budget::unlimited(),
         "host raster",
+        Bars::Hidden,
         read,
     )
 }
 
 /// [`label_strips`], checking after every strip that what the labeller holds stays within
 /// `budget` and that fewer than [`crate::core::memory::MAX_PATCHES`] patches are certain
-/// ([`Budget::check_labelling`]); `what` names the raster in the refusal.
+/// ([`Budget::check_labelling`]); `what` names the raster in the refusal; `bars`: whether
+/// the rows labelled are shown as a bar (the command's printer's choice).
 pub fn label_strips_within(
     frame: &Frame,
     options: LabelOptions,
     strip: usize,
     budget: &Budget,
     what: &str,
+    bars: Bars,
     mut read: impl FnMut(usize, usize) -> Result<(Vec<f32>, Vec<u32>)>,
 ) -> Result<(Vec<Blob>, usize, f64)> {
     let (w, h) = (frame.width, frame.height);
@@ -155,7 +159,7 @@ pub fn label_strips_within(
     let closed_are_kept = options.min_patch_ha <= cell_ha;
     let strip = strip.max(1);
     let mut row0 = 0;
-    let bar = crate::core::progress::Stage::bar("labelling host cells", h as u64, "rows");
+    let bar = bars.bar("labelling host cells", h as u64, "rows");
     while row0 < h {
         bar.set(row0 as u64);
         let rows = strip.min(h - row0);
@@ -338,8 +342,8 @@ impl<'a> ParcelIndex<'a> {
 
 /// Build patches from the loaded layers.
 /// Raster patches are checked against `budget` while labelling and before their outlines are
-/// drawn.
-pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Patches> {
+/// drawn; `bars` says whether labelling shows a bar (the command's printer's choice).
+pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -> Result<Patches> {
     let parcel_index = ParcelIndex::new(&layers.parcels);
     let site_at = |x: f64, y: f64| {
         parcel_index
@@ -383,6 +387,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                 strip_rows(raster),
                 budget,
                 &what,
+                bars,
                 |row0, rows| {
                     let (values, bad) = raster.read_rows_counted(&dataset, row0, rows)?;
                     non_finite.set(non_finite.get() + bad);

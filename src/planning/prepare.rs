@@ -5,6 +5,7 @@ use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::memory::{Budget, RasterCost};
 use crate::core::printer;
+use crate::core::progress::Bars;
 use crate::core::scenario::Scenario;
 use crate::input::layers;
 use crate::input::patches::{self, Patches};
@@ -47,8 +48,9 @@ pub struct Prepared {
     pub budget: Budget,
 }
 
-/// Run the stages for `s`; `progress` receives one line per stage.
-pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
+/// Run the stages for `s`; `progress` receives one line per stage; `bars`: whether the raster
+/// labelling draws a bar (the command's printer's choice, [`crate::core::printer::Printer::bars`]).
+pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prepared> {
     let (mut catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
     if let Some(mix) = &s.host.default_mix {
         catalogue.set_default_mix(mix)?;
@@ -56,7 +58,7 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     let budget = Budget::new(s.solver.max_memory_gb);
     progress("reading layers");
     let layers = layers::load(s, &budget, &catalogue.inventory_classes())?;
-    let patches = patches::build(&layers, &s.host, &budget)?;
+    let patches = patches::build(&layers, &s.host, &budget, bars)?;
     progress(&format!(
         "{} patches from the {} host layer",
         patches.len(),
@@ -220,6 +222,21 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
 }
 
 impl Prepared {
+    /// The index of patch `i`'s choice that a plan.csv row names: with size classes by the
+    /// row's `prescription` (several prescriptions share a primary method), without by its
+    /// `method` (`prescription` empty).
+    pub fn choice_named(&self, i: usize, method: &str, prescription: &str) -> Option<usize> {
+        let (by_class, _) = self.catalogue.stems_by_class(&self.patches.items[i]);
+        self.choices[i].iter().position(|c| {
+            if prescription.is_empty() {
+                self.catalogue.methods[c.method.0 as usize].id == method
+            } else {
+                crate::input::treatments::prescription_text(&self.catalogue, c, &by_class)
+                    == prescription
+            }
+        })
+    }
+
     /// The prepared model's patches and links; year 0 occupied where the detections are (the
     /// patch each detection falls nearest to, within the kernel cutoff); no long-distance links.
     pub fn landscape(&self) -> Landscape {

@@ -43,6 +43,13 @@ impl Frame {
         }
     }
 
+    /// The projected rectangle the frame shows: (min x, min y, max x, max y), metres.
+    pub fn extent(&self) -> (f64, f64, f64, f64) {
+        let max_x = self.min_x + (self.width - 2.0 * self.margin) / self.scale;
+        let min_y = self.max_y - (self.height - 2.0 * self.margin) / self.scale;
+        (self.min_x, min_y, max_x, self.max_y)
+    }
+
     pub fn px(&self, x: f64, y: f64) -> (f64, f64) {
         (
             self.margin + (x - self.min_x) * self.scale,

@@ -37,8 +37,8 @@ pub fn contract(args: &ContractArgs) -> Result<ContractSettings> {
     Ok(ContractSettings {
         folder,
         area_units: AreaUnit::parse(&args.area_units).unwrap_or_default(),
-        out: absolute(&args.out)?,
-        force: args.force,
+        out: absolute(&args.output.out)?,
+        force: args.output.force,
     })
 }
 
@@ -58,7 +58,7 @@ pub fn record(args: &RecordArgs) -> Result<RecordSettings> {
             tolerance: args.extra_stems_tolerance_pct / 100.0,
             accept_all: args.accept_extra_stems,
         },
-        out: absolute(&args.out)?,
-        force: args.force,
+        out: absolute(&args.output.out)?,
+        force: args.output.force,
     })
 }

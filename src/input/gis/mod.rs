@@ -10,6 +10,7 @@
 
 mod raster;
 mod reproject;
+pub mod roads;
 mod sample;
 mod vector;
 mod write;

@@ -1,5 +1,7 @@
 //! orders.csv: one row per stop, in crew-day and visiting order, with the site's rules and the
-//! instructions in words.
+//! instructions in words; `travel_model` on every row says how travel was found (`road network`
+//! or `straight line`). Treated patches no road reaches come last, with no crew, day or stop and
+//! instructions that begin `NOT SCHEDULED`.
 
 use crate::core::error::Result;
 use crate::field::orders;
@@ -28,7 +30,9 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
         "stems",
         "est_hours",
         "travel_hours",
+        "travel_km",
         "return_hours",
+        "return_km",
         "x",
         "y",
         "lon",
@@ -42,6 +46,7 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
         "fell_after",
         "follow_up",
         "instructions",
+        "travel_model",
     ];
     let header: Vec<&str> = header
         .iter()
@@ -75,14 +80,16 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
                 cells.push(s.prescription.clone());
             }
             cells.extend([
-                format!("{:.1}", s.stems),
+                format!("{:.0}", s.stems.round() + 0.0),
                 f2(s.work_hours),
                 f2(s.travel_hours),
+                f2(s.travel_km),
                 if k + 1 == n {
                     f2(d.return_hours)
                 } else {
                     f2(0.0)
                 },
+                if k + 1 == n { f2(d.return_km) } else { f2(0.0) },
                 f2(s.x),
                 f2(s.y),
                 format!("{lon:.7}"),
@@ -96,9 +103,55 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
                 ins.fell_after.map(|x| x.to_string()).unwrap_or_default(),
                 ins.follow_up.unwrap_or_default(),
                 ins.text,
+                ctx.schedule.travel_model.to_string(),
             ]);
             w.row(cells)?;
         }
+    }
+    let to = crate::input::gis::ToLonLat::new(&ctx.crs)?;
+    for u in &ctx.schedule.unreached {
+        let p = &ctx.folder.planned[u.row];
+        let (lon, lat) = to.points(&[(p.x, p.y)])?[0];
+        let mut cells = vec![
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            p.patch_id.clone(),
+            "1/1".to_string(),
+            p.method.clone(),
+        ];
+        if classes {
+            cells.push(p.prescription_text(&ctx.folder.catalogue, 1.0));
+        }
+        cells.extend([
+            format!("{:.1}", p.stems),
+            f2(p.crew_hours),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            f2(p.x),
+            f2(p.y),
+            format!("{lon:.7}"),
+            format!("{lat:.7}"),
+            p.parcel.clone(),
+            p.contact.clone(),
+            p.access.clone(),
+            p.herbicide.clone(),
+            p.cautions.clone(),
+            p.site_notes.clone(),
+            String::new(),
+            String::new(),
+            format!(
+                "NOT SCHEDULED: no road from the depot reaches this patch ({}). Add the missing road to the road layer or plan its access separately. Site cautions still apply: {}",
+                u.reason,
+                if p.cautions.is_empty() { "none recorded" } else { p.cautions.as_str() }
+            ),
+            ctx.schedule.travel_model.to_string(),
+        ]);
+        w.row(cells)?;
     }
     w.into_bytes()
 }

@@ -29,6 +29,7 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         ("stems", Property::Number(0.0)),
         ("est_hours", Property::Number(0.0)),
         ("travel_hours", Property::Number(0.0)),
+        ("travel_km", Property::Number(0.0)),
         ("cautions", Property::Text(String::new())),
     ];
     let route_fields = [
@@ -37,7 +38,9 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         ("date", Property::Text(String::new())),
         ("stops", Property::Integer(0)),
         ("travel_hours", Property::Number(0.0)),
+        ("travel_km", Property::Number(0.0)),
         ("work_hours", Property::Number(0.0)),
+        ("travel_model", Property::Text(String::new())),
     ];
     let mut stops = Vec::new();
     let mut routes = Vec::new();
@@ -57,19 +60,22 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
                     num(s.stems),
                     num(round2(s.work_hours)),
                     num(round2(s.travel_hours)),
+                    num(round2(s.travel_km)),
                     text(&ctx.folder.planned[s.row].cautions),
                 ],
             ));
         }
         routes.push((
-            Geometry::LineString(route_line(ctx, d)),
+            Geometry::LineString(route_line(d)),
             vec![
                 int(crew),
                 int(d.day),
                 text(&date_of(d)),
                 int(d.stops.len()),
                 num(round2(d.travel_hours())),
+                num(round2(d.travel_km())),
                 num(round2(d.work_hours())),
+                text(ctx.schedule.travel_model),
             ],
         ));
     }
@@ -79,6 +85,7 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
     gj_fields.extend(stop_fields.iter().cloned());
     gj_fields.push(("stops", Property::Integer(0)));
     gj_fields.push(("work_hours", Property::Number(0.0)));
+    gj_fields.push(("travel_model", Property::Text(String::new())));
     let blank = |n: usize| -> Vec<Property> {
         (0..n)
             .map(|k| match &gj_fields[k].1 {
@@ -94,6 +101,7 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         v.extend(p.iter().cloned());
         v.push(Property::Integer(0));
         v.push(Property::Number(f64::NAN));
+        v.push(text(ctx.schedule.travel_model));
         features.push((g.clone(), v));
     }
     for (g, p) in &routes {
@@ -102,13 +110,18 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         v[1] = p[0].clone();
         v[2] = p[1].clone();
         v[3] = p[2].clone();
+        // kind, crew, day, date, stop, patch_id, part, method, stems, est_hours, travel_hours,
+        // travel_km, cautions, stops, work_hours, travel_model.
         v[10] = p[4].clone();
-        v[12] = p[3].clone();
-        v[13] = p[5].clone();
+        v[11] = p[5].clone();
+        v[13] = p[3].clone();
+        v[14] = p[6].clone();
+        v[15] = p[7].clone();
         features.push((g.clone(), v));
     }
     let mut depot = blank(gj_fields.len());
     depot[0] = text("depot");
+    depot[15] = text(ctx.schedule.travel_model);
     features.push((
         Geometry::Point(Point::new(ctx.schedule.depot.0, ctx.schedule.depot.1)),
         depot,
@@ -159,7 +172,15 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
             _ if polygons => continue,
             _ => Geometry::Point(Point::new(rec.x, rec.y)),
         };
+        let unreached = ctx
+            .schedule
+            .unreached
+            .iter()
+            .any(|u| u.patch_id == rec.patch_id);
         let (status, method, priority) = match planned.get(rec.patch_id.as_str()) {
+            Some((prio, p)) if unreached => {
+                ("treat: not scheduled, no road", p.method.clone(), *prio)
+            }
             Some((prio, p)) => ("treat", p.method.clone(), *prio),
             None if rec.eligible == "no" => ("not eligible", String::new(), 0),
             None => ("untreated", String::new(), 0),

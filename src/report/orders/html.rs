@@ -122,7 +122,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     );
     let _ = write!(
         h,
-        "<p>The work is {} crew-day{} for {} crew{} working {} from {}{}: {:.1} hours of work and {:.1} hours of travel.{}</p>",
+        "<p>The work is {} crew-day{} for {} crew{} working {} from {}{}: {:.1} hours of work and {:.1} hours of travel ({:.1} km, {}).{}</p>",
         s.days.len(),
         if s.days.len() == 1 { "" } else { "s" },
         o.crews,
@@ -135,6 +135,8 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
         },
         s.days.iter().map(|d| d.work_hours()).sum::<f64>() + 0.0,
         s.days.iter().map(|d| d.travel_hours()).sum::<f64>() + 0.0,
+        s.days.iter().map(|d| d.travel_km()).sum::<f64>() + 0.0,
+        s.travel_model,
         if s.split_patches > 0 {
             format!(
                 " {} large patch{} spread over several days.",
@@ -159,16 +161,43 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
             escape(&contract::window(&m.months))
         );
     }
+    for u in &s.unreached {
+        let _ = write!(
+            h,
+            "<p class=\"warn\">NOT SCHEDULED, no road: patch {} cannot be reached from the depot on the road layer ({}). It is left out of the crew-days (listed last in orders.csv); add the missing road to the layer or plan its access separately.</p>",
+            escape(&u.patch_id),
+            escape(&u.reason)
+        );
+    }
+    for f in &s.far_from_road {
+        let _ = write!(
+            h,
+            "<p class=\"warn\">Far from any road: {} is {:.0} m from the nearest road (more than {:.0} m). The walk is counted at walking speed; check how the crew gets in.</p>",
+            if f.patch_id == "depot" {
+                "the depot".to_string()
+            } else {
+                format!("patch {}", escape(&f.patch_id))
+            },
+            f.walk_m,
+            f.max_walk_m
+        );
+    }
+    if s.depot_is_default {
+        let _ = write!(
+            h,
+            "<p class=\"warn\">Depot assumed: no depot was given, so the crews are assumed to leave from the centroid of the treated patches ({:.0}, {:.0}), not from a yard anyone drives from. Give the yard with <code>--depot X,Y</code> or <code>--depot-lonlat LON,LAT</code>.</p>",
+            s.depot.0, s.depot.1
+        );
+    }
     h.push_str(&overview_map(ctx));
     h.push_str(&legend(ctx));
     let _ = write!(
         h,
-        "<p class=\"small\">Map in {} (metres; north arrow shows grid north). Travel times assume straight-line distance &times; {} at {} km/h between sites, an assumption rather than a road network; depot {}.</p>",
+        "<p class=\"small\">Map in {} (metres; north arrow shows grid north). Travel: {}. Depot {}.</p>",
         escape(&ctx.crs.name),
-        o.detour,
-        o.speed_kmh,
+        escape(&s.travel_text),
         if s.depot_is_default {
-            "at the centroid of the treated patches".to_string()
+            "assumed at the centroid of the treated patches (none given)".to_string()
         } else {
             format!("at {:.0}, {:.0}", s.depot.0, s.depot.1)
         }
@@ -189,25 +218,26 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     // The schedule at a glance, one line per crew-day (the first GLANCE, so it stays one page).
     let _ = write!(
         h,
-        "<section class=\"page\" id=\"schedule\"><h2>Schedule at a glance</h2><table><tr><th>Crew-day</th><th>Patches</th><th>Stops</th><th>Work h</th><th>Travel h</th></tr>"
+        "<section class=\"page\" id=\"schedule\"><h2>Schedule at a glance</h2><table><tr><th>Crew-day</th><th>Patches</th><th>Stops</th><th>Work h</th><th>Travel h</th><th>Travel km</th></tr>"
     );
     for d in s.days.iter().take(GLANCE) {
         let mut ids: Vec<&str> = d.stops.iter().map(|s| s.patch_id.as_str()).collect();
         ids.dedup();
         let _ = write!(
             h,
-            "<tr><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{:.1}</td><td class=\"n\">{:.1}</td></tr>",
+            "<tr><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{:.1}</td><td class=\"n\">{:.1}</td><td class=\"n\">{:.1}</td></tr>",
             escape(&day_label(d)),
             escape(&ids.join(", ")),
             d.stops.len(),
             d.work_hours(),
-            d.travel_hours()
+            d.travel_hours(),
+            d.travel_km()
         );
     }
     if s.days.len() > GLANCE {
         let _ = write!(
             h,
-            "<tr><td colspan=\"5\">... and {} more crew-days: see orders.csv and the pages that follow</td></tr>",
+            "<tr><td colspan=\"6\">... and {} more crew-days: see orders.csv and the pages that follow</td></tr>",
             s.days.len() - GLANCE
         );
     }
@@ -262,13 +292,15 @@ fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
     );
     let _ = write!(
         h,
-        "<p>Leave the depot, {} stop{}, back to the depot: <b>{:.1} h work + {:.1} h travel = {:.1} h</b> of a {} h day.</p>",
+        "<p>Leave the depot, {} stop{}, back to the depot: <b>{:.1} h work + {:.1} h travel = {:.1} h</b> of a {} h day; {:.1} km of driving ({}).</p>",
         d.stops.len(),
         if d.stops.len() == 1 { "" } else { "s" },
         d.work_hours(),
         d.travel_hours(),
         d.hours(),
-        ctx.options.day_hours
+        ctx.options.day_hours,
+        d.travel_km(),
+        ctx.schedule.travel_model
     );
     h.push_str(&day_map(ctx, d));
     let ruled: Vec<String> = d

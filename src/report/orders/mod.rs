@@ -23,7 +23,9 @@ use crate::core::cautions;
 use crate::core::error::{Error, Result};
 use crate::field::contract::{self, PlanFolder};
 use crate::field::orders::{CrewDay, Options, Schedule};
+use crate::field::travel::TravelModel;
 use crate::input::gis::{self, Crs};
+use crate::input::roads::FieldSource;
 use crate::report::output::Staging;
 
 /// Colour-blind-safe colours for methods, in catalogue order (Okabe & Ito 2008 palette).
@@ -40,6 +42,39 @@ pub struct MissingJson {
     pub crew_days: usize,
 }
 
+/// The road layer a run was routed on, as read.
+#[derive(Serialize)]
+pub struct RoadsJson {
+    pub path: String,
+    pub layer: String,
+    pub driver: String,
+    pub source_crs: String,
+    /// Where the class, one-way and speed came from: `field NAME`, `other_tags KEY` or `none`.
+    pub class_field: String,
+    pub oneway_field: String,
+    pub speed_field: String,
+    /// One speed for every drivable road (`--road-speed-kmh`), or null for the class table.
+    pub road_speed_kmh: Option<f64>,
+    pub road_km: f64,
+    pub pieces: usize,
+    pub graph_nodes: usize,
+    pub arcs: usize,
+    pub walk_kmh: f64,
+    pub max_walk_m: f64,
+}
+
+#[derive(Serialize)]
+pub struct UnreachedJson {
+    pub patch_id: String,
+    pub reason: String,
+}
+
+#[derive(Serialize)]
+pub struct FarJson {
+    pub patch_id: String,
+    pub walk_m: f64,
+}
+
 #[derive(Serialize)]
 pub struct OrdersJson {
     pub plan: String,
@@ -48,8 +83,13 @@ pub struct OrdersJson {
     pub depot_is_default: bool,
     pub crews: usize,
     pub day_hours: f64,
-    pub speed_kmh: f64,
-    pub detour_factor: f64,
+    /// `road network` or `straight line`, and how travel was found in words.
+    pub travel_model: String,
+    pub travel: String,
+    /// Straight-line travel only (null with a road layer).
+    pub speed_kmh: Option<f64>,
+    pub detour_factor: Option<f64>,
+    pub roads: Option<RoadsJson>,
     pub workdays: String,
     pub start_date: String,
     pub first_date: Option<String>,
@@ -61,7 +101,12 @@ pub struct OrdersJson {
     pub missing_crew_days: usize,
     pub missing: Vec<MissingJson>,
     pub travel_hours: f64,
+    pub travel_km: f64,
     pub work_hours: f64,
+    /// Treated patches no road from the depot reaches: not scheduled.
+    pub unreachable: Vec<UnreachedJson>,
+    /// The depot and stands farther from a road than the walk limit (scheduled, walk counted).
+    pub far_from_road: Vec<FarJson>,
     pub report_overview_pages: usize,
     pub report_crew_day_pages: usize,
 }
@@ -72,6 +117,7 @@ pub struct Orders<'a> {
     pub crs: Crs,
     pub schedule: Schedule,
     pub options: Options,
+    pub travel: &'a TravelModel,
     pub outlines: HashMap<String, Geometry<f64>>,
     colours: HashMap<String, &'static str>,
 }
@@ -82,6 +128,7 @@ impl<'a> Orders<'a> {
         crs: Crs,
         schedule: Schedule,
         options: Options,
+        travel: &'a TravelModel,
         outlines: HashMap<String, Geometry<f64>>,
     ) -> Orders<'a> {
         let colours = folder
@@ -96,6 +143,7 @@ impl<'a> Orders<'a> {
             crs,
             schedule,
             options,
+            travel,
             outlines,
             colours,
         }
@@ -122,8 +170,17 @@ pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result
         depot_is_default: s.depot_is_default,
         crews: o.crews,
         day_hours: o.day_hours,
-        speed_kmh: o.speed_kmh,
-        detour_factor: o.detour,
+        travel_model: s.travel_model.to_string(),
+        travel: s.travel_text.clone(),
+        speed_kmh: match ctx.travel {
+            TravelModel::StraightLine { speed_kmh, .. } => Some(*speed_kmh),
+            TravelModel::Roads(_) => None,
+        },
+        detour_factor: match ctx.travel {
+            TravelModel::StraightLine { detour, .. } => Some(*detour),
+            TravelModel::Roads(_) => None,
+        },
+        roads: roads_json(ctx.travel),
         workdays: o.workdays.to_string(),
         start_date: o.start.to_string(),
         first_date: s
@@ -147,6 +204,23 @@ pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result
             })
             .collect(),
         travel_hours: round2(s.days.iter().map(|d| d.travel_hours()).sum()),
+        travel_km: round2(s.days.iter().map(|d| d.travel_km()).sum()),
+        unreachable: s
+            .unreached
+            .iter()
+            .map(|u| UnreachedJson {
+                patch_id: u.patch_id.clone(),
+                reason: u.reason.clone(),
+            })
+            .collect(),
+        far_from_road: s
+            .far_from_road
+            .iter()
+            .map(|f| FarJson {
+                patch_id: f.patch_id.clone(),
+                walk_m: round2(f.walk_m),
+            })
+            .collect(),
         work_hours: round2(s.days.iter().map(|d| d.work_hours()).sum()),
         report_overview_pages: overview_pages,
         report_crew_day_pages: s.days.len(),
@@ -155,6 +229,33 @@ pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result
         .map_err(|e| Error::Internal(format!("orders.json: {e}")))?;
     staging.write("orders.json", json + "\n")?;
     Ok(summary)
+}
+
+fn roads_json(travel: &TravelModel) -> Option<RoadsJson> {
+    let TravelModel::Roads(r) = travel else {
+        return None;
+    };
+    let source = |f: &FieldSource| match f {
+        FieldSource::Column(c) => format!("field {c}"),
+        FieldSource::OtherTags(k) => format!("other_tags {k}"),
+        FieldSource::Absent => "none".to_string(),
+    };
+    Some(RoadsJson {
+        path: r.settings.path.display().to_string(),
+        layer: r.layer_name.clone(),
+        driver: r.driver.clone(),
+        source_crs: r.source_crs.clone(),
+        class_field: source(&r.class_source),
+        oneway_field: source(&r.oneway_source),
+        speed_field: source(&r.speed_source),
+        road_speed_kmh: r.settings.speed_kmh,
+        road_km: round2(r.network.stats.road_km),
+        pieces: r.network.pieces.len(),
+        graph_nodes: r.network.stats.graph_nodes,
+        arcs: r.network.stats.arcs,
+        walk_kmh: r.walk_kmh,
+        max_walk_m: r.max_walk_m,
+    })
 }
 
 /// Two decimals, and never "-0" (an empty sum of f64 is -0.0).
@@ -185,10 +286,7 @@ fn day_label(d: &CrewDay) -> String {
     }
 }
 
-fn route_line(ctx: &Orders, d: &CrewDay) -> LineString<f64> {
-    let depot = ctx.schedule.depot;
-    let mut pts = vec![depot];
-    pts.extend(d.stops.iter().map(|s| (s.x, s.y)));
-    pts.push(depot);
-    LineString::from(pts)
+/// The day's route: along the roads with a road layer, straight lines without.
+fn route_line(d: &CrewDay) -> LineString<f64> {
+    LineString::from(d.route.clone())
 }

@@ -7,6 +7,7 @@ use std::fmt::Write as _;
 use geo::Geometry;
 
 use crate::field::orders::CrewDay;
+use crate::field::travel::TravelModel;
 use crate::report::chart::escape;
 use crate::report::map::{self, Frame};
 
@@ -105,6 +106,35 @@ pub(super) fn legend(ctx: &Orders) -> String {
     s
 }
 
+/// The road lines inside the frame, as SVG polylines (thin grey), drawn under the route.
+fn roads_in(ctx: &Orders, f: &Frame) -> String {
+    let TravelModel::Roads(roads) = ctx.travel else {
+        return String::new();
+    };
+    let (x0, y0, x1, y1) = f.extent();
+    let mut svg = String::from(r##"<g fill="none" stroke="#b0b0b0" stroke-width="1">"##);
+    for line in &roads.lines {
+        let inside = line.windows(2).any(|w| {
+            let (lx, hx) = (w[0].0.min(w[1].0), w[0].0.max(w[1].0));
+            let (ly, hy) = (w[0].1.min(w[1].1), w[0].1.max(w[1].1));
+            hx >= x0 && lx <= x1 && hy >= y0 && ly <= y1
+        });
+        if !inside {
+            continue;
+        }
+        let points: Vec<String> = line
+            .iter()
+            .map(|&(x, y)| {
+                let (px, py) = f.px(x, y);
+                format!("{px:.1},{py:.1}")
+            })
+            .collect();
+        let _ = write!(svg, r#"<polyline points="{}"/>"#, points.join(" "));
+    }
+    svg.push_str("</g>");
+    svg
+}
+
 pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
     let depot = ctx.schedule.depot;
     let geoms: Vec<&Geometry<f64>> = d
@@ -112,7 +142,9 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
         .iter()
         .filter_map(|s| ctx.outlines.get(&s.patch_id))
         .collect();
-    let mut points: Vec<(f64, f64)> = d.stops.iter().map(|s| (s.x, s.y)).collect();
+    // The whole route is on the map: a drive round a river to its bridge leaves the stops' box.
+    let mut points: Vec<(f64, f64)> = d.route.clone();
+    points.extend(d.stops.iter().map(|s| (s.x, s.y)));
     points.push(depot);
     let Some(b) = map::bounds(&geoms, &points) else {
         return String::new();
@@ -122,6 +154,7 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
         r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="route map"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
         f.width, f.height, f.width, f.height
     );
+    svg.push_str(&roads_in(ctx, &f));
     for g in &geoms {
         let _ = write!(
             svg,
@@ -129,7 +162,7 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
             f.path(g)
         );
     }
-    let line: Vec<String> = route_line(ctx, d)
+    let line: Vec<String> = route_line(d)
         .0
         .iter()
         .map(|c| {
@@ -139,8 +172,13 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
         .collect();
     let _ = write!(
         svg,
-        r##"<polyline points="{}" fill="none" stroke="#000" stroke-width="1.4" stroke-dasharray="5,3"/>"##,
-        line.join(" ")
+        r##"<polyline points="{}" fill="none" stroke="#000" stroke-width="1.4"{}/>"##,
+        line.join(" "),
+        // Solid along roads; dashed for straight lines, which no crew drives.
+        match ctx.travel {
+            TravelModel::Roads(_) => "",
+            TravelModel::StraightLine { .. } => r#" stroke-dasharray="5,3""#,
+        }
     );
     let (dx, dy) = f.px(depot.0, depot.1);
     let _ = write!(

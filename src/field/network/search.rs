@@ -1,0 +1,397 @@
+//! Shortest paths on the road graph: Dijkstra searches (Dijkstra 1959) from snapped points,
+//! the travel matrix among points, and the road geometry of a drive.
+//!
+//! # Units
+//! Coordinates in the working CRS (metres); hours; road kilometres in [`Travel`].
+
+use std::cmp::Reverse;
+use std::collections::BinaryHeap;
+
+use crate::core::error::{Error, Result};
+use crate::field::network::types::{REVERSED, RoadNetwork, Snap, Travel, Unreachable};
+
+/// Where a snapped point joins the graph: (graph node, hours, metres) to leave by.
+fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
+    if let Some(node) = network.at_node(snap) {
+        return vec![(node, 0.0, 0.0)];
+    }
+    let p = network.position(snap);
+    let c = p.chain;
+    let mut out = Vec::with_capacity(2);
+    if c.forward_hours.is_finite() {
+        out.push((
+            c.t,
+            c.forward_hours - p.forward_before,
+            c.metres - p.metres_before,
+        ));
+    }
+    if c.backward_hours.is_finite() {
+        out.push((c.s, p.backward_before, p.metres_before));
+    }
+    out
+}
+
+/// Where a snapped point is arrived at from the graph: (graph node, hours, metres) from there.
+fn egress(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
+    if let Some(node) = network.at_node(snap) {
+        return vec![(node, 0.0, 0.0)];
+    }
+    let p = network.position(snap);
+    let c = p.chain;
+    let mut out = Vec::with_capacity(2);
+    if c.forward_hours.is_finite() {
+        out.push((c.s, p.forward_before, p.metres_before));
+    }
+    if c.backward_hours.is_finite() {
+        out.push((
+            c.t,
+            c.backward_hours - p.backward_before,
+            c.metres - p.metres_before,
+        ));
+    }
+    out
+}
+
+/// Drive along one chain from one snapped point to another on the same chain, if allowed:
+/// (hours, metres, whether it runs the chain's way).
+fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64, bool)> {
+    if network.at_node(from).is_some() || network.at_node(to).is_some() {
+        return None;
+    }
+    let (pf, pt) = (network.position(from), network.position(to));
+    if network.spans[from.span as usize].chain != network.spans[to.span as usize].chain {
+        return None;
+    }
+    let c = pf.chain;
+    let d = pt.metres_before - pf.metres_before;
+    if d >= 0.0 && c.forward_hours.is_finite() {
+        Some((pt.forward_before - pf.forward_before, d, true))
+    } else if d <= 0.0 && c.backward_hours.is_finite() {
+        Some((pf.backward_before - pt.backward_before, -d, false))
+    } else {
+        None
+    }
+}
+
+/// A reusable Dijkstra search over one network.
+struct Search {
+    /// Hours and metres of the best path found to each node.
+    best: Vec<(f64, f64)>,
+    /// Arc by which each node was reached, `u32::MAX` for a source.
+    pred: Vec<u32>,
+    touched: Vec<u32>,
+    /// Target marks: `mark[v] == stamp` when v is an end node of a point still to settle.
+    mark: Vec<u32>,
+    stamp: u32,
+    heap: BinaryHeap<Reverse<(u64, u32)>>,
+}
+
+impl Search {
+    fn new(nodes: usize) -> Search {
+        Search {
+            best: vec![(f64::INFINITY, 0.0); nodes],
+            pred: vec![u32::MAX; nodes],
+            touched: Vec::new(),
+            mark: vec![0; nodes],
+            stamp: 0,
+            heap: BinaryHeap::new(),
+        }
+    }
+
+    fn reset(&mut self) {
+        for &v in &self.touched {
+            self.best[v as usize].0 = f64::INFINITY;
+            self.pred[v as usize] = u32::MAX;
+        }
+        self.touched.clear();
+        self.heap.clear();
+    }
+
+    /// Shortest times from `sources` (node, hours, metres already spent) until every node in
+    /// `targets` is settled (all nodes when `targets` is empty).
+    fn run(&mut self, network: &RoadNetwork, sources: &[(u32, f64, f64)], targets: &[u32]) {
+        self.reset();
+        self.stamp = self.stamp.wrapping_add(1);
+        if self.stamp == 0 {
+            self.mark.iter_mut().for_each(|m| *m = 0);
+            self.stamp = 1;
+        }
+        let mut remaining = 0usize;
+        for &t in targets {
+            if self.mark[t as usize] != self.stamp {
+                self.mark[t as usize] = self.stamp;
+                remaining += 1;
+            }
+        }
+        let all = targets.is_empty();
+        for &(v, h, m) in sources {
+            if h < self.best[v as usize].0 {
+                if self.best[v as usize].0.is_infinite() {
+                    self.touched.push(v);
+                }
+                self.best[v as usize] = (h, m);
+                self.heap.push(Reverse((h.to_bits(), v)));
+            }
+        }
+        while let Some(Reverse((bits, u))) = self.heap.pop() {
+            let ui = u as usize;
+            // Entries are pushed only on a strict improvement, so the one whose cost equals
+            // the node's distance is its only live entry: each node is settled once.
+            if f64::from_bits(bits) > self.best[ui].0 {
+                continue;
+            }
+            if !all && self.mark[ui] == self.stamp {
+                remaining -= 1;
+                if remaining == 0 {
+                    break;
+                }
+            }
+            let (du, mu) = self.best[ui];
+            let range = network.first_out[ui] as usize..network.first_out[ui + 1] as usize;
+            for (data, arc) in network.arcs[range.clone()].iter().zip(range) {
+                let v = data.head as usize;
+                let dv = du + data.hours;
+                if dv < self.best[v].0 {
+                    if self.best[v].0.is_infinite() {
+                        self.touched.push(v as u32);
+                    }
+                    self.best[v] = (dv, mu + data.metres);
+                    self.pred[v] = arc as u32;
+                    self.heap.push(Reverse((dv.to_bits(), v as u32)));
+                }
+            }
+        }
+    }
+
+    /// Best (hours, metres, end node) to reach a point through its egress ends.
+    fn arrive(&self, ends: &[(u32, f64, f64)]) -> Option<(f64, f64, u32)> {
+        let mut best: Option<(f64, f64, u32)> = None;
+        for &(v, h, m) in ends {
+            let d = self.best[v as usize].0;
+            if d.is_finite() && best.is_none_or(|(b, _, _)| d + h < b) {
+                best = Some((d + h, self.best[v as usize].1 + m, v));
+            }
+        }
+        best
+    }
+}
+
+impl RoadNetwork {
+    fn walk_hours(&self, snap: &Snap) -> f64 {
+        snap.walk_m / (self.walk_kmh * 1000.0)
+    }
+
+    /// Travel among `points` (point 0 the depot) by shortest paths, one search per point,
+    /// spread over `threads` threads. An empty network is an input error.
+    pub fn travel(&self, points: &[(f64, f64)], threads: usize) -> Result<Travel> {
+        let n = points.len();
+        let snaps: Vec<Snap> = points
+            .iter()
+            .map(|&p| {
+                self.snap(p).ok_or_else(|| {
+                    Error::input_with_hint(
+                        "the road layer has no drivable road",
+                        "check the road layer and its class field: every road may be of a class that is not driven (footway, path, ...)",
+                    )
+                })
+            })
+            .collect::<Result<_>>()?;
+        let exits: Vec<Vec<(u32, f64, f64)>> = snaps.iter().map(|s| egress(self, s)).collect();
+        let targets: Vec<u32> = exits.iter().flatten().map(|e| e.0).collect();
+        let threads = threads.clamp(1, n.max(1));
+        let rows: Vec<(usize, Vec<f64>, Vec<f64>)> = std::thread::scope(|scope| {
+            let handles: Vec<_> = (0..threads)
+                .map(|t| {
+                    let (snaps, exits, targets) = (&snaps, &exits, &targets);
+                    scope.spawn(move || {
+                        let mut search = Search::new(self.graph_vertex.len());
+                        let mut out = Vec::new();
+                        for i in (t..n).step_by(threads) {
+                            search.run(self, &access(self, &snaps[i]), targets);
+                            let mut hours = vec![f64::INFINITY; n];
+                            let mut km = vec![f64::INFINITY; n];
+                            for j in 0..n {
+                                if i == j {
+                                    hours[j] = 0.0;
+                                    km[j] = 0.0;
+                                    continue;
+                                }
+                                let mut best = search.arrive(&exits[j]).map(|(h, m, _)| (h, m));
+                                if let Some((h, m, _)) = same_chain(self, &snaps[i], &snaps[j])
+                                    && best.is_none_or(|(b, _)| h < b)
+                                {
+                                    best = Some((h, m));
+                                }
+                                if let Some((h, m)) = best {
+                                    hours[j] =
+                                        self.walk_hours(&snaps[i]) + h + self.walk_hours(&snaps[j]);
+                                    km[j] = m / 1000.0;
+                                }
+                            }
+                            out.push((i, hours, km));
+                        }
+                        out
+                    })
+                })
+                .collect();
+            handles
+                .into_iter()
+                .flat_map(|h| h.join().expect("a travel search thread panicked"))
+                .collect()
+        });
+        let mut hours = vec![0.0; n * n];
+        let mut km = vec![0.0; n * n];
+        for (i, h, k) in rows {
+            hours[i * n..(i + 1) * n].copy_from_slice(&h);
+            km[i * n..(i + 1) * n].copy_from_slice(&k);
+        }
+        let far_from_road = snaps
+            .iter()
+            .enumerate()
+            .filter(|(_, s)| s.walk_m > self.max_walk_m)
+            .map(|(k, s)| (k, s.walk_m))
+            .collect();
+        let mut unreachable = Vec::new();
+        if n > 0 {
+            let depot_piece = snaps[0].piece;
+            for (k, s) in snaps.iter().enumerate().skip(1) {
+                if s.piece != depot_piece {
+                    unreachable.push((
+                        k,
+                        Unreachable::OtherPiece {
+                            piece: s.piece,
+                            depot_piece,
+                        },
+                    ));
+                    continue;
+                }
+                let to_point = hours[k].is_infinite();
+                let to_depot = hours[k * n].is_infinite();
+                if to_point || to_depot {
+                    unreachable.push((k, Unreachable::OneWay { to_point, to_depot }));
+                }
+            }
+        }
+        Ok(Travel {
+            n,
+            hours,
+            km,
+            snaps,
+            far_from_road,
+            unreachable,
+        })
+    }
+
+    /// The road geometry of the fastest drive from one snapped point to another: the point on
+    /// the road where the drive starts, the vertices passed, the point where it ends (walks not
+    /// included). `None` when there is no way.
+    pub fn path(&self, from: &Snap, to: &Snap) -> Option<Vec<(f64, f64)>> {
+        let ends = egress(self, to);
+        let starts = access(self, from);
+        let mut search = Search::new(self.graph_vertex.len());
+        let targets: Vec<u32> = ends.iter().map(|e| e.0).collect();
+        search.run(self, &starts, &targets);
+        let through = search.arrive(&ends);
+        let direct = same_chain(self, from, to);
+        let mut line = vec![from.on_road];
+        // The vertices strictly between a snapped point and its chain's end (or start).
+        let tail = |snap: &Snap, towards_t: bool| -> Vec<(f64, f64)> {
+            if self.at_node(snap).is_some() {
+                return Vec::new();
+            }
+            let span = self.spans[snap.span as usize];
+            let chain = self.chains[span.chain as usize];
+            let vertices = self.chain_vertices(&chain);
+            let k = span.index as usize;
+            let picked: Vec<u32> = if towards_t {
+                vertices[k + 1..].to_vec()
+            } else {
+                vertices[..=k].iter().rev().copied().collect()
+            };
+            picked.iter().map(|&v| self.nodes[v as usize]).collect()
+        };
+        match (through, direct) {
+            (None, None) => return None,
+            (through, Some((d, _, aligned))) if through.is_none_or(|(h, _, _)| d <= h) => {
+                let (pf, pt) = (self.position(from), self.position(to));
+                let chain = pf.chain;
+                let vertices = self.chain_vertices(&chain);
+                let (lo, hi) = (
+                    pf.metres_before.min(pt.metres_before),
+                    pf.metres_before.max(pt.metres_before),
+                );
+                let mut between: Vec<(f64, f64)> = Vec::new();
+                let mut at = 0.0;
+                for (k, &span_id) in self.chain_spans
+                    [chain.first as usize..(chain.first + chain.count) as usize]
+                    .iter()
+                    .enumerate()
+                {
+                    at += self.spans[span_id as usize].metres;
+                    if at > lo && at < hi {
+                        between.push(self.nodes[vertices[k + 1] as usize]);
+                    }
+                }
+                if !aligned {
+                    between.reverse();
+                }
+                line.extend(between);
+            }
+            (Some((_, _, end)), _) => {
+                // Arcs back from the end node to a source.
+                let mut arcs = Vec::new();
+                let mut v = end;
+                while search.pred[v as usize] != u32::MAX {
+                    let arc = search.pred[v as usize];
+                    arcs.push(arc);
+                    let c = self.chains[(self.arc_chain[arc as usize] & !REVERSED) as usize];
+                    v = if self.arc_chain[arc as usize] & REVERSED != 0 {
+                        c.t
+                    } else {
+                        c.s
+                    };
+                }
+                arcs.reverse();
+                let first = v;
+                // From the point to the first graph node.
+                if self.at_node(from).is_none() {
+                    let c = self.position(from).chain;
+                    line.extend(tail(from, first == c.t && c.forward_hours.is_finite()));
+                }
+                line.push(self.nodes[self.graph_vertex[first as usize] as usize]);
+                for arc in arcs {
+                    let code = self.arc_chain[arc as usize];
+                    let c = self.chains[(code & !REVERSED) as usize];
+                    let mut vertices = self.chain_vertices(&c);
+                    if code & REVERSED != 0 {
+                        vertices.reverse();
+                    }
+                    line.extend(vertices[1..].iter().map(|&v| self.nodes[v as usize]));
+                }
+                // From the last graph node to the point.
+                if self.at_node(to).is_none() {
+                    let c = self.position(to).chain;
+                    let mut rest = tail(to, end == c.t && c.backward_hours.is_finite());
+                    rest.reverse();
+                    line.extend(rest);
+                }
+            }
+            (None, Some(_)) => unreachable!("handled by the guard above"),
+        }
+        line.push(to.on_road);
+        line.dedup();
+        Some(line)
+    }
+
+    /// The road geometry of each leg of a visit of `order` (indices into `travel`'s points),
+    /// e.g. `[0, 3, 1, 0]` for depot → 3 → 1 → depot; an empty leg where there is no way.
+    pub fn route(&self, travel: &Travel, order: &[usize]) -> Vec<Vec<(f64, f64)>> {
+        order
+            .windows(2)
+            .map(|w| {
+                self.path(&travel.snaps[w[0]], &travel.snaps[w[1]])
+                    .unwrap_or_default()
+            })
+            .collect()
+    }
+}
