@@ -12,6 +12,7 @@
 mod csv;
 mod gpkg;
 mod html;
+mod labels;
 mod svg;
 
 use std::collections::HashMap;
