@@ -127,6 +127,16 @@ fn every_patch_labelled_pages_numbered_and_cautions_page_named() {
                 "{out}: overview label of {id}"
             );
         }
+        // Context layers the plan recorded (the demo's scenario.resolved.toml names parcels,
+        // water, sensitive sites and two corridors; the inventory plan none).
+        for layer in ["parcels", "water", "sensitive sites", "Route 17"] {
+            let needle = format!("class=\"context\" data-layer=\"{layer}\"");
+            assert_eq!(
+                overview.contains(&needle),
+                out == "demo-roads",
+                "{out}: {layer}"
+            );
+        }
         // ... and every stop on its crew-day map.
         let orders = rows(&dir.path().join(out).join("orders.csv"));
         let info = json(&dir.path().join(out).join("orders.json"));

@@ -14,7 +14,7 @@ use crate::input::treatments::MethodId;
 use crate::report::chart::escape;
 use crate::report::format::{money, thousands};
 
-use super::svg::{day_map, legend, overview_map};
+use super::svg::{context_legend, day_map, legend, overview_map};
 use super::{Orders, day_label};
 
 const CSS: &str = r#"
@@ -192,6 +192,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     }
     h.push_str(&overview_map(ctx));
     h.push_str(&legend(ctx));
+    h.push_str(&context_legend(ctx));
     let _ = write!(
         h,
         "<p class=\"small\">Map in {} (metres; north arrow shows grid north). Travel: {}. Depot {}.</p>",

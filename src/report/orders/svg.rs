@@ -6,6 +6,7 @@ use std::fmt::Write as _;
 
 use geo::Geometry;
 
+use crate::field::context::ContextKind;
 use crate::field::orders::CrewDay;
 use crate::field::travel::TravelModel;
 use crate::report::chart::escape;
@@ -100,6 +101,7 @@ pub(super) fn overview_map(ctx: &Orders) -> String {
         r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="map of patches by plan status"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
         f.width, f.height, f.width, f.height
     );
+    svg.push_str(&context_in(ctx, &f));
     svg.push_str(&roads_in(ctx, &f));
     let planned: HashMap<&str, &str> = ctx
         .folder
@@ -225,6 +227,107 @@ pub(super) fn legend(ctx: &Orders) -> String {
         crew_key(ctx)
     );
     s
+}
+
+/// How each context layer is drawn: fill for areas, stroke, dashes, legend swatch.
+fn context_style(kind: ContextKind) -> (&'static str, &'static str, &'static str, f64) {
+    match kind {
+        ContextKind::Parcels => ("none", "#aaaaaa", "2,2", 0.5),
+        ContextKind::Water => ("#c6dbef", "#4292c6", "", 1.0),
+        ContextKind::Sensitive => ("none", "#cb181d", "4,2", 1.0),
+        ContextKind::Corridor => ("none", "#8c510a", "", 2.0),
+    }
+}
+
+/// An SVG path `d` for any geometry: areas closed, lines open, points as small circles.
+fn any_path(f: &Frame, g: &Geometry<f64>) -> (String, bool) {
+    let line = |d: &mut String, l: &geo::LineString<f64>| {
+        for (k, c) in l.0.iter().enumerate() {
+            let (x, y) = f.px(c.x, c.y);
+            let _ = write!(d, "{}{x:.1},{y:.1}", if k == 0 { "M" } else { "L" });
+        }
+    };
+    let point = |d: &mut String, p: &geo::Point<f64>| {
+        let (x, y) = f.px(p.x(), p.y());
+        let _ = write!(d, "M{:.1},{y:.1}a3,3 0 1,0 6,0a3,3 0 1,0 -6,0", x - 3.0);
+    };
+    let mut d = String::new();
+    match g {
+        Geometry::Polygon(_) | Geometry::MultiPolygon(_) => return (f.path(g), true),
+        Geometry::LineString(l) => line(&mut d, l),
+        Geometry::MultiLineString(m) => m.0.iter().for_each(|l| line(&mut d, l)),
+        Geometry::Point(p) => point(&mut d, p),
+        Geometry::MultiPoint(m) => m.0.iter().for_each(|p| point(&mut d, p)),
+        Geometry::GeometryCollection(c) => {
+            for g in &c.0 {
+                d.push_str(&any_path(f, g).0);
+            }
+        }
+        _ => {}
+    }
+    (d, matches!(g, Geometry::Point(_) | Geometry::MultiPoint(_)))
+}
+
+/// The plan's context layers (parcels, water, sensitive sites, corridors), bottom first.
+fn context_in(ctx: &Orders, f: &Frame) -> String {
+    let mut svg = String::new();
+    for layer in &ctx.context.layers {
+        let (fill, stroke, dash, width) = context_style(layer.kind);
+        let _ = write!(
+            svg,
+            r#"<g class="context" data-layer="{}" stroke="{stroke}" stroke-width="{width}"{}>"#,
+            escape(&layer.name),
+            if dash.is_empty() {
+                String::new()
+            } else {
+                format!(r#" stroke-dasharray="{dash}""#)
+            }
+        );
+        for g in &layer.geometries {
+            let (d, area) = any_path(f, g);
+            if !d.is_empty() {
+                let _ = write!(
+                    svg,
+                    r#"<path d="{d}" fill="{}"/>"#,
+                    if area { fill } else { "none" }
+                );
+            }
+        }
+        svg.push_str("</g>");
+    }
+    svg
+}
+
+/// The legend's line for the context layers drawn (and any that could not be read back).
+pub(super) fn context_legend(ctx: &Orders) -> String {
+    let mut s = String::new();
+    for layer in &ctx.context.layers {
+        let (fill, stroke, dash, _) = context_style(layer.kind);
+        let _ = write!(
+            s,
+            r#"<span class="sw" style="background:{};border:2px {} {stroke}"></span>{}"#,
+            if fill == "none" { "#fff" } else { fill },
+            if dash.is_empty() { "solid" } else { "dashed" },
+            escape(&layer.name)
+        );
+    }
+    if matches!(ctx.travel, TravelModel::Roads(_)) {
+        s.push_str(
+            r#"<span class="sw" style="background:#fff;border:2px solid #b0b0b0"></span>roads"#,
+        );
+    }
+    let mut out = String::new();
+    if !s.is_empty() {
+        let _ = write!(out, r#"<p class="legend small">{s}</p>"#);
+    }
+    if !ctx.context.skipped.is_empty() {
+        let _ = write!(
+            out,
+            r#"<p class="small">Not drawn (the plan's layer could not be read back): {}</p>"#,
+            escape(&ctx.context.skipped.join("; "))
+        );
+    }
+    out
 }
 
 /// Each crew's label colour, named in its colour; unscheduled days in grey.
