@@ -2,7 +2,8 @@
 //! page (its DOM after parsing, its printed PDF) and poppler's `pdftotext` reads the PDF back.
 //! Every treated patch is labelled on the overview map and on its crew-day maps; the printed
 //! report has the schedule's page count, a "page N of M" on every page, and the overview's
-//! cautions reference names the page the cautions are on.
+//! cautions reference names the page the cautions are on; the explorable map's inline script runs
+//! with networking off and makes every treated patch clickable.
 
 mod common;
 
@@ -155,6 +156,29 @@ fn every_patch_labelled_pages_numbered_and_cautions_page_named() {
             );
         }
 
+        // The explorable map runs with networking off (every request proxied to a closed port)
+        // and makes every treated patch clickable; in print its controls are hidden.
+        let offline = chromium_run(
+            &chromium,
+            dir.path(),
+            &[
+                "--proxy-server=127.0.0.1:9".into(),
+                "--proxy-bypass-list=<-loopback>".into(),
+                "--dump-dom".into(),
+            ],
+            &page,
+        );
+        let offline = stdout(&offline);
+        let shown = format!("data-patches-shown=\"{}\"", plan.len());
+        assert!(
+            offline.contains(&shown),
+            "{out}: script did not mark {shown}"
+        );
+        assert!(
+            offline.contains("<div id=\"explore\" class=\"noprint small\">"),
+            "{out}: controls shown"
+        );
+
         // The printed pages: the schedule's count, each numbered, the cautions where page 1 says.
         let pdf = dir.path().join(out).join("report.pdf");
         let p = chromium_run(
@@ -183,6 +207,7 @@ fn every_patch_labelled_pages_numbered_and_cautions_page_named() {
         for (k, p) in pages.iter().enumerate() {
             let want = format!("page {} of {expected}", k + 1);
             assert!(p.contains(&want), "{out}: `{want}` on its page");
+            assert!(!p.contains("zoom in"), "{out}: map controls printed");
         }
         let said = pages[0]
             .split("cautions on page ")

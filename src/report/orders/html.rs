@@ -14,6 +14,7 @@ use crate::input::treatments::MethodId;
 use crate::report::chart::escape;
 use crate::report::format::{money, thousands};
 
+use super::explore::explorer;
 use super::svg::{context_legend, day_map, legend, overview_map};
 use super::{Orders, day_label};
 
@@ -49,6 +50,9 @@ table.stops td.nw { white-space: nowrap; }
 .day .cautions { columns: 2; column-gap: 14px; font-size: 7.5pt; }
 .day h3 { margin: 5px 0 2px 0; }
 .day ul { margin: 2px 0; padding-left: 16px; }
+.details { border: 1px solid #999; padding: 3px 6px; margin: 3px 0; min-height: 1.4em; }
+#overview svg { touch-action: none; }
+@media print { .noprint { display: none !important; } }
 "#;
 
 fn status_line(summary: &Summary) -> String {
@@ -191,6 +195,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
         );
     }
     h.push_str(&overview_map(ctx));
+    h.push_str(&explorer(ctx));
     h.push_str(&legend(ctx));
     h.push_str(&context_legend(ctx));
     let _ = write!(

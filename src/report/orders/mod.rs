@@ -10,6 +10,7 @@
 //! money through [`crate::report::format`].
 
 mod csv;
+mod explore;
 mod gpkg;
 mod html;
 mod labels;

@@ -119,7 +119,8 @@ pub(super) fn overview_map(ctx: &Orders) -> String {
             Some(g @ (Geometry::Polygon(_) | Geometry::MultiPolygon(_))) => {
                 let _ = write!(
                     svg,
-                    r##"<path d="{}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></path>"##,
+                    r##"<path class="patch" data-patch="{}" d="{}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></path>"##,
+                    escape(&rec.patch_id),
                     f.path(g),
                     escape(&rec.patch_id)
                 );
@@ -130,7 +131,8 @@ pub(super) fn overview_map(ctx: &Orders) -> String {
                 let r = (rec.stems.max(0.0).sqrt() * 0.25).clamp(2.5, 9.0);
                 let _ = write!(
                     svg,
-                    r##"<circle cx="{x:.1}" cy="{y:.1}" r="{r:.1}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></circle>"##,
+                    r##"<circle class="patch" data-patch="{}" cx="{x:.1}" cy="{y:.1}" r="{r:.1}" fill="{fill}" stroke="#333" stroke-width="0.6"><title>{}</title></circle>"##,
+                    escape(&rec.patch_id),
                     escape(&rec.patch_id)
                 );
             }
