@@ -34,7 +34,6 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Demo(a) => a.quiet,
         _ => false,
     });
-    printer.install();
     match cli.command {
         Command::Plan(args) => {
             let settings = resolve::plan::resolve(&args)?;
@@ -59,7 +58,7 @@ pub fn run(cli: Cli) -> Result<String> {
             commands::program::run(&resolve::program::resolve(&args)?, printer)
         }
         Command::Demo(args) => Ok(commands::demo::run(&args, printer)?.text),
-        Command::Bench(args) => commands::bench::run(&args),
+        Command::Bench(args) => commands::bench::run(&args, printer),
         Command::MakeDemoInputs(args) => {
             let staging = output::Staging::new(&args.dir, args.force, "make-demo-inputs")?;
             demo::write_inputs(staging.dir())?;

@@ -46,6 +46,7 @@ fn patches_of(items: Vec<Patch>) -> Patches {
         dropped_slivers: 0,
         skipped: Default::default(),
         notes: Vec::new(),
+        crs_conversion: None,
         water_checked: false,
         source: "inventory",
         runs: Vec::new(),

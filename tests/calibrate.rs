@@ -5,6 +5,7 @@
 mod common;
 
 use hostcut::core::kernel::KernelKind;
+use hostcut::core::progress::Bars;
 use hostcut::model::calibrate::{
     self, Geometry, Observations, Theta, exact_log_likelihood, fit_family, log_likelihood,
 };
@@ -395,7 +396,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         dir.path(),
     )
     .unwrap();
-    let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}).unwrap();
+    let prepared = hostcut::planning::prepare::prepare(&scenario, &|_| {}, Bars::Hidden).unwrap();
     let surveys = [
         sv(500050.0, 4480000.0, 2020, false),
         sv(500500.0, 4480000.0, 2020, true),
@@ -418,6 +419,7 @@ fn surveys_are_assigned_inside_nearest_or_reported() {
         &hostcut::core::scenario::read_scenario(&dir.path().join("demo/scenario.resolved.toml"))
             .unwrap(),
         &|_| {},
+        Bars::Hidden,
     )
     .unwrap();
     let p = &prepared.patches.items[0];

@@ -311,3 +311,187 @@ fn a_full_round_trip_gives_the_expected_remaining_stems() {
             .contains("Planned and done")
     );
 }
+
+/// Run `record` on `csv` (written as done.csv) into `out`, with extra flags.
+fn record(dir: &Path, csv: &str, out: &str, flags: &[&str]) -> std::process::Output {
+    write(dir, "done.csv", csv);
+    let mut args = vec![
+        "record",
+        "--plan",
+        "plan",
+        "--completed",
+        "done.csv",
+        "--out",
+        out,
+    ];
+    args.extend_from_slice(flags);
+    run(dir, &args)
+}
+
+const DONE_HEADER: &str = "patch_id,method,planned_stems,treated_stems,date,applicator_licence,product_active_ingredient,notes,reason\n";
+
+/// The planned rows of the test plan: patch id -> (method, planned stems).
+fn planned_rows(dir: &Path) -> std::collections::HashMap<String, (String, f64)> {
+    rows(&dir.join("plan/plan.csv"))
+        .iter()
+        .map(|r| {
+            (
+                r.get("patch_id").to_string(),
+                (r.get("method").to_string(), r.num("stems")),
+            )
+        })
+        .collect()
+}
+
+// Source for the tolerance and the substitution rule: common practice (a stand's stem count from
+// a raster or walk-through is an estimate a crew's count often exceeds by some; a crew may switch
+// to another labelled method the site allows, and says why). Effectiveness values are the
+// catalogue's own (treatments.used.toml), which cites its sources.
+#[test]
+fn ten_percent_more_stems_and_an_eligible_substitute_pass_and_change_next_season() {
+    let dir = tempfile::tempdir().unwrap();
+    planned(dir.path());
+    let plan = planned_rows(dir.path());
+    assert_eq!(plan["B"].0, "foliar", "{plan:?}");
+    assert_eq!(plan["A"].0, "basal_bark", "{plan:?}");
+    let (b_planned, a_planned) = (plan["B"].1, plan["A"].1);
+    let b_treated = (b_planned * 1.10).round();
+    let mut csv = String::from(DONE_HEADER);
+    csv.push_str(&format!(
+        "B,foliar,{b_planned},{b_treated},2027-08-15,PA-1,triclopyr,,\n"
+    ));
+    csv.push_str(&format!(
+        "A,stem_injection,{a_planned},{a_planned},2027-08-15,PA-1,imazapyr,,bark too thick for basal bark on the big stems\n"
+    ));
+    let o = record(dir.path(), &csv, "rec", &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("warning") && err.contains("within the 25 % tolerance"),
+        "{err}"
+    );
+    assert!(err.contains("instead of the planned `basal_bark`"), "{err}");
+    let next: std::collections::HashMap<String, Row> =
+        rows(&dir.path().join("rec/inventory.next.csv"))
+            .into_iter()
+            .map(|r| (r.get("id").to_string(), r))
+            .collect();
+    // B: the crew's count replaces the estimate, then foliar's 70 % comes off it.
+    let b_left = b_treated * (1.0 - 0.70);
+    assert!(
+        (next["B"].num("stems") - b_left).abs() <= 0.051,
+        "B: {}",
+        next["B"].num("stems")
+    );
+    // A: stem injection's 92 %, not basal bark's 89 %, and its window for the follow-up.
+    let a_left = a_planned * (1.0 - 0.92);
+    assert!(
+        (next["A"].num("stems") - a_left).abs() <= 0.051,
+        "A: {}",
+        next["A"].num("stems")
+    );
+    assert_eq!(next["A"].get("follow_up_due"), "2028-07-01");
+    let report = std::fs::read_to_string(dir.path().join("rec/record_report.md")).unwrap();
+    assert!(
+        report.contains("| A | basal_bark | stem_injection | bark too thick"),
+        "{report}"
+    );
+    // A substitute without a reason is refused.
+    let mut csv = String::from(DONE_HEADER);
+    csv.push_str(&format!(
+        "A,stem_injection,{a_planned},{a_planned},2027-08-15,PA-1,imazapyr,,\n"
+    ));
+    let o = record(dir.path(), &csv, "rec2", &[]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("line 2:") && stderr(&o).contains("`reason`"),
+        "{}",
+        stderr(&o)
+    );
+}
+
+// Source: common practice (see above); 60 % is beyond the default 25 % tolerance.
+#[test]
+fn sixty_percent_more_stems_is_refused_without_the_flag_and_accepted_with_it() {
+    let dir = tempfile::tempdir().unwrap();
+    planned(dir.path());
+    let plan = planned_rows(dir.path());
+    let b_planned = plan["B"].1;
+    let b_treated = (b_planned * 1.60).round();
+    let mut csv = String::from(DONE_HEADER);
+    csv.push_str(&format!(
+        "B,foliar,{b_planned},{b_treated},2027-08-15,PA-1,triclopyr,,\n"
+    ));
+    let o = record(dir.path(), &csv, "rec", &[]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    for needle in [
+        "done.csv",
+        "line 2:",
+        "beyond the 25 % tolerance",
+        "--accept-extra-stems",
+    ] {
+        assert!(err.contains(needle), "message lacks `{needle}`: {err}");
+    }
+    assert!(!dir.path().join("rec").exists(), "nothing written");
+    let o = record(dir.path(), &csv, "rec", &["--accept-extra-stems"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("accepted by `--accept-extra-stems`"),
+        "{}",
+        stderr(&o)
+    );
+    let next = rows(&dir.path().join("rec/inventory.next.csv"));
+    let b = next.iter().find(|r| r.get("id") == "B").unwrap();
+    assert!(
+        (b.num("stems") - b_treated * 0.30).abs() <= 0.051,
+        "{}",
+        b.num("stems")
+    );
+    // A wider tolerance accepts it too.
+    let o = record(
+        dir.path(),
+        &csv,
+        "rec3",
+        &["--extra-stems-tolerance-pct", "75"],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
+// Source: the catalogue's own site rules (no herbicide where the site prohibits it; no
+// drift-prone method at restricted sites), the same rules the planner applies.
+#[test]
+fn a_substitute_the_site_does_not_allow_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    planned(dir.path());
+    let plan = planned_rows(dir.path());
+    assert_eq!(plan["D"].0, "pull_seedlings", "{plan:?}");
+    let mut csv = String::from(DONE_HEADER);
+    csv.push_str(&format!(
+        "D,foliar,{0},{0},2027-08-15,PA-1,triclopyr,,quicker\n",
+        plan["D"].1
+    ));
+    csv.push_str(&format!(
+        "C,foliar,{0},{0},2027-08-15,PA-1,triclopyr,,quicker\n",
+        plan["C"].1
+    ));
+    csv.push_str(&format!(
+        "A,bulldozer,{0},{0},2027-08-15,PA-1,triclopyr,,quicker\n",
+        plan["A"].1
+    ));
+    let o = record(dir.path(), &csv, "rec", &[]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    for needle in [
+        "line 2: patch `D`",
+        "NO HERBICIDE ON THIS SITE",
+        "line 3: patch `C`",
+        "restricted site",
+        "line 4: patch `A`",
+        "not a method of the plan's catalogue",
+        "hint",
+    ] {
+        assert!(err.contains(needle), "message lacks `{needle}`: {err}");
+    }
+    assert!(!dir.path().join("rec").exists());
+}

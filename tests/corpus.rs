@@ -356,11 +356,14 @@ fn bad_flag_combinations() {
             "--inventory",
             "stands.csv",
             "--crs",
+            "EPSG:32618",
+            // An inventory in feet is converted (tests/inputs.rs); the work CRS must be metres.
+            "--work-crs",
             "EPSG:2263",
             "--budget",
             "10",
         ],
-        &["EPSG:2263", "metres"],
+        &["--work-crs", "EPSG:2263", "metres"],
     );
     refused(
         dir.path(),

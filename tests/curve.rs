@@ -166,13 +166,40 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
     assert!(o.status.success(), "{}", stderr(&o));
     let o = run(
         dir.path(),
-        &["curve", "--plan", "p", "--currency", "EUR", "--out", "c"],
+        &[
+            "curve",
+            "--plan",
+            "p",
+            "--currency",
+            "EUR",
+            "--exchange-rate",
+            "0.5",
+            "--out",
+            "c",
+        ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("label is the law"));
+    assert!(stdout(&o).contains("converted from the catalogue's USD at 0.5 EUR per USD"));
     let p = dir.path().join("c/curve.csv");
     let rows = rows(&p);
-    assert_eq!(rows.len(), 20);
+    // Round levels (steps of 1, 2, 2.5 or 5 x 10^k; common practice for a table a person
+    // reads): at most 20, plus the plan's own budget (3000 USD = 1500.00 EUR at the rate).
+    assert!(rows.len() <= 21 && rows.len() >= 5, "{} levels", rows.len());
+    let budgets: Vec<f64> = rows
+        .iter()
+        .map(|r| r[column(&p, "budget")].parse().unwrap())
+        .collect();
+    assert!(budgets.contains(&1500.0), "the plan's budget is a level: {budgets:?}");
+    let step = budgets[1];
+    let mantissa = step / 10f64.powf(step.log10().floor());
+    assert!(
+        [1.0, 2.0, 2.5, 5.0].iter().any(|m| (m - mantissa).abs() < 1e-9),
+        "round step {step}"
+    );
+    for b in budgets.iter().filter(|b| **b != 1500.0) {
+        assert!((b / step - (b / step).round()).abs() < 1e-9, "{b} is not a multiple of {step}");
+    }
     let last = rows.last().unwrap();
     assert_eq!(&last[column(&p, "status")], "optimal");
     let patches = std::fs::read_to_string(dir.path().join("p/patches.csv")).unwrap();
@@ -190,15 +217,12 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
         .filter(|n| n.has_tag_name("g"))
         .filter_map(|n| n.attribute("id"))
         .collect();
-    for id in [
-        "optimal",
-        "greedy",
-        "biggest_first",
-        "nearest_first",
-        "corridor_first",
-    ] {
+    for id in ["optimal", "greedy", "biggest_first", "nearest_first"] {
         assert!(groups.contains(&id), "no {id} curve in {groups:?}");
     }
+    // No corridors given: corridor-first would repeat biggest-first under another name.
+    assert!(!groups.contains(&"corridor_first"), "{groups:?}");
+    assert!(!rows_header(&p).contains("corridor_first_risk_after"));
     let optimal = doc
         .descendants()
         .find(|n| n.attribute("id") == Some("optimal"))
@@ -209,7 +233,7 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
         .unwrap()
         .attribute("points")
         .unwrap();
-    assert_eq!(points.split_whitespace().count(), 20);
+    assert_eq!(points.split_whitespace().count(), rows.len());
     assert!(
         // House style (src/report/format.rs): the code before the amount, no symbol.
         svg.contains("season budget (EUR)") && svg.contains(": EUR ") && !svg.contains("€"),
@@ -222,6 +246,8 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
         "not a forecast",
         "Kneedle",
         "label",
+        "(your plan)",
+        "follow-up seasons",
     ] {
         assert!(md.contains(needle), "justification.md lacks {needle}");
     }
@@ -246,6 +272,9 @@ fn bad_curve_options_are_refused() {
         (vec!["--budget-range", "10:5:3"], "MIN <= MAX"),
         (vec!["--budget-range", "abc"], "MIN:MAX:STEPS"),
         (vec!["--budgets", "100,-5"], "-5"),
+        // Relabelling USD prices as euros would misstate them (issue 22).
+        (vec!["--currency", "EUR"], "--exchange-rate"),
+        (vec!["--currency", "EUR", "--exchange-rate", "0"], "above 0"),
     ] {
         let mut args = base.to_vec();
         args.extend(extra);
@@ -317,4 +346,13 @@ fn justification_page_renders_in_a_browser() {
         "DOM: {}",
         &dom[..dom.len().min(500)]
     );
+}
+
+fn rows_header(path: &std::path::Path) -> String {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .next()
+        .unwrap_or_default()
+        .to_string()
 }

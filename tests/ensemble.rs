@@ -236,12 +236,19 @@ fn robust_plans_from_the_command_line() {
         extra.extend_from_slice(&["--robust", robust]);
         let o = plan(dir.path(), robust, &extra);
         assert!(o.status.success(), "{robust}: {}", stderr(&o));
+        // Issue 22: the run names the plan it wrote, not only the least-regret candidate.
+        let written = if robust == "mean" {
+            "ensemble_mean".to_string()
+        } else {
+            format!("robust_{robust}")
+        };
         assert!(
-            stdout(&o).contains("most robust candidate"),
+            stdout(&o).contains(&format!("plan written: {written} (worst-case R")),
             "{}",
             stdout(&o)
         );
         let s = summary(&dir.path().join(robust));
+        assert_eq!(s["ensemble"]["written_plan"]["plan"], written.as_str());
         assert_eq!(s["ensemble"]["robust"], robust);
         assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
         let rows = Table::read(&dir.path().join(robust).join("regret.csv")).rows;
@@ -266,6 +273,14 @@ fn robust_plans_from_the_command_line() {
                 assert_eq!(r.num("regret"), 0.0, "{r:?}");
             }
         }
+        // The written plan's worst-case and mean R are those regret.csv holds for it.
+        let worst = rows
+            .iter()
+            .filter(|r| r.get("plan") == written)
+            .map(|r| r.num("risk_after"))
+            .fold(0.0, f64::max);
+        let reported = s["ensemble"]["written_plan"]["worst_risk"].as_f64().unwrap();
+        assert!((worst - reported).abs() <= 1e-8 * reported, "{worst} vs {reported}");
         if robust == "regret" {
             // The least-regret plan has the smallest worst regret of all candidates.
             let max_regret = |plan: &str| {

@@ -160,6 +160,9 @@ fn formula_cells_are_neutralised_everywhere_and_ids_round_trip() {
                 "",
                 "",
                 "done",
+                "",
+                row.get("parcel"),
+                row.get("contact"),
             ])
             .unwrap();
     }

@@ -29,6 +29,29 @@ fn generous(limit_s: f64, slack_s: f64) -> f64 {
 
 const STOPS: [&str; 4] = ["optimal", "gap_limit", "time_limit", "no_improving_move"];
 
+/// Run `hostcut args` in `dir`, which must succeed; also its wall time in seconds.
+fn run_timed(dir: &Path, args: &[&str]) -> (std::process::Output, f64) {
+    let clock = Instant::now();
+    let o = run(dir, args);
+    let wall = clock.elapsed().as_secs_f64();
+    assert!(o.status.success(), "{}", stderr(&o));
+    (o, wall)
+}
+
+/// The command kept to `limit` seconds by its own record (summary.json's `elapsed_s`) and by
+/// the clock, generously, and its status is one of [`STOPS`].
+fn kept_to_the_limit(s: &serde_json::Value, wall: f64, limit: f64) {
+    assert_eq!(s["time_limit_s"], limit);
+    let elapsed = s["elapsed_s"].as_f64().unwrap();
+    assert!(elapsed <= generous(limit, 1.0), "recorded {elapsed} s");
+    assert!(wall <= generous(limit, 5.0), "wall {wall} s");
+    assert!(
+        STOPS.contains(&s["status"].as_str().unwrap()),
+        "{}",
+        s["status"]
+    );
+}
+
 #[test]
 fn an_ensemble_plan_keeps_to_the_commands_limit() {
     // Four dispersal kernels, two of them dense (Cauchy links every pair), and the robust
@@ -36,8 +59,7 @@ fn an_ensemble_plan_keeps_to_the_commands_limit() {
     let dir = tempfile::tempdir().unwrap();
     let scenario = demo_scenario();
     let limit = 4.0;
-    let clock = Instant::now();
-    let o = run(
+    let (o, wall) = run_timed(
         dir.path(),
         &[
             "plan",
@@ -60,18 +82,8 @@ fn an_ensemble_plan_keeps_to_the_commands_limit() {
             "--quiet",
         ],
     );
-    let wall = clock.elapsed().as_secs_f64();
-    assert!(o.status.success(), "{}", stderr(&o));
     let s = summary(&dir.path().join("ens"));
-    assert_eq!(s["time_limit_s"], 4.0);
-    let elapsed = s["elapsed_s"].as_f64().unwrap();
-    assert!(elapsed <= generous(limit, 1.0), "recorded {elapsed} s");
-    assert!(wall <= generous(limit, 5.0), "wall {wall} s");
-    assert!(
-        STOPS.contains(&s["status"].as_str().unwrap()),
-        "{}",
-        s["status"]
-    );
+    kept_to_the_limit(&s, wall, limit);
     for scenario in s["ensemble"]["scenarios"].as_array().unwrap() {
         let status = scenario["optimum_status"].as_str().unwrap();
         assert!(STOPS.contains(&status), "{status}");
@@ -90,8 +102,7 @@ fn a_budget_curve_shares_the_limit_between_its_levels() {
     let dir = tempfile::tempdir().unwrap();
     let scenario = demo_scenario();
     let limit = 4.0;
-    let clock = Instant::now();
-    let o = run(
+    let (o, wall) = run_timed(
         dir.path(),
         &[
             "curve",
@@ -106,8 +117,6 @@ fn a_budget_curve_shares_the_limit_between_its_levels() {
             "--quiet",
         ],
     );
-    let wall = clock.elapsed().as_secs_f64();
-    assert!(o.status.success(), "{}", stderr(&o));
     assert!(wall <= generous(limit, 5.0), "wall {wall} s");
     // The command reports its own elapsed time against the limit.
     let out = stdout(&o);
@@ -129,8 +138,7 @@ fn a_programme_keeps_to_the_commands_limit() {
     let dir = tempfile::tempdir().unwrap();
     let scenario = demo_scenario();
     let limit = 4.0;
-    let clock = Instant::now();
-    let o = run(
+    let (o, wall) = run_timed(
         dir.path(),
         &[
             "program",
@@ -147,18 +155,8 @@ fn a_programme_keeps_to_the_commands_limit() {
             "--quiet",
         ],
     );
-    let wall = clock.elapsed().as_secs_f64();
-    assert!(o.status.success(), "{}", stderr(&o));
     let s = summary(&dir.path().join("prog"));
-    assert_eq!(s["time_limit_s"], 4.0);
-    let elapsed = s["elapsed_s"].as_f64().unwrap();
-    assert!(elapsed <= generous(limit, 1.0), "recorded {elapsed} s");
-    assert!(wall <= generous(limit, 5.0), "wall {wall} s");
-    assert!(
-        STOPS.contains(&s["status"].as_str().unwrap()),
-        "{}",
-        s["status"]
-    );
+    kept_to_the_limit(&s, wall, limit);
     // The programme's MIP (about 690,000 columns) cannot be searched in 4 s: that is said.
     if s["exact_model_run"] == false {
         assert!(

@@ -165,7 +165,7 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     };
     let text = go("a", "1");
     go("b", "3");
-    for f in ["sim.csv", "patch_occupancy.csv", "sim.svg", "sim.json"] {
+    for f in ["sim.csv", "patch_occupancy.csv", "sim.svg", "sim.json", "proxy.csv"] {
         assert_eq!(
             std::fs::read(dir.path().join("a").join(f)).unwrap(),
             std::fs::read(dir.path().join("b").join(f)).unwrap(),
@@ -177,11 +177,11 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
         "{text}"
     );
     let sim = rows_of(&dir.path().join("a/sim.csv"));
-    // 5 strategies x 9 years (0..=8).
-    assert_eq!(sim.len(), 45);
+    // 7 strategies (the demo has corridors) x 9 years (0..=8).
+    assert_eq!(sim.len(), 63);
     let strategies: std::collections::BTreeSet<&str> =
         sim.iter().map(|r| r.get("strategy")).collect();
-    assert_eq!(strategies.len(), 5);
+    assert_eq!(strategies.len(), 7);
     for r in &sim {
         let (p05, p50, p95) = (
             r.num("occupied_host_p05"),
@@ -226,11 +226,8 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
             .unwrap()
     };
     let versus = json["versus_plan"].as_array().expect("versus_plan");
-    let names: Vec<&str> = versus
-        .iter()
-        .map(|v| v["strategy"].as_str().unwrap())
-        .collect();
-    assert_eq!(names, ["greedy", "density", "random"]);
+    let names: Vec<&str> = versus.iter().map(|v| v["strategy"].as_str().unwrap()).collect();
+    assert_eq!(names, ["greedy", "density", "biggest", "corridor", "random"]);
     for v in versus {
         let name = v["strategy"].as_str().unwrap();
         let per_year = v["per_year"].as_array().unwrap();
@@ -284,7 +281,72 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
             text.contains(verdict) && verdict.contains("hostcut program"),
             "{text}"
         );
+        // Every strategy that beats the plan in some year is named, with a reason ("Why:").
+        let labels = [
+            ("greedy", "greedy benefit-per-cost"),
+            ("density", "densest stands first"),
+            ("biggest", "biggest stands first"),
+            ("corridor", "stands along the corridors first"),
+            ("random", "random feasible plans"),
+        ];
+        for v in versus {
+            let beats = v["per_year"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|y| y["ci95"][1].as_f64().unwrap() < 0.0);
+            let label = labels.iter().find(|l| l.0 == v["strategy"]).unwrap().1;
+            if beats {
+                assert!(verdict.contains(label) && verdict.contains("Why:"), "{verdict}");
+            }
+        }
     }
+    // Proxy check (issue 22): the plan, the four rules and 12 random plans scored by R and by
+    // the simulation; Spearman's rho recomputed by scipy.stats.spearmanr (the reference; scipy
+    // from the registries, python3-scipy) from proxy.csv.
+    let proxy = rows_of(&dir.path().join("a/proxy.csv"));
+    assert_eq!(
+        proxy.len(),
+        5 + 12,
+        "plan, greedy, density, biggest, corridor, 6 random, 6 perturbed optima"
+    );
+    // plan_rank_pct: the share of the other plans that leave as much host occupied as the plan
+    // or more, recomputed from proxy.csv.
+    let plan_mean = proxy.iter().find(|r| r.get("plan") == "plan").unwrap().num("mean_occupied_host_pct");
+    let at_least = proxy
+        .iter()
+        .filter(|r| r.get("plan") != "plan" && r.num("mean_occupied_host_pct") >= plan_mean)
+        .count();
+    let rank = json["proxy_check"]["plan_rank_pct"].as_f64().expect("plan_rank_pct");
+    assert!((rank - 100.0 * at_least as f64 / 16.0).abs() < 1e-9, "{rank}");
+    assert_eq!(proxy.iter().filter(|r| r.get("plan").starts_with("perturbed_")).count(), 6);
+    let check = &json["proxy_check"];
+    let rho = check["spearman"].as_f64().expect("spearman");
+    let ci = &check["ci95"];
+    let (lo, hi) = (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap());
+    assert!(-1.0 <= lo && lo <= hi && hi <= 1.0, "{ci}");
+    assert!(text.contains(check["reading"].as_str().unwrap()), "{text}");
+    let script = format!(
+        "import csv, scipy.stats as s\nr = list(csv.DictReader(open({:?})))\nprint(repr(s.spearmanr([float(x['risk_after']) for x in r], [float(x['mean_occupied_host_pct']) for x in r]).correlation))",
+        dir.path().join("a/proxy.csv").display().to_string()
+    );
+    let o = std::process::Command::new("/usr/bin/python3")
+        .args(["-c", &script])
+        .output()
+        .expect("run /usr/bin/python3 (python3-scipy)");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let scipy: f64 = String::from_utf8_lossy(&o.stdout).trim().parse().unwrap();
+    assert!((scipy - rho).abs() < 1e-9, "scipy {scipy} vs hostcut {rho}");
+    let plan_r = json["strategies"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["name"] == "plan")
+        .unwrap()["risk_after"]
+        .as_f64()
+        .unwrap();
+    let row = proxy.iter().find(|r| r.get("plan") == "plan").unwrap();
+    assert!((row.num("risk_after") - plan_r).abs() <= 1e-9 * plan_r);
     let occ = rows_of(&dir.path().join("a/patch_occupancy.csv"));
     assert_eq!(occ.len(), 108);
     let svg = std::fs::read_to_string(dir.path().join("a/sim.svg")).unwrap();
@@ -293,7 +355,19 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
         .descendants()
         .filter(|n| n.attribute("class") == Some("band"))
         .count();
-    assert_eq!(bands, 5, "one 5-95% band per strategy");
+    assert_eq!(bands, 7, "one 5-95% band per strategy");
+    // The chart marks the first year each strategy beats the plan, as the verdict says.
+    let beats = versus
+        .iter()
+        .filter(|v| {
+            v["per_year"].as_array().unwrap().iter().any(|y| y["ci95"][1].as_f64().unwrap() < 0.0)
+        })
+        .count();
+    let markers = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("marker-label"))
+        .count();
+    assert_eq!(markers, beats, "{svg}");
 }
 
 fn rows_of(path: &std::path::Path) -> Vec<Row> {
@@ -382,6 +456,17 @@ fn simulate_takes_the_plan_inputs_directly() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("the plan leaves"), "{}", stdout(&o));
+    // No corridors: corridor-first would be biggest-first under another name (issue 22).
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("sim/sim.json")).unwrap())
+            .unwrap();
+    let names: Vec<&str> = json["strategies"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["name"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["none", "plan", "greedy", "density", "biggest", "random"]);
     let o = run(
         dir.path(),
         &[
@@ -413,4 +498,141 @@ fn simulate_takes_the_plan_inputs_directly() {
     );
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("at least 1"));
+}
+
+/// `simulate` keeps a record of the run, `simulate.resolved.toml` (the inputs as read and a
+/// `[simulate]` table of every setting), and the record repeats the run byte for byte, as
+/// `scenario.resolved.toml` does for `plan` (common practice: a run's provenance file repeats
+/// it). It is not `scenario.resolved.toml`, so the folder is not taken for a plan folder.
+#[test]
+fn simulate_writes_a_record_that_repeats_the_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(
+        d,
+        "stands.csv",
+        "id,x,y,stems,pressure\nA,500000,4480000,300,3\nB,500150,4480050,180,1\nC,500400,4480000,220,1\nD,500600,4480200,90,1\n",
+    );
+    let inputs = ["--inventory", "stands.csv", "--crs", "EPSG:32618"];
+    let ok = |args: &[&str]| {
+        let o = run(d, args);
+        assert!(o.status.success(), "{args:?}: {}", stderr(&o));
+    };
+    let same = |a: &str, b: &str| {
+        for f in ["sim.json", "sim.csv", "patch_occupancy.csv"] {
+            assert_eq!(
+                std::fs::read(d.join(a).join(f)).unwrap(),
+                std::fs::read(d.join(b).join(f)).unwrap(),
+                "{f}: {a} and {b} differ"
+            );
+        }
+    };
+    // Planned here at the budget, with settings away from every default.
+    let flags = [
+        "--budget",
+        "1500",
+        "--years",
+        "5",
+        "--runs",
+        "40",
+        "--seed",
+        "11",
+        "--extinction",
+        "0.3",
+        "--regrowth",
+        "0.2",
+        "--long-distance-share",
+        "0.1",
+        "--quiet",
+    ];
+    ok(&[&["simulate"][..], &inputs, &flags, &["--out", "sim"]].concat());
+    assert!(!d.join("sim/scenario.resolved.toml").exists());
+    let record = d.join("sim/simulate.resolved.toml");
+    let s = hostcut::core::scenario::read_scenario(&record).unwrap();
+    assert_eq!(s.plan.budget, Some(1500.0));
+    let t = s.simulate.expect("the [simulate] table");
+    assert_eq!((t.years, t.runs, t.seed), (Some(5), Some(40), Some(11)));
+    assert_eq!(t.extinction, Some(0.3));
+    assert_eq!(t.regrowth, Some(0.2));
+    assert_eq!(t.long_distance_share, Some(0.1));
+    // The defaults taken are recorded too (model::simulate::Params::default, the flags' help).
+    assert_eq!(t.colonisation, Some(0.5));
+    assert_eq!(t.long_distance_multiple, Some(10.0));
+    assert_eq!(t.plan, None);
+
+    let rec = record.to_str().unwrap();
+    ok(&["simulate", "--scenario", rec, "--out", "again", "--quiet"]);
+    same("sim", "again");
+    // A flag given again wins over the record's table.
+    ok(&[
+        "simulate",
+        "--scenario",
+        rec,
+        "--seed",
+        "12",
+        "--out",
+        "reseeded",
+        "--quiet",
+    ]);
+    let t = hostcut::core::scenario::read_scenario(&d.join("reseeded/simulate.resolved.toml"))
+        .unwrap()
+        .simulate
+        .unwrap();
+    assert_eq!((t.seed, t.runs), (Some(12), Some(40)));
+    assert_ne!(
+        std::fs::read(d.join("sim/sim.csv")).unwrap(),
+        std::fs::read(d.join("reseeded/sim.csv")).unwrap()
+    );
+
+    // A plan folder's plan: the record names the folder, and repeats from anywhere.
+    ok(&[
+        &["plan"][..],
+        &inputs,
+        &["--budget", "1500", "--out", "p", "--quiet"],
+    ]
+    .concat());
+    ok(&[
+        "simulate", "--plan", "p", "--runs", "30", "--years", "4", "--out", "sp", "--quiet",
+    ]);
+    let t = hostcut::core::scenario::read_scenario(&d.join("sp/simulate.resolved.toml"))
+        .unwrap()
+        .simulate
+        .unwrap();
+    assert_eq!(
+        t.plan.map(|p| std::fs::canonicalize(p).unwrap()),
+        Some(std::fs::canonicalize(d.join("p")).unwrap())
+    );
+    let moved = d.join("elsewhere");
+    std::fs::create_dir(&moved).unwrap();
+    let o = run(
+        &moved,
+        &[
+            "simulate",
+            "--scenario",
+            d.join("sp/simulate.resolved.toml").to_str().unwrap(),
+            "--out",
+            "../sp2",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    same("sp", "sp2");
+    // Another command reading the record says that it sets the table aside, and its own
+    // record does not carry it (a setting the user gave is never dropped silently).
+    let o = run(
+        d,
+        &["plan", "--scenario", rec, "--out", "replanned", "--quiet"],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("[simulate] table applies to `hostcut simulate` only"),
+        "{}",
+        stderr(&o)
+    );
+    let replanned = std::fs::read_to_string(d.join("replanned/scenario.resolved.toml")).unwrap();
+    assert!(!replanned.contains("[simulate]"), "{replanned}");
+    // The simulation's folder is not a plan folder.
+    let o = run(d, &["simulate", "--plan", "sim", "--out", "x", "--quiet"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("not a plan folder"), "{}", stderr(&o));
 }

@@ -73,9 +73,13 @@ pub struct PlanArgs {
     /// Stand inventory CSV: id,x,y,stems[,access,herbicide,cost_factor,pressure,area_ha,suitability]
     #[arg(long, value_name = "CSV")]
     pub inventory: Option<PathBuf>,
-    /// Projected CRS (metres) of the inventory's x,y, e.g. EPSG:32618
+    /// CRS of the inventory's x,y, e.g. EPSG:32618 or 32618; lon/lat (EPSG:4326, CRS84) is
+    /// projected into the local UTM zone, a CRS in feet (e.g. EPSG:2272) into its metre form
     #[arg(long, value_name = "CRS")]
     pub crs: Option<String>,
+    /// Work CRS (projected, metres) to convert the inventory into, instead of the default
+    #[arg(long, value_name = "CRS")]
+    pub work_crs: Option<String>,
     /// CRS to assume for a raster or vector layer that carries none
     #[arg(long, value_name = "CRS")]
     pub assume_crs: Option<String>,
@@ -254,12 +258,37 @@ pub struct CurveArgs {
     /// patch with its most effective method, 20 budgets)
     #[arg(long, value_name = "MIN:MAX:STEPS")]
     pub budget_range: Option<String>,
-    /// Currency code shown in the outputs (default: the treatment catalogue's)
+    /// Currency of the outputs (default: the treatment catalogue's); another currency than the
+    /// catalogue's needs `--exchange-rate`
     #[arg(long, value_name = "CODE")]
     pub currency: Option<String>,
+    /// Units of `--currency` per unit of the catalogue's currency; every amount is converted and
+    /// the rate is stated on the page
+    #[arg(long, value_name = "RATE", requires = "currency")]
+    pub exchange_rate: Option<f64>,
+    /// Title of the justification page (default: a description of what it shows)
+    #[arg(long)]
+    pub title: Option<String>,
+    /// Place the page is about, e.g. the programme area, shown under the title
+    #[arg(long)]
+    pub place: Option<String>,
+    /// Date shown under the title, as written (e.g. 2027-03-01)
+    #[arg(long)]
+    pub date: Option<String>,
     /// Budget points solved at once (each worker solves a run of neighbouring budgets)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+}
+
+/// `--out DIR` and `--force`, for the commands that read a plan folder and write another.
+#[derive(Debug, Clone, Args)]
+pub struct OutFolder {
+    /// Output folder (must be new or empty unless `--force`)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// Flags of `hostcut contract`.
@@ -268,12 +297,11 @@ pub struct ContractArgs {
     /// The plan folder (the `--out` of `hostcut plan` or `hostcut demo`)
     #[arg(long = "plan", value_name = "DIR")]
     pub plan_dir: PathBuf,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
+    /// Units of printed areas: ha (hectares) or ac (international acres, 1 ac = 0.40468564224 ha)
+    #[arg(long, value_name = "UNIT", default_value = "ha", value_parser = ["ha", "ac"])]
+    pub area_units: String,
 }
 
 /// Flags of `hostcut record`.
@@ -285,12 +313,15 @@ pub struct RecordArgs {
     /// The filled completion file (from `hostcut contract`'s completion_template.csv)
     #[arg(long, value_name = "CSV")]
     pub completed: PathBuf,
-    /// Output folder (must be new or empty unless `--force`)
-    #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
-    /// Replace an earlier run of this same command in `--out` (a folder hostcut did not write is never replaced)
+    /// Stems treated above the plan's estimate are accepted with a warning up to this share of
+    /// the planned stems, in percent; beyond it the file is refused
+    #[arg(long, value_name = "PCT", default_value_t = 25.0)]
+    pub extra_stems_tolerance_pct: f64,
+    /// Accept stems treated above the plan beyond the tolerance (after confirming the count)
     #[arg(long)]
-    pub force: bool,
+    pub accept_extra_stems: bool,
+    #[command(flatten)]
+    pub output: OutFolder,
 }
 
 /// Flags of `hostcut simulate`.
@@ -301,18 +332,23 @@ pub struct SimulateArgs {
     /// Simulate the plan in this plan folder, with its inputs and settings
     #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
     pub plan_dir: Option<PathBuf>,
-    /// Years to simulate (treatment at the start of year 1)
-    #[arg(long, default_value_t = 10)]
-    pub years: u32,
-    /// Stochastic runs per strategy (the same random numbers for every strategy)
-    #[arg(long, default_value_t = 500)]
-    pub runs: u32,
-    /// Seed of the random streams; the same seed gives byte-identical outputs
-    #[arg(long, default_value_t = 42)]
-    pub seed: u64,
+    /// Years to simulate (treatment at the start of year 1) [default: 10]
+    #[arg(long)]
+    pub years: Option<u32>,
+    /// Stochastic runs per strategy (the same random numbers for every strategy) [default: 500]
+    #[arg(long)]
+    pub runs: Option<u32>,
+    /// Seed of the random streams; the same seed gives byte-identical outputs [default: 42]
+    #[arg(long)]
+    pub seed: Option<u64>,
     /// Threads (results do not depend on it)
     #[arg(long, default_value_t = 2)]
     pub jobs: usize,
+    /// Random feasible plans simulated besides the plan and the rules, to check whether plans
+    /// with a lower R also leave less host occupied (proxy.csv, sim.json `proxy_check`); 0: none
+    /// [default: 12]
+    #[arg(long)]
+    pub proxy_plans: Option<usize>,
     /// e: yearly extinction probability of an average-sized untreated patch [default: 0.2, or the `--calibration` fit]
     #[arg(long)]
     pub extinction: Option<f64>,
@@ -325,18 +361,18 @@ pub struct SimulateArgs {
     /// iota: introductions per unit of pressure (average-patch equivalents of occupied host) [default: 0.05, or the `--calibration` fit]
     #[arg(long)]
     pub introduction: Option<f64>,
-    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g)))
-    #[arg(long, default_value_t = 0.1)]
-    pub regrowth: f64,
-    /// Share of a saturated patch's colonisation pressure that travels far (0 = off)
-    #[arg(long, default_value_t = 0.0)]
-    pub long_distance_share: f64,
-    /// Long-distance kernel scale as a multiple of alpha
-    #[arg(long, default_value_t = 10.0)]
-    pub long_distance_multiple: f64,
-    /// Years a patch must stay occupied to count as saturated
-    #[arg(long, default_value_t = 3)]
-    pub long_distance_after_years: u32,
+    /// g: yearly regrowth of the host left after treatment (h <- min(1, h (1 + g))) [default: 0.1]
+    #[arg(long)]
+    pub regrowth: Option<f64>,
+    /// Share of a saturated patch's colonisation pressure that travels far (0 = off) [default: 0]
+    #[arg(long)]
+    pub long_distance_share: Option<f64>,
+    /// Long-distance kernel scale as a multiple of alpha [default: 10]
+    #[arg(long)]
+    pub long_distance_multiple: Option<f64>,
+    /// Years a patch must stay occupied to count as saturated [default: 3]
+    #[arg(long)]
+    pub long_distance_after_years: Option<u32>,
 }
 
 /// Flags of `hostcut calibrate`.

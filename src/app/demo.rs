@@ -12,6 +12,7 @@ use std::path::Path;
 use geo::{LineString, MultiPolygon, Point, Polygon};
 
 use crate::core::error::{Error, Result};
+use crate::core::progress::Bars;
 use crate::input::gis::{self, Crs, Property};
 
 pub use crate::core::rng::SplitMix;
@@ -273,7 +274,7 @@ fn parcels() -> Vec<(MultiPolygon<f64>, Vec<Property>)> {
             "permission",
             "allowed",
             1.1,
-            "Owner on file, call 555-0123",
+            "the owner on file, 555-0123",
         ),
         (
             "Millbrook School District",
@@ -573,7 +574,7 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 fn surveys_csv(dir: &Path) -> Result<String> {
     use crate::model::simulate::{self, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
-    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {})?;
+    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {}, Bars::Hidden)?;
     let landscape = prepared.landscape();
     let truth = Params {
         extinction: 0.25,

@@ -8,15 +8,16 @@ use crate::app::cli::BenchArgs;
 use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::kernel::KernelKind;
+use crate::core::printer::Printer;
 use crate::core::scenario::Formulation;
 use crate::model::synthetic::Spec;
 use crate::solve::instance::{Instance, InstanceSpec};
 use crate::solve::optimise;
 use crate::solve::problem::Limits;
 
-pub fn run(args: &BenchArgs) -> Result<String> {
+pub fn run(args: &BenchArgs, printer: Printer) -> Result<String> {
     if let Some(side) = args.raster_side {
-        return raster(args, side);
+        return raster(args, side, printer);
     }
     if args.patches == 0
         || args.methods == 0
@@ -126,7 +127,7 @@ pub fn run(args: &BenchArgs) -> Result<String> {
 /// The raster path at scale: write a synthetic host raster (not timed), read it once through
 /// GDAL in the labeller's strips (the baseline: the I/O floor), then build the patches, graph
 /// and risk model from it as `hostcut plan` does.
-fn raster(args: &BenchArgs, side: usize) -> Result<String> {
+fn raster(args: &BenchArgs, side: usize, printer: Printer) -> Result<String> {
     use crate::core::scenario::Scenario;
     use crate::model::synthetic::{RasterSpec, write_raster};
     if side == 0 || args.patches == 0 || args.cell_m.is_nan() || args.cell_m <= 0.0 {
@@ -196,12 +197,16 @@ fn raster(args: &BenchArgs, side: usize) -> Result<String> {
         );
         let clock = std::time::Instant::now();
         let stages = std::cell::RefCell::new(Vec::new());
-        let prepared = crate::planning::prepare::prepare(&scenario, &|line: &str| {
-            stages.borrow_mut().push(format!(
-                "  {:>7.2} s  {line}",
-                clock.elapsed().as_secs_f64()
-            ));
-        })?;
+        let prepared = crate::planning::prepare::prepare(
+            &scenario,
+            &|line: &str| {
+                stages.borrow_mut().push(format!(
+                    "  {:>7.2} s  {line}",
+                    clock.elapsed().as_secs_f64()
+                ));
+            },
+            printer.bars(),
+        )?;
         let ones = vec![1.0; prepared.patches.len()];
         let capacity = prepared.model.capacity(&ones);
         stages.borrow_mut().push(format!(

@@ -15,7 +15,7 @@ use crate::report::output::Staging;
 pub fn run(resolved: &CalibrateSettings, printer: Printer) -> Result<String> {
     let settings = &resolved.settings;
     let surveys = surveys::read_surveys(&resolved.surveys)?;
-    let prepared = prepare::prepare(&settings.scenario, &printer.progress_fn())?;
+    let prepared = prepare::prepare(&settings.scenario, &printer.progress_fn(), printer.bars())?;
     let calibrated = calibrate::calibrate(
         &prepared,
         surveys,

@@ -4,24 +4,38 @@
 use super::plan::RunReport;
 use crate::app::resolve::curve::CurveSettings;
 use crate::core::cautions;
-use crate::core::error::Result;
+use crate::core::error::{Error, Result};
+use crate::field::plan_folder::PlanFolder;
 use crate::core::printer::Printer;
 use crate::planning::baselines;
 use crate::planning::curve;
-use crate::report::curve::{self as curve_report, Money};
+use crate::report::curve::{self as curve_report, Context, Money};
+use crate::report::format::status_words;
 use crate::solve::problem::Limits;
 
 pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
     let settings = &resolved.settings;
     let s = &settings.scenario;
     let (staging, prepared) = super::stage_and_prepare(settings, "curve", printer)?;
-    let money = Money::new(
-        resolved
-            .currency
-            .as_deref()
-            .unwrap_or(&prepared.catalogue.currency),
-    );
-    let budgets = resolved.budgets.levels(&prepared);
+    let money = money_of(resolved, &prepared.catalogue.currency)?;
+    // Under `--plan DIR` the plan's own budget is a level, solved from the plan itself.
+    let plan_budget = resolved
+        .plan_dir
+        .as_ref()
+        .and_then(|_| s.plan.budget);
+    let anchor = match (&resolved.plan_dir, plan_budget) {
+        (Some(dir), Some(budget)) => {
+            let folder = PlanFolder::read(dir)?;
+            let planned: Vec<(String, String)> = folder
+                .planned
+                .iter()
+                .map(|p| (p.patch_id.clone(), p.method.clone()))
+                .collect();
+            curve::Anchor::from_plan(&prepared, budget, &planned)
+        }
+        _ => None,
+    };
+    let budgets = resolved.budgets.levels_with(&prepared, plan_budget);
     let depot = baselines::depot(s.plan.depot, &prepared.patches, &prepared.eligible);
     let limits = Limits {
         max_memory_gb: s.solver.max_memory_gb,
@@ -35,9 +49,15 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
         limits,
         depot,
         resolved.jobs,
+        anchor.as_ref(),
         printer,
     )?;
-    curve_report::write(&staging, &prepared, &points, &analysis, &money, s)?;
+    let context = Context {
+        labels: resolved.page.clone(),
+        plan_budget,
+        gap_limit: s.solver.gap,
+    };
+    curve_report::write(&staging, &prepared, &points, &analysis, &money, s, &context)?;
     let out = staging.commit()?;
 
     let risk_before = prepared.model.risk_before();
@@ -54,35 +74,41 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
         settings.deadline().elapsed_s(),
         s.solver.time_limit_s
     ));
+    if let Some(note) = money.rate_note() {
+        text.line(format_args!("{note}"));
+    }
     for p in &points {
         text.line(format_args!(
-            "  {:>12}  {:>5.1}% less risk  {:>3} patches  {} (gap {:.1e}){}",
+            "  {:>12}  {:>5.1}% less risk  {:>3} patches  {}{}{}",
             money.fmt(p.budget),
             curve::analysis::reduction(p.risk_after, risk_before),
             p.n_treated,
-            p.status.as_str(),
-            p.gap,
+            status_words(p.status, p.gap, s.solver.gap),
             if p.from_neighbour {
                 ", smaller budget's plan"
+            } else {
+                ""
+            },
+            if plan_budget == Some(p.budget) {
+                "  <- your plan"
             } else {
                 ""
             }
         ));
     }
-    if let Some(k) = analysis.knee {
-        text.line(format_args!(
-            "knee (Kneedle): about {} buys {:.1}% less risk; past it each extra 1,000 buys less",
-            money.fmt(points[k].budget),
-            analysis.reductions[k]
-        ));
+    if let Some(sentence) = curve_report::knee_sentence(&points, &analysis, &money) {
+        text.line(format_args!("{sentence}"));
     }
-    for (fraction, at) in &analysis.thresholds {
-        if let Some(k) = at {
-            text.line(format_args!(
-                "{:.0}% of the attainable reduction by {}",
-                fraction * 100.0,
-                money.fmt(points[*k].budget)
-            ));
+    if let Some(last) = points.last() {
+        for (fraction, at) in &analysis.thresholds {
+            if let Some(k) = at {
+                text.line(format_args!(
+                    "{:.0}% of the reduction at the largest budget studied ({}) by {}",
+                    fraction * 100.0,
+                    money.fmt(last.budget),
+                    money.fmt(points[*k].budget)
+                ));
+            }
         }
     }
     text.line(format_args!(
@@ -95,4 +121,25 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
         out,
         text: text.into_string(),
     })
+}
+
+/// The outputs' currency: the catalogue's, or `--currency` with `--exchange-rate`. Another code
+/// without a rate is refused: relabelling prices as another currency would misstate them.
+fn money_of(resolved: &CurveSettings, catalogue: &str) -> Result<Money> {
+    let catalogue = catalogue.trim().to_ascii_uppercase();
+    let Some(code) = resolved.currency.as_deref().map(|c| c.trim().to_ascii_uppercase()) else {
+        return Ok(Money::new(&catalogue));
+    };
+    match resolved.exchange_rate {
+        Some(rate) => Ok(Money::converted(&code, &catalogue, rate)),
+        None if code == catalogue => Ok(Money::new(&catalogue)),
+        None => Err(Error::input_with_hint(
+            format!(
+                "`--currency {code}`: the treatment catalogue's prices are in {catalogue}; they would be shown as {code} without conversion"
+            ),
+            format!(
+                "add `--exchange-rate R` ({code} per {catalogue}) to convert every amount, or leave out `--currency`"
+            ),
+        )),
+    }
 }

@@ -24,6 +24,6 @@ pub fn stage_and_prepare(
     printer: Printer,
 ) -> Result<(Staging, Prepared)> {
     let staging = Staging::new(&settings.out, settings.force, command)?;
-    let prepared = prepare::prepare(&settings.scenario, &printer.progress_fn())?;
+    let prepared = prepare::prepare(&settings.scenario, &printer.progress_fn(), printer.bars())?;
     Ok((staging, prepared))
 }

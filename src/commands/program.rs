@@ -54,6 +54,13 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
         100.0 * (1.0 - solved.objective / written.objective_none.max(1e-300)),
         100.0 * (written.objective_myopic / solved.objective.max(1e-300) - 1.0)
     ));
+    if written.same_as_myopic {
+        // Planning ahead changed nothing: say so, and what the gap makes of it.
+        text.line(format_args!(
+            "the programme is the season-by-season plan: planning the seasons together found nothing better, so the season-by-season plan is within {} of the best programme",
+            crate::report::format::share_percent(solved.gap)
+        ));
+    }
     text.line(format_args!(
         "optimiser: {} (status {}, gap {:.2e} on the discounted remaining risk, {:.1} s)",
         match solved.status {

@@ -32,6 +32,7 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
     let runs = resolved.runs;
     let sim = simulate::simulate_plan(&prepared, &problem, &plan, resolved.params, runs, printer)?;
     simulate_report::write(&staging, &prepared, &sim)?;
+    simulate_report::write_record(&staging, &prepared, &resolved.record)?;
     let out = staging.commit()?;
 
     let summary = &sim.summary;
@@ -88,9 +89,13 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
     if let Some(verdict) = &summary.verdict {
         text.line(verdict.as_str());
     }
+    if let Some(check) = &summary.proxy_check {
+        text.line(check.reading.as_str());
+    }
     text.detail(format_args!(
-        "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, cautions.txt",
-        out.display()
+        "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, {}cautions.txt, simulate.resolved.toml",
+        out.display(),
+        if summary.proxy_check.is_some() { "proxy.csv, " } else { "" }
     ));
     text.push('\n');
     text.push_str(&cautions::standing_text());

@@ -9,7 +9,7 @@
 use std::fmt::{Display, Write as _};
 use std::io::IsTerminal;
 
-use crate::core::progress::{self, Stage};
+use crate::core::progress::{Bars, Stage};
 
 /// How a command talks to the person running it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -38,10 +38,14 @@ impl Printer {
         }
     }
 
-    /// Make this printer's choice of bars the one for stages that are not handed a printer
-    /// (the raster labeller in `input::patches`). Called once, by [`crate::run`].
-    pub fn install(self) {
-        progress::set_bars(self == Printer::Progress);
+    /// Whether bars are drawn, for the stages handed a [`Bars`] rather than a printer (the
+    /// raster labeller in `input::patches`).
+    pub fn bars(self) -> Bars {
+        if self == Printer::Progress {
+            Bars::Drawn
+        } else {
+            Bars::Hidden
+        }
     }
 
     pub fn is_quiet(self) -> bool {
@@ -63,12 +67,12 @@ impl Printer {
 
     /// A bar over `len` steps of `unit`, drawn only on a terminal.
     pub fn bar(self, what: &str, len: u64, unit: &str) -> Stage {
-        Stage::bar_if(self == Printer::Progress, what, len, unit)
+        self.bars().bar(what, len, unit)
     }
 
     /// A spinner with the time spent, drawn only on a terminal.
     pub fn spinner(self, what: &str) -> Stage {
-        Stage::spinner_if(self == Printer::Progress, what)
+        self.bars().spinner(what)
     }
 
     /// The progress lines as a callback, for library stages that take one.

@@ -1,37 +1,42 @@
 //! Progress bars on long stages (raster labelling, optimising, budget curves), drawn on
 //! stderr only when it is a terminal and the command is not `--quiet`; pipes, files and CI
-//! logs get the plain stage lines alone. Commands make bars through their
-//! [`crate::core::printer::Printer`]; the process-wide switch below serves only the stages
-//! not yet handed a printer (the raster labeller in `input::patches`).
+//! logs get the plain stage lines alone. The choice is the command's
+//! [`crate::core::printer::Printer`]'s, handed down explicitly: commands make bars through the
+//! printer, and a stage that is given no printer (the raster labeller in `input::patches`)
+//! takes a [`Bars`] parameter. There is no process-wide switch.
 
-use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Duration;
 
 use indicatif::{ProgressBar, ProgressStyle};
 
-static ENABLED: AtomicBool = AtomicBool::new(false);
-
-/// Turn bars on or off for the stages without a printer; set once from the command's printer
-/// ([`crate::core::printer::Printer::install`]).
-pub fn set_bars(on: bool) {
-    ENABLED.store(on, Ordering::Relaxed);
+/// Whether a stage draws its bars: the printer's choice
+/// ([`crate::core::printer::Printer::bars`]), passed to the stages that draw one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Bars {
+    /// No bars: not a terminal, `--quiet`, or a library caller (tests, the bench's stages).
+    Hidden,
+    /// Bars on stderr (a terminal).
+    Drawn,
 }
 
-pub fn enabled() -> bool {
-    ENABLED.load(Ordering::Relaxed)
+impl Bars {
+    /// A bar over `len` steps of `unit` (e.g. "rows", "budgets"), drawn when [`Bars::Drawn`].
+    pub fn bar(self, what: &str, len: u64, unit: &str) -> Stage {
+        Stage::bar_if(self == Bars::Drawn, what, len, unit)
+    }
+
+    /// A spinner with the time spent, drawn when [`Bars::Drawn`].
+    pub fn spinner(self, what: &str) -> Stage {
+        Stage::spinner_if(self == Bars::Drawn, what)
+    }
 }
 
 /// A bar or spinner that draws only when enabled; cleared when finished or dropped.
 pub struct Stage(Option<ProgressBar>);
 
 impl Stage {
-    /// A bar over `len` steps of `unit` (e.g. "rows", "budgets").
-    pub fn bar(what: &str, len: u64, unit: &str) -> Stage {
-        Stage::bar_if(enabled(), what, len, unit)
-    }
-
-    /// As [`Stage::bar`], drawn when `draw` (the printer's choice).
-    pub fn bar_if(draw: bool, what: &str, len: u64, unit: &str) -> Stage {
+    /// A bar over `len` steps of `unit` (e.g. "rows", "budgets"), drawn when `draw`.
+    fn bar_if(draw: bool, what: &str, len: u64, unit: &str) -> Stage {
         if !draw {
             return Stage(None);
         }
@@ -46,13 +51,9 @@ impl Stage {
         Stage(Some(bar))
     }
 
-    /// A spinner with the time spent, for a stage without countable steps (a time-limited solve).
-    pub fn spinner(what: &str) -> Stage {
-        Stage::spinner_if(enabled(), what)
-    }
-
-    /// As [`Stage::spinner`], drawn when `draw` (the printer's choice).
-    pub fn spinner_if(draw: bool, what: &str) -> Stage {
+    /// A spinner with the time spent, for a stage without countable steps (a time-limited
+    /// solve), drawn when `draw`.
+    fn spinner_if(draw: bool, what: &str) -> Stage {
         if !draw {
             return Stage(None);
         }
@@ -98,12 +99,10 @@ mod tests {
 
     #[test]
     fn stages_are_silent_when_disabled() {
-        set_bars(false);
-        assert!(!enabled());
-        let s = Stage::bar("labelling", 10, "rows");
+        let s = Bars::Hidden.bar("labelling", 10, "rows");
         s.set(5);
         s.inc(1);
         assert!(s.0.is_none());
-        assert!(Stage::spinner("optimising").0.is_none());
+        assert!(Bars::Hidden.spinner("optimising").0.is_none());
     }
 }

@@ -45,6 +45,49 @@ pub struct Scenario {
     /// Dispersal scenarios to plan across (`--ensemble`, several `--kernel`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub ensemble: Option<EnsembleSection>,
+    /// `hostcut simulate`'s own settings, as its `simulate.resolved.toml` records them; read
+    /// back by `hostcut simulate --scenario` under its flags. Other commands do not use it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub simulate: Option<SimulateSection>,
+}
+
+/// The `[simulate]` table: what `hostcut simulate` ran with (each flag, or the fit of
+/// `--calibration`, or the default), so that `hostcut simulate --scenario
+/// simulate.resolved.toml` repeats the run. A flag given again wins over the table.
+///
+/// # Units
+/// Rates per year; `long_distance_multiple` a multiple of the kernel's alpha.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct SimulateSection {
+    /// The plan folder whose plan was simulated; none: planned at `[plan] budget`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub plan: Option<PathBuf>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub years: Option<u32>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub runs: Option<u32>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub seed: Option<u64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub extinction: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub extinction_exponent: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub colonisation: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub introduction: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub regrowth: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub long_distance_share: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub long_distance_multiple: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub long_distance_after_years: Option<u32>,
+    /// Random feasible plans of the proxy check.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub proxy_plans: Option<usize>,
 }
 
 /// What an ensemble plan minimises.
@@ -223,6 +266,10 @@ pub struct HostSection {
     /// CRS assumed for layers without one.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub assume_crs: Option<String>,
+    /// Work CRS (projected, metres) an inventory in another CRS is converted into; default: the
+    /// inventory's own when metric, the local UTM zone for lon/lat, the metre form of a feet CRS.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub work_crs: Option<String>,
     /// Establishment suitability raster (0..1); effective host = stems x suitability.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub suitability: Option<PathBuf>,
@@ -244,6 +291,7 @@ impl Default for HostSection {
             inventory: None,
             crs: None,
             assume_crs: None,
+            work_crs: None,
             suitability: None,
             stems_field: "stems".into(),
             id_field: None,
@@ -539,6 +587,7 @@ impl Scenario {
         paths.extend(self.sensitive.iter_mut().map(|w| &mut w.path));
         paths.extend(self.plan.treatments.as_mut());
         paths.extend(self.model.calibration.as_mut());
+        paths.extend(self.simulate.as_mut().and_then(|s| s.plan.as_mut()));
         paths
     }
 

@@ -133,7 +133,14 @@ impl Site {
             notes.push(format!("near water: {what}"));
         }
         if self.access == Access::Permission {
-            notes.push("landowner permission first".to_string());
+            notes.push(if self.contact.is_empty() {
+                "landowner permission first".to_string()
+            } else {
+                format!(
+                    "landowner permission first: call {} before entry",
+                    self.contact
+                )
+            });
         }
         notes.join("; ")
     }

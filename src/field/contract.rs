@@ -134,16 +134,71 @@ pub struct CompletionRow {
     pub product_active_ingredient: String,
     #[serde(default)]
     pub notes: String,
+    /// Why a different method than planned was used (required when `method` differs).
+    #[serde(default)]
+    pub reason: String,
 }
 
 /// A checked completion row.
 #[derive(Debug, Clone)]
 pub struct Done {
     pub patch_id: String,
+    /// The method actually used (the planned one, or an eligible substitute).
     pub method: String,
     pub method_id: MethodId,
+    /// The planned method, when a different one was used.
+    pub substituted_for: Option<String>,
+    /// Why the method was substituted (the completion file's `reason`).
+    pub reason: String,
     pub treated_stems: f64,
     pub date: (i32, u8, u8),
+}
+
+/// How `record` treats stems above the plan's estimate.
+#[derive(Debug, Clone, Copy)]
+pub struct ExtraStems {
+    /// Stems above the plan up to this share of the planned stems (0.25 = 25 %) are accepted
+    /// with a warning.
+    pub tolerance: f64,
+    /// Accept any number above the plan (with a warning), not only within the tolerance.
+    pub accept_all: bool,
+}
+
+/// Default tolerance for stems above the plan: 25 % (common practice: a raster or walk-through
+/// estimate of a stand's stems is often off by a quarter; a crew count beyond that suggests a
+/// different stand or a mistake).
+pub const DEFAULT_EXTRA_STEMS_PCT: f64 = 25.0;
+
+/// A checked completion file: the work done and the warnings to show (stems above the plan,
+/// substituted methods).
+#[derive(Debug, Clone)]
+pub struct Completion {
+    pub done: Vec<Done>,
+    pub warnings: Vec<String>,
+}
+
+/// Whether `method` may be used at the planned patch's site: the herbicide rule, water nearby,
+/// the restricted-site rule (the same rule the planner applied, [`Method::allowed_on`]). The
+/// reason in words when it may not.
+pub fn eligible_at(method: &Method, p: &PlannedPatch) -> std::result::Result<(), String> {
+    if method.herbicide && p.no_herbicide() {
+        return Err("NO HERBICIDE ON THIS SITE".into());
+    }
+    if let Some(water) = p.near_water()
+        && !method.allowed_near_water()
+    {
+        return Err(format!(
+            "{water}, and `{}` is not allowed near water",
+            method.id
+        ));
+    }
+    if p.herbicide == "restricted" && !method.allowed_at_restricted_sites() {
+        return Err(format!(
+            "a restricted site, where `{}` is not allowed (drift-prone)",
+            method.id
+        ));
+    }
+    Ok(())
 }
 
 fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
@@ -152,7 +207,7 @@ fn parse_date(text: &str) -> Option<(i32, u8, u8)> {
 
 /// Check a filled completion file against the plan. Every problem row is reported, each with
 /// its line number; a row with an empty `treated_stems` is work not done.
-pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
+pub fn check_completion(folder: &PlanFolder, path: &Path, extra: ExtraStems) -> Result<Completion> {
     let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     // An empty file, or a header with no rows, is not "nothing done": the template lists every
@@ -185,6 +240,7 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
         .collect();
     let mut problems = Vec::new();
     let mut done = Vec::new();
+    let mut warnings = Vec::new();
     let mut seen: HashMap<String, usize> = HashMap::new();
     let headers = match reader.headers() {
         Ok(h) => h.clone(),
@@ -222,13 +278,33 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
             ));
             continue;
         }
-        if row.method != plan.method {
-            problems.push(format!(
-                "line {line}: patch `{}` was planned for `{}`, the row says `{}`",
-                row.patch_id, plan.method, row.method
-            ));
-            continue;
-        }
+        let substituted = row.method != plan.method;
+        let method_id = if substituted {
+            let Some(used) = folder.catalogue.find(&row.method) else {
+                problems.push(format!(
+                    "line {line}: patch `{}` was planned for `{}`; the row says `{}`, which is not a method of the plan's catalogue (treatments.used.toml)",
+                    row.patch_id, plan.method, row.method
+                ));
+                continue;
+            };
+            if let Err(why) = eligible_at(folder.catalogue.method(used), plan) {
+                problems.push(format!(
+                    "line {line}: patch `{}` was planned for `{}`; `{}` is not eligible there: {why}",
+                    row.patch_id, plan.method, row.method
+                ));
+                continue;
+            }
+            if row.reason.trim().is_empty() {
+                problems.push(format!(
+                    "line {line}: patch `{}` was planned for `{}` and the row says `{}`: a different method needs a `reason` (add the column and say why)",
+                    row.patch_id, plan.method, row.method
+                ));
+                continue;
+            }
+            used
+        } else {
+            plan.method_id
+        };
         let treated = match row
             .treated_stems
             .as_deref()
@@ -247,12 +323,29 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
             },
         };
         if treated > plan.stems * 1.0001 + 0.5 {
-            problems.push(format!(
-                "line {line}: patch `{}` records {treated} stems treated, more than the {} planned",
-                row.patch_id, plan.stems
-            ));
+            let over = 100.0 * (treated / plan.stems.max(1e-9) - 1.0);
+            let within = treated <= plan.stems * (1.0 + extra.tolerance) + 0.5;
+            if within || extra.accept_all {
+                warnings.push(format!(
+                    "line {line}: patch `{}` records {treated} stems treated, {over:.0} % more than the {} planned ({}); next season's inventory starts from the stems treated",
+                    row.patch_id,
+                    plan.stems,
+                    if within {
+                        format!("within the {:.0} % tolerance", extra.tolerance * 100.0)
+                    } else {
+                        "accepted by `--accept-extra-stems`".to_string()
+                    }
+                ));
+            } else {
+                problems.push(format!(
+                    "line {line}: patch `{}` records {treated} stems treated, {over:.0} % more than the {} planned, beyond the {:.0} % tolerance",
+                    row.patch_id,
+                    plan.stems,
+                    extra.tolerance * 100.0
+                ));
+            }
         }
-        let method = folder.method_of(plan);
+        let method = folder.catalogue.method(method_id);
         match parse_date(&row.date) {
             None => problems.push(format!(
                 "line {line}: date `{}` is not a date like 2027-08-15",
@@ -279,10 +372,22 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
                         row.patch_id
                     ));
                 }
+                if substituted {
+                    warnings.push(format!(
+                        "line {line}: patch `{}` was treated with `{}` instead of the planned `{}` ({}); its effectiveness ({:.0} %) is used for next season",
+                        row.patch_id,
+                        method.id,
+                        plan.method,
+                        row.reason.trim(),
+                        method.effectiveness * 100.0
+                    ));
+                }
                 done.push(Done {
                     patch_id: row.patch_id.clone(),
-                    method: plan.method.clone(),
-                    method_id: plan.method_id,
+                    method: method.id.clone(),
+                    method_id,
+                    substituted_for: substituted.then(|| plan.method.clone()),
+                    reason: row.reason.trim().to_string(),
                     treated_stems: treated,
                     date,
                 });
@@ -297,10 +402,10 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
                 problems.len(),
                 problems.join("\n  ")
             ),
-            "fix those rows (the template from `hostcut contract` has the planned patch, method and stems) and run again",
+            "fix those rows (the template from `hostcut contract` has the planned patch, method and stems) and run again; a method other than the planned one must be eligible at the site and give a `reason`; stems beyond the tolerance need `--accept-extra-stems` once the count is confirmed",
         ));
     }
-    Ok(done)
+    Ok(Completion { done, warnings })
 }
 
 /// The follow-up visit is due at the start of the method's window next season (common practice:
@@ -308,6 +413,104 @@ pub fn check_completion(folder: &PlanFolder, path: &Path) -> Result<Vec<Done>> {
 pub fn follow_up_due(method: &Method, date: (i32, u8, u8)) -> String {
     let first = method.months.iter().min().copied().unwrap_or(date.1);
     format!("{:04}-{:02}-01", date.0 + 1, first)
+}
+
+/// One row of next season's inventory: a patch of the plan folder with the stems left after
+/// the work done (at the effectiveness of the method used) and its follow-up date.
+#[derive(Debug, Clone)]
+pub struct NextStand<'a> {
+    pub patch: &'a PatchRecord,
+    pub stems: f64,
+    /// YYYY-MM-DD, or empty for a patch not treated.
+    pub follow_up_due: String,
+    /// The patch's outline as WKT in the folder's work CRS, or empty when it has none.
+    pub outline: String,
+}
+
+/// What `hostcut record` tells of the season: next season's inventory and planned against done.
+#[derive(Debug, Clone)]
+pub struct Season<'a> {
+    pub next: Vec<NextStand<'a>>,
+    /// The patches treated with a method other than planned, in completion-file order.
+    pub substituted: Vec<&'a Done>,
+    /// The completion check's warnings (stems above the plan, substituted methods).
+    pub warnings: &'a [String],
+    pub planned_patches: usize,
+    pub done_patches: usize,
+    pub planned_stems: f64,
+    pub treated_stems: f64,
+    pub removed_stems: f64,
+    /// The plan's estimate, in cents.
+    pub planned_cents: i64,
+    /// The estimate pro rata by the stems treated, in cents.
+    pub done_cents: i64,
+}
+
+/// The season the completion file reports: stems removed at each method's effectiveness,
+/// follow-up dates, the outlines carried over (`outlines`, by patch id, from
+/// [`crate::field::plan_folder::outlines`]), and the plan's cost pro rata by the stems treated.
+pub fn season<'a>(
+    folder: &'a PlanFolder,
+    completion: &'a Completion,
+    outlines: &BTreeMap<String, String>,
+) -> Season<'a> {
+    let done = &completion.done;
+    let by_patch: HashMap<&str, &Done> = done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
+    let (mut treated_stems, mut removed_stems) = (0.0, 0.0);
+    let mut next = Vec::new();
+    for p in &folder.patches {
+        let (stems, due) = match by_patch.get(p.patch_id.as_str()) {
+            Some(d) => {
+                // The method actually used (an eligible substitute counts at its own
+                // effectiveness); a crew count above the estimate replaces it.
+                let method = folder.catalogue.method(d.method_id);
+                let removed = d.treated_stems * method.effectiveness;
+                treated_stems += d.treated_stems;
+                removed_stems += removed;
+                (
+                    (p.stems.max(d.treated_stems) - removed).max(0.0),
+                    follow_up_due(method, d.date),
+                )
+            }
+            None => (p.stems, String::new()),
+        };
+        next.push(NextStand {
+            patch: p,
+            stems,
+            follow_up_due: due,
+            outline: outlines.get(&p.patch_id).cloned().unwrap_or_default(),
+        });
+    }
+    let planned_stems: f64 = folder.planned.iter().map(|p| p.stems).sum();
+    let planned_cents: i64 = folder
+        .planned
+        .iter()
+        .map(|p| (p.cost * 100.0).round() as i64)
+        .sum();
+    let done_cents: i64 = folder
+        .planned
+        .iter()
+        .filter_map(|p| {
+            by_patch
+                .get(p.patch_id.as_str())
+                .map(|d| ((p.cost * d.treated_stems / p.stems.max(1e-9)) * 100.0).round() as i64)
+        })
+        .sum();
+    Season {
+        next,
+        substituted: done
+            .iter()
+            .filter(|d| d.substituted_for.is_some())
+            .collect(),
+        warnings: &completion.warnings,
+        planned_patches: folder.planned.len(),
+        done_patches: done.len(),
+        planned_stems,
+        treated_stems,
+        removed_stems,
+        planned_cents,
+        done_cents,
+    }
 }
 
 #[cfg(test)]

@@ -241,7 +241,9 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         if parts > 1 {
             split_patches += 1;
         }
-        let mut stems_left = p.stems;
+        // Whole stems (a crew counts stems; a raster's estimate is rounded), the last part
+        // taking the rest, so the parts sum to the patch's stems.
+        let mut stems_left = p.stems.round();
         for part in 1..=parts {
             let hours = if part == parts {
                 p.crew_hours - room * (parts - 1) as f64
@@ -249,11 +251,10 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
                 room
             };
             let share = hours / p.crew_hours.max(1e-12);
-            // Stems in tenths, the last part taking the rest, so the parts sum to the plan's stems.
             let stems = if part == parts {
-                (stems_left * 10.0).round() / 10.0
+                stems_left
             } else {
-                (p.stems * share * 10.0).round() / 10.0
+                (p.stems.round() * share).round().min(stems_left)
             };
             stems_left -= stems;
             stops.push(Stop {
@@ -602,7 +603,7 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
             if p.contact.is_empty() {
                 String::new()
             } else {
-                format!(": {}", p.contact)
+                format!(": call {} before entry", p.contact)
             }
         ));
     }

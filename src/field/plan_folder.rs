@@ -91,6 +91,13 @@ pub struct PatchRecord {
     pub eligible: String,
     #[serde(default)]
     pub method: String,
+    #[serde(default)]
+    pub parcel: String,
+    #[serde(default)]
+    pub contact: String,
+    /// Corridor names near the patch, `;`-separated.
+    #[serde(default)]
+    pub corridors: String,
 }
 
 /// A plan folder's outputs, read back.
@@ -256,7 +263,12 @@ pub struct Summary {
     pub stems_treated: f64,
     pub dropped_slivers: usize,
     pub host_source: String,
+    /// The work CRS: x, y of plan.csv and patches.csv are in it.
     pub crs: String,
+    /// How an inventory's coordinates were converted into the work CRS (lon/lat into a UTM
+    /// zone, feet into metres); absent when they were used as given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub crs_conversion: Option<String>,
     pub kernel: String,
     #[serde(deserialize_with = "number")]
     pub alpha_m: f64,
@@ -320,4 +332,16 @@ fn number<'de, D: Deserializer<'de>>(d: D) -> std::result::Result<f64, D::Error>
 fn pair<'de, D: Deserializer<'de>>(d: D) -> std::result::Result<[f64; 2], D::Error> {
     let [a, b] = <[Option<f64>; 2]>::deserialize(d)?;
     Ok([a.unwrap_or(f64::NAN), b.unwrap_or(f64::NAN)])
+}
+
+/// The polygon outlines of a plan folder's patches (from plan.geojson), by patch id, as WKT in
+/// the folder's work CRS; empty when the folder has no plan.geojson or names no CRS (stands
+/// without outlines have none).
+pub fn outlines(folder: &PlanFolder) -> Result<std::collections::BTreeMap<String, String>> {
+    let path = folder.dir.join("plan.geojson");
+    if folder.crs.is_empty() || !path.is_file() {
+        return Ok(Default::default());
+    }
+    let crs = crate::input::gis::Crs::parse(&folder.crs, "the plan folder's work CRS")?;
+    crate::input::gis::outlines_wkt(&path, &crs)
 }

@@ -2,7 +2,7 @@
 //! row into [`Stand`]s. Takes a path or bytes; gives stands in the file's order.
 //!
 //! # Units
-//! x, y in the inventory's projected CRS (metres); stems as counts; `area_ha` in hectares.
+//! x, y in the inventory's CRS as given (`--crs`; converted into the work CRS by the caller); stems as counts; `area_ha` in hectares.
 
 use std::collections::HashMap;
 use std::path::Path;
@@ -23,10 +23,19 @@ pub struct Stand {
     pub cost_factor: Option<f64>,
     pub pressure: Option<f64>,
     pub suitability: Option<f64>,
+    /// Parcel id, carried to plan.csv, orders and the contract.
+    pub parcel: Option<String>,
+    /// Who to call before entry (landowner or manager), carried to orders and the contract.
+    pub contact: Option<String>,
+    /// The stand's outline as WKT in the inventory's CRS (`outline` column, as `record` writes
+    /// it), with its line for messages.
+    pub outline_wkt: Option<(String, u64)>,
+    /// The outline in the work CRS, filled in by the caller once the CRS is settled.
+    pub outline: Option<geo::MultiPolygon<f64>>,
 }
 
 /// Read and check a stand inventory CSV: `id,x,y,stems` plus optional `access`, `herbicide`,
-/// `cost_factor`, `pressure`, `area_ha`, `suitability`. Column names are matched case-insensitively.
+/// `cost_factor`, `pressure`, `area_ha`, `suitability`, `parcel`, `contact`, `outline` (WKT polygon in the inventory's CRS). Column names are matched case-insensitively.
 pub fn read_inventory(path: &Path) -> Result<Vec<Stand>> {
     let bytes = std::fs::read(path).map_err(|e| Error::io("read", path, e))?;
     parse_inventory(&bytes, &path.display().to_string())
@@ -60,7 +69,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         let hint = if headers.len() == 1 && headers[0].contains(';') {
             "the file looks semicolon-separated; save it as comma-separated CSV"
         } else {
-            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha)"
+            "the first line must name the columns: id,x,y,stems (optional: access,herbicide,cost_factor,pressure,area_ha,suitability,parcel,contact)"
         };
         return Err(Error::input_with_hint(
             format!(
@@ -78,6 +87,7 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
         column("stems").unwrap_or(0),
     );
     let csuit = column("suitability");
+    let (cparcel, ccontact, coutline) = (column("parcel"), column("contact"), column("outline"));
     let (ca, ch, cc, cp, car) = (
         column("access"),
         column("herbicide"),
@@ -213,6 +223,10 @@ pub fn parse_inventory(bytes: &[u8], origin: &str) -> Result<Vec<Stand>> {
             cost_factor,
             pressure,
             suitability,
+            parcel: optional_text(cparcel).map(str::to_string),
+            contact: optional_text(ccontact).map(str::to_string),
+            outline_wkt: optional_text(coutline).map(|t| (t.to_string(), line)),
+            outline: None,
         });
     }
     if stands.is_empty() {

@@ -157,6 +157,8 @@ pub struct Layers {
     /// Plain statements about rules that took their default (e.g. parcels with no herbicide
     /// value), shown on stderr and in summary.json.
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// The layers and fields actually read.
     pub bindings: Bindings,
 }
@@ -168,11 +170,37 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         Some(def) => Some(Crs::parse(def, "`--assume-crs`")?),
         None => None,
     };
+    let mut inventory_note = None;
     let (crs, host) = if let Some(path) = &s.host.inventory {
-        let crs = Crs::parse(s.host.crs.as_deref().unwrap_or_default(), "`--crs`")?;
-        let stands = crate::input::inventory::read_inventory(path)?;
+        let mut stands = crate::input::inventory::read_inventory(path)?;
+        let points: Vec<(f64, f64)> = stands.iter().map(|s| (s.x, s.y)).collect();
+        let projected = gis::project_points(
+            s.host.crs.as_deref().unwrap_or_default(),
+            s.host.work_crs.as_deref(),
+            &points,
+            &format!("inventory `{}` (`--crs`)", path.display()),
+        )?;
+        for (stand, &(x, y)) in stands.iter_mut().zip(&projected.points) {
+            stand.x = x;
+            stand.y = y;
+            if let Some((wkt, line)) = &stand.outline_wkt {
+                let from = s.host.crs.as_deref().unwrap_or_default();
+                stand.outline = Some(gis::outline_from_wkt(wkt, from, &projected.crs).map_err(
+                    |why| {
+                        Error::input_with_hint(
+                            format!(
+                                "inventory `{}`, line {line}, column `outline`: {why}",
+                                path.display()
+                            ),
+                            "give a POLYGON or MULTIPOLYGON in WKT, in the inventory's CRS, or leave the cell empty",
+                        )
+                    },
+                )?);
+            }
+        }
+        inventory_note = projected.note;
         (
-            crs,
+            projected.crs,
             Host::Inventory {
                 path: path.clone(),
                 stands,
@@ -195,7 +223,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
     };
     let host_extent = host_extent(&host);
     let mut skipped = Skipped::default();
-    let mut notes = Vec::new();
+    let mut notes: Vec<String> = Vec::new();
     let mut bindings = Bindings::default();
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);
@@ -386,6 +414,7 @@ pub fn load(s: &Scenario, budget: &Budget) -> Result<Layers> {
         sensitive,
         skipped,
         notes,
+        crs_conversion: inventory_note,
         bindings,
     })
 }
@@ -625,36 +654,31 @@ fn read_parcels(
                 .map(|v| v.as_text())
                 .filter(|t| !t.is_empty())
         };
-        let access = match text("access") {
-            None => {
-                if field_of("access").is_some() {
-                    *defaulted.entry("access").or_insert(0) += 1;
-                }
-                Access::Open
+        // A rule's text on this feature; a field the layer has but this parcel leaves empty
+        // takes the default, counted for the notes (a rule is never dropped silently).
+        let mut rule = |name: &'static str| {
+            let t = text(name);
+            if t.is_none() && field_of(name).is_some() {
+                *defaulted.entry(name).or_insert(0) += 1;
             }
-            Some(t) => Access::parse(&t).ok_or_else(|| {
-                Error::input_with_hint(
-                    format!(
-                        "{}: unknown access `{t}`",
-                        at(field_of("access").unwrap_or_default())
-                    ),
-                    "use open, permission or denied",
-                )
-            })?,
+            t
         };
-        let herbicide = match text("herbicide") {
-            None => {
-                if field_of("herbicide").is_some() {
-                    *defaulted.entry("herbicide").or_insert(0) += 1;
-                }
-                Herbicide::Allowed
-            }
+        let unknown = |name: &str, what: &str, t: &str, hint: &str| {
+            let at = at(field_of(name).unwrap_or_default());
+            Error::input_with_hint(format!("{at}: unknown {what} `{t}`"), hint)
+        };
+        let access = match rule("access") {
+            None => Access::Open,
+            Some(t) => Access::parse(&t)
+                .ok_or_else(|| unknown("access", "access", &t, "use open, permission or denied"))?,
+        };
+        let herbicide = match rule("herbicide") {
+            None => Herbicide::Allowed,
             Some(t) => Herbicide::parse(&t).ok_or_else(|| {
-                Error::input_with_hint(
-                    format!(
-                        "{}: unknown herbicide rule `{t}`",
-                        at(field_of("herbicide").unwrap_or_default())
-                    ),
+                unknown(
+                    "herbicide",
+                    "herbicide rule",
+                    &t,
                     "use allowed, restricted or prohibited",
                 )
             })?,

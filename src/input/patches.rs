@@ -14,6 +14,7 @@ use rstar::primitives::{GeomWithData, Rectangle};
 
 use crate::core::error::{Error, Result};
 use crate::core::memory::{Budget, RasterCost};
+use crate::core::progress::Bars;
 use crate::core::scenario::HostSection;
 use crate::core::site::{Herbicide, PatchId, Site, Water};
 use crate::input::gis::{self, Crs, Frame, Grid};
@@ -60,6 +61,8 @@ pub struct Patches {
     pub skipped: Skipped,
     /// Plain notes on rules that took their default (from the access layer).
     pub notes: Vec<String>,
+    /// How an inventory's coordinates were converted into the work CRS, if they were.
+    pub crs_conversion: Option<String>,
     /// Whether the sites were checked against water layers.
     pub water_checked: bool,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
@@ -127,19 +130,22 @@ pub fn label_strips(
         strip,
         &Budget::unlimited(),
         "host raster",
+        Bars::Hidden,
         read,
     )
 }
 
 /// [`label_strips`], checking after every strip that what the labeller holds stays within
 /// `budget` and that fewer than [`crate::core::memory::MAX_PATCHES`] patches are certain
-/// ([`Budget::check_labelling`]); `what` names the raster in the refusal.
+/// ([`Budget::check_labelling`]); `what` names the raster in the refusal; `bars`: whether
+/// the rows labelled are shown as a bar (the command's printer's choice).
 pub fn label_strips_within(
     frame: &Frame,
     options: LabelOptions,
     strip: usize,
     budget: &Budget,
     what: &str,
+    bars: Bars,
     mut read: impl FnMut(usize, usize) -> Result<(Vec<f32>, Vec<u32>)>,
 ) -> Result<(Vec<Blob>, usize, f64)> {
     let (w, h) = (frame.width, frame.height);
@@ -149,7 +155,7 @@ pub fn label_strips_within(
     let closed_are_kept = options.min_patch_ha <= cell_ha;
     let strip = strip.max(1);
     let mut row0 = 0;
-    let bar = crate::core::progress::Stage::bar("labelling host cells", h as u64, "rows");
+    let bar = bars.bar("labelling host cells", h as u64, "rows");
     while row0 < h {
         bar.set(row0 as u64);
         let rows = strip.min(h - row0);
@@ -332,8 +338,8 @@ impl<'a> ParcelIndex<'a> {
 
 /// Build patches from the loaded layers.
 /// Raster patches are checked against `budget` while labelling and before their outlines are
-/// drawn.
-pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Patches> {
+/// drawn; `bars` says whether labelling shows a bar (the command's printer's choice).
+pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -> Result<Patches> {
     let parcel_index = ParcelIndex::new(&layers.parcels);
     let site_at = |x: f64, y: f64| {
         parcel_index
@@ -377,6 +383,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                 strip_rows(raster),
                 budget,
                 &what,
+                bars,
                 |row0, rows| {
                     let (values, bad) = raster.read_rows_counted(&dataset, row0, rows)?;
                     non_finite.set(non_finite.get() + bad);
@@ -568,6 +575,12 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                 if let Some(c) = s.cost_factor {
                     site.cost_factor = c;
                 }
+                if let Some(p) = &s.parcel {
+                    site.parcel = p.clone();
+                }
+                if let Some(c) = &s.contact {
+                    site.contact = c.clone();
+                }
                 items.push(Patch {
                     id: PatchId(items.len() as u32),
                     label: s.id.clone(),
@@ -575,7 +588,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
                     y: s.y,
                     stems: s.stems,
                     area_ha: s.area_ha,
-                    outline: None,
+                    outline: s.outline.clone(),
                     site,
                     pressure_override: s.pressure,
                     suitability: s.suitability,
@@ -597,6 +610,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget) -> Result<Pat
         dropped_slivers,
         skipped,
         notes: layers.notes.clone(),
+        crs_conversion: layers.crs_conversion.clone(),
         water_checked: layers.water_checked,
         source,
         runs,

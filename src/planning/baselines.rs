@@ -111,7 +111,8 @@ pub fn default_depot(patches: &Patches, eligible: &[bool]) -> (f64, f64) {
     )
 }
 
-/// Every baseline for `problem`. `greedy_plan` reuses the greedy the optimiser already ran.
+/// Every baseline for `problem` (corridor-first only when some patch is near a corridor).
+/// `greedy_plan` reuses the greedy the optimiser already ran.
 pub fn all(
     problem: &Problem,
     patches: &Patches,
@@ -138,6 +139,11 @@ pub fn all(
             corridor_first_order(patches, near_corridor),
         ),
     ] {
+        // Without a patch near any corridor the corridor order is the biggest-first order:
+        // reporting it would show one rule twice under two names.
+        if name == "corridor_first" && near_corridor.iter().all(Vec::is_empty) {
+            continue;
+        }
         let assignment = fill_in_order(problem, &order);
         out.push(Baseline {
             name,

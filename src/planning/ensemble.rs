@@ -294,6 +294,24 @@ pub fn solve(
     ranked.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
     let most = &ranked[0];
     let runner = ranked.get(1);
+    // The plan written is the one that optimises the objective; the candidate with the least
+    // worst regret may be another plan (a regret ranking is not the worst-case objective), so
+    // both are named and the headline R's meaning is stated.
+    let written = if e.robust == Robust::Mean {
+        "ensemble_mean".to_string()
+    } else {
+        format!("robust_{}", e.robust.as_str())
+    };
+    let written_json = plans_json
+        .iter()
+        .find(|p| p["plan"] == written.as_str())
+        .cloned()
+        .unwrap_or(serde_json::Value::Null);
+    let written_regret = worst_regret
+        .iter()
+        .find(|r| r.0 == written)
+        .map(|r| r.1)
+        .unwrap_or(f64::NAN);
     let json = serde_json::json!({
         "robust": e.robust.as_str(),
         "objective": objective,
@@ -308,6 +326,7 @@ pub fn solve(
             "best_known_risk": b,
         })).collect::<Vec<_>>(),
         "plans": plans_json,
+        "written_plan": written_json,
         "most_robust": {
             "plan": most.0,
             "max_regret_pct": most.1,
@@ -329,14 +348,18 @@ pub fn solve(
     );
     let _ = writeln!(
         text,
-        "  most robust candidate: {} (worst regret {:.2}% over the scenarios{})",
-        most.0,
-        most.1,
-        match runner {
-            Some(r) => format!("; next {} at {:.2}%", r.0, r.1),
-            None => String::new(),
-        }
+        "  plan written: {written} (worst-case R {:.6}, weighted-mean R {:.6} - the headline R; worst regret {:.2}%)",
+        written_json["worst_risk"].as_f64().unwrap_or(f64::NAN),
+        written_json["mean_risk"].as_f64().unwrap_or(f64::NAN),
+        written_regret
     );
+    if most.0 != written {
+        let _ = writeln!(
+            text,
+            "  least worst regret among the candidates: {} ({:.2}%); the plan written optimises the objective above, not the regret (regret.csv)",
+            most.0, most.1
+        );
+    }
     Ok(EnsembleRun {
         chosen,
         regret_csv,

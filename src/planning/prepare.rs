@@ -5,6 +5,7 @@ use crate::core::error::{Error, Result};
 use crate::core::kernel::Kernel;
 use crate::core::memory::{Budget, RasterCost};
 use crate::core::printer;
+use crate::core::progress::Bars;
 use crate::core::scenario::Scenario;
 use crate::input::layers;
 use crate::input::patches::{self, Patches};
@@ -47,13 +48,14 @@ pub struct Prepared {
     pub budget: Budget,
 }
 
-/// Run the stages for `s`; `progress` receives one line per stage.
-pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
+/// Run the stages for `s`; `progress` receives one line per stage; `bars`: whether the raster
+/// labelling draws a bar (the command's printer's choice, [`crate::core::printer::Printer::bars`]).
+pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prepared> {
     let (catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
     let budget = Budget::new(s.solver.max_memory_gb);
     progress("reading layers");
     let layers = layers::load(s, &budget)?;
-    let patches = patches::build(&layers, &s.host, &budget)?;
+    let patches = patches::build(&layers, &s.host, &budget, bars)?;
     progress(&format!(
         "{} patches from the {} host layer",
         patches.len(),
@@ -63,6 +65,9 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     for line in patches.skipped.lines() {
         printer::note(format_args!("note: {line}"));
     }
+    if let Some(note) = &patches.crs_conversion {
+        printer::note(format_args!("note: {note}"));
+    }
     for note in &patches.notes {
         printer::note(format_args!("note: {note}"));
     }
@@ -71,6 +76,11 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str)) -> Result<Prepared> {
     }
     let mut resolved = s.clone();
     layers.bindings.apply(&mut resolved);
+    // The work CRS an inventory was converted into (the UTM zone chosen for lon/lat, the metre
+    // form of a feet CRS) is recorded, so the resolved scenario repeats it.
+    if resolved.host.inventory.is_some() {
+        resolved.host.work_crs = Some(patches.crs.name.clone());
+    }
 
     let by_label = patches.by_label();
     let mut required = vec![false; patches.len()];

@@ -14,17 +14,50 @@ use crate::model::graph;
 use crate::model::simulate::{self, Landscape, Params, Trace, Treatment};
 use crate::planning::baselines;
 use crate::planning::prepare::Prepared;
+use crate::planning::proxy;
 use crate::solve::optimise;
 use crate::solve::problem::{Assignment, Limits, Problem};
 
-/// The strategies simulated, in order: id and label.
-pub const STRATEGIES: [(&str, &str); 5] = [
-    ("none", "no treatment"),
-    ("plan", "the plan"),
-    ("greedy", "greedy benefit-per-cost"),
-    ("density", "densest stands first"),
-    ("random", "random feasible plans (mean)"),
+/// Every strategy the simulation can run: id, label and why it may match or beat the plan.
+/// `corridor` runs only when some patch is near a corridor (otherwise it is `biggest`).
+pub const STRATEGIES: [(&str, &str, &str); 7] = [
+    ("none", "no treatment", ""),
+    ("plan", "the plan", ""),
+    (
+        "greedy",
+        "greedy benefit-per-cost",
+        "the greedy rule ranks patches by the same risk reduction per cost the plan maximises, so it differs from the plan only where the budget binds",
+    ),
+    (
+        "density",
+        "densest stands first",
+        "removing the densest host first takes out the stands that, once occupied, produce the most insects as host regrows, which the one-season risk R does not weigh",
+    ),
+    (
+        "biggest",
+        "biggest stands first",
+        "removing the most stems first leaves the least host for the insect to occupy in later years, while R weighs host by its connections and pressure this season",
+    ),
+    (
+        "corridor",
+        "stands along the corridors first",
+        "treating along the corridors removes the host where introductions keep arriving year after year",
+    ),
+    (
+        "random",
+        "random feasible plans (mean)",
+        "random plans spread treatment over the landscape; matching them means R's ranking buys little on this landscape",
+    ),
 ];
+
+/// The label of strategy `id`.
+pub fn label(id: &str) -> &str {
+    STRATEGIES.iter().find(|s| s.0 == id).map_or(id, |s| s.1)
+}
+
+fn reason(id: &str) -> &str {
+    STRATEGIES.iter().find(|s| s.0 == id).map_or("", |s| s.2)
+}
 
 /// How long and how often to simulate.
 #[derive(Debug, Clone, Copy)]
@@ -34,6 +67,8 @@ pub struct Runs {
     pub seed: u64,
     /// Worker threads.
     pub jobs: usize,
+    /// Random feasible plans added to the plan and the rules for the proxy check (0: none).
+    pub proxy_plans: usize,
 }
 
 #[derive(Serialize)]
@@ -98,23 +133,19 @@ pub struct SimJson {
     /// One plain sentence when some strategy does as well as or better than the plan at some
     /// horizon, with why; absent when the plan is better everywhere.
     pub verdict: Option<String>,
+    /// Whether plans with a lower R also do better in the simulation ([`proxy`]).
+    pub proxy_check: Option<proxy::ProxyCheck>,
 }
 
 /// The verdict sentence of [`SimJson::verdict`], or `None` when every strategy is worse than
 /// the plan in every year (interval entirely above zero).
 pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
     let mut parts = Vec::new();
+    let mut reasons = Vec::new();
     for v in versus {
-        let label = STRATEGIES
-            .iter()
-            .find(|(id, _)| *id == v.strategy)
-            .map_or(v.strategy, |s| s.1);
-        let better: Vec<usize> = v
-            .per_year
-            .iter()
-            .filter(|y| y.ci95[1] < 0.0)
-            .map(|y| y.year)
-            .collect();
+        let label = label(v.strategy);
+        let better: Vec<usize> =
+            v.per_year.iter().filter(|y| y.ci95[1] < 0.0).map(|y| y.year).collect();
         let tied: Vec<usize> = v
             .per_year
             .iter()
@@ -122,28 +153,48 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
             .map(|y| y.year)
             .collect();
         if let (Some(first), Some(last)) = (better.first(), better.last()) {
-            parts.push(format!(
-                "{label} leaves less host occupied than the plan in years {first} to {last} ({} of them)",
-                better.len()
-            ));
+            parts.push(if first == last {
+                format!("{label} leaves less host occupied than the plan in year {first}")
+            } else {
+                format!(
+                    "{label} leaves less host occupied than the plan in years {first} to {last} ({} of them)",
+                    better.len()
+                )
+            });
         } else if !tied.is_empty() {
             parts.push(format!(
                 "{label} cannot be told from the plan in {} of the years",
                 tied.len()
             ));
+        } else {
+            continue;
+        }
+        if !reason(v.strategy).is_empty() {
+            reasons.push(reason(v.strategy).to_string());
         }
     }
     if parts.is_empty() {
         return None;
     }
     Some(format!(
-        "{}: the plan minimises the static risk R after one season of treatment, and a one-season treatment fades as host regrows and the insect recolonises, so a rule that removes more dense host can catch up over the years; compare with a multi-season programme (`hostcut program`).",
-        parts.join("; ")
+        "{}. Why: {}. The plan minimises the static risk R after one season of treatment, and a one-season treatment fades as host regrows and the insect recolonises; compare with a multi-season programme (`hostcut program`).",
+        parts.join("; "),
+        reasons.join("; ")
     ))
+}
+
+/// The first year in which `v`'s strategy leaves less host occupied than the plan (interval
+/// entirely below zero), for the chart's marker.
+pub fn first_better_year(v: &VersusPlan) -> Option<usize> {
+    v.per_year.iter().find(|y| y.ci95[1] < 0.0).map(|y| y.year)
 }
 
 /// The runs of every strategy ([`STRATEGIES`], same order) and their summary.
 pub struct Simulation {
+    /// The plans of the proxy check, scored by R and by the simulation.
+    pub proxy_plans: Vec<proxy::Scored>,
+    /// The strategies run, in the order of `traces`: ids of [`STRATEGIES`].
+    pub strategies: Vec<&'static str>,
     pub traces: Vec<Trace>,
     pub summary: SimJson,
 }
@@ -188,6 +239,67 @@ fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
     problem.remaining(&a)
 }
 
+/// The `k`-th random feasible plan of the proxy check, fixed over runs (its own stream,
+/// apart from the runs' streams).
+fn random_fixed_plan(problem: &Problem, seed: u64, k: u64) -> Option<Assignment> {
+    let mut order: Vec<usize> = (0..problem.len()).collect();
+    let mut g = simulate::stream(seed, u64::MAX - k, 0, 2);
+    for i in (1..order.len()).rev() {
+        let j = (g.unit() * (i + 1) as f64) as usize;
+        order.swap(i, j.min(i));
+    }
+    baselines::fill_in_order(problem, &order)
+}
+
+/// The `k`-th perturbed optimum of the proxy check: the plan with one to three of its
+/// (not required) treated patches dropped and the money refilled with other patches in a random
+/// order, each with its most effective choice while it fits.
+fn perturbed_plan(problem: &Problem, plan: &Assignment, seed: u64, k: u64) -> Option<Assignment> {
+    let mut g = simulate::stream(seed, u64::MAX - 10_000 - k, 0, 3);
+    let mut shuffle = |v: &mut Vec<usize>| {
+        for i in (1..v.len()).rev() {
+            let j = (g.unit() * (i + 1) as f64) as usize;
+            v.swap(i, j.min(i));
+        }
+    };
+    let mut treated: Vec<usize> = (0..plan.len())
+        .filter(|&i| plan[i].is_some() && !problem.required[i])
+        .collect();
+    if treated.is_empty() {
+        return None;
+    }
+    shuffle(&mut treated);
+    let drop = (1 + k as usize % 3).min(treated.len());
+    let dropped = &treated[..drop];
+    let mut a = plan.clone();
+    for &i in dropped {
+        a[i] = None;
+    }
+    let mut order: Vec<usize> = (0..a.len()).collect();
+    shuffle(&mut order);
+    let (mut spent, mut hours) = (problem.cost(&a), problem.hours(&a));
+    let tol = |limit: f64| 1e-9 * limit.abs().max(1.0);
+    for i in order {
+        if a[i].is_some() || problem.excluded[i] || dropped.contains(&i) {
+            continue;
+        }
+        let Some(o) = problem.most_effective(i) else {
+            continue;
+        };
+        let c = problem.choices[i][o];
+        let fits_money = spent + c.cost <= problem.budget + tol(problem.budget);
+        let fits_hours = problem
+            .crew_hours
+            .is_none_or(|h| hours + c.hours <= h + tol(h));
+        if fits_money && fits_hours {
+            a[i] = Some(o);
+            spent += c.cost;
+            hours += c.hours;
+        }
+    }
+    Some(a)
+}
+
 pub fn pct(v: f64) -> f64 {
     v * 100.0
 }
@@ -204,6 +316,12 @@ pub fn simulate_plan(
     let budget = problem.budget;
     let greedy = crate::solve::heuristics::greedy(problem).map(|g| g.0);
     let density = baselines::fill_in_order(problem, &density_order(prepared));
+    let biggest = baselines::fill_in_order(problem, &baselines::biggest_first_order(&prepared.patches));
+    let corridors = &prepared.pressure.corridors;
+    let with_corridors = corridors.iter().any(|c| !c.is_empty());
+    let corridor = with_corridors
+        .then(|| baselines::fill_in_order(problem, &baselines::corridor_first_order(&prepared.patches, corridors)))
+        .flatten();
     let none: Assignment = vec![None; problem.len()];
 
     let model = &prepared.model;
@@ -237,22 +355,45 @@ pub fn simulate_plan(
     };
     let seed = runs.seed;
     let random = |run: u64| random_plan(problem, seed, run);
-    let fixed =
-        |a: &Option<Assignment>| Treatment::Fixed(problem.remaining(a.as_ref().unwrap_or(&none)));
-    let treatments = vec![
-        Treatment::Fixed(problem.remaining(&none)),
-        Treatment::Fixed(problem.remaining(plan)),
-        fixed(&greedy),
-        fixed(&density),
-        Treatment::PerRun(&random),
-    ];
+    // Fixed plans by strategy id; a rule whose plan does not fit is left out (it has no plan
+    // to simulate), corridor-first without corridors too (it would be biggest-first).
+    let mut ids: Vec<&'static str> = vec!["none", "plan"];
+    let mut plans: Vec<Option<&Assignment>> = vec![Some(&none), Some(plan)];
+    for (id, a) in [
+        ("greedy", greedy.as_ref()),
+        ("density", density.as_ref()),
+        ("biggest", biggest.as_ref()),
+        ("corridor", corridor.as_ref()),
+    ] {
+        if let Some(a) = a {
+            ids.push(id);
+            plans.push(Some(a));
+        }
+    }
+    ids.push("random");
+    plans.push(None);
+    let mut treatments: Vec<Treatment> = plans
+        .iter()
+        .filter_map(|a| a.map(|a| Treatment::Fixed(problem.remaining(a))))
+        .collect();
+    treatments.push(Treatment::PerRun(&random));
+    // The proxy check's extra plans: half random feasible plans, half perturbed optima.
+    let n_perturbed = runs.proxy_plans / 2;
+    let n_random = runs.proxy_plans - n_perturbed;
+    let extra: Vec<(String, Assignment)> = (0..n_random as u64)
+        .filter_map(|k| random_fixed_plan(problem, seed, k).map(|a| (format!("random_{}", k + 1), a)))
+        .chain((0..n_perturbed as u64).filter_map(|k| {
+            perturbed_plan(problem, plan, seed, k).map(|a| (format!("perturbed_{}", k + 1), a))
+        }))
+        .collect();
+    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(problem.remaining(a))));
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),
         runs.runs,
         runs.years
     ));
-    let traces = simulate::simulate(
+    let mut traces = simulate::simulate(
         &landscape,
         &params,
         &treatments,
@@ -262,6 +403,7 @@ pub fn simulate_plan(
         runs.jobs,
     );
 
+    let extra_traces = traces.split_off(ids.len());
     let diff = |f: &dyn Fn(&Trace, usize) -> f64| -> Difference {
         let d: Vec<f64> = (0..runs.runs as usize)
             .map(|k| pct(f(&traces[0], k) - f(&traces[1], k)))
@@ -276,19 +418,12 @@ pub fn simulate_plan(
     let years = runs.years as usize;
     let final_of = |t: &Trace, k: usize| t.occupied_host[k][years];
     let mean_of = |t: &Trace, k: usize| t.occupied_host[k][1..].iter().sum::<f64>() / years as f64;
-    let assignments: [Option<&Assignment>; 5] = [
-        Some(&none),
-        Some(plan),
-        greedy.as_ref(),
-        density.as_ref(),
-        None,
-    ];
-    let strategies = STRATEGIES
+    let strategies = ids
         .iter()
         .zip(&traces)
-        .zip(assignments)
-        .map(|(((name, _), t), a)| StrategyJson {
-            name,
+        .zip(plans.iter().copied())
+        .map(|((name, t), a)| StrategyJson {
+            name: *name,
             patches_treated: a.map(|a| a.iter().filter(|o| o.is_some()).count()),
             cost: a.map(|a| (problem.cost(a) * 100.0).round() / 100.0 + 0.0),
             risk_after: a.map(|a| problem.risk(a)),
@@ -312,8 +447,7 @@ pub fn simulate_plan(
         let (m, lo, hi) = simulate::mean_ci(&d);
         (m, [lo, hi])
     };
-    let versus_plan: Vec<VersusPlan> = (2..STRATEGIES.len())
-        .filter(|&s| s != 3 || density.is_some())
+    let versus_plan: Vec<VersusPlan> = (2..ids.len())
         .map(|s| {
             let (final_diff_pct, final_ci95) = paired(s, &final_of);
             let (mean_diff_pct, mean_ci95) = paired(s, &mean_of);
@@ -329,7 +463,7 @@ pub fn simulate_plan(
                 })
                 .collect();
             VersusPlan {
-                strategy: STRATEGIES[s].0,
+                strategy: ids[s],
                 final_diff_pct,
                 final_ci95,
                 mean_diff_pct,
@@ -339,9 +473,34 @@ pub fn simulate_plan(
         })
         .collect();
     let verdict = verdict(&versus_plan);
+    // Proxy check: every fixed plan but no action, and the random fixed plans.
+    let over_runs = |t: &Trace, f: &dyn Fn(&Trace, usize) -> f64| {
+        pct((0..n).map(|k| f(t, k)).sum::<f64>() / n as f64)
+    };
+    let mut proxy_plans: Vec<proxy::Scored> = Vec::new();
+    for ((id, t), a) in ids.iter().zip(&traces).zip(&plans).skip(1) {
+        if let Some(a) = a {
+            proxy_plans.push(proxy::Scored {
+                plan: id.to_string(),
+                risk_after: problem.risk(a),
+                mean_occupied_host_pct: over_runs(t, &mean_of),
+                final_occupied_host_pct: over_runs(t, &final_of),
+            });
+        }
+    }
+    for ((name, a), t) in extra.iter().zip(&extra_traces) {
+        proxy_plans.push(proxy::Scored {
+            plan: name.clone(),
+            risk_after: problem.risk(a),
+            mean_occupied_host_pct: over_runs(t, &mean_of),
+            final_occupied_host_pct: over_runs(t, &final_of),
+        });
+    }
+    let proxy_check = (runs.proxy_plans > 0).then(|| proxy::check(&proxy_plans, seed));
     let summary = SimJson {
         versus_plan,
         verdict,
+        proxy_check,
         years: runs.years,
         runs: runs.runs,
         seed,
@@ -354,5 +513,10 @@ pub fn simulate_plan(
         equilibrium_occupied_host_pct: pct(equilibrium_host),
         lambda_m_before: model.capacity(&vec![1.0; model.len()]).lambda,
     };
-    Ok(Simulation { traces, summary })
+    Ok(Simulation {
+        proxy_plans,
+        strategies: ids,
+        traces,
+        summary,
+    })
 }

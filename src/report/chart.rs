@@ -90,6 +90,71 @@ pub struct Marker {
     pub strong: bool,
 }
 
+/// Height of one row of marker labels above the plot, and their font size (px).
+const LABEL_ROW: f64 = 17.0;
+const LABEL_FONT: f64 = 12.0;
+
+/// A generous width of `text` at `LABEL_FONT` in Helvetica/Arial: 0.62 em a character (the
+/// widest digits and capitals are about 0.56-0.67 em; common practice for text boxes without a
+/// font engine).
+pub fn label_width(text: &str) -> f64 {
+    text.chars().count() as f64 * 0.62 * LABEL_FONT
+}
+
+/// For each marker: the label's x, its row above the plot, and whether it ends at x
+/// (text-anchor end) rather than starting there.
+fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) -> Vec<(f64, usize, bool)> {
+    let mut order: Vec<usize> = (0..markers.len()).collect();
+    order.sort_by(|&a, &b| markers[a].x.total_cmp(&markers[b].x));
+    let mut taken: Vec<Vec<(f64, f64)>> = Vec::new();
+    let mut leaders: Vec<(f64, usize)> = Vec::new();
+    let mut placed = vec![(0.0, 0, false); markers.len()];
+    for k in order {
+        let px = sx(markers[k].x);
+        let w = label_width(&markers[k].label);
+        let anchor_end = px + 4.0 + w > right_edge;
+        let (start, end) = if anchor_end {
+            (px - 4.0 - w, px - 4.0)
+        } else {
+            (px + 4.0, px + 4.0 + w)
+        };
+        // Row 0 is nearest the plot; the marker's line rises to its label's row, so no label
+        // in a row below may span the line, and the label may not span a line that rises
+        // past its row.
+        let free = |r: usize| {
+            taken.get(r).is_none_or(|boxes: &Vec<(f64, f64)>| {
+                boxes.iter().all(|&(a, b)| end + 6.0 <= a || start >= b + 6.0)
+            }) && taken
+                .iter()
+                .take(r)
+                .flatten()
+                .all(|&(a, b)| px < a - 3.0 || px > b + 3.0)
+                && leaders
+                    .iter()
+                    .all(|&(x, row)| row <= r || x < start - 3.0 || x > end + 3.0)
+        };
+        // Bounded: a label whose line is spanned in every row gets a new top row (no endless
+        // search when the rows below are blocked).
+        let row = (0..=markers.len()).find(|&r| free(r)).unwrap_or(taken.len());
+        leaders.push((px, row));
+        if taken.len() <= row {
+            taken.resize(row + 1, Vec::new());
+        }
+        taken[row].push((start, end));
+        placed[k] = (if anchor_end { px - 4.0 } else { px + 4.0 }, row, anchor_end);
+    }
+    placed
+}
+
+/// Decimals a tick label needs to show ticks `step` apart distinctly.
+fn step_decimals(step: f64) -> usize {
+    if step >= 1.0 || !(step > 0.0) {
+        0
+    } else {
+        (-step.log10() - 1e-9).ceil() as usize
+    }
+}
+
 /// Escape text for XML.
 pub fn escape(text: &str) -> String {
     text.replace('&', "&amp;")
@@ -154,9 +219,9 @@ pub fn fan_chart(
     markers: &[Marker],
     bands: &[Vec<(f64, f64, f64)>],
 ) -> String {
-    let (width, height) = (860.0, 540.0);
-    let (left, right, top, bottom) = (86.0, 28.0, 58.0, 150.0);
-    let (pw, ph) = (width - left - right, height - top - bottom);
+    let width = 860.0;
+    let (left, right, bottom) = (86.0, 28.0, 150.0);
+    let pw = width - left - right;
     let xs = series.iter().flat_map(|s| s.points.iter().map(|p| p.0));
     let (mut x0, mut x1) = (f64::INFINITY, f64::NEG_INFINITY);
     for x in xs {
@@ -167,6 +232,14 @@ pub fn fan_chart(
         x0 = 0.0;
         x1 = x1.max(1.0);
     }
+    // Marker labels sit in rows above the plot, where no line of the chart runs: each label
+    // starts at its marker's x (or ends there near the right edge) and takes the first row in
+    // which it overlaps no other label.
+    let placed = place_labels(markers, &|x| left + (x - x0) / (x1 - x0) * pw, width - right);
+    let rows = placed.iter().map(|p| p.1 + 1).max().unwrap_or(0);
+    let top = 58.0 + LABEL_ROW * rows as f64;
+    let height = 540.0 + LABEL_ROW * rows as f64;
+    let ph = height - top - bottom;
     let y1 = if y_max > 0.0 { y_max } else { 1.0 };
     let sx = |x: f64| left + (x - x0) / (x1 - x0) * pw;
     let sy = |y: f64| top + ph - (y / y1) * ph;
@@ -201,11 +274,18 @@ pub fn fan_chart(
             r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#,
             left - 8.0,
             py + 4.0,
-            y.round()
+            crate::report::format::fixed(y, step_decimals(ystep))
         );
         y += ystep;
     }
+    // Whole-number x (seasons, years) never gets a tick between two whole numbers: a step
+    // below 1 would print "1, 2, 2, 2, 3" through `x_format`.
+    let whole_x = series
+        .iter()
+        .flat_map(|s| s.points.iter())
+        .all(|p| p.0.fract() == 0.0);
     let xstep = tick_step(x1 - x0, 6);
+    let xstep = if whole_x { xstep.max(1.0) } else { xstep };
     let mut x = (x0 / xstep).ceil() * xstep;
     while x <= x1 + 1e-9 {
         let px = sx(x);
@@ -239,21 +319,22 @@ pub fn fan_chart(
         top + ph / 2.0,
         escape(y_label)
     );
-    // Markers.
-    for (k, m) in markers.iter().enumerate() {
+    // Markers: the line from its label's row down through the plot, the label beside its top.
+    for (m, &(lx, row, anchor_end)) in markers.iter().zip(&placed) {
         let px = sx(m.x);
         let (dash, w) = if m.strong { ("6 3", 1.6) } else { ("1 3", 1.2) };
+        let ly = top - 6.0 - LABEL_ROW * row as f64;
         let _ = writeln!(
             svg,
-            r#"<line class="marker" x1="{px:.1}" y1="{top}" x2="{px:.1}" y2="{:.1}" stroke="black" stroke-width="{w}" stroke-dasharray="{dash}"/>"#,
+            r#"<line class="marker" x1="{px:.1}" y1="{:.1}" x2="{px:.1}" y2="{:.1}" stroke="black" stroke-width="{w}" stroke-dasharray="{dash}"/>"#,
+            ly - LABEL_FONT,
             top + ph
         );
-        let ly = top + 16.0 + 15.0 * (k % 4) as f64;
         let _ = writeln!(
             svg,
-            r#"<text x="{:.1}" y="{ly:.1}" font-size="12" font-weight="{}">{}</text>"#,
-            px + 4.0,
+            r#"<text class="marker-label" x="{lx:.1}" y="{ly:.1}" font-size="{LABEL_FONT}" font-weight="{}"{}>{}</text>"#,
             if m.strong { "bold" } else { "normal" },
+            if anchor_end { r#" text-anchor="end""# } else { "" },
             escape(&m.label)
         );
     }
@@ -343,5 +424,28 @@ mod tests {
         assert_eq!(thousands(-45000.0), "-45,000");
         assert_eq!(tick_step(100.0, 5), 20.0);
         assert_eq!(tick_step(45000.0, 6), 10000.0);
+        assert_eq!(step_decimals(0.5), 1);
+        assert_eq!(step_decimals(0.02), 2);
+        assert_eq!(step_decimals(5.0), 0);
+    }
+
+    // Issue 22: a three-season chart read "1, 2, 2, 2, 3" on its axis.
+    #[test]
+    fn whole_number_axes_tick_whole_numbers() {
+        let series = [Series {
+            id: "a".into(),
+            label: "a".into(),
+            points: vec![(1.0, 3.0), (2.0, 2.0), (3.0, 1.0)],
+            style: Style::Main,
+        }];
+        let svg = line_chart("t", "season", "y", &|x| format!("{x:.0}"), 3.3, &series, &[]);
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let below: Vec<&str> = doc
+            .descendants()
+            .filter(|n| n.attribute("text-anchor") == Some("middle"))
+            .filter_map(|n| n.text())
+            .filter(|t| t.chars().all(|c| c.is_ascii_digit()))
+            .collect();
+        assert_eq!(below, ["1", "2", "3"], "{svg}");
     }
 }

@@ -16,23 +16,98 @@ use crate::planning::prepare::Prepared;
 use crate::report::chart::{self, Marker, Series, Style, escape, thousands};
 use crate::report::output::{self, Staging};
 
-/// The catalogue's currency code, for amounts in the curve's outputs.
+/// The currency of the curve's outputs: the catalogue's, or `--currency` at `--exchange-rate`.
 #[derive(Debug, Clone)]
 pub struct Money {
     pub code: String,
+    /// Units of `code` per unit of the catalogue's currency (1 without conversion).
+    pub rate: f64,
+    /// The catalogue's currency code.
+    pub from: String,
 }
 
 impl Money {
     pub fn new(code: &str) -> Money {
+        let code = code.trim().to_ascii_uppercase();
         Money {
-            code: code.trim().to_ascii_uppercase(),
+            from: code.clone(),
+            code,
+            rate: 1.0,
         }
     }
 
-    /// Whole units, code first (house style in `report::format`).
-    pub fn fmt(&self, amount: f64) -> String {
-        crate::report::format::money(&self.code, amount)
+    /// Amounts in `code`, converted from the catalogue's `from` at `rate`.
+    pub fn converted(code: &str, from: &str, rate: f64) -> Money {
+        Money {
+            code: code.trim().to_ascii_uppercase(),
+            rate,
+            from: from.trim().to_ascii_uppercase(),
+        }
     }
+
+    /// An amount of catalogue currency in this currency.
+    pub fn convert(&self, amount: f64) -> f64 {
+        amount * self.rate
+    }
+
+    /// Whole units, code first (house style in `report::format`), converted.
+    pub fn fmt(&self, amount: f64) -> String {
+        crate::report::format::money(&self.code, self.convert(amount))
+    }
+
+    /// The sentence stating the conversion, if there is one.
+    pub fn rate_note(&self) -> Option<String> {
+        (self.code != self.from).then(|| {
+            format!(
+                "Amounts are converted from the catalogue's {} at {} {} per {} (`--exchange-rate`).",
+                self.from,
+                crate::report::format::significant(self.rate, 6),
+                self.code,
+                self.from
+            )
+        })
+    }
+}
+
+/// What the justification page says it is: `--title`, `--place`, `--date`.
+#[derive(Debug, Clone, Default)]
+pub struct PageLabels {
+    pub title: Option<String>,
+    pub place: Option<String>,
+    pub date: Option<String>,
+}
+
+/// What the curve's outputs need beyond the points: the page's labels, the plan of `--plan`
+/// (its budget) and the gap limit the levels were solved to.
+#[derive(Debug, Clone, Default)]
+pub struct Context {
+    pub labels: PageLabels,
+    pub plan_budget: Option<f64>,
+    pub gap_limit: f64,
+}
+
+/// How the marginal returns behave, in words a person can check against the table.
+pub fn knee_sentence(points: &[Point], a: &Analysis, money: &Money) -> Option<String> {
+    let k = a.knee?;
+    let steps: Vec<f64> = a.marginal.iter().flatten().cloned().collect();
+    let falls_from_first = steps.len() >= 2
+        && steps.windows(2).all(|w| w[1] <= w[0] + 1e-9)
+        && steps[0] > *steps.last().unwrap() + 1e-9;
+    Some(if falls_from_first {
+        format!(
+            "Returns fall from the first step: each extra 1,000 buys less than the step before it ({} percentage points per 1,000 in the first step, {} in the last). The curve bends most at about {} (the knee, found with the Kneedle method of Satopää et al. 2011), which buys {:.1}% less risk.",
+            crate::report::format::fixed(steps[0] / money.rate, 2),
+            crate::report::format::fixed(steps.last().unwrap() / money.rate, 2),
+            money.fmt(points[k].budget),
+            a.reductions[k]
+        )
+    } else {
+        format!(
+            "Returns start to fall off at about {} (the knee of the curve, found with the Kneedle method of Satopää et al. 2011): it buys {:.1}% less risk. Beyond it each extra 1,000 buys less than before.",
+            money.fmt(points[k].budget),
+            a.reductions[k]
+        )
+    })
 }
 
 const RULES: [(&str, &str, Style); 3] = [
@@ -53,22 +128,16 @@ pub fn write(
     analysis: &Analysis,
     money: &Money,
     s: &scenario::Scenario,
+    context: &Context,
 ) -> Result<()> {
     let risk_before = prepared.model.risk_before();
-    staging.write("curve.csv", curve_csv(points, risk_before)?)?;
-    let svg = curve_svg(points, analysis, money);
+    staging.write("curve.csv", curve_csv(points, risk_before, money)?)?;
+    let svg = curve_svg(points, analysis, money, context.plan_budget);
     staging.write("curve.svg", &svg)?;
-    let page = Page::new(prepared, points, analysis, money, s);
+    let page = Page::new(prepared, points, analysis, money, s, context);
     staging.write("justification.md", page.markdown())?;
     staging.write("justification.html", page.html(&svg))?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(prepared.patches.water_checked)
-        ),
-    )?;
+    output::write_cautions(staging, prepared.patches.water_checked)?;
     let mut inputs_only = prepared.resolved.clone();
     inputs_only.plan.budget = None;
     output::write_provenance(
@@ -79,11 +148,23 @@ pub fn write(
     )
 }
 
-fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
+/// The rule-of-thumb baselines the points carry: corridor-first only with corridors.
+fn rules_in_use(points: &[Point]) -> Vec<(&'static str, &'static str, Style)> {
+    RULES
+        .iter()
+        .filter(|(name, _, _)| points.iter().any(|p| p.baselines.iter().any(|b| b.0 == *name)))
+        .copied()
+        .collect()
+}
+
+/// curve.csv. Precision: money to the cent, risks to 6 significant figures, gaps as fractions
+/// to 6 decimals, reductions to 4 decimals, stems whole, crew hours to 2 decimals.
+fn curve_csv(points: &[Point], risk_before: f64, money: &Money) -> Result<Vec<u8>> {
     let mut w = crate::core::csv_cells::Writer::new();
     let mut header = vec![
         "budget",
         "spent",
+        "follow_up_cost",
         "risk_after",
         "reduction_pct",
         "marginal_reduction_per_1000",
@@ -97,8 +178,9 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
         "greedy_risk_after",
         "greedy_reduction_pct",
     ];
-    for (name, _, _) in RULES {
-        header.push(match name {
+    let rules = rules_in_use(points);
+    for (name, _, _) in &rules {
+        header.push(match *name {
             "biggest_first" => "biggest_first_risk_after",
             "nearest_first" => "nearest_first_risk_after",
             _ => "corridor_first_risk_after",
@@ -106,27 +188,25 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
     }
     w.row(&header)?;
     let analysis = Analysis::new(points, risk_before);
-    let f = |v: f64| {
-        if v.is_finite() {
-            format!("{v}")
-        } else {
-            String::new()
-        }
-    };
+    use crate::report::format::{fixed, significant};
+    // Ten significant figures: a reviewer can match a level to `hostcut plan` at that budget.
+    let f = |v: f64| significant(v, 10);
+    let cents = |v: f64| fixed(money.convert(v), 2);
     for (k, p) in points.iter().enumerate() {
         let mut row = vec![
-            f(p.budget),
-            format!("{:.2}", p.spent),
+            cents(p.budget),
+            cents(p.spent),
+            cents(p.follow_up_cost),
             f(p.risk_after),
-            format!("{:.4}", analysis.reductions[k]),
+            fixed(analysis.reductions[k], 4),
             analysis.marginal[k]
-                .map(|m| format!("{m:.4}"))
+                .map(|m| fixed(m / money.rate, 4))
                 .unwrap_or_default(),
             p.n_treated.to_string(),
-            format!("{:.1}", p.stems_treated),
-            format!("{:.2}", p.crew_hours),
+            fixed(p.stems_treated, 0),
+            fixed(p.crew_hours, 2),
             p.status.as_str().to_string(),
-            f(p.gap),
+            if p.gap.is_finite() { fixed(p.gap, 6) } else { String::new() },
             f(p.bound),
             if p.from_neighbour {
                 "yes".into()
@@ -134,13 +214,13 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
                 "no".into()
             },
             f(p.greedy_risk_after),
-            format!("{:.4}", analysis.greedy[k]),
+            fixed(analysis.greedy[k], 4),
         ];
-        for (name, _, _) in RULES {
+        for (name, _, _) in &rules {
             row.push(
                 p.baselines
                     .iter()
-                    .find(|b| b.0 == name)
+                    .find(|b| b.0 == *name)
                     .map(|b| f(b.1))
                     .unwrap_or_default(),
             );
@@ -150,41 +230,32 @@ fn curve_csv(points: &[Point], risk_before: f64) -> Result<Vec<u8>> {
     w.into_bytes()
 }
 
-fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
+/// curve.svg: the rule-of-thumb and greedy lines first, the optimal line last so it is drawn
+/// above them; budgets in the output currency; a marker at the knee, the thresholds and the
+/// plan's own budget (`--plan`).
+fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money, plan_budget: Option<f64>) -> String {
     let risk_before = if let Some(p) = points.first() {
         p.risk_after / (1.0 - analysis.reductions[0] / 100.0).max(1e-300)
     } else {
         1.0
     };
-    let budget: Vec<f64> = points.iter().map(|p| p.budget).collect();
-    let mut series = vec![
-        Series {
-            id: "optimal".into(),
-            label: "optimal plan (exact MIP)".into(),
-            points: budget
-                .iter()
-                .cloned()
-                .zip(analysis.reductions.iter().cloned())
-                .collect(),
-            style: Style::Main,
-        },
-        Series {
-            id: "greedy".into(),
-            label: "greedy benefit-per-cost".into(),
-            points: budget
-                .iter()
-                .cloned()
-                .zip(analysis.greedy.iter().cloned())
-                .collect(),
-            style: Style::Dashed,
-        },
-    ];
-    for (name, label, style) in RULES {
+    let budget: Vec<f64> = points.iter().map(|p| money.convert(p.budget)).collect();
+    let mut series = vec![Series {
+        id: "greedy".into(),
+        label: "greedy benefit-per-cost".into(),
+        points: budget
+            .iter()
+            .cloned()
+            .zip(analysis.greedy.iter().cloned())
+            .collect(),
+        style: Style::Dashed,
+    }];
+    for (name, label, style) in rules_in_use(points) {
         let pts = points
             .iter()
             .map(|p| {
                 (
-                    p.budget,
+                    money.convert(p.budget),
                     p.baselines
                         .iter()
                         .find(|b| b.0 == name)
@@ -200,18 +271,30 @@ fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
             style,
         });
     }
-    // One marker per budget: the knee and any thresholds that fall on the same level share it.
+    // Last, so the optimal line is drawn above the others.
+    series.push(Series {
+        id: "optimal".into(),
+        label: "optimal plan (exact MIP)".into(),
+        points: budget
+            .iter()
+            .cloned()
+            .zip(analysis.reductions.iter().cloned())
+            .collect(),
+        style: Style::Main,
+    });
+    // One marker per budget: the knee, thresholds and the plan that fall on the same level
+    // share it.
     let mut markers: Vec<Marker> = Vec::new();
     let mut mark = |k: usize, what: String, strong: bool| match markers
         .iter_mut()
-        .find(|m| m.x == points[k].budget)
+        .find(|m| m.x == money.convert(points[k].budget))
     {
         Some(m) => {
             m.label = format!("{what}, {}", m.label);
             m.strong |= strong;
         }
         None => markers.push(Marker {
-            x: points[k].budget,
+            x: money.convert(points[k].budget),
             label: format!("{what}: {}", money.fmt(points[k].budget)),
             strong,
         }),
@@ -223,6 +306,9 @@ fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
         if let Some(k) = at {
             mark(*k, format!("{:.0}% of attainable", fraction * 100.0), false);
         }
+    }
+    if let Some(k) = plan_budget.and_then(|b| points.iter().position(|p| p.budget == b)) {
+        mark(k, "your plan".to_string(), true);
     }
     let top = analysis
         .reductions
@@ -247,6 +333,8 @@ fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money) -> String {
 /// The justification page's content, rendered as Markdown or HTML.
 struct Page {
     title: String,
+    /// Place and date under the title.
+    subtitle: Option<String>,
     intro: Vec<String>,
     table_header: Vec<String>,
     table: Vec<Vec<String>>,
@@ -265,10 +353,13 @@ impl Page {
         a: &Analysis,
         money: &Money,
         s: &scenario::Scenario,
+        context: &Context,
     ) -> Page {
+        use crate::planning::curve::follow_up::FOLLOW_UP_SEASONS;
+        use crate::report::format::status_words;
         let patches = &prepared.patches;
         let total_stems: f64 = patches.items.iter().map(|p| p.stems).sum();
-        let intro = vec![
+        let mut intro = vec![
             format!(
                 "This page shows what each season budget buys in reduced spotted lanternfly establishment risk, by treating tree-of-heaven (the insect's preferred host) where it counts most. The programme area holds {} host patches with about {} stems; {} of them can be treated under the access and herbicide rules.",
                 patches.len(),
@@ -277,7 +368,13 @@ impl Page {
             ),
             "Every budget level below is an optimal plan found by an exact optimiser for that budget (or, where the optimiser stopped early, the best plan found with its proven distance from optimal), not an extrapolation from one plan.".to_string(),
             "What the numbers are: a ranking of relative risk under the stated assumptions, the share of connected tree-of-heaven host that treatment removes, weighted by how close patches are to each other and to the rail lines, roads and known populations that bring the insect in. It is not a forecast of where the insect will be or when.".to_string(),
+            format!(
+                "Each level is a one-season budget. Treated patches need follow-up visits for survivors and root suckers in the next seasons: the column \"With {FOLLOW_UP_SEASONS} follow-up seasons\" adds them (the share of stems and the method the treatment catalogue gives for each method's follow-up), so a multi-season request can be read off the same row."
+            ),
         ];
+        if let Some(note) = money.rate_note() {
+            intro.push(note);
+        }
         let table_header = [
             "Budget",
             "Spent",
@@ -291,14 +388,21 @@ impl Page {
         ]
         .iter()
         .map(|s| s.to_string())
-        .collect();
+        .collect::<Vec<String>>();
+        let mut table_header = table_header;
+        table_header.insert(2, format!("With {FOLLOW_UP_SEASONS} follow-up seasons"));
         let table = points
             .iter()
             .enumerate()
             .map(|(k, p)| {
                 vec![
-                    money.fmt(p.budget),
+                    if context.plan_budget == Some(p.budget) {
+                        format!("{} (your plan)", money.fmt(p.budget))
+                    } else {
+                        money.fmt(p.budget)
+                    },
                     money.fmt(p.spent),
+                    money.fmt(p.spent + p.follow_up_cost),
                     p.n_treated.to_string(),
                     thousands(p.stems_treated),
                     if p.area_ha_treated > 0.0 {
@@ -313,51 +417,54 @@ impl Page {
                         "-".into()
                     },
                     a.marginal[k]
-                        .map(|m| format!("{m:.2}"))
+                        .map(|m| crate::report::format::fixed(m / money.rate, 2))
                         .unwrap_or_else(|| "-".into()),
-                    match p.status {
-                        crate::solve::problem::Status::Optimal => "optimal".to_string(),
-                        other => format!("{} (within {:.3}%)", other.as_str(), 100.0 * p.gap),
-                    },
+                    status_words(p.status, p.gap, context.gap_limit),
                 ]
             })
             .collect();
         let mut findings = Vec::new();
-        if let Some(k) = a.knee {
+        if let Some(k) = context
+            .plan_budget
+            .and_then(|b| points.iter().position(|p| p.budget == b))
+        {
             findings.push(format!(
-                "Returns start to fall off at about {} (the knee of the curve, found with the Kneedle method of Satopää et al. 2011): it buys {:.1}% less risk. Beyond it each extra 1,000 buys less than before.",
+                "Your plan's budget, {}, buys {:.1}% less risk ({}); with {FOLLOW_UP_SEASONS} follow-up seasons it costs {}.",
                 money.fmt(points[k].budget),
-                a.reductions[k]
+                a.reductions[k],
+                status_words(points[k].status, points[k].gap, context.gap_limit),
+                money.fmt(points[k].spent + points[k].follow_up_cost)
+            ));
+        }
+        findings.extend(knee_sentence(points, a, money));
+        let top = a.reductions.iter().cloned().fold(0.0, f64::max);
+        if let Some(last) = points.last() {
+            findings.push(format!(
+                "\"Attainable\" below means the reduction at the largest budget studied ({}): {:.1}% less risk. A larger budget could buy more only if it treats patches this one cannot.",
+                money.fmt(last.budget),
+                top
             ));
         }
         for (fraction, at) in &a.thresholds {
             if let Some(k) = at {
                 findings.push(format!(
-                    "{:.0}% of the attainable reduction ({:.1}% of all risk) is reached by {}.",
+                    "{:.0}% of the attainable reduction is reached by {}, which buys {:.1}% less risk.",
                     fraction * 100.0,
-                    a.reductions[*k],
-                    money.fmt(points[*k].budget)
+                    money.fmt(points[*k].budget),
+                    a.reductions[*k]
                 ));
             }
         }
-        if let (Some(last), Some(&top)) = (points.last(), a.reductions.last()) {
-            findings.push(format!(
-                "The largest budget studied, {}, buys {:.1}% less risk.",
-                money.fmt(last.budget),
-                top
-            ));
-        }
-        let compare_header = [
-            "Budget",
-            "Optimal plan",
-            "Greedy rule",
-            "Biggest first",
-            "Nearest first",
-            "Corridors first",
-        ]
-        .iter()
-        .map(|s| s.to_string())
-        .collect();
+        let rules = rules_in_use(points);
+        let compare_header = ["Budget", "Optimal plan", "Greedy rule"]
+            .iter()
+            .map(|s| s.to_string())
+            .chain(rules.iter().map(|r| match r.0 {
+                "biggest_first" => "Biggest first".to_string(),
+                "nearest_first" => "Nearest first".to_string(),
+                _ => "Corridors first".to_string(),
+            }))
+            .collect();
         let risk_before = prepared.model.risk_before();
         let compare = points
             .iter()
@@ -368,11 +475,11 @@ impl Page {
                     format!("{:.1}%", a.reductions[k]),
                     format!("{:.1}%", a.greedy[k]),
                 ];
-                for (name, _, _) in RULES {
+                for (name, _, _) in &rules {
                     row.push(
                         p.baselines
                             .iter()
-                            .find(|b| b.0 == name)
+                            .find(|b| b.0 == *name)
                             .filter(|b| b.1.is_finite())
                             .map(|b| format!("{:.1}%", reduction(b.1, risk_before)))
                             .unwrap_or_else(|| "-".into()),
@@ -420,16 +527,22 @@ impl Page {
                 Some(p) => format!("Host is weighted by the establishment suitability layer {} (effective host = stems x suitability).", p.display()),
                 None => "No establishment suitability layer: all host counts fully.".to_string(),
             },
-            "Treated patches need follow-up visits for root suckers in the next two or three seasons; those costs are not in these figures.".to_string(),
+            format!("Treated patches need follow-up visits for root suckers in the next two or three seasons. The follow-up column prices {FOLLOW_UP_SEASONS} seasons of visits from the catalogue's `follow_up_share` and `follow_up_method`, without host growth; `hostcut program` plans a multi-season programme exactly."),
         ];
         let cautions = cautions::STANDING
             .iter()
             .filter_map(|c| cautions::lookup(c))
             .map(|c| c.text.to_string())
             .collect();
+        let subtitle = [context.labels.place.clone(), context.labels.date.clone()]
+            .into_iter()
+            .flatten()
+            .collect::<Vec<_>>();
         Page {
-            title: "What each budget buys: tree-of-heaven treatment against spotted lanternfly"
-                .into(),
+            title: context.labels.title.clone().unwrap_or_else(|| {
+                "What each budget buys: tree-of-heaven treatment against spotted lanternfly".into()
+            }),
+            subtitle: (!subtitle.is_empty()).then(|| subtitle.join(", ")),
             intro,
             table_header,
             table,
@@ -444,6 +557,9 @@ impl Page {
 
     fn markdown(&self) -> String {
         let mut t = format!("# {}\n\n", self.title);
+        if let Some(sub) = &self.subtitle {
+            let _ = writeln!(t, "*{sub}*\n");
+        }
         for p in &self.intro {
             let _ = writeln!(t, "{p}\n");
         }
@@ -493,6 +609,9 @@ impl Page {
              @media print{body{margin:0}h2{page-break-after:avoid}table{page-break-inside:avoid}}</style></head><body>\n",
         );
         let _ = writeln!(t, "<h1>{}</h1>", escape(&self.title));
+        if let Some(sub) = &self.subtitle {
+            let _ = writeln!(t, "<p class=\"subtitle\"><em>{}</em></p>", escape(sub));
+        }
         for p in &self.intro {
             let _ = writeln!(t, "<p>{}</p>", escape(p));
         }

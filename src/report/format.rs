@@ -61,9 +61,96 @@ pub fn percent(v: f64, digits: usize) -> String {
     format!("{}%", fixed(v, digits))
 }
 
+/// A share (a fraction, `0.064` = 6.4 %) as a percentage with two significant figures and a
+/// space before the sign, for gaps a person reads: `0.0643` → `6.4 %`, `0.00012` → `0.012 %`;
+/// below 0.01 % it is `< 0.01 %`, and zero is `0 %`.
+pub fn share_percent(fraction: f64) -> String {
+    let pct = 100.0 * fraction;
+    if !pct.is_finite() {
+        return "n/a".into();
+    }
+    if pct <= 0.0 {
+        return "0 %".into();
+    }
+    if pct < 0.01 {
+        return "< 0.01 %".into();
+    }
+    let magnitude = pct.log10().floor() as i32;
+    let decimals = (1 - magnitude).max(0) as usize;
+    let scale = 10f64.powi(1 - magnitude);
+    let rounded = (pct * scale).round() / scale;
+    format!("{} %", fixed(rounded, decimals))
+}
+
+/// The solver's status in plain words for a page a person reads: "best possible (proven)",
+/// "proven within 0.1 % of the best possible" (stopped at the gap limit `gap_limit`), "best
+/// found, within 6.4 % of the best possible" (stopped by time or by the search), or "no plan
+/// fits the limits".
+pub fn status_words(status: crate::solve::problem::Status, gap: f64, gap_limit: f64) -> String {
+    use crate::solve::problem::Status;
+    match status {
+        Status::Optimal => "best possible (proven)".into(),
+        // The limit the user set, as they set it (`--gap 0.001` → 0.1 %).
+        Status::GapLimit => format!(
+            "proven within {} % of the best possible",
+            significant(100.0 * gap_limit.max(gap), 2)
+        ),
+        Status::TimeLimit | Status::NoImprovingMove => format!(
+            "best found, within {} of the best possible",
+            share_percent(gap)
+        ),
+        Status::Infeasible => "no plan fits the limits".into(),
+    }
+}
+
+/// A number for a CSV or JSON a person may open: `digits` significant figures, plain decimal
+/// notation (no exponent, no 17-digit tails), never `-0`; empty for NaN.
+pub fn significant(v: f64, digits: usize) -> String {
+    if !v.is_finite() {
+        return String::new();
+    }
+    if v == 0.0 {
+        return "0".into();
+    }
+    let magnitude = v.abs().log10().floor() as i32;
+    let decimals = (digits as i32 - 1 - magnitude).clamp(0, 15) as usize;
+    let text = fixed(v, decimals);
+    let text = if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    };
+    if text == "-0" { "0".into() } else { text }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Two significant figures and "< 0.01 %" are issue 22's wording (common practice for
+    // reporting optimality gaps to non-specialists).
+    #[test]
+    fn shares_in_two_significant_figures() {
+        assert_eq!(share_percent(0.0643), "6.4 %");
+        assert_eq!(share_percent(0.00012), "0.012 %");
+        assert_eq!(share_percent(0.00007), "< 0.01 %");
+        assert_eq!(share_percent(0.001), "0.10 %");
+        assert_eq!(share_percent(0.123), "12 %");
+        assert_eq!(share_percent(0.0), "0 %");
+        assert_eq!(significant(8326.751052631584, 6), "8326.75");
+        assert_eq!(significant(1.238485920343866e-16, 4), "0");
+        assert_eq!(significant(0.11205446569760989, 6), "0.112054");
+        assert_eq!(significant(-0.0, 3), "0");
+        use crate::solve::problem::Status;
+        assert_eq!(
+            status_words(Status::GapLimit, 0.00007, 0.001),
+            "proven within 0.1 % of the best possible"
+        );
+        assert_eq!(
+            status_words(Status::TimeLimit, 0.0643, 0.001),
+            "best found, within 6.4 % of the best possible"
+        );
+    }
 
     // Expected strings are the house style above (common practice: ISO 4217 code before the
     // amount, comma thousands separators as in en-US/en-CA).
@@ -93,5 +180,52 @@ mod tests {
         assert_eq!(thousands(1234567.4), "1,234,567");
         assert_eq!(thousands(999.0), "999");
         assert_eq!(thousands(-45000.0), "-45,000");
+    }
+}
+
+/// Hectares in one international acre: 0.40468564224 (NIST Handbook 44, Appendix C: 1 acre =
+/// 4,046.856 422 4 m²).
+pub const HECTARES_PER_ACRE: f64 = 0.404_685_642_24;
+
+/// The unit printed areas are shown in (`--area-units`); computed areas stay in hectares.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum AreaUnit {
+    #[default]
+    Hectares,
+    Acres,
+}
+
+impl AreaUnit {
+    /// `ha` or `ac` as `--area-units` takes them.
+    pub fn parse(text: &str) -> Option<AreaUnit> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "ha" | "hectares" => Some(AreaUnit::Hectares),
+            "ac" | "acres" => Some(AreaUnit::Acres),
+            _ => None,
+        }
+    }
+
+    /// An area given in hectares, in this unit.
+    pub fn from_ha(self, ha: f64) -> f64 {
+        match self {
+            AreaUnit::Hectares => ha,
+            AreaUnit::Acres => ha / HECTARES_PER_ACRE,
+        }
+    }
+
+    /// The short symbol: `ha` or `ac`.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            AreaUnit::Hectares => "ha",
+            AreaUnit::Acres => "ac",
+        }
+    }
+
+    /// The column name for a table: `hectares` or `acres`.
+    pub fn column(self) -> &'static str {
+        match self {
+            AreaUnit::Hectares => "hectares",
+            AreaUnit::Acres => "acres",
+        }
     }
 }

@@ -2,11 +2,13 @@
 
 pub mod calibrate;
 pub mod chart;
+pub mod contract;
 pub mod curve;
 pub mod format;
 pub mod map;
 pub mod orders;
 pub mod output;
+pub mod plan;
 pub mod program;
 pub mod simulate;
 pub mod staging;

@@ -16,8 +16,27 @@ pub use crate::report::staging::{MARKER, Staging, check_new_file, write_new_file
 /// Make a run repeatable: keep the catalogue it used as `treatments.used.toml` and write
 /// `scenario.resolved.toml` pointing at it, under a one-line `header` comment. Paths inside the
 /// output folder are written relative to it, so the folder can be moved or copied.
+/// `scenario.resolved.toml` marks a plan folder (or a curve's or programme's); a command
+/// whose folder is not one names its record otherwise ([`write_record`]).
 pub fn write_provenance(
     staging: &Staging,
+    scenario: &crate::core::scenario::Scenario,
+    catalogue_text: &str,
+    header: &str,
+) -> Result<()> {
+    write_record(
+        staging,
+        "scenario.resolved.toml",
+        scenario,
+        catalogue_text,
+        header,
+    )
+}
+
+/// As [`write_provenance`], the record written as `name` (e.g. `simulate.resolved.toml`).
+pub fn write_record(
+    staging: &Staging,
+    name: &str,
     scenario: &crate::core::scenario::Scenario,
     catalogue_text: &str,
     header: &str,
@@ -26,21 +45,20 @@ pub fn write_provenance(
     let mut resolved = scenario.clone();
     resolved.plan.treatments = Some(staging.path("treatments.used.toml"));
     resolved.relative_to(staging.dir(), staging.out());
-    staging.write(
-        "scenario.resolved.toml",
-        format!("# {header}\n{}", resolved.to_toml()?),
-    )
+    staging.write(name, format!("# {header}\n{}", resolved.to_toml()?))
 }
 
-/// Scientific notation for values that span many orders of magnitude.
-fn sci(v: f64) -> String {
-    if !v.is_finite() {
-        String::new()
-    } else if v.abs() < 1e-300 {
-        "0".into()
-    } else {
-        format!("{v:.6e}")
-    }
+/// cautions.txt of a folder that plans (plan, curve, programme): the standing cautions and the
+/// site check (whether a water layer was given).
+pub fn write_cautions(staging: &Staging, water_checked: bool) -> Result<()> {
+    staging.write(
+        "cautions.txt",
+        format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(water_checked)
+        ),
+    )
 }
 
 fn round(v: f64, digits: i32) -> String {
@@ -48,7 +66,8 @@ fn round(v: f64, digits: i32) -> String {
         return String::new();
     }
     let m = 10f64.powi(digits);
-    format!("{}", (v * m).round() / m)
+    // `+ 0.0` turns -0 into 0: a person should never read "-0".
+    format!("{}", (v * m).round() / m + 0.0)
 }
 
 /// Everything the writers need.
@@ -112,7 +131,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             (rank + 1).to_string(),
             p.label.clone(),
             o.catalogue.method(row.choice.method).id.clone(),
-            round(p.stems, 1),
+            round(p.stems, 0),
             round(row.choice.cost, 2),
             round(row.choice.hours, 2),
             round(plan.risk_shares[i], 6),
@@ -141,7 +160,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
             round(p.y, 2),
             round(lonlat[i].0, 7),
             round(lonlat[i].1, 7),
-            round(p.stems, 1),
+            round(p.stems, 0),
             p.area_ha.map(|a| round(a, 4)).unwrap_or_default(),
             round(o.pressure.values[i], 4),
             p.site.access.as_str().into(),
@@ -154,13 +173,15 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
                 "no".into()
             },
             round(plan.risk_shares[i], 6),
-            sci(plan.patch_value[i]),
+            crate::report::format::significant(plan.patch_value[i], 6),
             round(plan.establishment_before[i], 6),
             round(plan.establishment_after[i], 6),
             method_id(i),
             round(o.suitability[i], 6),
             p.site.water.as_str().into(),
             p.site.notes(),
+            p.site.contact.clone(),
+            o.pressure.corridors[i].join(";"),
         ]);
     }
     let header = [
@@ -185,6 +206,8 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         "suitability",
         "water",
         "site_notes",
+        "contact",
+        "corridors",
     ];
     staging.write("patches.csv", csv_bytes(&header, &rows)?)?;
 
@@ -251,14 +274,7 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         &fields,
         &features,
     )?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(patches.water_checked)
-        ),
-    )?;
+    write_cautions(staging, patches.water_checked)?;
     Ok(())
 }
 
@@ -315,6 +331,7 @@ pub fn summary(
         dropped_slivers: o.patches.dropped_slivers,
         host_source: o.patches.source.to_string(),
         crs: o.patches.crs.name.clone(),
+        crs_conversion: o.patches.crs_conversion.clone(),
         kernel: format!("{:?}", model.kernel).to_lowercase(),
         alpha_m: model.alpha_m,
         epsilon: model.epsilon,

@@ -31,6 +31,8 @@ pub struct Written {
     pub spent: Vec<f64>,
     pub objective_myopic: f64,
     pub objective_none: f64,
+    /// The programme chose exactly the season-by-season plan.
+    pub same_as_myopic: bool,
 }
 
 /// Write the programme's files into `staging`.
@@ -172,6 +174,7 @@ pub fn write(
         })).collect::<Vec<_>>(),
         "objective": solved.objective,
         "objective_myopic": objective_myopic,
+        "same_as_season_by_season": solved.assignment == *myopic,
         "objective_no_action": objective_none,
         "bound": solved.bound,
         "gap": solved.gap,
@@ -197,14 +200,7 @@ pub fn write(
             .map_err(|e| Error::Internal(format!("summary: {e}")))?
             + "\n",
     )?;
-    staging.write(
-        "cautions.txt",
-        format!(
-            "{}\n{}\n",
-            cautions::standing_text(),
-            cautions::site_check_text(prepared.patches.water_checked)
-        ),
-    )?;
+    output::write_cautions(staging, prepared.patches.water_checked)?;
     output::write_provenance(
         staging,
         &prepared.resolved,
@@ -229,6 +225,7 @@ pub fn write(
         risks_none,
         spent,
         objective_myopic,
+        same_as_myopic: solved.assignment == *myopic,
         objective_none,
     })
 }

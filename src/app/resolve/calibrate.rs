@@ -39,7 +39,8 @@ pub fn resolve(args: &CalibrateArgs) -> Result<CalibrateSettings> {
     if !(args.extinction_exponent.is_finite() && args.extinction_exponent >= 0.0) {
         return Err(Error::input("`--extinction-exponent` must be 0 or more"));
     }
-    let settings = super::planning(inputs, None, false)?;
+    let mut settings = super::planning(inputs, None, false)?;
+    super::set_aside_simulate_table(&mut settings, "calibrate");
     Ok(CalibrateSettings {
         settings,
         surveys: args.surveys.clone(),

@@ -63,6 +63,43 @@ pub fn planning(
     resolve_with(&inputs, need_budget)
 }
 
+/// The preamble of `curve` and `program`, after their own flags: the plan folder's scenario
+/// (`plan_folder`, read before their flags were checked so a wrong `--plan` is said first)
+/// under the flags, resolved without a budget, an ensemble refused with `message` and `hint`,
+/// a `[simulate]` table set aside (`command` names the command in the note).
+pub fn single_kernel(
+    args: &PlanArgs,
+    plan_folder: Option<PathBuf>,
+    command: &str,
+    message: &str,
+    hint: &str,
+) -> Result<Settings> {
+    let mut inputs = args.clone();
+    if plan_folder.is_some() {
+        inputs.scenario = plan_folder;
+    }
+    let mut settings = planning(inputs, None, false)?;
+    refuse_ensemble(&settings, message, hint)?;
+    set_aside_simulate_table(&mut settings, command);
+    Ok(settings)
+}
+
+/// A plan folder's scenario.resolved.toml, when `--plan DIR` is given.
+pub fn plan_folder_of(plan_dir: Option<&Path>) -> Result<Option<PathBuf>> {
+    plan_dir.map(plan_folder_scenario).transpose()
+}
+
+/// A scenario's `[simulate]` table (as `simulate.resolved.toml` has) is `hostcut simulate`'s
+/// alone: any other command takes it out of its settings, so its own record does not carry it,
+/// and says so rather than dropping it silently.
+pub fn set_aside_simulate_table(settings: &mut Settings, command: &str) {
+    if settings.scenario.simulate.take().is_some() {
+        crate::core::printer::note(format_args!(
+            "note: the scenario's [simulate] table applies to `hostcut simulate` only; `hostcut {command}` does not use it"
+        ));
+    }
+}
+
 /// Refuse an ensemble for a command that works on one dispersal kernel.
 pub fn refuse_ensemble(settings: &Settings, message: &str, hint: &str) -> Result<()> {
     if settings.scenario.ensemble.is_some() {

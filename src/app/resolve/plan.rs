@@ -23,8 +23,10 @@ pub fn resolve(args: &PlanCommand) -> Result<PlanSettings> {
             "e.g. `--write-mps plan.mps`",
         ));
     }
+    let mut settings = super::resolve(&args.inputs)?;
+    super::set_aside_simulate_table(&mut settings, "plan");
     Ok(PlanSettings {
-        settings: super::resolve(&args.inputs)?,
+        settings,
         write_mps: args.write_mps.clone(),
     })
 }

@@ -36,11 +36,7 @@ fn per_season(values: &[f64], seasons: usize, flag: &str) -> Result<Vec<f64>> {
 }
 
 pub fn resolve(args: &ProgramArgs) -> Result<ProgramSettings> {
-    let plan_folder = args
-        .plan_dir
-        .as_deref()
-        .map(super::plan_folder_scenario)
-        .transpose()?;
+    let plan_folder = super::plan_folder_of(args.plan_dir.as_deref())?;
     if !(1..=10).contains(&args.seasons) {
         return Err(Error::input("`--seasons` must be between 1 and 10"));
     }
@@ -54,13 +50,10 @@ pub fn resolve(args: &ProgramArgs) -> Result<ProgramSettings> {
     if !(0.0..=1.0).contains(&args.regrowth) {
         return Err(Error::input("`--regrowth` must be between 0 and 1"));
     }
-    let mut inputs = args.inputs.clone();
-    if plan_folder.is_some() {
-        inputs.scenario = plan_folder;
-    }
-    let settings = super::planning(inputs, None, false)?;
-    super::refuse_ensemble(
-        &settings,
+    let settings = super::single_kernel(
+        &args.inputs,
+        plan_folder,
+        "program",
         "`hostcut program` works on one dispersal kernel",
         "give one kernel, e.g. `--kernel exp:200`",
     )?;

@@ -60,6 +60,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(v) = &args.crs {
         s.host.crs = Some(v.clone());
     }
+    if let Some(v) = &args.work_crs {
+        s.host.work_crs = Some(v.clone());
+    }
     if let Some(v) = &args.assume_crs {
         s.host.assume_crs = Some(v.clone());
     }

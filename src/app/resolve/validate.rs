@@ -86,7 +86,13 @@ pub(crate) fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
         (None, Some(_)) if s.host.crs.is_none() => {
             return Err(Error::input_with_hint(
                 "the stand inventory needs the CRS of its x,y coordinates",
-                "add `--crs EPSG:NNNN` naming its projected CRS in metres (e.g. a UTM zone)",
+                "add `--crs EPSG:NNNN` naming the CRS of its x,y (a UTM zone, a state plane in metres or feet, or EPSG:4326 for lon/lat)",
+            ));
+        }
+        (Some(_), None) if s.host.work_crs.is_some() => {
+            return Err(Error::input_with_hint(
+                "`--work-crs` names the CRS a stand inventory is converted into; a host layer is worked in its own CRS",
+                "reproject the layer first (`ogr2ogr -t_srs` / `gdalwarp -t_srs`), or leave out `--work-crs`",
             ));
         }
         (Some(_), None) if s.host.crs.is_some() => {

@@ -18,7 +18,7 @@ mod write;
 use std::path::{Path, PathBuf};
 
 use gdal::Dataset;
-use gdal::spatial_ref::{AxisMappingStrategy, SpatialRef};
+use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 
 use crate::core::error::{Error, Result};
 use crate::core::memory::GDAL_CACHE_MB;
@@ -26,7 +26,9 @@ use crate::core::memory::GDAL_CACHE_MB;
 pub use raster::{Frame, Grid, RasterFile, open_raster, rasterize_index, read_raster};
 pub use reproject::{ToLonLat, transform_points};
 pub use sample::RasterSampler;
-pub use vector::{Value, VectorFeature, VectorLayer, read_vector, vector_crs};
+pub use vector::{
+    Value, VectorFeature, VectorLayer, outline_from_wkt, outlines_wkt, read_vector, vector_crs,
+};
 pub use write::{
     GeometryKind, LayerData, Property, write_geojson, write_geotiff, write_geotiff_strips,
     write_layers, write_vector,
@@ -99,6 +101,7 @@ pub struct Crs {
 impl Crs {
     /// Parse any definition GDAL accepts (`EPSG:32618`, WKT, PROJ string) as a working CRS.
     pub fn parse(definition: &str, what: &str) -> Result<Crs> {
+        let definition = &normalise_definition(definition);
         let srs = SpatialRef::from_definition(definition).map_err(|e| {
             Error::input_with_hint(
                 format!(
@@ -144,6 +147,161 @@ impl Crs {
         srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
         Ok(srs)
     }
+}
+
+/// A CRS definition as people write it, in the form GDAL reads: a bare EPSG number (`32618`)
+/// is `EPSG:32618`; `CRS84` is `OGC:CRS84`; anything else is passed on unchanged.
+pub fn normalise_definition(definition: &str) -> String {
+    let d = definition.trim();
+    if !d.is_empty() && d.len() <= 6 && d.bytes().all(|b| b.is_ascii_digit()) {
+        format!("EPSG:{d}")
+    } else if d.eq_ignore_ascii_case("CRS84") {
+        "OGC:CRS84".to_string()
+    } else {
+        d.to_string()
+    }
+}
+
+/// The UTM zone (WGS 84, EPSG:326zz north / 327zz south) whose central meridian is nearest
+/// `lon`, `lat` (standard 6-degree zones from 180 W; the Norway/Svalbard exceptions are not
+/// applied).
+pub fn utm_epsg(lon: f64, lat: f64) -> u32 {
+    let zone = (((lon + 180.0) / 6.0).floor() as i64).clamp(0, 59) as u32 + 1;
+    if lat >= 0.0 {
+        32600 + zone
+    } else {
+        32700 + zone
+    }
+}
+
+/// An inventory's coordinates converted into the work CRS.
+pub struct Projected {
+    /// The work CRS: projected, metres.
+    pub crs: Crs,
+    /// The points in the work CRS, in the order given.
+    pub points: Vec<(f64, f64)>,
+    /// What was converted, in words (for stderr and summary.json); `None` when the input was
+    /// already the work CRS.
+    pub note: Option<String>,
+}
+
+/// Convert points given in `definition` (any CRS GDAL knows: projected in metres or feet, or
+/// geographic lon/lat) into the work CRS: `work` when given; else the input CRS itself when it
+/// is projected in metres; else, for lon/lat, the UTM zone of the points' extent's centre; else,
+/// for a projected CRS in other units (US survey or international feet), the same projection
+/// with metre units (PROJ's false easting and northing are metres, so only the unit changes).
+pub fn project_points(
+    definition: &str,
+    work: Option<&str>,
+    points: &[(f64, f64)],
+    what: &str,
+) -> Result<Projected> {
+    let normalised = normalise_definition(definition);
+    let srs = SpatialRef::from_definition(&normalised).map_err(|e| {
+        Error::input_with_hint(
+            format!("{what}: `{definition}` is not a coordinate reference system GDAL knows ({e})"),
+            "name it as an EPSG code, e.g. `EPSG:32618` or `32618`",
+        )
+    })?;
+    let source = traditional(srs);
+    let name = srs_name(&source);
+    let geographic = source.is_geographic() || !source.is_projected();
+    let units = if geographic {
+        1.0
+    } else {
+        source.linear_units()
+    };
+    let units_name = if geographic {
+        "degrees".to_string()
+    } else {
+        source
+            .linear_units_name()
+            .unwrap_or_else(|| format!("{units} m"))
+    };
+    if geographic {
+        if let Some(k) = points
+            .iter()
+            .position(|p| !(p.0.abs() <= 180.0 && p.1.abs() <= 90.0))
+        {
+            return Err(Error::input_with_hint(
+                format!(
+                    "{what}: row {} has x = {}, y = {}, not a longitude and latitude in {name}",
+                    k + 1,
+                    points[k].0,
+                    points[k].1
+                ),
+                "in a lon/lat CRS x is the longitude (-180 to 180) and y the latitude (-90 to 90); projected coordinates need their projected CRS in `--crs`",
+            ));
+        }
+    }
+    let (crs, reason) = match work {
+        Some(w) => (
+            Crs::parse(w, "`--work-crs`")?,
+            "named by `--work-crs`".to_string(),
+        ),
+        None if !geographic && (units - 1.0).abs() <= 1e-9 => {
+            return Ok(Projected {
+                crs: Crs::from_srs(&source, what)?,
+                points: points.to_vec(),
+                note: None,
+            });
+        }
+        None if geographic => {
+            let (mut lo, mut hi) = ((f64::MAX, f64::MAX), (f64::MIN, f64::MIN));
+            for p in points {
+                lo = (lo.0.min(p.0), lo.1.min(p.1));
+                hi = (hi.0.max(p.0), hi.1.max(p.1));
+            }
+            let (lon, lat) = ((lo.0 + hi.0) / 2.0, (lo.1 + hi.1) / 2.0);
+            let epsg = utm_epsg(lon, lat);
+            (
+                Crs::parse(&format!("EPSG:{epsg}"), what)?,
+                format!(
+                    "the UTM zone of the stands' centre ({lon:.4}, {lat:.4}); name another with `--work-crs`"
+                ),
+            )
+        }
+        None => {
+            let proj = source
+                .to_proj4()
+                .map_err(|e| Error::Internal(format!("cannot write {name} as PROJ: {e}")))?;
+            let metric: Vec<&str> = proj
+                .split_whitespace()
+                .filter(|t| !t.starts_with("+units=") && !t.starts_with("+to_meter="))
+                .collect();
+            let metric = format!("{} +units=m", metric.join(" "));
+            let mut crs = Crs::parse(&metric, what)?;
+            crs.name = metric;
+            (crs, format!("{name} with metre units, the same projection"))
+        }
+    };
+    let target = crs.srs()?;
+    let transform = CoordTransform::new(&source, &target)
+        .map_err(|e| Error::Internal(format!("reprojection from {name}: {e}")))?;
+    let mut xs: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let mut ys: Vec<f64> = points.iter().map(|p| p.1).collect();
+    if !xs.is_empty() {
+        transform
+            .transform_coords(&mut xs, &mut ys, &mut [])
+            .map_err(|e| {
+                Error::input_with_hint(
+                    format!(
+                        "{what}: coordinates in {name} cannot be converted into {} ({e})",
+                        crs.name
+                    ),
+                    "check the coordinates and the CRS they are in (`--crs`)",
+                )
+            })?;
+    }
+    let note = format!(
+        "{what}: coordinates in {name} ({units_name}) converted into the work CRS {} ({reason}); outputs' x, y are in the work CRS, metres",
+        crs.name
+    );
+    Ok(Projected {
+        crs,
+        points: xs.into_iter().zip(ys).collect(),
+        note: Some(note),
+    })
 }
 
 pub(super) fn srs_name(srs: &SpatialRef) -> String {

@@ -316,3 +316,50 @@ pub fn read_vector(
         without_geometry,
     })
 }
+
+/// The polygon outlines of a GeoJSON or other vector file with a `patch_id` field (a plan
+/// folder's plan.geojson), by patch id, as WKT in `crs`. Point features (stands without an
+/// outline) are left out.
+pub fn outlines_wkt(path: &Path, crs: &Crs) -> Result<BTreeMap<String, String>> {
+    use gdal::vector::ToGdal;
+    let layer = read_vector(path, None, crs, None, "plan outlines", "--layer")?;
+    let mut out = BTreeMap::new();
+    for f in &layer.features {
+        if !matches!(
+            f.geometry,
+            geo::Geometry::Polygon(_) | geo::Geometry::MultiPolygon(_)
+        ) {
+            continue;
+        }
+        let Some(id) = f.fields.get("patch_id") else {
+            continue;
+        };
+        let wkt =
+            f.geometry.to_gdal().and_then(|g| g.wkt()).map_err(|e| {
+                Error::Internal(format!("outline of `{}` as WKT: {e}", id.as_text()))
+            })?;
+        out.insert(id.as_text(), wkt);
+    }
+    Ok(out)
+}
+
+/// A polygon outline written as WKT in the CRS `from` (a definition, as `--crs` takes it), as
+/// a multipolygon in `to`; the reason in words when it is not a polygon GDAL can read.
+pub fn outline_from_wkt(
+    wkt: &str,
+    from: &str,
+    to: &Crs,
+) -> std::result::Result<geo::MultiPolygon<f64>, String> {
+    let source = gdal::spatial_ref::SpatialRef::from_definition(&super::normalise_definition(from))
+        .map_err(|e| e.to_string())?;
+    let source = traditional(source);
+    let target = to.srs().map_err(|e| e.to_string())?;
+    let transform = CoordTransform::new(&source, &target).map_err(|e| e.to_string())?;
+    let mut g = gdal::vector::Geometry::from_wkt(wkt).map_err(|e| format!("not WKT ({e})"))?;
+    g.transform_inplace(&transform).map_err(|e| e.to_string())?;
+    match g.to_geo().map_err(|e| e.to_string())? {
+        geo::Geometry::Polygon(p) => Ok(geo::MultiPolygon(vec![p])),
+        geo::Geometry::MultiPolygon(m) => Ok(m),
+        _ => Err("not a polygon or multipolygon".into()),
+    }
+}

@@ -6,6 +6,7 @@
 //! Budgets and costs in catalogue currency; reductions in percent of R before treatment.
 
 pub mod analysis;
+pub mod follow_up;
 pub mod point;
 
 pub use analysis::{first_reaching, kneedle};
@@ -26,21 +27,65 @@ use crate::solve::problem::{Assignment, Limits, Status};
 pub enum Budgets {
     /// `--budgets`: these levels.
     Listed(Vec<f64>),
-    /// `--budget-range MIN:MAX:STEPS`, or (none given) 20 levels from 0 to the cost of treating
-    /// everything eligible.
+    /// `--budget-range MIN:MAX:STEPS`, or (none given) round levels from 0 to the cost of
+    /// treating everything eligible ([`round_levels`]).
     Range(Option<(f64, f64, usize)>),
 }
+
+/// Most levels of the default curve.
+pub const DEFAULT_LEVELS: usize = 20;
 
 impl Budgets {
     pub fn levels(&self, prepared: &Prepared) -> Vec<f64> {
         match self {
             Budgets::Listed(levels) => levels.clone(),
-            Budgets::Range(range) => {
-                let (min, max, steps) = range.unwrap_or((0.0, prepared.cost_of_everything(), 20));
-                budget_range(min, max, steps)
-            }
+            Budgets::Range(Some((min, max, steps))) => budget_range(*min, *max, *steps),
+            Budgets::Range(None) => round_levels(prepared.cost_of_everything(), DEFAULT_LEVELS),
         }
     }
+
+    /// [`Budgets::levels`] with `must` (the plan's own budget under `--plan`) always among them.
+    pub fn levels_with(&self, prepared: &Prepared, must: Option<f64>) -> Vec<f64> {
+        let mut levels = self.levels(prepared);
+        if let Some(b) = must.filter(|b| b.is_finite() && *b >= 0.0) {
+            levels.push(b);
+        }
+        levels.sort_by(f64::total_cmp);
+        levels.dedup();
+        levels
+    }
+}
+
+/// Round budget levels for a page a person reads: 0, s, 2s, ... up to the first multiple of
+/// `s` at or above `max`, where the step `s` is the smallest of 1, 2, 2.5 or 5 x 10^k that
+/// needs at most `most` levels (common practice for axis and table steps).
+pub fn round_levels(max: f64, most: usize) -> Vec<f64> {
+    if !(max.is_finite() && max > 0.0) {
+        return vec![0.0];
+    }
+    let most = most.max(2);
+    let step = round_step(max / (most - 1) as f64);
+    let n = (max / step - 1e-9).ceil().max(1.0) as usize;
+    (0..=n).map(|k| k as f64 * step).collect()
+}
+
+/// The smallest of 1, 2, 2.5 or 5 x 10^k that is at least `raw`.
+pub fn round_step(raw: f64) -> f64 {
+    let power = 10f64.powf(raw.log10().floor());
+    [1.0, 2.0, 2.5, 5.0, 10.0]
+        .iter()
+        .map(|m| m * power)
+        .find(|s| *s >= raw * (1.0 - 1e-12))
+        .unwrap_or(10.0 * power)
+}
+
+/// The plan of `--plan DIR`: its budget is a level of the curve, solved from the plan's own
+/// assignment, so the curve's point there is the plan's result (or better, if the plan stopped
+/// early and the curve's search went further).
+#[derive(Debug, Clone)]
+pub struct Anchor {
+    pub budget: f64,
+    pub assignment: Assignment,
 }
 
 /// A solved curve and what it says.
@@ -58,10 +103,13 @@ pub fn plan_curve(
     limits: Limits,
     depot: (f64, f64),
     jobs: usize,
+    anchor: Option<&Anchor>,
     printer: Printer,
 ) -> Result<Curve> {
     printer.progress(&format!("solving {} budget levels", budgets.len()));
-    let points = trace(prepared, budgets, crew_hours, limits, depot, jobs, printer)?;
+    let points = trace(
+        prepared, budgets, crew_hours, limits, depot, jobs, anchor, printer,
+    )?;
     let analysis = Analysis::new(&points, prepared.model.risk_before());
     Ok(Curve { points, analysis })
 }
@@ -121,6 +169,7 @@ pub fn trace(
     limits: Limits,
     depot: (f64, f64),
     jobs: usize,
+    anchor: Option<&Anchor>,
     printer: Printer,
 ) -> Result<Vec<Point>> {
     let mut budgets = budgets.to_vec();
@@ -135,6 +184,9 @@ pub fn trace(
     let bar = printer.bar("solving the budget curve", budgets.len() as u64, "budgets");
     let every: Vec<usize> = (0..budgets.len()).collect();
     let mut points = in_queue(&every, jobs, limits.deadline, |k, deadline| {
+        let start = anchor
+            .filter(|a| a.budget == budgets[k])
+            .map(|a| &a.assignment);
         let point = solve_point(
             prepared,
             budgets,
@@ -142,7 +194,7 @@ pub fn trace(
             crew_hours,
             Limits { deadline, ..limits },
             depot,
-            None,
+            start,
         );
         bar.inc(1);
         point
@@ -289,6 +341,7 @@ fn solve_point(
         n_treated: 0,
         stems_treated: 0.0,
         area_ha_treated: 0.0,
+        follow_up_cost: 0.0,
         greedy_risk_after,
         baselines: rules
             .iter()
@@ -317,6 +370,22 @@ fn fill_totals(prepared: &Prepared, point: &mut Point, crew_hours: Option<f64>) 
         .iter()
         .filter_map(|&i| prepared.patches.items[i].area_ha)
         .sum();
+    point.follow_up_cost = follow_up::follow_up_cost(prepared, &point.assignment);
+}
+
+impl Anchor {
+    /// The plan of a plan folder as an assignment of `prepared`'s patches: `planned` holds
+    /// (patch id, method id) per treated patch. None when a patch or method does not match
+    /// (the plan was made from other inputs); the curve is then solved without it.
+    pub fn from_plan(prepared: &Prepared, budget: f64, planned: &[(String, String)]) -> Option<Anchor> {
+        let mut assignment: Assignment = vec![None; prepared.patches.len()];
+        for (patch, method) in planned {
+            let i = prepared.patches.items.iter().position(|p| &p.label == patch)?;
+            let m = prepared.catalogue.find(method)?;
+            assignment[i] = Some(prepared.choices[i].iter().position(|c| c.method == m)?);
+        }
+        Some(Anchor { budget, assignment })
+    }
 }
 
 /// Risk after never rises with the budget: a point whose plan is worse than a smaller
@@ -360,6 +429,22 @@ mod tests {
         assert_eq!(parse_range("0:60000:20").unwrap(), (0.0, 60000.0, 20));
         assert!(parse_range("5:1:3").is_err());
         assert!(parse_range("0:10").is_err());
+    }
+
+    #[test]
+    fn round_levels_use_steps_of_one_two_two_and_a_half_or_five() {
+        // Steps 1, 2, 2.5, 5 x 10^k (common practice for round table and axis steps).
+        assert_eq!(round_step(0.9), 1.0);
+        assert_eq!(round_step(1800.0), 2000.0);
+        assert_eq!(round_step(2100.0), 2500.0);
+        assert_eq!(round_step(2600.0), 5000.0);
+        assert_eq!(round_step(6000.0), 10000.0);
+        let levels = round_levels(158_201.7, 20);
+        assert!(levels.len() <= 20, "{levels:?}");
+        assert_eq!(levels[0], 0.0);
+        assert_eq!(levels[1], 10_000.0);
+        assert_eq!(*levels.last().unwrap(), 160_000.0);
+        assert_eq!(round_levels(0.0, 20), vec![0.0]);
     }
 
     #[test]

@@ -18,6 +18,8 @@ pub struct Point {
     pub n_treated: usize,
     pub stems_treated: f64,
     pub area_ha_treated: f64,
+    /// The follow-up visits this plan commits to in the next seasons ([`super::follow_up`]).
+    pub follow_up_cost: f64,
     pub greedy_risk_after: f64,
     /// (baseline name, risk after) for biggest_first, nearest_first, corridor_first.
     pub baselines: Vec<(&'static str, f64)>,

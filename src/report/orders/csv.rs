@@ -58,7 +58,7 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
                 s.patch_id.clone(),
                 format!("{}/{}", s.part, s.parts),
                 s.method.clone(),
-                format!("{:.1}", s.stems),
+                format!("{:.0}", s.stems.round() + 0.0),
                 f2(s.work_hours),
                 f2(s.travel_hours),
                 f2(s.travel_km),

@@ -353,7 +353,7 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
             .entry(s.method.clone())
             .or_insert((s.method_id, ins));
         let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
-            ("permission", false) => format!("permission first: {}", p.contact),
+            ("permission", false) => format!("permission first: call {} before entry", p.contact),
             ("permission", true) => "permission first".to_string(),
             (a, false) => format!("{a}; {}", p.contact),
             (a, true) => a.to_string(),
