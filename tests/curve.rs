@@ -356,3 +356,112 @@ fn rows_header(path: &std::path::Path) -> String {
         .unwrap_or_default()
         .to_string()
 }
+
+/// Issue 22: on the justification chart the optimal line is drawn last (above the others) and
+/// no marker label's box crosses a curve or another marker's line. Label boxes are estimated at
+/// 0.62 em a character and 12 px high (the chart's own rule, common practice for text boxes
+/// without a font engine); segment/box intersection by the Liang-Barsky clip (Liang & Barsky
+/// 1984).
+#[test]
+fn optimal_line_on_top_and_labels_clear_of_every_line() {
+    let dir = tempfile::tempdir().unwrap();
+    inventory(dir.path(), 21, 14);
+    let o = run(
+        dir.path(),
+        &[
+            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "2500",
+            "--out", "p", "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(dir.path(), &["curve", "--plan", "p", "--out", "c", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let svg = std::fs::read_to_string(dir.path().join("c/curve.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let groups: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("g"))
+        .filter_map(|n| n.attribute("id"))
+        .filter(|id| n_is_curve(id))
+        .collect();
+    assert_eq!(groups.last(), Some(&"optimal"), "{groups:?}");
+    let f = |n: roxmltree::Node, a: &str| n.attribute(a).unwrap().parse::<f64>().unwrap();
+    let mut segments: Vec<((f64, f64), (f64, f64), Option<f64>)> = Vec::new();
+    for line in doc.descendants().filter(|n| n.has_tag_name("polyline")) {
+        let pts: Vec<(f64, f64)> = line
+            .attribute("points")
+            .unwrap()
+            .split_whitespace()
+            .map(|p| {
+                let (x, y) = p.split_once(',').unwrap();
+                (x.parse().unwrap(), y.parse().unwrap())
+            })
+            .collect();
+        for w in pts.windows(2) {
+            segments.push((w[0], w[1], None));
+        }
+    }
+    for m in doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("marker"))
+    {
+        let x = f(m, "x1");
+        segments.push(((x, f(m, "y1")), (x, f(m, "y2")), Some(x)));
+    }
+    let labels: Vec<roxmltree::Node> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("marker-label"))
+        .collect();
+    assert!(!labels.is_empty(), "the chart marks the knee and the plan");
+    for l in labels {
+        let (x, y) = (f(l, "x"), f(l, "y"));
+        let w = l.text().unwrap_or("").chars().count() as f64 * 0.62 * 12.0;
+        let (x0, x1) = if l.attribute("text-anchor") == Some("end") {
+            (x - w, x)
+        } else {
+            (x, x + w)
+        };
+        let (y0, y1) = (y - 12.0, y + 2.0);
+        for &(a, b, own) in &segments {
+            // A label's own marker line ends beside it, 4 px off; it does not cross the text.
+            if own.is_some_and(|mx| (mx - x).abs() <= 4.5) {
+                continue;
+            }
+            assert!(
+                !crosses(a, b, (x0, y0, x1, y1)),
+                "label {:?} at ({x0:.1}..{x1:.1}, {y0:.1}..{y1:.1}) crosses {a:?}-{b:?}",
+                l.text()
+            );
+        }
+    }
+}
+
+fn n_is_curve(id: &str) -> bool {
+    ["optimal", "greedy", "biggest_first", "nearest_first", "corridor_first"].contains(&id)
+}
+
+/// Whether segment a-b meets the box (x0, y0, x1, y1): Liang-Barsky clipping.
+fn crosses(a: (f64, f64), b: (f64, f64), r: (f64, f64, f64, f64)) -> bool {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let (mut t0, mut t1) = (0.0f64, 1.0f64);
+    for (p, q) in [
+        (-dx, a.0 - r.0),
+        (dx, r.2 - a.0),
+        (-dy, a.1 - r.1),
+        (dy, r.3 - a.1),
+    ] {
+        if p == 0.0 {
+            if q < 0.0 {
+                return false;
+            }
+        } else {
+            let t = q / p;
+            if p < 0.0 {
+                t0 = t0.max(t);
+            } else {
+                t1 = t1.min(t);
+            }
+        }
+    }
+    t0 <= t1
+}

@@ -305,10 +305,24 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     // the simulation; Spearman's rho recomputed by scipy.stats.spearmanr (the reference; scipy
     // from the registries, python3-scipy) from proxy.csv.
     let proxy = rows_of(&dir.path().join("a/proxy.csv"));
-    assert_eq!(proxy.len(), 5 + 12, "plan, greedy, density, biggest, corridor, 12 random");
+    assert_eq!(
+        proxy.len(),
+        5 + 12,
+        "plan, greedy, density, biggest, corridor, 6 random, 6 perturbed optima"
+    );
+    // plan_rank_pct: the share of the other plans that leave as much host occupied as the plan
+    // or more, recomputed from proxy.csv.
+    let plan_mean = proxy.iter().find(|r| r.get("plan") == "plan").unwrap().num("mean_occupied_host_pct");
+    let at_least = proxy
+        .iter()
+        .filter(|r| r.get("plan") != "plan" && r.num("mean_occupied_host_pct") >= plan_mean)
+        .count();
+    let rank = json["proxy_check"]["plan_rank_pct"].as_f64().expect("plan_rank_pct");
+    assert!((rank - 100.0 * at_least as f64 / 16.0).abs() < 1e-9, "{rank}");
+    assert_eq!(proxy.iter().filter(|r| r.get("plan").starts_with("perturbed_")).count(), 6);
     let check = &json["proxy_check"];
-    let rho = check["spearman_mean"].as_f64().expect("spearman_mean");
-    let ci = &check["spearman_mean_ci95"];
+    let rho = check["spearman"].as_f64().expect("spearman");
+    let ci = &check["ci95"];
     let (lo, hi) = (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap());
     assert!(-1.0 <= lo && lo <= hi && hi <= 1.0, "{ci}");
     assert!(text.contains(check["reading"].as_str().unwrap()), "{text}");

@@ -53,7 +53,9 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
     let schedule = orders::schedule(&folder, &options, &model)?;
 
     let outlines = orders::outlines(&plan_dir, &crs)?;
-    let ctx = report::orders::Orders::new(&folder, crs, schedule, options, &model, outlines);
+    let context = crate::field::context::context(&plan_dir, &crs);
+    let mut ctx = report::orders::Orders::new(&folder, crs, schedule, options, &model, outlines);
+    ctx.context = context;
     let summary = report::orders::write(&ctx, &staging, curve_svg.as_deref())?;
     staging.commit()?;
     let s = &ctx.schedule;

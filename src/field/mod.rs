@@ -2,6 +2,7 @@
 //! on the road network and the calendar.
 
 pub mod calendar;
+pub mod context;
 pub mod contract;
 pub mod network;
 pub mod orders;

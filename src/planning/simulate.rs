@@ -251,6 +251,55 @@ fn random_fixed_plan(problem: &Problem, seed: u64, k: u64) -> Option<Assignment>
     baselines::fill_in_order(problem, &order)
 }
 
+/// The `k`-th perturbed optimum of the proxy check: the plan with one to three of its
+/// (not required) treated patches dropped and the money refilled with other patches in a random
+/// order, each with its most effective choice while it fits.
+fn perturbed_plan(problem: &Problem, plan: &Assignment, seed: u64, k: u64) -> Option<Assignment> {
+    let mut g = simulate::stream(seed, u64::MAX - 10_000 - k, 0, 3);
+    let mut shuffle = |v: &mut Vec<usize>| {
+        for i in (1..v.len()).rev() {
+            let j = (g.unit() * (i + 1) as f64) as usize;
+            v.swap(i, j.min(i));
+        }
+    };
+    let mut treated: Vec<usize> = (0..plan.len())
+        .filter(|&i| plan[i].is_some() && !problem.required[i])
+        .collect();
+    if treated.is_empty() {
+        return None;
+    }
+    shuffle(&mut treated);
+    let drop = (1 + k as usize % 3).min(treated.len());
+    let dropped = &treated[..drop];
+    let mut a = plan.clone();
+    for &i in dropped {
+        a[i] = None;
+    }
+    let mut order: Vec<usize> = (0..a.len()).collect();
+    shuffle(&mut order);
+    let (mut spent, mut hours) = (problem.cost(&a), problem.hours(&a));
+    let tol = |limit: f64| 1e-9 * limit.abs().max(1.0);
+    for i in order {
+        if a[i].is_some() || problem.excluded[i] || dropped.contains(&i) {
+            continue;
+        }
+        let Some(o) = problem.most_effective(i) else {
+            continue;
+        };
+        let c = problem.choices[i][o];
+        let fits_money = spent + c.cost <= problem.budget + tol(problem.budget);
+        let fits_hours = problem
+            .crew_hours
+            .is_none_or(|h| hours + c.hours <= h + tol(h));
+        if fits_money && fits_hours {
+            a[i] = Some(o);
+            spent += c.cost;
+            hours += c.hours;
+        }
+    }
+    Some(a)
+}
+
 pub fn pct(v: f64) -> f64 {
     v * 100.0
 }
@@ -328,10 +377,16 @@ pub fn simulate_plan(
         .filter_map(|a| a.map(|a| Treatment::Fixed(problem.remaining(a))))
         .collect();
     treatments.push(Treatment::PerRun(&random));
-    let extra: Vec<Assignment> = (0..runs.proxy_plans as u64)
-        .filter_map(|k| random_fixed_plan(problem, seed, k))
+    // The proxy check's extra plans: half random feasible plans, half perturbed optima.
+    let n_perturbed = runs.proxy_plans / 2;
+    let n_random = runs.proxy_plans - n_perturbed;
+    let extra: Vec<(String, Assignment)> = (0..n_random as u64)
+        .filter_map(|k| random_fixed_plan(problem, seed, k).map(|a| (format!("random_{}", k + 1), a)))
+        .chain((0..n_perturbed as u64).filter_map(|k| {
+            perturbed_plan(problem, plan, seed, k).map(|a| (format!("perturbed_{}", k + 1), a))
+        }))
         .collect();
-    treatments.extend(extra.iter().map(|a| Treatment::Fixed(problem.remaining(a))));
+    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(problem.remaining(a))));
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),
@@ -433,9 +488,9 @@ pub fn simulate_plan(
             });
         }
     }
-    for (k, (a, t)) in extra.iter().zip(&extra_traces).enumerate() {
+    for ((name, a), t) in extra.iter().zip(&extra_traces) {
         proxy_plans.push(proxy::Scored {
-            plan: format!("random_{}", k + 1),
+            plan: name.clone(),
             risk_after: problem.risk(a),
             mean_occupied_host_pct: over_runs(t, &mean_of),
             final_occupied_host_pct: over_runs(t, &final_of),

@@ -105,7 +105,10 @@ pub fn label_width(text: &str) -> f64 {
 /// (text-anchor end) rather than starting there.
 fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) -> Vec<(f64, usize, bool)> {
     let mut order: Vec<usize> = (0..markers.len()).collect();
-    order.sort_by(|&a, &b| markers[a].x.total_cmp(&markers[b].x));
+    // Right to left: a label runs rightwards from its line, so it can only span the lines of
+    // markers to its right, which are placed first; it then takes a row above theirs, and no
+    // line ever has to rise through a label placed before it.
+    order.sort_by(|&a, &b| markers[b].x.total_cmp(&markers[a].x));
     let mut taken: Vec<Vec<(f64, f64)>> = Vec::new();
     let mut leaders: Vec<(f64, usize)> = Vec::new();
     let mut placed = vec![(0.0, 0, false); markers.len()];

@@ -16,7 +16,7 @@ pub struct Frame {
     scale: f64,
     pub width: f64,
     pub height: f64,
-    margin: f64,
+    pub margin: f64,
 }
 
 impl Frame {

@@ -14,11 +14,13 @@ use crate::input::treatments::MethodId;
 use crate::report::chart::escape;
 use crate::report::format::{money, thousands};
 
-use super::svg::{day_map, legend, overview_map};
+use super::explore::explorer;
+use super::svg::{context_legend, day_map, legend, overview_map};
 use super::{Orders, day_label};
 
 const CSS: &str = r#"
-@page { size: Letter; margin: 12mm; }
+@page { size: Letter; margin: 12mm 12mm 14mm 12mm;
+  @bottom-center { content: "page " counter(page) " of " counter(pages); font-size: 8pt; color: #333; } }
 * { box-sizing: border-box; }
 body { font-family: "DejaVu Sans", Arial, Helvetica, sans-serif; font-size: 10pt; color: #111; margin: 0; }
 .page { padding: 0; }
@@ -48,6 +50,9 @@ table.stops td.nw { white-space: nowrap; }
 .day .cautions { columns: 2; column-gap: 14px; font-size: 7.5pt; }
 .day h3 { margin: 5px 0 2px 0; }
 .day ul { margin: 2px 0; padding-left: 16px; }
+.details { border: 1px solid #999; padding: 3px 6px; margin: 3px 0; min-height: 1.4em; }
+#overview svg { touch-action: none; }
+@media print { .noprint { display: none !important; } }
 "#;
 
 fn status_line(summary: &Summary) -> String {
@@ -190,7 +195,9 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
         );
     }
     h.push_str(&overview_map(ctx));
+    h.push_str(&explorer(ctx));
     h.push_str(&legend(ctx));
+    h.push_str(&context_legend(ctx));
     let _ = write!(
         h,
         "<p class=\"small\">Map in {} (metres; north arrow shows grid north). Travel: {}. Depot {}.</p>",
@@ -202,7 +209,17 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
             format!("at {:.0}, {:.0}", s.depot.0, s.depot.1)
         }
     );
-    h.push_str("<p class=\"small\"><b>Before any herbicide work:</b> apply every product per its label; the label is the law. Read the cautions on the last page.</p></section>\n");
+    h.push_str("<p class=\"small\"><b>Before any herbicide work:</b> apply every product per its label; the label is the law. Read the cautions on page 2, the next page.</p></section>\n");
+
+    // Page 2: the cautions, right after the overview that points to them.
+    let _ = write!(
+        h,
+        "<section class=\"page\" id=\"cautions\"><h2>Cautions for every site</h2><div class=\"cautions\"><p>These orders say where treatment buys the most risk reduction and how long it should take. They are not a pesticide recommendation: apply any product per its label, and defer to local codes and licensed practice.</p>"
+    );
+    for c in cautions::ALL {
+        let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
+    }
+    h.push_str("<p>Felling: treated stems may be felled only 30 days or more after treatment (Penn State Extension; USDA Forest Service 2014). Follow-up: survivors and root suckers usually need treatment for two or three more seasons; the follow-up date on each order is the start of the method's window next season.</p></div></section>\n");
 
     // Page 2 (optional): the budget curve.
     if let Some(svg) = curve_svg {
@@ -243,18 +260,9 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     }
     h.push_str("</table></section>\n");
 
-    let _ = write!(
-        h,
-        "<section class=\"page\" id=\"cautions\"><h2>Cautions for every site</h2><div class=\"cautions\"><p>These orders say where treatment buys the most risk reduction and how long it should take. They are not a pesticide recommendation: apply any product per its label, and defer to local codes and licensed practice.</p>"
-    );
-    for c in cautions::ALL {
-        let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
-    }
-    h.push_str("<p>Felling: treated stems may be felled only 30 days or more after treatment (Penn State Extension; USDA Forest Service 2014). Follow-up: survivors and root suckers usually need treatment for two or three more seasons; the follow-up date on each order is the start of the method's window next season.</p></div></section>\n");
-
-    // One page per crew-day.
-    for d in &s.days {
-        day_page(ctx, d, &mut h);
+    // One page per crew-day, numbered as the overview map's labels name them (d1, d2, ...).
+    for (k, d) in s.days.iter().enumerate() {
+        day_page(ctx, d, k + 1, &mut h);
     }
     h.push_str("</body></html>\n");
     Ok(h)
@@ -283,11 +291,11 @@ fn site_rule_flags(p: &crate::field::contract::PlannedPatch) -> String {
     flags
 }
 
-fn day_page(ctx: &Orders, d: &CrewDay, h: &mut String) {
+fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
     let folder = ctx.folder;
     let _ = write!(
         h,
-        "<section class=\"page day\"><h2>{}</h2>",
+        "<section class=\"page day\" id=\"d{sheet}\"><h2>d{sheet}: {}</h2>",
         escape(&day_label(d))
     );
     let _ = write!(

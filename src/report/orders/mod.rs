@@ -10,8 +10,10 @@
 //! money through [`crate::report::format`].
 
 mod csv;
+mod explore;
 mod gpkg;
 mod html;
+mod labels;
 mod svg;
 
 use std::collections::HashMap;
@@ -21,6 +23,7 @@ use serde::Serialize;
 
 use crate::core::cautions;
 use crate::core::error::{Error, Result};
+use crate::field::context::Context;
 use crate::field::contract::{self, PlanFolder};
 use crate::field::orders::{CrewDay, Options, Schedule};
 use crate::field::travel::TravelModel;
@@ -119,6 +122,8 @@ pub struct Orders<'a> {
     pub options: Options,
     pub travel: &'a TravelModel,
     pub outlines: HashMap<String, Geometry<f64>>,
+    /// Parcels, water, sensitive sites and corridors the plan used, drawn under the overview.
+    pub context: Context,
     colours: HashMap<String, &'static str>,
 }
 
@@ -145,6 +150,7 @@ impl<'a> Orders<'a> {
             options,
             travel,
             outlines,
+            context: Context::default(),
             colours,
         }
     }
