@@ -134,7 +134,12 @@ fn check_orders(plan: &Path, ord: &Path, day_hours: f64, max_stops: usize, crews
         assert_eq!(seen, want, "parts of {}", p["patch_id"]);
         // Whole stems (issue 22: a crew counts stems; "6,581.4 stems" is not a count).
         for r in parts.iter() {
-            assert!(!r["stems"].contains('.'), "{}: stems {}", p["patch_id"], r["stems"]);
+            assert!(
+                !r["stems"].contains('.'),
+                "{}: stems {}",
+                p["patch_id"],
+                r["stems"]
+            );
         }
         assert!(!p["stems"].contains('.'), "plan.csv stems {}", p["stems"]);
         let stems: f64 = parts.iter().map(|r| num(r, "stems")).sum();
@@ -366,7 +371,46 @@ fn geopackage_reads_back_through_gdal() {
     assert_eq!(ds.driver().short_name(), "GPKG");
     let mut names: Vec<String> = ds.layers().map(|l| l.name()).collect();
     names.sort();
-    assert_eq!(names, ["patches", "routes", "stops"]);
+    assert_eq!(names, ["layer_styles", "patches", "routes", "stops"]);
+    // The styles table as a desktop GIS reads it, read by an outside reader (GDAL's Python
+    // bindings) and each SLD parsed by Python's XML parser: one default style per layer, an OGC
+    // SLD 1.1 document naming the layer (column layout: common practice, from memory).
+    let script = r#"
+import sys, xml.etree.ElementTree as ET
+from osgeo import ogr
+ds = ogr.Open(sys.argv[1])
+t = ds.GetLayerByName("layer_styles")
+for f in t:
+    sld = ET.fromstring(f.GetField("styleSLD").encode())
+    assert sld.tag == "{http://www.opengis.net/sld}StyledLayerDescriptor", sld.tag
+    assert sld.get("version") == "1.1.0"
+    name = sld.find("{http://www.opengis.net/sld}NamedLayer/{http://www.opengis.net/se}Name").text
+    assert name == f.GetField("f_table_name"), name
+    rules = sld.findall(".//{http://www.opengis.net/se}Rule")
+    print(f.GetField("f_table_name"), f.GetField("f_geometry_column"), f.GetField("useAsDefault"), len(rules))
+"#;
+    let py = if std::path::Path::new("/usr/bin/python3").exists() {
+        "/usr/bin/python3"
+    } else {
+        "python3"
+    };
+    let o = std::process::Command::new(py)
+        .args(["-c", script])
+        .arg(dir.path().join("ord/orders.gpkg"))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut styled: Vec<Vec<String>> = String::from_utf8_lossy(&o.stdout)
+        .lines()
+        .map(|l| l.split_whitespace().map(String::from).collect())
+        .collect();
+    styled.sort();
+    let layers: Vec<&str> = styled.iter().map(|r| r[0].as_str()).collect();
+    assert_eq!(layers, ["patches", "routes", "stops"], "{styled:?}");
+    for r in &styled {
+        assert_eq!((r[1].as_str(), r[2].as_str()), ("geom", "1"), "{r:?}");
+        assert!(r[3].parse::<usize>().unwrap() >= 1, "{r:?}");
+    }
     let plan_map = gdal::Dataset::open(dir.path().join("demo/plan.geojson")).unwrap();
     let n_patches = plan_map.layer(0).unwrap().feature_count();
     let count = |name: &str| ds.layer_by_name(name).unwrap().feature_count();

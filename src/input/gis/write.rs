@@ -80,6 +80,9 @@ pub enum GeometryKind {
     Point,
     LineString,
     MultiPolygon,
+    /// No geometry: an attribute table (e.g. a GeoPackage's `layer_styles`); the features'
+    /// geometries are ignored and its key column is `id`.
+    None,
 }
 
 impl GeometryKind {
@@ -89,6 +92,7 @@ impl GeometryKind {
             GeometryKind::Point => T::wkbPoint,
             GeometryKind::LineString => T::wkbLineString,
             GeometryKind::MultiPolygon => T::wkbMultiPolygon,
+            GeometryKind::None => T::wkbNone,
         }
     }
 }
@@ -111,10 +115,13 @@ pub fn write_layers(path: &Path, driver: &str, crs: &Crs, layers: Vec<LayerData>
         .create_vector_only(path)
         .map_err(|e| gdal_error("create", path, e))?;
     for layer in layers {
+        let table = layer.geometry == GeometryKind::None;
         let mut converted = Vec::with_capacity(layer.features.len());
         for (g, p) in layer.features {
             converted.push((
-                g.to_gdal()
+                (!table)
+                    .then(|| g.to_gdal())
+                    .transpose()
                     .map_err(|e| Error::Internal(format!("convert geometry to GDAL: {e}")))?,
                 p,
             ));
@@ -123,9 +130,9 @@ pub fn write_layers(path: &Path, driver: &str, crs: &Crs, layers: Vec<LayerData>
             &mut dataset,
             path,
             layer.name,
-            &srs,
+            (!table).then_some(&srs),
             layer.geometry.gdal(),
-            &[],
+            if table { &["FID=id"] } else { &[] },
             layer.fields,
             converted,
         )?;
@@ -154,11 +161,11 @@ fn write_layer(
         &mut dataset,
         path,
         layer_name,
-        srs,
+        Some(srs),
         gdal::vector::OGRwkbGeometryType::wkbUnknown,
         options,
         field_names,
-        features,
+        features.into_iter().map(|(g, p)| (Some(g), p)).collect(),
     )?;
     dataset
         .close()
@@ -170,16 +177,16 @@ fn add_layer(
     dataset: &mut gdal::Dataset,
     path: &Path,
     layer_name: &str,
-    srs: &SpatialRef,
+    srs: Option<&SpatialRef>,
     ty: gdal::vector::OGRwkbGeometryType::Type,
     options: &[&str],
     field_names: &[(&str, Property)],
-    features: Vec<(Geometry, Vec<Property>)>,
+    features: Vec<(Option<Geometry>, Vec<Property>)>,
 ) -> Result<()> {
     let layer = dataset
         .create_layer(gdal::vector::LayerOptions {
             name: layer_name,
-            srs: Some(srs),
+            srs,
             ty,
             options: Some(options),
         })
@@ -199,9 +206,11 @@ fn add_layer(
     for (geometry, properties) in features {
         let mut feature = gdal::vector::Feature::new(defn)
             .map_err(|e| Error::Internal(format!("feature: {e}")))?;
-        feature
-            .set_geometry(geometry)
-            .map_err(|e| Error::Internal(format!("feature geometry: {e}")))?;
+        if let Some(geometry) = geometry {
+            feature
+                .set_geometry(geometry)
+                .map_err(|e| Error::Internal(format!("feature geometry: {e}")))?;
+        }
         for (i, value) in properties.iter().enumerate() {
             let result = match value {
                 Property::Text(s) if s.is_empty() => Ok(()),

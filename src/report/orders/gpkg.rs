@@ -1,4 +1,5 @@
-//! orders.geojson (one layer, a `kind` per feature) and orders.gpkg (patches, stops, routes).
+//! orders.geojson (one layer, a `kind` per feature) and orders.gpkg (patches, stops, routes, and
+//! their styles in `layer_styles`).
 
 use std::collections::HashMap;
 
@@ -10,7 +11,7 @@ use crate::field::orders::CrewDay;
 use crate::input::gis::{self, GeometryKind, LayerData, Property};
 use crate::report::output::Staging;
 
-use super::{Orders, round2, route_line};
+use super::{Orders, round2, route_line, styles};
 
 pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
     let text = |s: &str| Property::Text(s.to_string());
@@ -202,6 +203,11 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
             ],
         ));
     }
+    let (style_fields, style_rows) = styles::table(styles::layer_styles(
+        ctx,
+        polygons,
+        &["untreated", "not eligible", "treat: not scheduled, no road"],
+    ));
     gis::write_layers(
         &staging.path("orders.gpkg"),
         "GPKG",
@@ -228,6 +234,16 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
                 geometry: GeometryKind::LineString,
                 fields: &route_fields,
                 features: routes,
+            },
+            // Every layer's style (OGC SLD), read by desktop GIS tools (see `styles`).
+            LayerData {
+                name: "layer_styles",
+                geometry: GeometryKind::None,
+                fields: &style_fields,
+                features: style_rows
+                    .into_iter()
+                    .map(|r| (Geometry::Point(Point::new(0.0, 0.0)), r))
+                    .collect(),
             },
         ],
     )

@@ -12,6 +12,7 @@
 mod csv;
 mod explore;
 mod gpkg;
+mod styles;
 mod html;
 mod labels;
 mod svg;
