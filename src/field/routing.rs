@@ -223,18 +223,24 @@ fn improve(m: &Matrix, cycle: &mut Vec<usize>) {
         let mut improved = false;
         // 2-opt: replace edges (a,b), (c,d) by (a,c), (b,d), reversing b..c.
         for i in 0..n - 1 {
+            // What reversing cycle[i + 1..=j] adds on an asymmetric matrix, kept as j grows
+            // (the same sum, in the same order, as `Matrix::reversal`), so a pass is O(n^2).
+            let mut reversal = m.reversal(&cycle[i + 1..=(i + 1).min(n - 1)]);
             for j in i + 2..n {
+                if !m.is_symmetric() {
+                    reversal += m.get(cycle[j], cycle[j - 1]) - m.get(cycle[j - 1], cycle[j]);
+                }
                 if i == 0 && j == n - 1 {
                     continue;
                 }
                 let (a, b) = (cycle[i], cycle[i + 1]);
                 let (c, d) = (cycle[j], cycle[(j + 1) % n]);
                 // On an asymmetric matrix the reversed stretch b..c is driven the other way.
-                let delta = m.get(a, c) + m.get(b, d) - m.get(a, b) - m.get(c, d)
-                    + m.reversal(&cycle[i + 1..=j]);
+                let delta = m.get(a, c) + m.get(b, d) - m.get(a, b) - m.get(c, d) + reversal;
                 if delta < -EPS {
                     cycle[i + 1..=j].reverse();
                     improved = true;
+                    reversal = m.reversal(&cycle[i + 1..=j]);
                 }
             }
         }

@@ -8,7 +8,9 @@ use std::cmp::Reverse;
 use std::collections::BinaryHeap;
 
 use crate::core::error::{Error, Result};
-use crate::field::network::types::{REVERSED, RoadNetwork, Snap, Travel, Unreachable};
+use std::collections::HashMap;
+
+use crate::field::network::types::{Leg, REVERSED, RoadNetwork, Snap, Travel, Unreachable};
 
 /// Where a snapped point joins the graph: (graph node, hours, metres) to leave by.
 fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
@@ -163,6 +165,36 @@ impl Search {
         }
     }
 
+    /// The arcs of the best path to `end` in order, and the source node it leaves from.
+    fn arcs_to(&self, network: &RoadNetwork, end: u32) -> (Vec<u32>, u32) {
+        let mut arcs = Vec::new();
+        let mut v = end;
+        while self.pred[v as usize] != u32::MAX {
+            let arc = self.pred[v as usize];
+            arcs.push(arc);
+            let c = network.chains[(network.arc_chain[arc as usize] & !REVERSED) as usize];
+            v = if network.arc_chain[arc as usize] & REVERSED != 0 {
+                c.t
+            } else {
+                c.s
+            };
+        }
+        arcs.reverse();
+        (arcs, v)
+    }
+
+    /// The kept drive to a point through its egress ends, if any.
+    fn leg(&self, network: &RoadNetwork, ends: &[(u32, f64, f64)]) -> Option<Leg> {
+        let (hours, _, end) = self.arrive(ends)?;
+        let (arcs, first) = self.arcs_to(network, end);
+        Some(Leg {
+            arcs,
+            first,
+            end,
+            hours,
+        })
+    }
+
     /// Best (hours, metres, end node) to reach a point through its egress ends.
     fn arrive(&self, ends: &[(u32, f64, f64)]) -> Option<(f64, f64, u32)> {
         let mut best: Option<(f64, f64, u32)> = None;
@@ -199,7 +231,8 @@ impl RoadNetwork {
         let exits: Vec<Vec<(u32, f64, f64)>> = snaps.iter().map(|s| egress(self, s)).collect();
         let targets: Vec<u32> = exits.iter().flatten().map(|e| e.0).collect();
         let threads = threads.clamp(1, n.max(1));
-        let rows: Vec<(usize, Vec<f64>, Vec<f64>)> = std::thread::scope(|scope| {
+        type Row = (usize, Vec<f64>, Vec<f64>, Vec<((usize, usize), Option<Leg>)>);
+        let rows: Vec<Row> = std::thread::scope(|scope| {
             let handles: Vec<_> = (0..threads)
                 .map(|t| {
                     let (snaps, exits, targets) = (&snaps, &exits, &targets);
@@ -208,6 +241,16 @@ impl RoadNetwork {
                         let mut out = Vec::new();
                         for i in (t..n).step_by(threads) {
                             search.run(self, &access(self, &snaps[i]), targets);
+                            // The drives from the depot to every point and from every point
+                            // to the depot, kept for the route lines.
+                            let mut legs = Vec::new();
+                            if i == 0 {
+                                for (j, ends) in exits.iter().enumerate().skip(1) {
+                                    legs.push(((0, j), search.leg(self, ends)));
+                                }
+                            } else {
+                                legs.push(((i, 0), search.leg(self, &exits[0])));
+                            }
                             let mut hours = vec![f64::INFINITY; n];
                             let mut km = vec![f64::INFINITY; n];
                             for j in 0..n {
@@ -228,7 +271,7 @@ impl RoadNetwork {
                                     km[j] = m / 1000.0;
                                 }
                             }
-                            out.push((i, hours, km));
+                            out.push((i, hours, km, legs));
                         }
                         out
                     })
@@ -241,9 +284,11 @@ impl RoadNetwork {
         });
         let mut hours = vec![0.0; n * n];
         let mut km = vec![0.0; n * n];
-        for (i, h, k) in rows {
+        let mut depot_legs = HashMap::new();
+        for (i, h, k, legs) in rows {
             hours[i * n..(i + 1) * n].copy_from_slice(&h);
             km[i * n..(i + 1) * n].copy_from_slice(&k);
+            depot_legs.extend(legs);
         }
         let far_from_road = snaps
             .iter()
@@ -279,6 +324,7 @@ impl RoadNetwork {
             snaps,
             far_from_road,
             unreachable,
+            depot_legs,
         })
     }
 
@@ -288,10 +334,27 @@ impl RoadNetwork {
     pub fn path(&self, from: &Snap, to: &Snap) -> Option<Vec<(f64, f64)>> {
         let ends = egress(self, to);
         let starts = access(self, from);
-        let mut search = Search::new(self.graph_vertex.len());
+        // One search's arrays per thread, reused from leg to leg (allocating and clearing them
+        // for every leg cost more than the search on a large network).
+        thread_local! {
+            static SEARCH: std::cell::RefCell<Option<Search>> = const { std::cell::RefCell::new(None) };
+        }
         let targets: Vec<u32> = ends.iter().map(|e| e.0).collect();
-        search.run(self, &starts, &targets);
-        let through = search.arrive(&ends);
+        SEARCH.with(|cell| {
+            let mut cached = cell.borrow_mut();
+            if cached.as_ref().is_none_or(|s| s.best.len() != self.graph_vertex.len()) {
+                *cached = Some(Search::new(self.graph_vertex.len()));
+            }
+            let search = cached.as_mut().expect("just made");
+            search.run(self, &starts, &targets);
+            self.path_along(search.leg(self, &ends), from, to)
+        })
+    }
+
+    /// The road geometry of a drive from `from` to `to` whose way through the graph is
+    /// `through` (`None`: no way through the graph; a drive along their shared chain may still
+    /// be shorter).
+    fn path_along(&self, through: Option<Leg>, from: &Snap, to: &Snap) -> Option<Vec<(f64, f64)>> {
         let direct = same_chain(self, from, to);
         let mut line = vec![from.on_road];
         // The vertices strictly between a snapped point and its chain's end (or start).
@@ -312,7 +375,7 @@ impl RoadNetwork {
         };
         match (through, direct) {
             (None, None) => return None,
-            (through, Some((d, _, aligned))) if through.is_none_or(|(h, _, _)| d <= h) => {
+            (through, Some((d, _, aligned))) if through.as_ref().is_none_or(|l| d <= l.hours) => {
                 let (pf, pt) = (self.position(from), self.position(to));
                 let chain = pf.chain;
                 let vertices = self.chain_vertices(&chain);
@@ -337,22 +400,7 @@ impl RoadNetwork {
                 }
                 line.extend(between);
             }
-            (Some((_, _, end)), _) => {
-                // Arcs back from the end node to a source.
-                let mut arcs = Vec::new();
-                let mut v = end;
-                while search.pred[v as usize] != u32::MAX {
-                    let arc = search.pred[v as usize];
-                    arcs.push(arc);
-                    let c = self.chains[(self.arc_chain[arc as usize] & !REVERSED) as usize];
-                    v = if self.arc_chain[arc as usize] & REVERSED != 0 {
-                        c.t
-                    } else {
-                        c.s
-                    };
-                }
-                arcs.reverse();
-                let first = v;
+            (Some(Leg { arcs, first, end, .. }), _) => {
                 // From the point to the first graph node.
                 if self.at_node(from).is_none() {
                     let c = self.position(from).chain;
@@ -385,12 +433,22 @@ impl RoadNetwork {
 
     /// The road geometry of each leg of a visit of `order` (indices into `travel`'s points),
     /// e.g. `[0, 3, 1, 0]` for depot → 3 → 1 → depot; an empty leg where there is no way.
+    /// Legs from or to the depot (point 0) follow the drives the matrix searches found; the
+    /// others are searched.
     pub fn route(&self, travel: &Travel, order: &[usize]) -> Vec<Vec<(f64, f64)>> {
         order
             .windows(2)
             .map(|w| {
-                self.path(&travel.snaps[w[0]], &travel.snaps[w[1]])
-                    .unwrap_or_default()
+                let (from, to) = (&travel.snaps[w[0]], &travel.snaps[w[1]]);
+                let line = if w[0] == 0 || w[1] == 0 {
+                    match travel.depot_legs.get(&(w[0], w[1])) {
+                        Some(leg) => self.path_along(leg.clone(), from, to),
+                        None => self.path(from, to),
+                    }
+                } else {
+                    self.path(from, to)
+                };
+                line.unwrap_or_default()
             })
             .collect()
     }

@@ -278,6 +278,20 @@ pub struct Travel {
     pub far_from_road: Vec<(usize, f64)>,
     /// Points the depot cannot reach or that cannot reach the depot, and why.
     pub unreachable: Vec<(usize, Unreachable)>,
+    /// The drives to and from the depot as the matrix searches found them, kept to draw the
+    /// routes without searching again: `(from, to)` with one end the depot, `None` where the
+    /// graph has no way (a drive along one chain may still exist).
+    pub(super) depot_legs: std::collections::HashMap<(usize, usize), Option<Leg>>,
+}
+
+/// A drive through the graph kept from a matrix search: the arcs in order, the graph node it
+/// leaves from and the one it ends at (`arrive`'s answer).
+#[derive(Debug, Clone)]
+pub(super) struct Leg {
+    pub(super) arcs: Vec<u32>,
+    pub(super) first: u32,
+    pub(super) end: u32,
+    pub(super) hours: f64,
 }
 
 impl Travel {
@@ -323,6 +337,17 @@ impl Travel {
                 .iter()
                 .filter_map(|&(p, u)| position(p).map(|q| (q, u)))
                 .collect(),
+            // Kept only while the depot stays the depot.
+            depot_legs: if keep.first() == Some(&0) {
+                self.depot_legs
+                    .iter()
+                    .filter_map(|(&(i, j), leg)| {
+                        Some(((position(i)?, position(j)?), leg.clone()))
+                    })
+                    .collect()
+            } else {
+                Default::default()
+            },
         }
     }
 }
