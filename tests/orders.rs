@@ -154,6 +154,49 @@ fn check_orders(plan: &Path, ord: &Path, day_hours: f64, max_stops: usize, crews
         for r in parts {
             assert_eq!(r["method"], p["method"]);
         }
+        // Issue 21: a split patch is worked part 1 first, then 2, ..., by one crew on its
+        // following days (these plans' windows leave room, so the calendar allows it) [D].
+        // Common practice for crews: finish a stand before moving on.
+        if n > 1 {
+            let mut by_part: Vec<&&Row> = parts.iter().collect();
+            by_part.sort_by_key(|r| r["part"].split('/').next().unwrap().parse::<usize>().unwrap());
+            for w in by_part.windows(2) {
+                let (a, b) = (w[0], w[1]);
+                // Undated parts (missing crew-days, the window closed) are numbered last.
+                if b["date"].is_empty() {
+                    continue;
+                }
+                assert!(
+                    a["date"] < b["date"],
+                    "{}: part {} on {}, part {} on {}",
+                    p["patch_id"],
+                    a["part"],
+                    a["date"],
+                    b["part"],
+                    b["date"]
+                );
+                assert_eq!(a["crew"], b["crew"], "{}: parts on two crews", p["patch_id"]);
+                // Following days, unless a part shares its day with another split patch's part
+                // (a crew can continue only one of them the next day).
+                let shared = |r: &Row| {
+                    orders.iter().any(|o| {
+                        o["crew"] == r["crew"]
+                            && o["day"] == r["day"]
+                            && o["patch_id"] != r["patch_id"]
+                            && !o["part"].ends_with("/1")
+                    })
+                };
+                assert!(
+                    num(a, "day") + 1.0 == num(b, "day") || shared(a) || shared(b),
+                    "{}: parts {} (day {}) and {} (day {}) not on the crew's following days",
+                    p["patch_id"],
+                    a["part"],
+                    a["day"],
+                    b["part"],
+                    b["day"]
+                );
+            }
+        }
     }
 
     // Days: within hours and the stop limit; travel as stated; dates on workdays in the window.

@@ -9,8 +9,10 @@
 //!    days that fit the working hours and the stop limit; each day is then ordered again (exactly
 //!    up to [`routing::EXACT_MAX`] stops).
 //! 3. Days go onto the calendar from the start date, `crews` per workday, earliest-closing window
-//!    first and, within a window, the days that buy the most risk reduction first. Days that do
-//!    not fit inside their window are kept, undated, and counted as missing crew-days.
+//!    first and, within a window, the days that buy the most risk reduction first. The days of a
+//!    split patch go to one crew on its following workdays where their window allows, and its
+//!    parts are numbered in the order they are worked. Days that do not fit inside their window
+//!    are kept, undated, and counted as missing crew-days.
 //!
 //! Travel comes from the [`TravelModel`]: shortest drives on a road network (`--roads`), or
 //! straight-line distance x detour factor / speed, an assumption the outputs state. A stand no
@@ -374,23 +376,129 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
             .then(db.value_pct().total_cmp(&da.value_pct()))
             .then(first_priority(da).cmp(&first_priority(db)))
     });
+    // The days holding parts of one split patch (and of split patches sharing a day with them)
+    // form a run, in the waiting order: a crew that starts a run is kept for its next day on
+    // its next workday, where the day's window allows it (else the day waits like any other).
+    let mut run_of: Vec<Option<usize>> = vec![None; days.len()];
+    let mut runs: Vec<Vec<usize>> = Vec::new();
+    for &k in &pending {
+        if run_of[k].is_some() {
+            continue;
+        }
+        let split = |d: &CrewDay| -> Vec<String> {
+            d.stops
+                .iter()
+                .filter(|s| s.parts > 1)
+                .map(|s| s.patch_id.clone())
+                .collect()
+        };
+        let mut patches: BTreeSet<String> = split(&days[k]).into_iter().collect();
+        if patches.is_empty() {
+            continue;
+        }
+        // Grow the run until no other waiting day shares one of its patches.
+        let mut members = vec![k];
+        run_of[k] = Some(runs.len());
+        loop {
+            let mut grew = false;
+            for &j in &pending {
+                if run_of[j].is_none() && split(&days[j]).iter().any(|p| patches.contains(p)) {
+                    run_of[j] = Some(runs.len());
+                    members.push(j);
+                    patches.extend(split(&days[j]));
+                    grew = true;
+                }
+            }
+            if !grew {
+                break;
+            }
+        }
+        let order: HashMap<usize, usize> =
+            pending.iter().enumerate().map(|(n, &d)| (d, n)).collect();
+        members.sort_by_key(|d| order[d]);
+        runs.push(members);
+    }
     let mut per_crew = vec![0usize; o.crews];
+    // The run day each crew keeps for its next workday.
+    let mut kept: Vec<Option<usize>> = vec![None; o.crews];
     let mut date = o.start;
     while !pending.is_empty() && date.year == o.start.year {
         if o.workdays.works(date) {
-            let mut crew = 0;
-            pending.retain(|&k| {
-                if crew < o.crews && days[k].months.contains(&date.month) {
+            let mut busy = vec![false; o.crews];
+            let mut taken: Vec<usize> = Vec::new();
+            macro_rules! assign {
+                ($k:expr, $crew:expr) => {{
+                    let (k, crew) = ($k, $crew);
                     per_crew[crew] += 1;
                     days[k].crew = Some(crew + 1);
                     days[k].day = per_crew[crew];
                     days[k].date = Some(date);
-                    crew += 1;
-                    false
-                } else {
-                    true
+                    busy[crew] = true;
+                    taken.push(k);
+                }};
+            }
+            for crew in 0..o.crews {
+                if let Some(k) = kept[crew].take()
+                    && days[k].months.contains(&date.month)
+                {
+                    assign!(k, crew);
                 }
-            });
+            }
+            let mut crew = 0;
+            for &k in &pending {
+                while crew < o.crews && busy[crew] {
+                    crew += 1;
+                }
+                if crew == o.crews {
+                    break;
+                }
+                // One day of a run a date: a run is worked day after day, not side by side.
+                let run_today =
+                    run_of[k].is_some_and(|r| taken.iter().any(|&t| run_of[t] == Some(r)));
+                if taken.contains(&k)
+                    || kept.contains(&Some(k))
+                    || run_today
+                    || !days[k].months.contains(&date.month)
+                {
+                    continue;
+                }
+                assign!(k, crew);
+            }
+            pending.retain(|k| !taken.contains(k));
+            // Each crew that worked a run day keeps the run's next waiting day.
+            for &k in &taken {
+                let (Some(run), Some(crew)) = (run_of[k], days[k].crew) else {
+                    continue;
+                };
+                // Rather a day of the same patches only (the next whole part), then one that
+                // shares a patch (a last part beside others), then any: each patch's days in a row.
+                let split = |d: usize| -> BTreeSet<&str> {
+                    days[d]
+                        .stops
+                        .iter()
+                        .filter(|s| s.parts > 1)
+                        .map(|s| s.patch_id.as_str())
+                        .collect()
+                };
+                let here = split(k);
+                let next = runs[run]
+                    .iter()
+                    .copied()
+                    .filter(|d| pending.contains(d) && !kept.contains(&Some(*d)))
+                    .min_by_key(|&d| {
+                        let there = split(d);
+                        if there.is_subset(&here) {
+                            0
+                        } else if !there.is_disjoint(&here) {
+                            1
+                        } else {
+                            2
+                        }
+                    });
+                if kept[crew - 1].is_none() {
+                    kept[crew - 1] = next;
+                }
+            }
         }
         date = date.plus_days(1);
     }
@@ -423,6 +531,16 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         .collect();
     // Dated days by date and crew; then the unscheduled ones in the order they were waiting.
     days.sort_by_key(|d| (d.date.is_none(), d.date, d.crew, d.day));
+    // A split patch's parts are numbered in the order they are worked (part 1 first), each
+    // keeping its own stems and hours.
+    let mut worked: HashMap<String, usize> = HashMap::new();
+    for d in &mut days {
+        for s in d.stops.iter_mut().filter(|s| s.parts > 1) {
+            let n = worked.entry(s.patch_id.clone()).or_default();
+            *n += 1;
+            s.part = *n;
+        }
+    }
     Ok(Schedule {
         depot,
         depot_is_default,
