@@ -134,7 +134,12 @@ fn check_orders(plan: &Path, ord: &Path, day_hours: f64, max_stops: usize, crews
         assert_eq!(seen, want, "parts of {}", p["patch_id"]);
         // Whole stems (issue 22: a crew counts stems; "6,581.4 stems" is not a count).
         for r in parts.iter() {
-            assert!(!r["stems"].contains('.'), "{}: stems {}", p["patch_id"], r["stems"]);
+            assert!(
+                !r["stems"].contains('.'),
+                "{}: stems {}",
+                p["patch_id"],
+                r["stems"]
+            );
         }
         assert!(!p["stems"].contains('.'), "plan.csv stems {}", p["stems"]);
         let stems: f64 = parts.iter().map(|r| num(r, "stems")).sum();
