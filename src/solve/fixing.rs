@@ -1,0 +1,217 @@
+//! Variable fixing from bounds (issue 23): an option of a patch (leave it, or one of its
+//! choices) whose proven bound, over every plan that gives the patch that option, lies above
+//! the incumbent's risk cannot be in any plan better than the incumbent and is removed
+//! ([`fix`]); a patch left with one option is fixed. What is left is a smaller problem, the
+//! [`Core`]: its patches are the free ones, the fixed ones folded into an anchor patch that
+//! carries their constant risk and, by one link to each free patch, the linear part of their
+//! links. R of a core plan equals R of its expansion, so the core's optimum and bound are the
+//! whole problem's over the plans the fixing kept. (Reduced-cost fixing, common practice in
+//! integer programming; here with message passing's separable dual as the bound.)
+//!
+//! # Units
+//! Costs in catalogue currency, hours in crew hours, R in share-squared units.
+
+use crate::model::risk::{Link, RiskModel};
+use crate::solve::problem::{Assignment, Problem};
+
+/// Relative margin above the incumbent an option's forced bound must clear before the option
+/// is removed (rounding in the bound's sums never removes a tie).
+const MARGIN: f64 = 1e-9;
+
+/// The options kept per patch, and the least forced bound among those removed (infinity when
+/// none was): every plan using a removed option has R at least that.
+#[derive(Debug, Clone)]
+pub struct Fixed {
+    /// Per patch: the options still allowed (None = leave, Some(o) = choice o).
+    pub allowed: Vec<Vec<Option<usize>>>,
+    pub removed_bound: f64,
+    /// Options removed.
+    pub removed: usize,
+}
+
+/// Remove every option whose forced bound exceeds `incumbent` (the risk of `plan`, a
+/// feasible plan); the plan's own options are always kept.
+pub fn fix(
+    problem: &Problem,
+    forced: &[Vec<(Option<usize>, f64)>],
+    plan: &Assignment,
+    incumbent: f64,
+) -> Fixed {
+    let n = problem.len();
+    let limit = incumbent * (1.0 + MARGIN) + 1e-300;
+    let mut allowed = Vec::with_capacity(n);
+    let (mut removed_bound, mut removed) = (f64::INFINITY, 0);
+    for i in 0..n {
+        let mut keep = Vec::new();
+        for &(option, bound) in &forced[i] {
+            if option == plan[i] || bound.is_nan() || bound <= limit {
+                keep.push(option);
+            } else {
+                removed += 1;
+                removed_bound = removed_bound.min(bound);
+            }
+        }
+        allowed.push(keep);
+    }
+    Fixed {
+        allowed,
+        removed_bound,
+        removed,
+    }
+}
+
+/// A smaller problem over the patches the fixing left free.
+pub struct Core {
+    pub model: RiskModel,
+    /// The free patches (core index -> patch), the anchor last (not in this list).
+    pub free: Vec<usize>,
+    /// Core choice index -> the patch's choice index, per free patch.
+    pub choice_of: Vec<Vec<usize>>,
+    /// The whole plan with the fixed patches set (the free ones untreated).
+    pub base: Assignment,
+    pub budget: f64,
+    pub crew_hours: Option<f64>,
+    pub required: Vec<bool>,
+    pub excluded: Vec<bool>,
+    pub choices: Vec<Vec<crate::input::treatments::Choice>>,
+}
+
+impl Core {
+    /// Build the core of `problem` under `fixed`: None when no patch is fixed and no option
+    /// removed (nothing to gain).
+    pub fn build(problem: &Problem, fixed: &Fixed) -> Option<Core> {
+        if fixed.removed == 0 {
+            return None;
+        }
+        let n = problem.len();
+        let model = problem.model;
+        let mut base: Assignment = vec![None; n];
+        let mut index = vec![usize::MAX; n];
+        let mut free = Vec::new();
+        for i in 0..n {
+            match fixed.allowed[i].as_slice() {
+                [only] => base[i] = *only,
+                _ => {
+                    index[i] = free.len();
+                    free.push(i);
+                }
+            }
+        }
+        let r = problem.remaining(&base);
+        let m = free.len();
+        // The anchor (index m) is never treated: r = 1.
+        let mut own: Vec<f64> = free.iter().map(|&i| model.own[i]).collect();
+        let mut constant = 0.0;
+        let mut linear = vec![0.0; m];
+        let mut links: Vec<Link> = Vec::new();
+        for i in 0..n {
+            if index[i] == usize::MAX {
+                constant += model.own[i] * r[i] * r[i];
+            }
+        }
+        for l in &model.links {
+            match (index[l.a] != usize::MAX, index[l.b] != usize::MAX) {
+                (true, true) => links.push(Link {
+                    a: index[l.a],
+                    b: index[l.b],
+                    ..*l
+                }),
+                (true, false) => linear[index[l.a]] += l.weight * r[l.b],
+                (false, true) => linear[index[l.b]] += l.weight * r[l.a],
+                (false, false) => constant += l.weight * r[l.a] * r[l.b],
+            }
+        }
+        for (k, &w) in linear.iter().enumerate() {
+            if w > 0.0 {
+                links.push(Link {
+                    a: k,
+                    b: m,
+                    kernel: 0.0,
+                    weight: w,
+                });
+            }
+        }
+        own.push(constant);
+        let mut adjacency = vec![Vec::new(); m + 1];
+        for (k, l) in links.iter().enumerate() {
+            adjacency[l.a].push((l.b, k));
+            adjacency[l.b].push((l.a, k));
+        }
+        let mut share: Vec<f64> = free.iter().map(|&i| model.share[i]).collect();
+        share.push(0.0);
+        let mut pressure: Vec<f64> = free.iter().map(|&i| model.pressure[i]).collect();
+        pressure.push(0.0);
+        let mut choice_of = Vec::with_capacity(m);
+        let mut choices = Vec::with_capacity(m + 1);
+        let mut required = Vec::with_capacity(m + 1);
+        let mut excluded = Vec::with_capacity(m + 1);
+        for &i in &free {
+            let kept: Vec<usize> = fixed.allowed[i].iter().filter_map(|o| *o).collect();
+            choices.push(kept.iter().map(|&o| problem.choices[i][o]).collect());
+            required.push(!fixed.allowed[i].contains(&None));
+            excluded.push(kept.is_empty());
+            choice_of.push(kept);
+        }
+        choices.push(Vec::new());
+        required.push(false);
+        excluded.push(true);
+        let budget = problem.budget - problem.cost(&base);
+        let crew_hours = problem.crew_hours.map(|h| h - problem.hours(&base));
+        Some(Core {
+            model: RiskModel {
+                share,
+                pressure,
+                own,
+                links,
+                adjacency,
+            },
+            free,
+            choice_of,
+            base,
+            budget,
+            crew_hours,
+            required,
+            excluded,
+            choices,
+        })
+    }
+
+    pub fn problem(&self) -> Problem<'_> {
+        Problem {
+            model: &self.model,
+            choices: self.choices.clone(),
+            budget: self.budget,
+            crew_hours: self.crew_hours,
+            required: self.required.clone(),
+            excluded: self.excluded.clone(),
+        }
+    }
+
+    /// The core's view of a whole plan (None when the plan uses a removed option).
+    pub fn restrict(&self, plan: &Assignment) -> Option<Assignment> {
+        let mut is_free = vec![false; self.base.len()];
+        let mut out: Assignment = Vec::with_capacity(self.free.len() + 1);
+        for (k, &i) in self.free.iter().enumerate() {
+            is_free[i] = true;
+            out.push(match plan[i] {
+                None if self.required[k] => return None,
+                None => None,
+                Some(o) => Some(self.choice_of[k].iter().position(|&c| c == o)?),
+            });
+        }
+        if (0..self.base.len()).any(|i| !is_free[i] && plan[i] != self.base[i]) {
+            return None;
+        }
+        out.push(None);
+        Some(out)
+    }
+
+    /// The whole plan of a core plan.
+    pub fn expand(&self, core_plan: &Assignment) -> Assignment {
+        let mut plan = self.base.clone();
+        for (k, &i) in self.free.iter().enumerate() {
+            plan[i] = core_plan[k].map(|o| self.choice_of[k][o]);
+        }
+        plan
+    }
+}
