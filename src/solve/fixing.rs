@@ -2,9 +2,10 @@
 //! choices) whose proven bound, over every plan that gives the patch that option, lies above
 //! the incumbent's risk cannot be in any plan better than the incumbent and is removed
 //! ([`fix`]); a patch left with one option is fixed. What is left is a smaller problem, the
-//! [`Core`]: its patches are the free ones, the fixed ones folded into an anchor patch that
-//! carries their constant risk and, by one link to each free patch, the linear part of their
-//! links. R of a core plan equals R of its expansion, so the core's optimum and bound are the
+//! [`Core`]: its patches are the free ones, the fixed ones folded into never-treated anchor
+//! patches: one carrying their constant risk, and one per free patch beside them carrying, by
+//! its one link, the linear part of their links (one anchor per patch, not one for all, so the
+//! core's components stay those of the free patches and the relaxation's shifts stay local). R of a core plan equals R of its expansion, so the core's optimum and bound are the
 //! whole problem's over the plans the fixing kept. (Reduced-cost fixing, common practice in
 //! integer programming; here with message passing's separable dual as the bound.)
 //!
@@ -63,8 +64,10 @@ pub fn fix(
 /// A smaller problem over the patches the fixing left free.
 pub struct Core {
     pub model: RiskModel,
-    /// The free patches (core index -> patch), the anchor last (not in this list).
+    /// The free patches (core index -> patch); the anchors follow them (not in this list).
     pub free: Vec<usize>,
+    /// Anchor patches after the free ones.
+    pub anchors: usize,
     /// Core choice index -> the patch's choice index, per free patch.
     pub choice_of: Vec<Vec<usize>>,
     /// The whole plan with the fixed patches set (the free ones untreated).
@@ -121,26 +124,31 @@ impl Core {
                 (false, false) => constant += l.weight * r[l.a] * r[l.b],
             }
         }
+        // Anchor m holds the constant; anchors m + 1.. one linear term each.
+        let mut anchors = 1;
         for (k, &w) in linear.iter().enumerate() {
             if w > 0.0 {
                 links.push(Link {
                     a: k,
-                    b: m,
+                    b: m + anchors,
                     kernel: 0.0,
                     weight: w,
                 });
+                anchors += 1;
             }
         }
         own.push(constant);
-        let mut adjacency = vec![Vec::new(); m + 1];
+        own.extend(std::iter::repeat_n(0.0, anchors - 1));
+        let total = m + anchors;
+        let mut adjacency = vec![Vec::new(); total];
         for (k, l) in links.iter().enumerate() {
             adjacency[l.a].push((l.b, k));
             adjacency[l.b].push((l.a, k));
         }
         let mut share: Vec<f64> = free.iter().map(|&i| model.share[i]).collect();
-        share.push(0.0);
+        share.resize(total, 0.0);
         let mut pressure: Vec<f64> = free.iter().map(|&i| model.pressure[i]).collect();
-        pressure.push(0.0);
+        pressure.resize(total, 0.0);
         let mut choice_of = Vec::with_capacity(m);
         let mut choices = Vec::with_capacity(m + 1);
         let mut required = Vec::with_capacity(m + 1);
@@ -152,9 +160,9 @@ impl Core {
             excluded.push(kept.is_empty());
             choice_of.push(kept);
         }
-        choices.push(Vec::new());
-        required.push(false);
-        excluded.push(true);
+        choices.resize(total, Vec::new());
+        required.resize(total, false);
+        excluded.resize(total, true);
         let budget = problem.budget - problem.cost(&base);
         let crew_hours = problem.crew_hours.map(|h| h - problem.hours(&base));
         Some(Core {
@@ -166,6 +174,7 @@ impl Core {
                 adjacency,
             },
             free,
+            anchors,
             choice_of,
             base,
             budget,
@@ -202,7 +211,7 @@ impl Core {
         if (0..self.base.len()).any(|i| !is_free[i] && plan[i] != self.base[i]) {
             return None;
         }
-        out.push(None);
+        out.resize(self.free.len() + self.anchors, None);
         Some(out)
     }
 
@@ -214,4 +223,49 @@ impl Core {
         }
         plan
     }
+}
+
+/// Probing (issue 23): for each patch in `patches` (the ones that carry most of the risk,
+/// first), and each of its options other than the plan's, bound R over the plans that give
+/// the patch that option — the problem restricted to it as a [`Core`], bounded by `bound_of`
+/// (a proven lower bound on a problem, or None when it has no feasible plan) — and remove the
+/// option when the bound lies above `incumbent`. Options removed earlier stay removed for the
+/// later probes (each restriction is of the plans still allowed). Stops when `done` says.
+pub fn probe(
+    problem: &Problem,
+    mut fixed: Fixed,
+    plan: &Assignment,
+    incumbent: f64,
+    patches: &[usize],
+    bound_of: &dyn Fn(&Problem) -> Option<f64>,
+    done: &dyn Fn() -> bool,
+) -> Fixed {
+    let limit = incumbent * (1.0 + MARGIN) + 1e-300;
+    for &i in patches {
+        if done() {
+            break;
+        }
+        let options = fixed.allowed[i].clone();
+        if options.len() < 2 {
+            continue;
+        }
+        for option in options {
+            if option == plan[i] || done() {
+                continue;
+            }
+            let mut only = fixed.clone();
+            only.allowed[i] = vec![option];
+            only.removed = only.removed.max(1);
+            let Some(core) = Core::build(problem, &only) else {
+                continue;
+            };
+            let bound = bound_of(&core.problem()).unwrap_or(f64::INFINITY);
+            if bound > limit {
+                fixed.allowed[i].retain(|o| *o != option);
+                fixed.removed += 1;
+                fixed.removed_bound = fixed.removed_bound.min(bound);
+            }
+        }
+    }
+    fixed
 }

@@ -12,7 +12,7 @@ use std::time::Instant;
 
 use crate::core::error::{Error, Result};
 use crate::core::scenario::Formulation;
-use crate::solve::fixing::{Core, fix};
+use crate::solve::fixing::{Core, Fixed, fix, probe};
 use crate::solve::heuristics::{greedy, prune_worthless, round, search};
 use crate::solve::mip::compact::build_compact;
 use crate::solve::mip::direct::build_direct;
@@ -306,7 +306,13 @@ fn large_search(
     {
         let fixed = fix(problem, forced, &plan, risk);
         let options: usize = forced.iter().map(|f| f.len()).sum();
-        if (fixed.removed as f64) >= CORE_MIN_REMOVED * options as f64
+        let by_reduced_cost = fixed.removed;
+        // Probing the patches that carry most of the risk, with the convex reformulation's
+        // bound on each restriction (exact in the probed patch's own term, where the
+        // relaxation of a dominant patch is loosest).
+        let fixed = probe_dominant(problem, fixed, &plan, risk, limits);
+        let probed = fixed.removed - by_reduced_cost;
+        if ((fixed.removed as f64) >= CORE_MIN_REMOVED * options as f64 || probed > 0)
             && let Some(core) = Core::build(problem, &fixed)
         {
             let core_problem = core.problem();
@@ -358,6 +364,35 @@ fn large_search(
         greedy,
         path,
         bound_from,
+    })
+}
+
+/// Patches probed at most, by their share of the risk before treatment.
+const PROBE_PATCHES: usize = 32;
+
+/// Frank–Wolfe iterations per probe.
+const PROBE_ITERATIONS: usize = 64;
+
+/// [`probe`] on the [`PROBE_PATCHES`] patches with the largest risk shares that still have a
+/// choice, within a quarter of the time left.
+fn probe_dominant(
+    problem: &Problem,
+    fixed: Fixed,
+    plan: &Assignment,
+    risk: f64,
+    limits: Limits,
+) -> Fixed {
+    let shares = problem.model.risk_shares();
+    let mut order: Vec<usize> = (0..problem.len())
+        .filter(|&i| fixed.allowed[i].len() > 1)
+        .collect();
+    order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]).then(a.cmp(&b)));
+    order.truncate(PROBE_PATCHES);
+    let until = limits.deadline.fraction(0.25);
+    let bound_of =
+        |p: &Problem| relax::convex_bound(p, risk, PROBE_ITERATIONS, until.remaining_s());
+    probe(problem, fixed, plan, risk, &order, &bound_of, &|| {
+        until.passed()
     })
 }
 

@@ -50,6 +50,31 @@ pub fn local_polytope_bound(problem: &Problem, incumbent: f64, stop: Stop) -> Op
     message_passing(&relaxed, incumbent, stop, &clock).map(|m| m.value)
 }
 
+/// The convex reformulation's bound alone by at most `iterations` Frank–Wolfe steps or
+/// `seconds`, stopping early once it exceeds `cutoff` (for probing: `solve::fixing::probe`).
+/// Not capped: it may lie above `cutoff`, which then bounds nothing better than it. None when
+/// the problem has no feasible plan in its relaxation.
+pub fn convex_bound(
+    problem: &Problem,
+    cutoff: f64,
+    iterations: usize,
+    seconds: f64,
+) -> Option<f64> {
+    let clock = Instant::now();
+    let relaxed = Relaxed::new(problem);
+    let start: Assignment = vec![None; problem.len()];
+    let mut fw = FrankWolfe::new(&relaxed, &start);
+    let stop = Stop {
+        gap: -1e-8,
+        max_iterations: iterations,
+        time_limit_s: seconds,
+    };
+    if !fw.run(iterations, seconds, &clock, cutoff, stop) {
+        return None;
+    }
+    Some(fw.best.max(0.0))
+}
+
 /// The relaxation bound, starting Frank–Wolfe from `start` (a feasible plan, e.g. greedy's)
 /// and stopping when the bound is within `stop.gap` of `incumbent`, after `stop.max_iterations`
 /// or at `stop.time_limit_s`. None when no plan is feasible (the required patches overrun the
