@@ -12,7 +12,7 @@ use hostcut::solve::fixing::{Core, fix, probe};
 use hostcut::solve::heuristics::{brute_force, greedy};
 use hostcut::solve::instance::{InstanceSpec, Shape};
 use hostcut::solve::optimise::solve;
-use hostcut::solve::problem::{Limits, Problem, Status};
+use hostcut::solve::problem::{Assignment, Limits, Problem, Status};
 use hostcut::solve::relax::{self, Stop};
 
 /// The shape's instance at `patches` patches, its budget from the seed (2-60 %).
@@ -81,7 +81,8 @@ fn fixing_and_probing_keep_an_optimal_plan_against_brute_force() {
             });
             let fixed = fix(&problem, &forced, &plan, risk);
             let everyone: Vec<usize> = (0..problem.len()).collect();
-            let bound_of = |p: &Problem| relax::convex_bound(p, risk, 200, 5.0);
+            let bound_of =
+                |p: &Problem, start: &Assignment| relax::convex_bound(p, start, risk, 200, 5.0);
             let fixed = probe(&problem, fixed, &plan, risk, &everyone, &bound_of, &|| {
                 false
             });
@@ -107,6 +108,11 @@ fn fixing_and_probing_keep_an_optimal_plan_against_brute_force() {
             let back = core.restrict(&whole).expect("an expanded plan restricts");
             assert_eq!(back, core_plan);
             assert!(fixed.removed_bound > optimum * (1.0 - 1e-9) || fixed.removed == 0);
+            assert!(
+                fixed.branch_bound <= optimum * (1.0 + 1e-9),
+                "{shape:?} seed {seed}: branching bound {} above brute force {optimum}",
+                fixed.branch_bound
+            );
         }
     }
     assert!(checked >= 40, "only {checked} instances checked");

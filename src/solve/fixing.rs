@@ -28,6 +28,10 @@ pub struct Fixed {
     pub removed_bound: f64,
     /// Options removed.
     pub removed: usize,
+    /// A proven bound on R over the plans still allowed, from branching on one probed patch:
+    /// the least of its options' bounds, the largest such over the patches probed in full
+    /// (NEG_INFINITY when none was).
+    pub branch_bound: f64,
 }
 
 /// Remove every option whose forced bound exceeds `incumbent` (the risk of `plan`, a
@@ -58,6 +62,7 @@ pub fn fix(
         allowed,
         removed_bound,
         removed,
+        branch_bound: f64::NEG_INFINITY,
     }
 }
 
@@ -228,7 +233,8 @@ impl Core {
 /// Probing (issue 23): for each patch in `patches` (the ones that carry most of the risk,
 /// first), and each of its options other than the plan's, bound R over the plans that give
 /// the patch that option — the problem restricted to it as a [`Core`], bounded by `bound_of`
-/// (a proven lower bound on a problem, or None when it has no feasible plan) — and remove the
+/// (a proven lower bound on a problem, given a start: the plan with the patch's option
+/// changed; or None when it has no feasible plan) — and remove the
 /// option when the bound lies above `incumbent`. Options removed earlier stay removed for the
 /// later probes (each restriction is of the plans still allowed). Stops when `done` says.
 pub fn probe(
@@ -237,7 +243,7 @@ pub fn probe(
     plan: &Assignment,
     incumbent: f64,
     patches: &[usize],
-    bound_of: &dyn Fn(&Problem) -> Option<f64>,
+    bound_of: &dyn Fn(&Problem, &Assignment) -> Option<f64>,
     done: &dyn Fn() -> bool,
 ) -> Fixed {
     let limit = incumbent * (1.0 + MARGIN) + 1e-300;
@@ -249,9 +255,15 @@ pub fn probe(
         if options.len() < 2 {
             continue;
         }
-        for option in options {
-            if option == plan[i] || done() {
-                continue;
+        // The plan's own option last: it is never removed, but its bound completes the branch.
+        let mut order: Vec<Option<usize>> =
+            options.iter().copied().filter(|o| *o != plan[i]).collect();
+        order.push(plan[i]);
+        let (mut least, mut complete) = (f64::INFINITY, true);
+        for option in order {
+            if done() {
+                complete = false;
+                break;
             }
             let mut only = fixed.clone();
             only.allowed[i] = vec![option];
@@ -259,12 +271,21 @@ pub fn probe(
             let Some(core) = Core::build(problem, &only) else {
                 continue;
             };
-            let bound = bound_of(&core.problem()).unwrap_or(f64::INFINITY);
-            if bound > limit {
+            let mut start = plan.clone();
+            start[i] = option;
+            let start = core
+                .restrict(&start)
+                .unwrap_or_else(|| vec![None; core.free.len() + core.anchors]);
+            let bound = bound_of(&core.problem(), &start).unwrap_or(f64::INFINITY);
+            least = least.min(bound);
+            if option != plan[i] && bound > limit {
                 fixed.allowed[i].retain(|o| *o != option);
                 fixed.removed += 1;
                 fixed.removed_bound = fixed.removed_bound.min(bound);
             }
+        }
+        if complete {
+            fixed.branch_bound = fixed.branch_bound.max(least);
         }
     }
     fixed

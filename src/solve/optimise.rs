@@ -312,6 +312,13 @@ fn large_search(
         // relaxation of a dominant patch is loosest).
         let fixed = probe_dominant(problem, fixed, &plan, risk, limits);
         let probed = fixed.removed - by_reduced_cost;
+        // Branching on one probed patch bounds every plan the fixing kept; the removed ones
+        // are bounded by their own forced bounds.
+        let branched = fixed.branch_bound.min(fixed.removed_bound);
+        if branched.is_finite() && branched > bound {
+            bound = branched.min(risk);
+            bound_from = BoundSource::FixedCore;
+        }
         if ((fixed.removed as f64) >= CORE_MIN_REMOVED * options as f64 || probed > 0)
             && let Some(core) = Core::build(problem, &fixed)
         {
@@ -389,8 +396,9 @@ fn probe_dominant(
     order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]).then(a.cmp(&b)));
     order.truncate(PROBE_PATCHES);
     let until = limits.deadline.fraction(0.25);
-    let bound_of =
-        |p: &Problem| relax::convex_bound(p, risk, PROBE_ITERATIONS, until.remaining_s());
+    let bound_of = |p: &Problem, start: &Assignment| {
+        relax::convex_bound(p, start, risk, PROBE_ITERATIONS, until.remaining_s())
+    };
     probe(problem, fixed, plan, risk, &order, &bound_of, &|| {
         until.passed()
     })

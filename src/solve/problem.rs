@@ -144,8 +144,9 @@ pub enum BoundSource {
     Relaxation,
     /// HiGHS's dual bound on the MIP.
     HighsDual,
-    /// The bound on the core left by variable fixing (its own relaxation or HiGHS's dual),
-    /// with the fixing's bound on the plans it removed.
+    /// Variable fixing and probing: the bound on the core left by the fixing (its own
+    /// relaxation or HiGHS's dual) or from branching on a probed patch, with the fixing's
+    /// bound on the plans it removed.
     FixedCore,
     /// An ensemble's min-max plan bounded by the scenarios' own proven bounds.
     ScenarioBounds,
@@ -160,7 +161,7 @@ impl BoundSource {
             BoundSource::Floor => "floor",
             BoundSource::Relaxation => "relaxation",
             BoundSource::HighsDual => "HiGHS dual bound",
-            BoundSource::FixedCore => "the core's bound after variable fixing",
+            BoundSource::FixedCore => "variable fixing and probing",
             BoundSource::ScenarioBounds => "the scenarios' own bounds",
             BoundSource::None => "none",
         }

@@ -50,20 +50,21 @@ pub fn local_polytope_bound(problem: &Problem, incumbent: f64, stop: Stop) -> Op
     message_passing(&relaxed, incumbent, stop, &clock).map(|m| m.value)
 }
 
-/// The convex reformulation's bound alone by at most `iterations` Frank–Wolfe steps or
+/// The convex reformulation's bound alone, from `start` (any plan; the bound does not need it
+/// feasible), by at most `iterations` Frank–Wolfe steps or
 /// `seconds`, stopping early once it exceeds `cutoff` (for probing: `solve::fixing::probe`).
 /// Not capped: it may lie above `cutoff`, which then bounds nothing better than it. None when
 /// the problem has no feasible plan in its relaxation.
 pub fn convex_bound(
     problem: &Problem,
+    start: &Assignment,
     cutoff: f64,
     iterations: usize,
     seconds: f64,
 ) -> Option<f64> {
     let clock = Instant::now();
     let relaxed = Relaxed::new(problem);
-    let start: Assignment = vec![None; problem.len()];
-    let mut fw = FrankWolfe::new(&relaxed, &start);
+    let mut fw = FrankWolfe::new(&relaxed, start);
     let stop = Stop {
         gap: -1e-8,
         max_iterations: iterations,
