@@ -349,7 +349,11 @@ fn geographic_and_missing_crs_are_refused() {
     );
     // A lon/lat inventory is now projected into its UTM zone (tests/inputs.rs); UTM metres
     // labelled EPSG:4326 are not longitudes and latitudes and are refused, naming the row.
-    refused(dir.path(), &o, &["row 1", "longitude", "EPSG:4326", "projected CRS"]);
+    refused(
+        dir.path(),
+        &o,
+        &["row 1", "longitude", "EPSG:4326", "projected CRS"],
+    );
     let o = plan(
         dir.path(),
         &["--inventory", "stands.csv", "--budget", "100"],

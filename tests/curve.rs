@@ -190,15 +190,23 @@ fn default_range_runs_to_the_cost_of_everything_and_the_chart_holds_every_curve(
         .iter()
         .map(|r| r[column(&p, "budget")].parse().unwrap())
         .collect();
-    assert!(budgets.contains(&1500.0), "the plan's budget is a level: {budgets:?}");
+    assert!(
+        budgets.contains(&1500.0),
+        "the plan's budget is a level: {budgets:?}"
+    );
     let step = budgets[1];
     let mantissa = step / 10f64.powf(step.log10().floor());
     assert!(
-        [1.0, 2.0, 2.5, 5.0].iter().any(|m| (m - mantissa).abs() < 1e-9),
+        [1.0, 2.0, 2.5, 5.0]
+            .iter()
+            .any(|m| (m - mantissa).abs() < 1e-9),
         "round step {step}"
     );
     for b in budgets.iter().filter(|b| **b != 1500.0) {
-        assert!((b / step - (b / step).round()).abs() < 1e-9, "{b} is not a multiple of {step}");
+        assert!(
+            (b / step - (b / step).round()).abs() < 1e-9,
+            "{b} is not a multiple of {step}"
+        );
     }
     let last = rows.last().unwrap();
     assert_eq!(&last[column(&p, "status")], "optimal");
@@ -369,12 +377,23 @@ fn optimal_line_on_top_and_labels_clear_of_every_line() {
     let o = run(
         dir.path(),
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "2500",
-            "--out", "p", "--quiet",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "2500",
+            "--out",
+            "p",
+            "--quiet",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let o = run(dir.path(), &["curve", "--plan", "p", "--out", "c", "--quiet"]);
+    let o = run(
+        dir.path(),
+        &["curve", "--plan", "p", "--out", "c", "--quiet"],
+    );
     assert!(o.status.success(), "{}", stderr(&o));
     let svg = std::fs::read_to_string(dir.path().join("c/curve.svg")).unwrap();
     let doc = roxmltree::Document::parse(&svg).unwrap();
@@ -437,7 +456,14 @@ fn optimal_line_on_top_and_labels_clear_of_every_line() {
 }
 
 fn n_is_curve(id: &str) -> bool {
-    ["optimal", "greedy", "biggest_first", "nearest_first", "corridor_first"].contains(&id)
+    [
+        "optimal",
+        "greedy",
+        "biggest_first",
+        "nearest_first",
+        "corridor_first",
+    ]
+    .contains(&id)
 }
 
 /// Whether segment a-b meets the box (x0, y0, x1, y1): Liang-Barsky clipping.

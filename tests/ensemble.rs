@@ -279,8 +279,13 @@ fn robust_plans_from_the_command_line() {
             .filter(|r| r.get("plan") == written)
             .map(|r| r.num("risk_after"))
             .fold(0.0, f64::max);
-        let reported = s["ensemble"]["written_plan"]["worst_risk"].as_f64().unwrap();
-        assert!((worst - reported).abs() <= 1e-8 * reported, "{worst} vs {reported}");
+        let reported = s["ensemble"]["written_plan"]["worst_risk"]
+            .as_f64()
+            .unwrap();
+        assert!(
+            (worst - reported).abs() <= 1e-8 * reported,
+            "{worst} vs {reported}"
+        );
         if robust == "regret" {
             // The least-regret plan has the smallest worst regret of all candidates.
             let max_regret = |plan: &str| {

@@ -175,7 +175,7 @@ fn a_search_that_runs_out_of_moves_says_so_not_time_limit() {
     // and local search (the path large landscapes take; the memory budget now refuses the
     // `--max-memory-gb` below 0.15 GB this test once used to force it); with `--gap 0` nothing
     // but the deadline or the end of the moves can stop the local search, and it runs out of
-    // moves within a second of the relaxation's half of the time. Common practice for the stand
+    // moves (restarts included) before the deadline. Common practice for the stand
     // layout; the kernel and limits are the tool's own.
     let dir = tempfile::tempdir().unwrap();
     let mut inventory = String::from("id,x,y,stems\n");
@@ -213,7 +213,15 @@ fn a_search_that_runs_out_of_moves_says_so_not_time_limit() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let s = summary(&dir.path().join("line"));
-    assert_eq!(s["solver_path"], "relaxation and local search");
+    // Since issue 23 the large-model path goes on, after the local search, to variable fixing
+    // and the core that is left (which uses the time the restarts and the core's own search
+    // need, not a fixed share); either way the search ends on its own and says so.
+    let path = s["solver_path"].as_str().unwrap();
+    assert!(
+        path == "relaxation and local search"
+            || path == "local search, variable fixing and the core searched",
+        "{path}"
+    );
     assert_eq!(s["status"], "no_improving_move", "{}", stderr(&o));
     assert!(s["gap"].as_f64().unwrap() > 0.0);
     let err = stderr(&o);
@@ -221,8 +229,6 @@ fn a_search_that_runs_out_of_moves_says_so_not_time_limit() {
     assert!(!err.contains("stopped at the time limit"), "{err}");
     let out = stdout(&o);
     assert!(out.contains("status no_improving_move"), "{out}");
-    // The search ended on its own, well before the deadline (the relaxation bound takes at most
-    // half of it).
     let solve = s["solve_seconds"].as_f64().unwrap();
-    assert!(solve < 0.9 * limit, "solve took {solve} s");
+    assert!(solve < limit, "solve took {solve} s");
 }

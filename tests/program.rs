@@ -340,7 +340,8 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
         &["--seasons", "1", "--budgets", "2500", "--out", "prog"],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    let said = String::from_utf8_lossy(&o.stdout).contains("the programme is the season-by-season plan");
+    let said =
+        String::from_utf8_lossy(&o.stdout).contains("the programme is the season-by-season plan");
     let o = go(dir.path(), "plan", &["--budget", "2500", "--out", "plan"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let set = |path: &str| {
@@ -362,9 +363,14 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
     assert!((a - b).abs() <= 1e-12 * a.max(1e-300), "{a} vs {b}");
     // Issue 22: a programme equal to the season-by-season plan says so (one season: both
     // are the plan, so they agree whenever the optimum is unique, as here).
-    let same = g["same_as_season_by_season"].as_bool().expect("same_as_season_by_season");
+    let same = g["same_as_season_by_season"]
+        .as_bool()
+        .expect("same_as_season_by_season");
     assert_eq!(same, said);
-    assert!(same, "one season: the programme is the season-by-season plan");
+    assert!(
+        same,
+        "one season: the programme is the season-by-season plan"
+    );
 }
 
 #[test]

@@ -165,7 +165,13 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     };
     let text = go("a", "1");
     go("b", "3");
-    for f in ["sim.csv", "patch_occupancy.csv", "sim.svg", "sim.json", "proxy.csv"] {
+    for f in [
+        "sim.csv",
+        "patch_occupancy.csv",
+        "sim.svg",
+        "sim.json",
+        "proxy.csv",
+    ] {
         assert_eq!(
             std::fs::read(dir.path().join("a").join(f)).unwrap(),
             std::fs::read(dir.path().join("b").join(f)).unwrap(),
@@ -226,8 +232,14 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
             .unwrap()
     };
     let versus = json["versus_plan"].as_array().expect("versus_plan");
-    let names: Vec<&str> = versus.iter().map(|v| v["strategy"].as_str().unwrap()).collect();
-    assert_eq!(names, ["greedy", "density", "biggest", "corridor", "random"]);
+    let names: Vec<&str> = versus
+        .iter()
+        .map(|v| v["strategy"].as_str().unwrap())
+        .collect();
+    assert_eq!(
+        names,
+        ["greedy", "density", "biggest", "corridor", "random"]
+    );
     for v in versus {
         let name = v["strategy"].as_str().unwrap();
         let per_year = v["per_year"].as_array().unwrap();
@@ -297,7 +309,10 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
                 .any(|y| y["ci95"][1].as_f64().unwrap() < 0.0);
             let label = labels.iter().find(|l| l.0 == v["strategy"]).unwrap().1;
             if beats {
-                assert!(verdict.contains(label) && verdict.contains("Why:"), "{verdict}");
+                assert!(
+                    verdict.contains(label) && verdict.contains("Why:"),
+                    "{verdict}"
+                );
             }
         }
     }
@@ -312,14 +327,29 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     );
     // plan_rank_pct: the share of the other plans that leave as much host occupied as the plan
     // or more, recomputed from proxy.csv.
-    let plan_mean = proxy.iter().find(|r| r.get("plan") == "plan").unwrap().num("mean_occupied_host_pct");
+    let plan_mean = proxy
+        .iter()
+        .find(|r| r.get("plan") == "plan")
+        .unwrap()
+        .num("mean_occupied_host_pct");
     let at_least = proxy
         .iter()
         .filter(|r| r.get("plan") != "plan" && r.num("mean_occupied_host_pct") >= plan_mean)
         .count();
-    let rank = json["proxy_check"]["plan_rank_pct"].as_f64().expect("plan_rank_pct");
-    assert!((rank - 100.0 * at_least as f64 / 16.0).abs() < 1e-9, "{rank}");
-    assert_eq!(proxy.iter().filter(|r| r.get("plan").starts_with("perturbed_")).count(), 6);
+    let rank = json["proxy_check"]["plan_rank_pct"]
+        .as_f64()
+        .expect("plan_rank_pct");
+    assert!(
+        (rank - 100.0 * at_least as f64 / 16.0).abs() < 1e-9,
+        "{rank}"
+    );
+    assert_eq!(
+        proxy
+            .iter()
+            .filter(|r| r.get("plan").starts_with("perturbed_"))
+            .count(),
+        6
+    );
     let check = &json["proxy_check"];
     let rho = check["spearman"].as_f64().expect("spearman");
     let ci = &check["ci95"];
@@ -360,7 +390,11 @@ fn demo_simulation_is_reproducible_and_reports_the_plan_advantage() {
     let beats = versus
         .iter()
         .filter(|v| {
-            v["per_year"].as_array().unwrap().iter().any(|y| y["ci95"][1].as_f64().unwrap() < 0.0)
+            v["per_year"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|y| y["ci95"][1].as_f64().unwrap() < 0.0)
         })
         .count();
     let markers = doc
@@ -466,7 +500,10 @@ fn simulate_takes_the_plan_inputs_directly() {
         .iter()
         .map(|s| s["name"].as_str().unwrap())
         .collect();
-    assert_eq!(names, ["none", "plan", "greedy", "density", "biggest", "random"]);
+    assert_eq!(
+        names,
+        ["none", "plan", "greedy", "density", "biggest", "random"]
+    );
     let o = run(
         dir.path(),
         &[

@@ -485,6 +485,23 @@ pub struct BenchArgs {
     /// Keep the synthetic raster here (reused if it exists) [default: a temporary file]
     #[arg(long, value_name = "FILE", requires = "raster_side")]
     pub raster_file: Option<PathBuf>,
+    /// Landscape shapes to run instead of one landscape (issue 23): tight, overlap, scatter,
+    /// cauchy, crew, spikes; each row runs hostcut, plain HiGHS on the direct formulation
+    /// (same time) and greedy, printed as one markdown table, worst gap first
+    #[arg(long, value_delimiter = ',', value_name = "SHAPE")]
+    pub shape: Vec<String>,
+    /// Every shape (unless `--shape` names some) at budgets of 2, 10, 30 and 60 % (unless
+    /// `--budget-shares` gives others)
+    #[arg(long)]
+    pub suite: bool,
+    /// Budgets of the shape rows, as shares of treating everything [default: `--budget-share`,
+    /// or 0.02,0.1,0.3,0.6 with `--suite`]
+    #[arg(long, value_delimiter = ',', value_name = "SHARE")]
+    pub budget_shares: Vec<f64>,
+    /// Memory the plain-HiGHS baseline's model may take in a shape row, GB (larger models are
+    /// reported as refused rather than run)
+    #[arg(long, default_value_t = 8.0)]
+    pub baseline_max_gb: f64,
 }
 
 /// Flags of `hostcut orders`.

@@ -5,8 +5,8 @@ use super::plan::RunReport;
 use crate::app::resolve::curve::CurveSettings;
 use crate::core::cautions;
 use crate::core::error::{Error, Result};
-use crate::field::plan_folder::PlanFolder;
 use crate::core::printer::Printer;
+use crate::field::plan_folder::PlanFolder;
 use crate::planning::baselines;
 use crate::planning::curve;
 use crate::report::curve::{self as curve_report, Context, Money};
@@ -19,10 +19,7 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
     let (staging, prepared) = super::stage_and_prepare(settings, "curve", printer)?;
     let money = money_of(resolved, &prepared.catalogue.currency)?;
     // Under `--plan DIR` the plan's own budget is a level, solved from the plan itself.
-    let plan_budget = resolved
-        .plan_dir
-        .as_ref()
-        .and_then(|_| s.plan.budget);
+    let plan_budget = resolved.plan_dir.as_ref().and_then(|_| s.plan.budget);
     let anchor = match (&resolved.plan_dir, plan_budget) {
         (Some(dir), Some(budget)) => {
             let folder = PlanFolder::read(dir)?;
@@ -127,7 +124,11 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
 /// without a rate is refused: relabelling prices as another currency would misstate them.
 fn money_of(resolved: &CurveSettings, catalogue: &str) -> Result<Money> {
     let catalogue = catalogue.trim().to_ascii_uppercase();
-    let Some(code) = resolved.currency.as_deref().map(|c| c.trim().to_ascii_uppercase()) else {
+    let Some(code) = resolved
+        .currency
+        .as_deref()
+        .map(|c| c.trim().to_ascii_uppercase())
+    else {
         return Ok(Money::new(&catalogue));
     };
     match resolved.exchange_rate {

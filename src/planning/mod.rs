@@ -7,6 +7,6 @@ pub mod curve;
 pub mod ensemble;
 pub mod plan;
 pub mod prepare;
-pub mod proxy;
 pub mod program;
+pub mod proxy;
 pub mod simulate;

@@ -161,13 +161,21 @@ fn reading(n: usize, rho: Option<f64>, ci: Option<[f64; 2]>) -> String {
             "R and the simulation cannot be compared on these {n} plans (too few plans, or every plan scores the same)."
         );
     };
-    let stats = format!("Spearman's rho {rho:.2}, 95% bootstrap interval {lo:.2} to {hi:.2}, over {n} plans at this budget");
+    let stats = format!(
+        "Spearman's rho {rho:.2}, 95% bootstrap interval {lo:.2} to {hi:.2}, over {n} plans at this budget"
+    );
     if lo > 0.5 {
-        format!("Plans with a lower R also leave less host occupied in the simulation ({stats}): R is a fair guide on this landscape.")
+        format!(
+            "Plans with a lower R also leave less host occupied in the simulation ({stats}): R is a fair guide on this landscape."
+        )
     } else if lo > 0.0 {
-        format!("Plans with a lower R tend to leave less host occupied in the simulation, but weakly ({stats}): read the plan together with the simulation.")
+        format!(
+            "Plans with a lower R tend to leave less host occupied in the simulation, but weakly ({stats}): read the plan together with the simulation."
+        )
     } else {
-        format!("R does not rank plans the way the simulation does on this landscape ({stats}): judge plans by the simulation too, and consider a multi-season programme (`hostcut program`).")
+        format!(
+            "R does not rank plans the way the simulation does on this landscape ({stats}): judge plans by the simulation too, and consider a multi-season programme (`hostcut program`)."
+        )
     }
 }
 
@@ -186,8 +194,12 @@ mod tests {
         // x = 1..5, y = 2,1,4,3,5: d = -1,1,-1,1,0, rho = 1 - 6*4/(5*24) = 0.8.
         let r = spearman(&[1.0, 2.0, 3.0, 4.0, 5.0], &[2.0, 1.0, 4.0, 3.0, 5.0]).unwrap();
         assert!((r - 0.8).abs() < 1e-12);
-        let ci = bootstrap_ci(&[1.0, 2.0, 3.0, 4.0, 5.0, 6.0], &[1.0, 3.0, 2.0, 4.0, 6.0, 5.0], 7)
-            .unwrap();
+        let ci = bootstrap_ci(
+            &[1.0, 2.0, 3.0, 4.0, 5.0, 6.0],
+            &[1.0, 3.0, 2.0, 4.0, 6.0, 5.0],
+            7,
+        )
+        .unwrap();
         assert!(ci[0] <= ci[1] && ci[0] >= -1.0 && ci[1] <= 1.0);
     }
 }

@@ -144,8 +144,12 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
     let mut reasons = Vec::new();
     for v in versus {
         let label = label(v.strategy);
-        let better: Vec<usize> =
-            v.per_year.iter().filter(|y| y.ci95[1] < 0.0).map(|y| y.year).collect();
+        let better: Vec<usize> = v
+            .per_year
+            .iter()
+            .filter(|y| y.ci95[1] < 0.0)
+            .map(|y| y.year)
+            .collect();
         let tied: Vec<usize> = v
             .per_year
             .iter()
@@ -316,11 +320,17 @@ pub fn simulate_plan(
     let budget = problem.budget;
     let greedy = crate::solve::heuristics::greedy(problem).map(|g| g.0);
     let density = baselines::fill_in_order(problem, &density_order(prepared));
-    let biggest = baselines::fill_in_order(problem, &baselines::biggest_first_order(&prepared.patches));
+    let biggest =
+        baselines::fill_in_order(problem, &baselines::biggest_first_order(&prepared.patches));
     let corridors = &prepared.pressure.corridors;
     let with_corridors = corridors.iter().any(|c| !c.is_empty());
     let corridor = with_corridors
-        .then(|| baselines::fill_in_order(problem, &baselines::corridor_first_order(&prepared.patches, corridors)))
+        .then(|| {
+            baselines::fill_in_order(
+                problem,
+                &baselines::corridor_first_order(&prepared.patches, corridors),
+            )
+        })
         .flatten();
     let none: Assignment = vec![None; problem.len()];
 
@@ -381,12 +391,18 @@ pub fn simulate_plan(
     let n_perturbed = runs.proxy_plans / 2;
     let n_random = runs.proxy_plans - n_perturbed;
     let extra: Vec<(String, Assignment)> = (0..n_random as u64)
-        .filter_map(|k| random_fixed_plan(problem, seed, k).map(|a| (format!("random_{}", k + 1), a)))
+        .filter_map(|k| {
+            random_fixed_plan(problem, seed, k).map(|a| (format!("random_{}", k + 1), a))
+        })
         .chain((0..n_perturbed as u64).filter_map(|k| {
             perturbed_plan(problem, plan, seed, k).map(|a| (format!("perturbed_{}", k + 1), a))
         }))
         .collect();
-    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(problem.remaining(a))));
+    treatments.extend(
+        extra
+            .iter()
+            .map(|(_, a)| Treatment::Fixed(problem.remaining(a))),
+    );
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),

@@ -103,7 +103,11 @@ pub fn label_width(text: &str) -> f64 {
 
 /// For each marker: the label's x, its row above the plot, and whether it ends at x
 /// (text-anchor end) rather than starting there.
-fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) -> Vec<(f64, usize, bool)> {
+fn place_labels(
+    markers: &[Marker],
+    sx: &dyn Fn(f64) -> f64,
+    right_edge: f64,
+) -> Vec<(f64, usize, bool)> {
     let mut order: Vec<usize> = (0..markers.len()).collect();
     // Right to left: a label runs rightwards from its line, so it can only span the lines of
     // markers to its right, which are placed first; it then takes a row above theirs, and no
@@ -126,7 +130,9 @@ fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) ->
         // past its row.
         let free = |r: usize| {
             taken.get(r).is_none_or(|boxes: &Vec<(f64, f64)>| {
-                boxes.iter().all(|&(a, b)| end + 6.0 <= a || start >= b + 6.0)
+                boxes
+                    .iter()
+                    .all(|&(a, b)| end + 6.0 <= a || start >= b + 6.0)
             }) && taken
                 .iter()
                 .take(r)
@@ -138,13 +144,19 @@ fn place_labels(markers: &[Marker], sx: &dyn Fn(f64) -> f64, right_edge: f64) ->
         };
         // Bounded: a label whose line is spanned in every row gets a new top row (no endless
         // search when the rows below are blocked).
-        let row = (0..=markers.len()).find(|&r| free(r)).unwrap_or(taken.len());
+        let row = (0..=markers.len())
+            .find(|&r| free(r))
+            .unwrap_or(taken.len());
         leaders.push((px, row));
         if taken.len() <= row {
             taken.resize(row + 1, Vec::new());
         }
         taken[row].push((start, end));
-        placed[k] = (if anchor_end { px - 4.0 } else { px + 4.0 }, row, anchor_end);
+        placed[k] = (
+            if anchor_end { px - 4.0 } else { px + 4.0 },
+            row,
+            anchor_end,
+        );
     }
     placed
 }
@@ -238,7 +250,11 @@ pub fn fan_chart(
     // Marker labels sit in rows above the plot, where no line of the chart runs: each label
     // starts at its marker's x (or ends there near the right edge) and takes the first row in
     // which it overlaps no other label.
-    let placed = place_labels(markers, &|x| left + (x - x0) / (x1 - x0) * pw, width - right);
+    let placed = place_labels(
+        markers,
+        &|x| left + (x - x0) / (x1 - x0) * pw,
+        width - right,
+    );
     let rows = placed.iter().map(|p| p.1 + 1).max().unwrap_or(0);
     let top = 58.0 + LABEL_ROW * rows as f64;
     let height = 540.0 + LABEL_ROW * rows as f64;
@@ -337,7 +353,11 @@ pub fn fan_chart(
             svg,
             r#"<text class="marker-label" x="{lx:.1}" y="{ly:.1}" font-size="{LABEL_FONT}" font-weight="{}"{}>{}</text>"#,
             if m.strong { "bold" } else { "normal" },
-            if anchor_end { r#" text-anchor="end""# } else { "" },
+            if anchor_end {
+                r#" text-anchor="end""#
+            } else {
+                ""
+            },
             escape(&m.label)
         );
     }
@@ -441,7 +461,15 @@ mod tests {
             points: vec![(1.0, 3.0), (2.0, 2.0), (3.0, 1.0)],
             style: Style::Main,
         }];
-        let svg = line_chart("t", "season", "y", &|x| format!("{x:.0}"), 3.3, &series, &[]);
+        let svg = line_chart(
+            "t",
+            "season",
+            "y",
+            &|x| format!("{x:.0}"),
+            3.3,
+            &series,
+            &[],
+        );
         let doc = roxmltree::Document::parse(&svg).unwrap();
         let below: Vec<&str> = doc
             .descendants()

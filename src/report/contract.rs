@@ -69,7 +69,10 @@ pub fn write_bid(
         String::new(),
         String::new(),
         folder.planned.len().to_string(),
-        format!("{:.0}", items.iter().map(|i| i.stems).sum::<f64>().round() + 0.0),
+        format!(
+            "{:.0}",
+            items.iter().map(|i| i.stems).sum::<f64>().round() + 0.0
+        ),
         String::new(),
         String::new(),
         String::new(),

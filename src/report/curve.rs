@@ -152,7 +152,11 @@ pub fn write(
 fn rules_in_use(points: &[Point]) -> Vec<(&'static str, &'static str, Style)> {
     RULES
         .iter()
-        .filter(|(name, _, _)| points.iter().any(|p| p.baselines.iter().any(|b| b.0 == *name)))
+        .filter(|(name, _, _)| {
+            points
+                .iter()
+                .any(|p| p.baselines.iter().any(|b| b.0 == *name))
+        })
         .copied()
         .collect()
 }
@@ -206,7 +210,11 @@ fn curve_csv(points: &[Point], risk_before: f64, money: &Money) -> Result<Vec<u8
             fixed(p.stems_treated, 0),
             fixed(p.crew_hours, 2),
             p.status.as_str().to_string(),
-            if p.gap.is_finite() { fixed(p.gap, 6) } else { String::new() },
+            if p.gap.is_finite() {
+                fixed(p.gap, 6)
+            } else {
+                String::new()
+            },
             f(p.bound),
             if p.from_neighbour {
                 "yes".into()
@@ -233,7 +241,12 @@ fn curve_csv(points: &[Point], risk_before: f64, money: &Money) -> Result<Vec<u8
 /// curve.svg: the rule-of-thumb and greedy lines first, the optimal line last so it is drawn
 /// above them; budgets in the output currency; a marker at the knee, the thresholds and the
 /// plan's own budget (`--plan`).
-fn curve_svg(points: &[Point], analysis: &Analysis, money: &Money, plan_budget: Option<f64>) -> String {
+fn curve_svg(
+    points: &[Point],
+    analysis: &Analysis,
+    money: &Money,
+    plan_budget: Option<f64>,
+) -> String {
     let risk_before = if let Some(p) = points.first() {
         p.risk_after / (1.0 - analysis.reductions[0] / 100.0).max(1e-300)
     } else {

@@ -143,7 +143,10 @@ pub fn write(staging: &Staging, prepared: &Prepared, sim: &Simulation) -> Result
         .filter_map(|v| {
             planning_sim::first_better_year(v).map(|year| Marker {
                 x: year as f64,
-                label: format!("{} below the plan from year {year}", planning_sim::label(v.strategy)),
+                label: format!(
+                    "{} below the plan from year {year}",
+                    planning_sim::label(v.strategy)
+                ),
                 strong: false,
             })
         })

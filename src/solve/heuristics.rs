@@ -351,6 +351,68 @@ pub fn improve(
     }
 }
 
+/// Restarts of [`search`] in a row that find nothing better before it gives up.
+pub const STALL_RESTARTS: usize = 64;
+
+/// Local search that keeps trying while `done` allows (issue 23): [`improve`] to a local
+/// optimum, then a larger neighbourhood — drop k treated patches drawn from a seeded stream
+/// (k doubling, up to half the plan, after each restart that finds nothing better; back to 2
+/// after one that does), refill greedily, improve again — keeping the best plan. Stops when
+/// `done` says so (checked between tries) or after [`STALL_RESTARTS`] fruitless restarts in a
+/// row. Deterministic for a given seed when `done` does not stop it. Returns the best plan,
+/// its risk and true when it stopped for lack of improvement rather than by `done`.
+pub fn search(
+    problem: &Problem,
+    plan: Assignment,
+    risk: f64,
+    seed: u64,
+    done: impl Fn(f64) -> bool,
+) -> (Assignment, f64, bool) {
+    let (mut best, mut best_risk, exhausted) = improve(problem, plan, risk, &done);
+    if !exhausted {
+        return (best, best_risk, false);
+    }
+    let mut rng = crate::core::rng::SplitMix::new(seed ^ 0x1e57_5ea4);
+    let (mut k, mut stall) = (2usize, 0usize);
+    while stall < STALL_RESTARTS {
+        if done(best_risk) {
+            return (best, best_risk, false);
+        }
+        let treated: Vec<usize> = (0..problem.len())
+            .filter(|&i| best[i].is_some() && !problem.required[i])
+            .collect();
+        if treated.is_empty() {
+            break;
+        }
+        let mut trial = best.clone();
+        let drop = k.min(treated.len().div_ceil(2)).max(1);
+        for _ in 0..drop {
+            let i = treated[((rng.unit() * treated.len() as f64) as usize).min(treated.len() - 1)];
+            trial[i] = None;
+        }
+        let trial = fill(problem, trial);
+        let r = problem.risk(&trial);
+        if !problem.feasible(&trial) {
+            stall += 1;
+            continue;
+        }
+        let (trial, r, _) = improve(problem, trial, r, &done);
+        if r < best_risk * (1.0 - 1e-12) && problem.feasible(&trial) {
+            best = trial;
+            best_risk = r;
+            k = 2;
+            stall = 0;
+        } else {
+            k = (k * 2).min(treated.len().max(2));
+            if k >= treated.len().div_ceil(2).max(2) {
+                k = 2;
+            }
+            stall += 1;
+        }
+    }
+    (best, best_risk, true)
+}
+
 /// Drop treatments that buy exactly nothing (a patch with no effective host, e.g. suitability
 /// 0, and no link weight): the solver is indifferent to them, a land manager is not.
 pub(crate) fn prune_worthless(problem: &Problem, assignment: &mut Assignment) {

@@ -29,6 +29,9 @@ pub struct InstanceSpec {
     /// `excluded_share` (drawn from the landscape's seed).
     pub required_share: f64,
     pub excluded_share: f64,
+    /// This many patches (drawn from the seed) get their pressure multiplied by 100 to 1000:
+    /// a few patches that dominate the risk (issue 23's "spikes" shape).
+    pub spikes: usize,
 }
 
 impl InstanceSpec {
@@ -42,6 +45,7 @@ impl InstanceSpec {
             hours_share: None,
             required_share: 0.0,
             excluded_share: 0.0,
+            spikes: 0,
         }
     }
 }
@@ -59,7 +63,18 @@ pub struct Instance {
 
 impl Instance {
     pub fn generate(spec: &InstanceSpec) -> Result<Instance> {
-        let land = synthetic::generate(&spec.landscape);
+        let mut land = synthetic::generate(&spec.landscape);
+        if spec.spikes > 0 && !land.patches.is_empty() {
+            let mut r = SplitMix::new(spec.landscape.seed ^ 0x5b1e);
+            let mut pressure = land.model.pressure.clone();
+            for _ in 0..spec.spikes {
+                let i =
+                    ((r.unit() * land.patches.len() as f64) as usize).min(land.patches.len() - 1);
+                pressure[i] *= 100.0 + 900.0 * r.unit();
+            }
+            let stems: Vec<f64> = land.patches.iter().map(|p| p.stems).collect();
+            land.model = crate::model::risk::RiskModel::new(&stems, &pressure, &land.graph);
+        }
         let (catalogue, _) = Catalogue::load(None)?;
         let choices: Vec<Vec<Choice>> = land
             .patches
@@ -119,6 +134,92 @@ impl Instance {
             crew_hours: self.crew_hours,
             required: self.required.clone(),
             excluded: self.excluded.clone(),
+        }
+    }
+}
+
+/// The landscape shapes of `hostcut bench --shape` (issue 23): each a deterministic recipe for
+/// an [`InstanceSpec`] at any size, the area growing with the patch count so that the density
+/// (and so the links per patch) stays about that of 5,000 patches.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Shape {
+    /// Today's benchmark: tight, separate clusters (40 per 5,000 patches, 800 m spread, 30 km
+    /// side), exponential kernel, alpha 400 m.
+    Tight,
+    /// Clusters that overlap: 40 per 5,000 patches with a 3 km spread over 20 km, exp 400 m.
+    Overlap,
+    /// Near-uniform scatter over 60 km (every patch its own centre), exp alpha 1000 m.
+    Scatter,
+    /// Fat tails: overlapping clusters over 60 km, Cauchy alpha 200 m (cut where k < 0.01).
+    Cauchy,
+    /// Binding crew hours: clusters over 60 km, exp 400 m, hours half those of the budget's
+    /// share of treating everything.
+    Crew,
+    /// Today's tight clusters with one patch in 500 at 100 to 1000 times the pressure.
+    Spikes,
+}
+
+impl Shape {
+    pub const ALL: [Shape; 6] = [
+        Shape::Tight,
+        Shape::Overlap,
+        Shape::Scatter,
+        Shape::Cauchy,
+        Shape::Crew,
+        Shape::Spikes,
+    ];
+
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Shape::Tight => "tight",
+            Shape::Overlap => "overlap",
+            Shape::Scatter => "scatter",
+            Shape::Cauchy => "cauchy",
+            Shape::Crew => "crew",
+            Shape::Spikes => "spikes",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Shape> {
+        Shape::ALL.into_iter().find(|k| k.as_str() == s.trim())
+    }
+
+    /// The instance of this shape with `patches` patches, `methods` methods and the budget a
+    /// `budget_share` of treating everything.
+    pub fn spec(
+        self,
+        patches: usize,
+        methods: usize,
+        budget_share: f64,
+        seed: u64,
+    ) -> InstanceSpec {
+        use crate::core::kernel::{Kernel, KernelKind};
+        let scale = (patches.max(1) as f64 / 5000.0).sqrt();
+        let clusters = (patches / 125).max(1);
+        let (clusters, side_km, spread_m, kind, alpha_m, epsilon) = match self {
+            Shape::Tight | Shape::Spikes => (clusters, 30.0, 800.0, KernelKind::Exp, 400.0, 1e-3),
+            Shape::Overlap => (clusters, 20.0, 3000.0, KernelKind::Exp, 400.0, 1e-3),
+            Shape::Scatter => (patches.max(1), 60.0, 0.0, KernelKind::Exp, 1000.0, 1e-3),
+            Shape::Cauchy => (clusters, 60.0, 3000.0, KernelKind::Cauchy, 200.0, 1e-2),
+            Shape::Crew => (clusters, 60.0, 3000.0, KernelKind::Exp, 400.0, 1e-3),
+        };
+        let landscape = Spec {
+            patches,
+            clusters,
+            side_m: side_km * 1000.0 * scale,
+            spread_m,
+            kernel: Kernel { kind, alpha_m },
+            epsilon,
+            seed,
+        };
+        InstanceSpec {
+            hours_share: (self == Shape::Crew).then_some(0.5 * budget_share),
+            spikes: if self == Shape::Spikes {
+                (patches / 500).max(1)
+            } else {
+                0
+            },
+            ..InstanceSpec::new(landscape, methods, budget_share)
         }
     }
 }

@@ -1,9 +1,11 @@
 //! Stage 3, the optimiser: the problem and its answer (`problem`), the heuristics, the exact MIP
 //! formulations and their HiGHS runner (`mip`), decomposition by components, the relaxation
-//! bounds (`relax`), and the orchestrator that picks among them (`optimise`).
+//! bounds (`relax`), variable fixing from those bounds (`fixing`), and the orchestrator that
+//! picks among them (`optimise`).
 
 pub mod components;
 pub mod decompose;
+pub mod fixing;
 pub mod heuristics;
 pub mod instance;
 pub mod mip;

@@ -12,7 +12,8 @@ use std::time::Instant;
 
 use crate::core::error::{Error, Result};
 use crate::core::scenario::Formulation;
-use crate::solve::heuristics::{greedy, improve, prune_worthless, round};
+use crate::solve::fixing::{Core, Fixed, fix, probe};
+use crate::solve::heuristics::{greedy, prune_worthless, round, search};
 use crate::solve::mip::compact::build_compact;
 use crate::solve::mip::direct::build_direct;
 use crate::solve::mip::highs::run_highs;
@@ -104,6 +105,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     let large = limits.assist && need_gb > limits.max_memory_gb.min(LARGE_MODEL_GB);
     let mut warm = warm;
     let mut relaxed_bound = f64::NEG_INFINITY;
+    let mut forced = None;
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist) {
         let stop = relax::Stop {
             gap: limits.gap,
@@ -120,6 +122,7 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         };
         if let Some(relaxation) = relax::bound(problem, &plan, risk, stop) {
             relaxed_bound = relaxation.value;
+            forced = relaxation.forced.clone();
             let rounded = round(problem, &relaxation.weights);
             let r = problem.risk(&rounded);
             if r < risk && problem.feasible(&rounded) {
@@ -159,41 +162,36 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
     if let Some((plan, risk)) = warm.clone().filter(|_| limits.assist)
         && (early || (large && pieces.is_none()))
     {
-        let (mut assignment, mut risk_after, exhausted) = if early {
-            (plan, risk, false)
-        } else {
-            improve(problem, plan, risk, |r| {
-                gap_of(r, bound_of(r, f64::NEG_INFINITY)) <= limits.gap || limits.deadline.passed()
-            })
-        };
+        if !early {
+            return large_search(
+                problem,
+                limits,
+                (plan, risk),
+                forced,
+                relaxed_bound,
+                floor,
+                greedy,
+                start_time,
+            );
+        }
+        let mut assignment = plan;
         prune_worthless(problem, &mut assignment);
-        risk_after = risk_after.min(problem.risk(&assignment));
+        let risk_after = risk.min(problem.risk(&assignment));
         let bound = bound_of(risk_after, f64::NEG_INFINITY);
         let gap = gap_of(risk_after, bound);
-        // Name what stopped the search: the gap, no move left, or the deadline (only when the
-        // search was still finding moves as it passed).
-        let status = if gap <= OPTIMAL_GAP {
-            Status::Optimal
-        } else if gap <= limits.gap {
-            Status::GapLimit
-        } else if exhausted {
-            Status::NoImprovingMove
-        } else {
-            Status::TimeLimit
-        };
         return Ok(Solved {
             assignment,
             risk_after,
             bound,
             gap,
-            status,
+            status: if gap <= OPTIMAL_GAP {
+                Status::Optimal
+            } else {
+                Status::GapLimit
+            },
             seconds: start_time.elapsed().as_secs_f64(),
             greedy,
-            path: if early {
-                SolverPath::GreedyAndRounding
-            } else {
-                SolverPath::RelaxationAndLocalSearch
-            },
+            path: SolverPath::GreedyAndRounding,
             bound_from: bound_from(f64::NEG_INFINITY),
         });
     }
@@ -260,6 +258,149 @@ pub fn solve_from(problem: &Problem, limits: Limits, start: Option<&Assignment>)
         greedy,
         path,
         bound_from: bound_from(dual),
+    })
+}
+
+/// A core is searched again only when the fixing removed at least this share of the options
+/// (each level strictly smaller, so the recursion ends).
+const CORE_MIN_REMOVED: f64 = 0.05;
+
+/// The large-model path (issue 23): local search with restarts for a share of the time, then
+/// variable fixing from the relaxation's forced bounds and the core that is left solved by
+/// [`solve_from`] (HiGHS with the incumbent as its start when the core is small enough, else the
+/// same path again on the core), then restarts with whatever time is left. Every bound is
+/// proven: the relaxation's, the floor, or the core's with the fixing's bound on the plans it
+/// removed.
+#[allow(clippy::too_many_arguments)]
+fn large_search(
+    problem: &Problem,
+    limits: Limits,
+    (plan, risk): (Assignment, f64),
+    forced: Option<Vec<Vec<(Option<usize>, f64)>>>,
+    relaxed_bound: f64,
+    floor: f64,
+    greedy: Option<(Assignment, f64)>,
+    start_time: Instant,
+) -> Result<Solved> {
+    let mut bound = relaxed_bound.max(floor);
+    let mut bound_from = if floor >= relaxed_bound {
+        BoundSource::Floor
+    } else {
+        BoundSource::Relaxation
+    };
+    let gap_of = |risk: f64, bound: f64| {
+        if risk > 0.0 {
+            ((risk - bound.min(risk).max(0.0)) / risk).max(0.0)
+        } else {
+            0.0
+        }
+    };
+    let first = limits.deadline.fraction(0.35);
+    let (mut plan, mut risk, mut exhausted) = search(problem, plan, risk, 1, |r| {
+        gap_of(r, bound) <= limits.gap || first.passed()
+    });
+    let mut path = SolverPath::RelaxationAndLocalSearch;
+    if gap_of(risk, bound) > limits.gap
+        && !limits.deadline.passed()
+        && let Some(forced) = &forced
+    {
+        let fixed = fix(problem, forced, &plan, risk);
+        let options: usize = forced.iter().map(|f| f.len()).sum();
+        let by_reduced_cost = fixed.removed;
+        // Probing the patches that carry most of the risk, with the convex reformulation's
+        // bound on each restriction (exact in the probed patch's own term, where the
+        // relaxation of a dominant patch is loosest).
+        let fixed = probe_dominant(problem, fixed, &plan, risk, limits);
+        let probed = fixed.removed - by_reduced_cost;
+        // Branching on one probed patch bounds every plan the fixing kept; the removed ones
+        // are bounded by their own forced bounds.
+        let branched = fixed.branch_bound.min(fixed.removed_bound);
+        if branched.is_finite() && branched > bound {
+            bound = branched.min(risk);
+            bound_from = BoundSource::FixedCore;
+        }
+        if ((fixed.removed as f64) >= CORE_MIN_REMOVED * options as f64 || probed > 0)
+            && let Some(core) = Core::build(problem, &fixed)
+        {
+            let core_problem = core.problem();
+            let start = core.restrict(&plan);
+            let sub = solve_from(&core_problem, limits, start.as_ref())?;
+            if sub.status != Status::Infeasible {
+                path = SolverPath::FixedCore;
+                let whole = core.expand(&sub.assignment);
+                let r = problem.risk(&whole);
+                if r < risk && problem.feasible(&whole) {
+                    plan = whole;
+                    risk = r;
+                }
+                let core_bound = sub.bound.min(fixed.removed_bound);
+                if core_bound.is_finite() && core_bound > bound {
+                    bound = core_bound;
+                    bound_from = BoundSource::FixedCore;
+                }
+                exhausted = matches!(sub.status, Status::NoImprovingMove | Status::Optimal);
+            }
+        }
+    }
+    if gap_of(risk, bound) > limits.gap && !limits.deadline.passed() {
+        let (p, r, e) = search(problem, plan, risk, 2, |r| {
+            gap_of(r, bound) <= limits.gap || limits.deadline.passed()
+        });
+        (plan, risk, exhausted) = (p, r, e);
+    }
+    prune_worthless(problem, &mut plan);
+    let risk_after = risk.min(problem.risk(&plan));
+    let bound = bound.min(risk_after).max(0.0);
+    let gap = gap_of(risk_after, bound);
+    let status = if gap <= OPTIMAL_GAP {
+        Status::Optimal
+    } else if gap <= limits.gap {
+        Status::GapLimit
+    } else if exhausted {
+        Status::NoImprovingMove
+    } else {
+        Status::TimeLimit
+    };
+    Ok(Solved {
+        assignment: plan,
+        risk_after,
+        bound,
+        gap,
+        status,
+        seconds: start_time.elapsed().as_secs_f64(),
+        greedy,
+        path,
+        bound_from,
+    })
+}
+
+/// Patches probed at most, by their share of the risk before treatment.
+const PROBE_PATCHES: usize = 32;
+
+/// Frank–Wolfe iterations per probe.
+const PROBE_ITERATIONS: usize = 64;
+
+/// [`probe`] on the [`PROBE_PATCHES`] patches with the largest risk shares that still have a
+/// choice, within a quarter of the time left.
+fn probe_dominant(
+    problem: &Problem,
+    fixed: Fixed,
+    plan: &Assignment,
+    risk: f64,
+    limits: Limits,
+) -> Fixed {
+    let shares = problem.model.risk_shares();
+    let mut order: Vec<usize> = (0..problem.len())
+        .filter(|&i| fixed.allowed[i].len() > 1)
+        .collect();
+    order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]).then(a.cmp(&b)));
+    order.truncate(PROBE_PATCHES);
+    let until = limits.deadline.fraction(0.25);
+    let bound_of = |p: &Problem, start: &Assignment| {
+        relax::convex_bound(p, start, risk, PROBE_ITERATIONS, until.remaining_s())
+    };
+    probe(problem, fixed, plan, risk, &order, &bound_of, &|| {
+        until.passed()
     })
 }
 

@@ -86,6 +86,9 @@ pub enum SolverPath {
     GreedyAndRounding,
     /// The model was too large for HiGHS: relaxation bound and local search alone.
     RelaxationAndLocalSearch,
+    /// The model was too large for HiGHS: local search, then variable fixing from the
+    /// relaxation's bounds and the core that is left searched again (`solve::fixing`).
+    FixedCore,
     /// Components small enough to enumerate, merged exactly under the one budget.
     ComponentMerge,
     TransportMip,
@@ -110,6 +113,7 @@ impl SolverPath {
             SolverPath::EverythingFits => "everything fits",
             SolverPath::GreedyAndRounding => "greedy and relaxation rounding",
             SolverPath::RelaxationAndLocalSearch => "relaxation and local search",
+            SolverPath::FixedCore => "local search, variable fixing and the core searched",
             SolverPath::ComponentMerge => "component merge MIP",
             SolverPath::TransportMip => "transport MIP",
             SolverPath::CompactMip => "compact MIP",
@@ -140,6 +144,10 @@ pub enum BoundSource {
     Relaxation,
     /// HiGHS's dual bound on the MIP.
     HighsDual,
+    /// Variable fixing and probing: the bound on the core left by the fixing (its own
+    /// relaxation or HiGHS's dual) or from branching on a probed patch, with the fixing's
+    /// bound on the plans it removed.
+    FixedCore,
     /// An ensemble's min-max plan bounded by the scenarios' own proven bounds.
     ScenarioBounds,
     /// No bound: the problem is infeasible.
@@ -153,6 +161,7 @@ impl BoundSource {
             BoundSource::Floor => "floor",
             BoundSource::Relaxation => "relaxation",
             BoundSource::HighsDual => "HiGHS dual bound",
+            BoundSource::FixedCore => "variable fixing and probing",
             BoundSource::ScenarioBounds => "the scenarios' own bounds",
             BoundSource::None => "none",
         }

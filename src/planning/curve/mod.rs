@@ -384,7 +384,11 @@ impl Anchor {
     ) -> Option<Anchor> {
         let mut assignment: Assignment = vec![None; prepared.patches.len()];
         for (patch, method, prescription) in planned {
-            let i = prepared.patches.items.iter().position(|p| &p.label == patch)?;
+            let i = prepared
+                .patches
+                .items
+                .iter()
+                .position(|p| &p.label == patch)?;
             // By prescription with size classes (several share a primary method), as
             // `simulate --plan` reads a plan back; by method without.
             assignment[i] = Some(prepared.choice_named(i, method, prescription)?);

@@ -14,12 +14,16 @@ use crate::solve::relax::dual::{Prices, Stop, search_prices};
 ///   R(plan) + prices . (use - limits) >= sum_i min_o [theta_i(o) + sum_j delta_{j->i}(o)] - prices . limits,
 /// and the updates keep that inequality (any violation by rounding is measured and
 /// subtracted). The bound is valid after any number of sweeps, at any prices.
+///
+/// Returns the bound, the relaxed solution (indexed like `relaxed.opts`), the evaluations,
+/// and per option the bound on every plan that gives its patch that option (indexed like
+/// `relaxed.opts`; see [`MpBound::forced`]).
 pub(super) fn message_passing(
     relaxed: &Relaxed,
     incumbent: f64,
     stop: Stop,
     clock: &Instant,
-) -> Option<(f64, Vec<f64>, usize)> {
+) -> Option<MpBound> {
     let problem = relaxed.problem;
     let model = problem.model;
     let n = problem.len();
@@ -132,6 +136,10 @@ pub(super) fn message_passing(
     };
     let best = f64::NEG_INFINITY;
     let mut kept = (f64::NEG_INFINITY, Vec::new());
+    // The beliefs at the best bound: the same messages and prices bound any restriction of one
+    // patch to one option by the bound plus that option's excess over the patch's least belief
+    // (the separable dual's reduced cost).
+    let mut snapshot: (f64, Vec<f64>) = (f64::NEG_INFINITY, Vec::new());
     let mut evaluations = 0;
     let run = |p: Prices, belief: &mut Vec<f64>, delta: &mut Vec<f64>, best: &mut f64| {
         // Beliefs follow the prices: only the unary terms change.
@@ -148,6 +156,9 @@ pub(super) fn message_passing(
             // The violation pass costs as much as a sweep: only when the bound could count.
             if raw > *best || (within && raw > kept.0) {
                 let bound = raw - violation(delta);
+                if bound > snapshot.0 {
+                    snapshot = (bound, belief.clone());
+                }
                 *best = best.max(bound);
                 if within && bound > kept.0 {
                     kept = (bound, pick);
@@ -207,5 +218,33 @@ pub(super) fn message_passing(
     for &k in &kept.1 {
         x[k] = 1.0;
     }
-    Some((best.min(incumbent).max(0.0), x, evaluations))
+    let mut forced = vec![f64::NEG_INFINITY; relaxed.opts.len()];
+    if !snapshot.1.is_empty() {
+        let (b, belief) = &snapshot;
+        for i in 0..n {
+            let least = relaxed
+                .options(i)
+                .map(|k| belief[k])
+                .fold(f64::INFINITY, f64::min);
+            for k in relaxed.options(i) {
+                forced[k] = b + (belief[k] - least);
+            }
+        }
+    }
+    Some(MpBound {
+        value: best.min(incumbent).max(0.0),
+        x,
+        evaluations,
+        forced,
+    })
+}
+
+/// What [`message_passing`] proves.
+pub(super) struct MpBound {
+    pub(super) value: f64,
+    pub(super) x: Vec<f64>,
+    pub(super) evaluations: usize,
+    /// Per option (indexed like `Relaxed::opts`): a proven lower bound on R over the plans
+    /// that give the option's patch that option (NEG_INFINITY when no bound was kept).
+    pub(super) forced: Vec<f64>,
 }

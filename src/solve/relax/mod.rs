@@ -34,6 +34,10 @@ pub struct Bound {
     pub min_shift: f64,
     /// The relaxed solution's weight on each patch's choices (index = choice), for rounding.
     pub weights: Vec<Vec<f64>>,
+    /// Per patch, per option (None = leave, Some(o) = choice o): a proven lower bound on R
+    /// over the plans that give the patch that option (message passing's reduced costs, for
+    /// variable fixing: `solve::fixing`). None when message passing did not run.
+    pub forced: Option<Vec<Vec<(Option<usize>, f64)>>>,
     pub seconds: f64,
 }
 
@@ -43,7 +47,33 @@ pub struct Bound {
 pub fn local_polytope_bound(problem: &Problem, incumbent: f64, stop: Stop) -> Option<f64> {
     let clock = Instant::now();
     let relaxed = Relaxed::new(problem);
-    message_passing(&relaxed, incumbent, stop, &clock).map(|(b, _, _)| b)
+    message_passing(&relaxed, incumbent, stop, &clock).map(|m| m.value)
+}
+
+/// The convex reformulation's bound alone, from `start` (any plan; the bound does not need it
+/// feasible), by at most `iterations` Frank–Wolfe steps or
+/// `seconds`, stopping early once it exceeds `cutoff` (for probing: `solve::fixing::probe`).
+/// Not capped: it may lie above `cutoff`, which then bounds nothing better than it. None when
+/// the problem has no feasible plan in its relaxation.
+pub fn convex_bound(
+    problem: &Problem,
+    start: &Assignment,
+    cutoff: f64,
+    iterations: usize,
+    seconds: f64,
+) -> Option<f64> {
+    let clock = Instant::now();
+    let relaxed = Relaxed::new(problem);
+    let mut fw = FrankWolfe::new(&relaxed, start);
+    let stop = Stop {
+        gap: -1e-8,
+        max_iterations: iterations,
+        time_limit_s: seconds,
+    };
+    if !fw.run(iterations, seconds, &clock, cutoff, stop) {
+        return None;
+    }
+    Some(fw.best.max(0.0))
 }
 
 /// The relaxation bound, starting Frank–Wolfe from `start` (a feasible plan, e.g. greedy's)
@@ -85,8 +115,21 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
         return None;
     }
     let mut dual: Option<(f64, Vec<f64>, usize)> = None;
+    let mut forced = None;
     if !met(fw.best) && !out_of_time() {
-        dual = message_passing(&relaxed, incumbent, stop, &clock);
+        dual = message_passing(&relaxed, incumbent, stop, &clock).map(|m| {
+            forced = Some(
+                (0..n)
+                    .map(|i| {
+                        relaxed
+                            .options(i)
+                            .map(|k| (relaxed.opts[k].choice, m.forced[k]))
+                            .collect()
+                    })
+                    .collect(),
+            );
+            (m.value, m.x, m.evaluations)
+        });
         if log && let Some((b, _, evaluations)) = &dual {
             eprintln!(
                 "message passing: bound {b:.9e} after {evaluations} evaluations, {:.2} s, gap(incumbent) {:.3e}",
@@ -129,6 +172,7 @@ pub fn bound(problem: &Problem, start: &Assignment, incumbent: f64, stop: Stop) 
         components: relaxed.components,
         min_shift: relaxed.min_shift,
         weights,
+        forced,
         seconds: clock.elapsed().as_secs_f64(),
     })
 }
