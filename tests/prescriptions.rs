@@ -498,3 +498,79 @@ fn follow_ups_use_each_class_methods_follow_up() {
     assert_eq!(follow.num("stems"), 112.5);
     assert_eq!(follow.num("cost"), 622.5);
 }
+
+/// Host polygons counted by size class alone (issue 20: "Host polygons take the same fields"):
+/// no `stems` field is needed when every class has one; each stand's stems are the sum of its
+/// classes, said in a note, and the plan is the one the same stands give with a `stems` field
+/// too (common practice: a stand's total is the sum of its size classes). Without the classes,
+/// a missing `stems` field is still refused.
+#[test]
+fn host_polygons_need_no_stems_field_when_classes_are_given() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let square = |x: f64, y: f64| {
+        format!(
+            "[[[{x},{y}],[{},{y}],[{},{}],[{x},{}],[{x},{y}]]]",
+            x + 40.0,
+            x + 40.0,
+            y + 40.0,
+            y + 40.0
+        )
+    };
+    let layer = |with_stems: bool, with_classes: bool| {
+        let stands = [("A", 500000.0, 4480000.0, [300, 60, 40]), ("B", 500300.0, 4480000.0, [120, 80, 10])];
+        let features: Vec<String> = stands
+            .iter()
+            .map(|(id, x, y, c)| {
+                let mut props = format!(r#""id":"{id}""#);
+                if with_stems {
+                    props.push_str(&format!(r#","stems":{}"#, c.iter().sum::<i32>()));
+                }
+                if with_classes {
+                    props.push_str(&format!(
+                        r#","seedlings":{},"saplings":{},"trees":{}"#,
+                        c[0], c[1], c[2]
+                    ));
+                }
+                format!(
+                    r#"{{"type":"Feature","properties":{{{props}}},"geometry":{{"type":"Polygon","coordinates":{}}}}}"#,
+                    square(*x, *y)
+                )
+            })
+            .collect();
+        format!(
+            r#"{{"type":"FeatureCollection","crs":{{"type":"name","properties":{{"name":"urn:ogc:def:crs:EPSG::32618"}}}},"features":[{}]}}"#,
+            features.join(",")
+        )
+    };
+    let go = |name: &str, text: &str| {
+        write(d, &format!("{name}.geojson"), text);
+        run(
+            d,
+            &[
+                "plan", "--host", &format!("{name}.geojson"), "--id-field", "id", "--budget",
+                "900", "--out", name, "--quiet",
+            ],
+        )
+    };
+    let o = go("classes", &layer(false, true));
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("each stand's stems are the sum of its size-class fields"),
+        "{}",
+        stderr(&o)
+    );
+    let o = go("both", &layer(true, true));
+    assert!(o.status.success(), "{}", stderr(&o));
+    let a = std::fs::read(d.join("classes/plan.csv")).unwrap();
+    let b = std::fs::read(d.join("both/plan.csv")).unwrap();
+    assert!(a == b, "plan.csv differs with and without the stems field");
+    let rows = Table::read(&d.join("classes/plan.csv"));
+    for r in &rows.rows {
+        let want = if r.get("patch_id") == "A" { 400.0 } else { 210.0 };
+        assert_eq!(r.num("stems"), want);
+    }
+    let o = go("neither", &layer(false, false));
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("stems"), "{}", stderr(&o));
+}

@@ -150,6 +150,7 @@ pub fn small_spec(seed: u64, patches: usize) -> InstanceSpec {
         hours_share: (seed % 4 >= 2).then_some(hours),
         required_share: 0.12,
         excluded_share: 0.12,
+        mixed_classes: false,
     }
 }
 
