@@ -574,3 +574,70 @@ fn host_polygons_need_no_stems_field_when_classes_are_given() {
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     assert!(stderr(&o).contains("stems"), "{}", stderr(&o));
 }
+
+/// Crew pages grouped by method (issue 20: "crew pages group by method with the right caution
+/// set"; methods notes section 8 for which method goes to which class): one stand of 300
+/// seedlings, 60 saplings and 40 trees with a budget for everything. The page has a section per
+/// method; each says which class's stems get it and how many, the stems adding up to the
+/// stand's; foliar spray's section carries DRIFT (its own caution), stem injection's does not.
+/// `plan`'s stdout shows the prescription of its top rows, not the primary method alone.
+#[test]
+fn crew_pages_group_the_stems_by_method() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(
+        d,
+        "stands.csv",
+        &format!("{HEADER}S,500000,4480000,400,300,60,40,open,allowed,1\n"),
+    );
+    let o = run(
+        d,
+        &[
+            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "5000",
+            "--out", "plan",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let rows = Table::read(&d.join("plan/plan.csv"));
+    let row = rows.rows.iter().next().expect("one row");
+    let want = prescription(row.get("prescription"));
+    assert!(
+        stdout(&o).contains(row.get("prescription")),
+        "stdout shows the prescription: {}",
+        stdout(&o)
+    );
+    let o = run(
+        d,
+        &[
+            "orders", "--plan", "plan", "--out", "orders", "--start-date", "2027-07-01",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let html = std::fs::read_to_string(d.join("orders/report.html")).unwrap();
+    let sections: Vec<&str> = html.split("<div class=\"method\">").skip(1).collect();
+    let mut methods: Vec<&str> = want.values().map(|(m, _)| m.as_str()).filter(|m| *m != "leave").collect();
+    methods.sort();
+    methods.dedup();
+    assert_eq!(sections.len(), methods.len(), "one section per method: {methods:?}");
+    let mut total = 0.0;
+    for section in &sections {
+        let section = section.split("</div></div>").next().unwrap();
+        let heading = section.split("</h3>").next().unwrap();
+        let method = methods
+            .iter()
+            .find(|m| heading.contains(&format!("<h3>{}:", m.replace('_', " "))))
+            .unwrap_or_else(|| panic!("a section of a planned method: {heading}"));
+        for (class, (m, n)) in &want {
+            let line = format!("{class}: {n:.0} stems");
+            assert_eq!(m == method, section.contains(&line), "{method}: {line}");
+            if m == method {
+                total += n;
+            }
+        }
+        assert_eq!(section.contains("[DRIFT]"), *method == "foliar", "{method}");
+        assert!(section.contains("[LABEL]"), "{method}: herbicide cautions shown");
+    }
+    let left: f64 = want.values().filter(|(m, _)| m == "leave").map(|(_, n)| n).sum();
+    assert_eq!(total + left, 400.0);
+}
