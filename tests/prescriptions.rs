@@ -387,7 +387,10 @@ fn a_catalogue_without_size_classes_reproduces_the_old_plan() {
     let rows = Table::read(&d.join("demo/plan.csv"));
     for r in &rows.rows {
         let columns = r.num("seedlings") + r.num("saplings") + r.num("trees");
-        let said: f64 = prescription(r.get("prescription")).values().map(|v| v.1).sum();
+        let said: f64 = prescription(r.get("prescription"))
+            .values()
+            .map(|v| v.1)
+            .sum();
         assert_eq!(columns, r.num("stems"), "{}", r.get("patch_id"));
         assert_eq!(said, r.num("stems"), "{}", r.get("patch_id"));
     }
@@ -425,7 +428,10 @@ fn host_weights_decide_whether_the_seed_trees_are_treated() {
     let d = dir.path();
     let inventory = format!("{HEADER}S,500000,4480000,400,300,60,40,open,allowed,1\n");
     let mut got = Vec::new();
-    for (name, weights) in [("alike", ["1.0", "1.0", "1.0"]), ("trees", ["1.0", "2.0", "8.0"])] {
+    for (name, weights) in [
+        ("alike", ["1.0", "1.0", "1.0"]),
+        ("trees", ["1.0", "2.0", "8.0"]),
+    ] {
         write(d, &format!("{name}.toml"), &with_host_weights(weights));
         let treatments = d.join(format!("{name}.toml"));
         let out = plan(
@@ -448,12 +454,25 @@ fn host_weights_decide_whether_the_seed_trees_are_treated() {
     let o = run(
         d,
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "500",
-            "--treatments", "zero.toml", "--out", "zero",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "500",
+            "--treatments",
+            "zero.toml",
+            "--out",
+            "zero",
         ],
     );
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    assert!(stderr(&o).contains("host_weight must be more than 0"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("host_weight must be more than 0"),
+        "{}",
+        stderr(&o)
+    );
 }
 
 /// Follow-up visits (issue 20; methods notes section 8: root suckers and stump sprouts after
@@ -481,13 +500,29 @@ fn follow_ups_use_each_class_methods_follow_up() {
     let o = run(
         d,
         &[
-            "program", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--treatments",
-            "t.toml", "--seasons", "2", "--budgets", "5000,5000", "--out", "prog", "--quiet",
+            "program",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--treatments",
+            "t.toml",
+            "--seasons",
+            "2",
+            "--budgets",
+            "5000,5000",
+            "--out",
+            "prog",
+            "--quiet",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let rows = Table::read(&d.join("prog/program.csv"));
-    let new = rows.rows.iter().find(|r| r.get("action") == "new").expect("a new treatment");
+    let new = rows
+        .rows
+        .iter()
+        .find(|r| r.get("action") == "new")
+        .expect("a new treatment");
     assert_eq!(new.get("season"), "1");
     let follow = rows
         .rows
@@ -518,7 +553,10 @@ fn host_polygons_need_no_stems_field_when_classes_are_given() {
         )
     };
     let layer = |with_stems: bool, with_classes: bool| {
-        let stands = [("A", 500000.0, 4480000.0, [300, 60, 40]), ("B", 500300.0, 4480000.0, [120, 80, 10])];
+        let stands = [
+            ("A", 500000.0, 4480000.0, [300, 60, 40]),
+            ("B", 500300.0, 4480000.0, [120, 80, 10]),
+        ];
         let features: Vec<String> = stands
             .iter()
             .map(|(id, x, y, c)| {
@@ -548,8 +586,16 @@ fn host_polygons_need_no_stems_field_when_classes_are_given() {
         run(
             d,
             &[
-                "plan", "--host", &format!("{name}.geojson"), "--id-field", "id", "--budget",
-                "900", "--out", name, "--quiet",
+                "plan",
+                "--host",
+                &format!("{name}.geojson"),
+                "--id-field",
+                "id",
+                "--budget",
+                "900",
+                "--out",
+                name,
+                "--quiet",
             ],
         )
     };
@@ -567,7 +613,11 @@ fn host_polygons_need_no_stems_field_when_classes_are_given() {
     assert!(a == b, "plan.csv differs with and without the stems field");
     let rows = Table::read(&d.join("classes/plan.csv"));
     for r in &rows.rows {
-        let want = if r.get("patch_id") == "A" { 400.0 } else { 210.0 };
+        let want = if r.get("patch_id") == "A" {
+            400.0
+        } else {
+            210.0
+        };
         assert_eq!(r.num("stems"), want);
     }
     let o = go("neither", &layer(false, false));
@@ -593,8 +643,15 @@ fn crew_pages_group_the_stems_by_method() {
     let o = run(
         d,
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "5000",
-            "--out", "plan",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "5000",
+            "--out",
+            "plan",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
@@ -609,17 +666,31 @@ fn crew_pages_group_the_stems_by_method() {
     let o = run(
         d,
         &[
-            "orders", "--plan", "plan", "--out", "orders", "--start-date", "2027-07-01",
+            "orders",
+            "--plan",
+            "plan",
+            "--out",
+            "orders",
+            "--start-date",
+            "2027-07-01",
             "--quiet",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let html = std::fs::read_to_string(d.join("orders/report.html")).unwrap();
     let sections: Vec<&str> = html.split("<div class=\"method\">").skip(1).collect();
-    let mut methods: Vec<&str> = want.values().map(|(m, _)| m.as_str()).filter(|m| *m != "leave").collect();
+    let mut methods: Vec<&str> = want
+        .values()
+        .map(|(m, _)| m.as_str())
+        .filter(|m| *m != "leave")
+        .collect();
     methods.sort();
     methods.dedup();
-    assert_eq!(sections.len(), methods.len(), "one section per method: {methods:?}");
+    assert_eq!(
+        sections.len(),
+        methods.len(),
+        "one section per method: {methods:?}"
+    );
     let mut total = 0.0;
     for section in &sections {
         let section = section.split("</div></div>").next().unwrap();
@@ -636,8 +707,15 @@ fn crew_pages_group_the_stems_by_method() {
             }
         }
         assert_eq!(section.contains("[DRIFT]"), *method == "foliar", "{method}");
-        assert!(section.contains("[LABEL]"), "{method}: herbicide cautions shown");
+        assert!(
+            section.contains("[LABEL]"),
+            "{method}: herbicide cautions shown"
+        );
     }
-    let left: f64 = want.values().filter(|(m, _)| m == "leave").map(|(_, n)| n).sum();
+    let left: f64 = want
+        .values()
+        .filter(|(m, _)| m == "leave")
+        .map(|(_, n)| n)
+        .sum();
     assert_eq!(total + left, 400.0);
 }

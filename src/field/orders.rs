@@ -668,14 +668,10 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
 /// caution.
 pub fn method_follow_up(folder: &PlanFolder, m: MethodId, date: Date) -> Option<String> {
     let method = folder.catalogue.method(m);
-    method
-        .cautions
-        .iter()
-        .any(|c| c == "FOLLOWUP")
-        .then(|| {
-            let follow = folder.catalogue.method(folder.catalogue.follow_up_of(m));
-            contract::follow_up_due(follow, (date.year, date.month, date.day))
-        })
+    method.cautions.iter().any(|c| c == "FOLLOWUP").then(|| {
+        let follow = folder.catalogue.method(folder.catalogue.follow_up_of(m));
+        contract::follow_up_due(follow, (date.year, date.month, date.day))
+    })
 }
 
 #[cfg(test)]

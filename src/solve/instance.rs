@@ -68,7 +68,7 @@ impl Instance {
         let (catalogue, _) = Catalogue::load(None)?;
         if spec.mixed_classes && catalogue.has_classes() {
             let k = catalogue.n_classes();
-            let mut r = SplitMix::new(spec.landscape.seed ^ 0xc1a5_5e5);
+            let mut r = SplitMix::new(spec.landscape.seed ^ 0x0c1a_55e5);
             for p in &mut land.patches {
                 let shares: Vec<f64> = if r.unit() < 0.2 {
                     let only = ((r.unit() * k as f64) as usize).min(k - 1);

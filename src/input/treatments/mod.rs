@@ -605,8 +605,6 @@ impl Catalogue {
     }
 }
 
-/// A class's slot in [`Choice::per_class`] when the class is left (or absent from the patch).
-
 mod prescription;
 pub use prescription::*;
 

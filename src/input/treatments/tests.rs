@@ -56,8 +56,7 @@ fn cost_and_hours_follow_the_formula() {
     for ch in &with_traps {
         let m = c.method(ch.method);
         assert!(
-            (ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs()
-                <= 0.005 + 1e-9
+            (ch.cost - (m.cost_per_patch + m.cost_per_stem * 100.0) * 1.5).abs() <= 0.005 + 1e-9
         );
         assert!((ch.hours - m.hours_per_stem * 100.0).abs() < 1e-9);
         // r = (1 - e)(1 - sink kill): the kept stems are host, but insects landing there die.
@@ -71,9 +70,7 @@ fn eligibility_and_site_cautions() {
     let (c, _) = Catalogue::load(None).unwrap();
     assert!(choices_for(&c, &patch(Access::Denied, Herbicide::Allowed, 1.0), false).is_empty());
     let prohibited = choices_for(&c, &patch(Access::Open, Herbicide::Prohibited, 1.0), false);
-    assert!(
-        !prohibited.is_empty() && prohibited.iter().all(|ch| !c.method(ch.method).herbicide)
-    );
+    assert!(!prohibited.is_empty() && prohibited.iter().all(|ch| !c.method(ch.method).herbicide));
     let restricted = patch(Access::Permission, Herbicide::Restricted, 1.0);
     let herbicide_method = c.methods.iter().find(|m| m.herbicide).unwrap();
     let codes = caution_codes(herbicide_method, &restricted);

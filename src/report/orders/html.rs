@@ -404,7 +404,10 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
         if method.herbicide {
             notes.push("<b>Apply per the product label.</b>".to_string());
         }
-        if let Some(f) = ins.fell_after.filter(|_| method.cautions.iter().any(|c| c == "FELL30")) {
+        if let Some(f) = ins
+            .fell_after
+            .filter(|_| method.cautions.iter().any(|c| c == "FELL30"))
+        {
             notes.push(format!("Do not fell treated stems before {f}."));
         }
         if let Some(date) = d.date
@@ -425,7 +428,11 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
             if !p.methods_used().contains(method_id) {
                 continue;
             }
-            let share = if p.stems > 0.0 { s.stems / p.stems } else { 1.0 };
+            let share = if p.stems > 0.0 {
+                s.stems / p.stems
+            } else {
+                1.0
+            };
             let classes = p.class_stems(share);
             let what: Vec<String> = if classes.is_empty() {
                 vec![format!("all {:.0} stems", s.stems)]
