@@ -678,7 +678,7 @@ fn crew_pages_group_the_stems_by_method() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let html = std::fs::read_to_string(d.join("orders/report.html")).unwrap();
-    let sections: Vec<&str> = html.split("<div class=\"method\">").skip(1).collect();
+    let sections: Vec<&str> = html.split("<div class=\"method small\">").skip(1).collect();
     let mut methods: Vec<&str> = want
         .values()
         .map(|(m, _)| m.as_str())
@@ -693,12 +693,11 @@ fn crew_pages_group_the_stems_by_method() {
     );
     let mut total = 0.0;
     for section in &sections {
-        let section = section.split("</div></div>").next().unwrap();
-        let heading = section.split("</h3>").next().unwrap();
+        let section = section.split("</div>").next().unwrap();
         let method = methods
             .iter()
-            .find(|m| heading.contains(&format!("<h3>{}:", m.replace('_', " "))))
-            .unwrap_or_else(|| panic!("a section of a planned method: {heading}"));
+            .find(|m| section.starts_with(&format!("<p><b>{}</b>:", m.replace('_', " "))))
+            .unwrap_or_else(|| panic!("a section of a planned method: {section}"));
         for (class, (m, n)) in &want {
             let line = format!("{class}: {n:.0} stems");
             assert_eq!(m == method, section.contains(&line), "{method}: {line}");
@@ -706,12 +705,19 @@ fn crew_pages_group_the_stems_by_method() {
                 total += n;
             }
         }
-        assert_eq!(section.contains("[DRIFT]"), *method == "foliar", "{method}");
+        let cautions = section.split("Cautions: ").nth(1).expect("a caution set");
+        assert_eq!(
+            cautions.contains("[DRIFT]"),
+            *method == "foliar",
+            "{method}"
+        );
         assert!(
-            section.contains("[LABEL]"),
+            cautions.contains("[LABEL]"),
             "{method}: herbicide cautions shown"
         );
     }
+    // The day's cautions in words follow, DRIFT among them.
+    assert!(html.contains("<p><b>[DRIFT]</b>"));
     let left: f64 = want
         .values()
         .filter(|(m, _)| m == "leave")

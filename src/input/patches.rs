@@ -504,8 +504,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                         ));
                     }
                 };
-                // Without a stems field (allowed when every size class has a field), the
-                // stems are the sum of the class fields, checked below.
+                // No stems field (every class has one): the stems are the classes' sum.
                 let has_stems_field = layer.field(&stems_field).is_some();
                 let stems = f.fields.get(&stems_field).and_then(|v| v.as_number());
                 let mut stems = match stems {

@@ -208,9 +208,12 @@ fn invalid_catalogues_are_refused() {
 /// whole stems add up to the rounded total, each within one of its count.
 #[test]
 fn whole_stems_add_up() {
-    // 504 stems at 60/30/10: 302.4, 151.2, 50.4 round to 302, 151, 50 = 503 one by one.
-    let counts = [302.4, 151.2, 50.4];
+    // 504 stems as 302.6, 151.1, 50.3: floors 503, the missing stem goes to the largest
+    // fraction (0.6).
+    let counts = [302.6, 151.1, 50.3];
     assert_eq!(whole_stems(&counts, 504.0), [303.0, 151.0, 50.0]);
+    // 302.3, 151.3, 50.4 (504): floors 503, the stem goes to 50.4.
+    assert_eq!(whole_stems(&[302.3, 151.3, 50.4], 504.0), [302.0, 151.0, 51.0]);
     for total in [0.0, 1.0, 7.0, 105.0, 1633.0, 99_999.0] {
         let counts = [0.6 * total, 0.3 * total, 0.1 * total];
         let whole = whole_stems(&counts, total);

@@ -388,18 +388,13 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
         );
     }
     h.push_str("</table>");
-    // A section per method (catalogue order): how, which class's stems get it at which stop and
-    // how many, and the method's caution set at these stops (its own codes as the plan rows
-    // carry them, with the site codes that bear on it).
-    let mut shown: BTreeSet<String> = BTreeSet::new();
+    // A section per method (catalogue order), compact so a crew-day stays one printed page:
+    // how, which class's stems get it at which stop and how many, and the method's caution set
+    // at these stops (its own codes as the plan rows carry them, with the site codes that bear
+    // on it); the codes' texts follow once for the day.
+    h.push_str("<h3>By method</h3>");
     for (method_id, ins) in methods.values() {
         let method = folder.catalogue.method(*method_id);
-        let _ = write!(
-            h,
-            "<div class=\"method\"><h3>{}: {}</h3><p class=\"small\">",
-            escape(&method.id.replace('_', " ")),
-            escape(&method.label)
-        );
         let mut notes = Vec::new();
         if method.herbicide {
             notes.push("<b>Apply per the product label.</b>".to_string());
@@ -420,8 +415,7 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
                 escape(&folder.catalogue.method(follow).id.replace('_', " "))
             ));
         }
-        h.push_str(&notes.join(" "));
-        h.push_str("</p><ul class=\"small\">");
+        let mut stems = Vec::new();
         let mut codes_here: BTreeSet<String> = BTreeSet::new();
         for (k, s) in d.stops.iter().enumerate() {
             let p = &folder.planned[s.row];
@@ -443,13 +437,12 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
                     .map(|(c, _, n)| format!("{c}: {n:.0} stems"))
                     .collect()
             };
-            let _ = write!(
-                h,
-                "<li>stop {} ({}): {}</li>",
+            stems.push(format!(
+                "stop {} ({}): {}",
                 k + 1,
                 escape(&s.patch_id),
                 escape(&what.join(", "))
-            );
+            ));
             for c in p.cautions.split(';').filter(|c| !c.is_empty()) {
                 let site = matches!(c, "WATER" | "NO_HERBICIDE" | "PERMISSION")
                     || (method.herbicide && matches!(c, "WATER_UNCHECKED" | "RESTRICTED_SITE"));
@@ -458,22 +451,23 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
                 }
             }
         }
-        h.push_str("</ul><div class=\"cautions small\">");
-        for code in &codes_here {
-            if let Some(c) = cautions::lookup(code) {
-                let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
-            }
-        }
-        h.push_str("</div></div>");
-        shown.extend(codes_here);
+        let _ = write!(
+            h,
+            "<div class=\"method small\"><p><b>{}</b>: {}. {}<br>{}<br>Cautions: {}</p></div>",
+            escape(&method.id.replace('_', " ")),
+            escape(&method.label),
+            notes.join(" "),
+            stems.join("; "),
+            codes_here
+                .iter()
+                .map(|c| format!("[{}]", escape(c)))
+                .collect::<Vec<_>>()
+                .join(" ")
+        );
     }
-    // Every site caution of the day's stops is shown: those no method section showed, here.
-    let rest: Vec<&String> = codes.iter().filter(|c| !shown.contains(*c)).collect();
+    // Every site caution of the day's stops, in words, once.
     h.push_str("<h3>Cautions at these sites</h3><div class=\"cautions small\">");
-    if rest.is_empty() {
-        h.push_str("<p>Every caution of these sites is under its method above.</p>");
-    }
-    for code in rest {
+    for code in &codes {
         if let Some(c) = cautions::lookup(code) {
             let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
         }
