@@ -337,7 +337,7 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
     let to = gis::ToLonLat::new(&ctx.crs).ok();
     h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
     let mut codes: BTreeSet<String> = BTreeSet::new();
-    let mut methods: BTreeMap<MethodId, (MethodId, orders::Instructions)> = BTreeMap::new();
+    let mut methods: BTreeMap<String, (MethodId, orders::Instructions)> = BTreeMap::new();
     for (k, s) in d.stops.iter().enumerate() {
         let p = &folder.planned[s.row];
         let ll = to
@@ -349,9 +349,11 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
             codes.insert(c.to_string());
         }
         let ins = orders::instructions(folder, s, d.date);
-        // Every method of the stop's prescription gets its own section.
+        // Every method of the stop's prescription gets its own line under "How".
         for m in p.methods_used() {
-            methods.entry(m).or_insert((m, ins.clone()));
+            methods
+                .entry(folder.catalogue.method(m).id.clone())
+                .or_insert((m, ins.clone()));
         }
         let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
             ("permission", false) => format!("permission first: call {} before entry", p.contact),
@@ -388,85 +390,26 @@ fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
         );
     }
     h.push_str("</table>");
-    // A section per method (catalogue order), compact so a crew-day stays one printed page:
-    // how, which class's stems get it at which stop and how many, and the method's caution set
-    // at these stops (its own codes as the plan rows carry them, with the site codes that bear
-    // on it); the codes' texts follow once for the day.
-    h.push_str("<h3>By method</h3>");
+    h.push_str("<h3>How</h3><ul class=\"small\">");
     for (method_id, ins) in methods.values() {
         let method = folder.catalogue.method(*method_id);
-        let mut notes = Vec::new();
+        let mut line = escape(&method.label);
         if method.herbicide {
-            notes.push("<b>Apply per the product label.</b>".to_string());
+            line.push_str(". <b>Apply per the product label.</b>");
         }
-        if let Some(f) = ins
-            .fell_after
-            .filter(|_| method.cautions.iter().any(|c| c == "FELL30"))
-        {
-            notes.push(format!("Do not fell treated stems before {f}."));
+        // The method's own cautions, when the day's stops use more than one method.
+        if methods.len() > 1 && !method.cautions.is_empty() {
+            let _ = write!(line, " Cautions: {}.", escape(&method.cautions.join(" ")));
         }
-        if let Some(date) = d.date
-            && let Some(f) = orders::method_follow_up(folder, *method_id, date)
-        {
-            let follow = folder.catalogue.follow_up_of(*method_id);
-            notes.push(format!(
-                "Follow-up visit from {} ({}).",
-                escape(&f),
-                escape(&folder.catalogue.method(follow).id.replace('_', " "))
-            ));
+        if let Some(f) = ins.fell_after {
+            let _ = write!(line, " Do not fell treated stems before {f}.");
         }
-        let mut stems = Vec::new();
-        let mut codes_here: BTreeSet<String> = BTreeSet::new();
-        for (k, s) in d.stops.iter().enumerate() {
-            let p = &folder.planned[s.row];
-            if !p.methods_used().contains(method_id) {
-                continue;
-            }
-            let share = if p.stems > 0.0 {
-                s.stems / p.stems
-            } else {
-                1.0
-            };
-            let classes = p.class_stems(share);
-            let what: Vec<String> = if classes.is_empty() {
-                vec![format!("all {:.0} stems", s.stems)]
-            } else {
-                classes
-                    .iter()
-                    .filter(|(_, m, n)| *m == Some(*method_id) && *n > 0.0)
-                    .map(|(c, _, n)| format!("{c}: {n:.0} stems"))
-                    .collect()
-            };
-            stems.push(format!(
-                "stop {} ({}): {}",
-                k + 1,
-                escape(&s.patch_id),
-                escape(&what.join(", "))
-            ));
-            for c in p.cautions.split(';').filter(|c| !c.is_empty()) {
-                let site = matches!(c, "WATER" | "NO_HERBICIDE" | "PERMISSION")
-                    || (method.herbicide && matches!(c, "WATER_UNCHECKED" | "RESTRICTED_SITE"));
-                if site || method.cautions.iter().any(|m| m == c) {
-                    codes_here.insert(c.to_string());
-                }
-            }
+        if let Some(f) = &ins.follow_up {
+            let _ = write!(line, " Follow-up visit from {}.", escape(f));
         }
-        let _ = write!(
-            h,
-            "<div class=\"method small\"><p><b>{}</b>: {}. {}<br>{}<br>Cautions: {}</p></div>",
-            escape(&method.id.replace('_', " ")),
-            escape(&method.label),
-            notes.join(" "),
-            stems.join("; "),
-            codes_here
-                .iter()
-                .map(|c| format!("[{}]", escape(c)))
-                .collect::<Vec<_>>()
-                .join(" ")
-        );
+        let _ = write!(h, "<li>{line}</li>");
     }
-    // Every site caution of the day's stops, in words, once.
-    h.push_str("<h3>Cautions at these sites</h3><div class=\"cautions small\">");
+    h.push_str("</ul><h3>Cautions at these sites</h3><div class=\"cautions small\">");
     for code in &codes {
         if let Some(c) = cautions::lookup(code) {
             let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
