@@ -50,6 +50,47 @@ fn formulations_agree_on_a_small_synthetic_landscape() {
     assert_eq!(o.status.code(), Some(2));
 }
 
+/// `hostcut bench --mixed-classes` (issue 20's benchmark of prescriptions): each synthetic patch
+/// has a size-class mix of its own, the line says so and counts the choices, and the exact
+/// formulations still reach the same optimum (exhaustive agreement of independent formulations
+/// is the oracle, as above), greedy never better.
+#[test]
+fn formulations_agree_with_mixed_size_classes() {
+    let dir = tempfile::tempdir().unwrap();
+    let args = |mixed: bool| {
+        let mut a = vec![
+            "bench", "--patches", "12", "--alpha-m", "300", "--methods", "5", "--time-limit-s",
+            "60", "--gap", "0", "--formulations", "transport,direct",
+        ];
+        if mixed {
+            a.push("--mixed-classes");
+        }
+        a
+    };
+    let o = run(dir.path(), &args(true));
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    assert!(text.contains("a size-class mix of its own per patch"), "{text}");
+    let risk = |name: &str| -> (String, f64) {
+        let line = text
+            .lines()
+            .find(|l| l.starts_with(name))
+            .unwrap_or_else(|| panic!("no {name} line in {text}"));
+        let cols: Vec<&str> = line.split_whitespace().collect();
+        (cols[1].to_string(), cols[2].parse().unwrap())
+    };
+    let (st, rt) = risk("transport");
+    let (sd, rd) = risk("direct");
+    assert_eq!((st.as_str(), sd.as_str()), ("optimal", "optimal"), "{text}");
+    assert!((rd - rt).abs() <= 1e-9 * rt, "direct {rd} vs transport {rt}");
+    assert!(risk("greedy").1 >= rt * (1.0 - 1e-12), "{text}");
+    // The default mix gives other choices: the flag is not ignored.
+    let o = run(dir.path(), &args(false));
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("(the default size mix)"), "{}", stdout(&o));
+    assert_ne!(stdout(&o).lines().next(), text.lines().next());
+}
+
 /// `hostcut bench --raster-side`: the patch count it reports equals an independent count of
 /// the synthetic GeoTIFF's 8-connected components of cells at or above 10 stems/ha (the
 /// defaults), by breadth-first search over the whole band read back through GDAL.

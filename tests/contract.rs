@@ -491,7 +491,12 @@ fn sixty_percent_more_stems_is_refused_without_the_flag_and_accepted_with_it() {
 #[test]
 fn a_substitute_the_site_does_not_allow_is_refused() {
     let dir = tempfile::tempdir().unwrap();
-    planned(dir.path());
+    // Every stem alike (host weights 1): with the built-in weights the budget goes to seed
+    // trees elsewhere and the no-herbicide stand D is not planned; the subject here is the
+    // substitution rule, not the weights.
+    write(dir.path(), "alike.toml", &catalogue_alike());
+    let alike = dir.path().join("alike.toml");
+    planned_with(dir.path(), &["--treatments", alike.to_str().unwrap()]);
     let plan = planned_rows(dir.path());
     assert_eq!(plan["D"].0, "pull_seedlings", "{plan:?}");
     let mut csv = String::from(DONE_HEADER);

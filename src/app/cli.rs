@@ -459,6 +459,10 @@ pub struct BenchArgs {
     /// Budget as a share of treating everything with its most effective method
     #[arg(long, default_value_t = 0.3)]
     pub budget_share: f64,
+    /// Give each patch its own mix of size classes (one in five of one class only, the rest
+    /// random shares) instead of the catalogue's default mix: prescriptions that differ by patch
+    #[arg(long)]
+    pub mixed_classes: bool,
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     #[arg(long, default_value_t = 600.0)]

@@ -56,16 +56,25 @@ pub fn run(args: &BenchArgs, printer: Printer) -> Result<String> {
         epsilon: 1e-3,
         seed: args.seed,
     };
-    let instance = Instance::generate(&InstanceSpec::new(spec, args.methods, args.budget_share))?;
+    let instance = Instance::generate(&InstanceSpec {
+        mixed_classes: args.mixed_classes,
+        ..InstanceSpec::new(spec, args.methods, args.budget_share)
+    })?;
     let land = &instance.land;
     let problem = instance.problem();
     let n = problem.len();
     let mut t = String::new();
     let _ = writeln!(
         t,
-        "synthetic landscape: {n} patches, {} links, {} methods, budget {:.2} ({:.0}% of treating everything), seed {}",
+        "synthetic landscape: {n} patches, {} links, {} methods, {} choices ({}), budget {:.2} ({:.0}% of treating everything), seed {}",
         land.graph.edges.len(),
         args.methods,
+        problem.choices.iter().map(Vec::len).sum::<usize>(),
+        if args.mixed_classes {
+            "a size-class mix of its own per patch"
+        } else {
+            "the default size mix"
+        },
         problem.budget,
         100.0 * args.budget_share,
         args.seed

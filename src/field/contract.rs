@@ -459,8 +459,9 @@ pub fn check_completion(folder: &PlanFolder, path: &Path, extra: ExtraStems) -> 
     Ok(Completion { done, warnings })
 }
 
-/// The follow-up visit is due at the start of the method's window next season (common practice:
-/// survivors and root suckers are treated the next growing season, for two or three seasons).
+/// The follow-up visit is due at the start of the follow-up method's window next season (common
+/// practice: survivors and root suckers are treated the next growing season, for two or three
+/// seasons); `method` is the method the visit uses (`Catalogue::follow_up_of` the one applied).
 pub fn follow_up_due(method: &Method, date: (i32, u8, u8)) -> String {
     let first = method.months.iter().min().copied().unwrap_or(date.1);
     format!("{:04}-{:02}-01", date.0 + 1, first)
@@ -520,7 +521,12 @@ pub fn season<'a>(
                 removed_stems += removed;
                 (
                     (p.stems.max(d.treated_stems) - removed).max(0.0),
-                    follow_up_due(method, d.date),
+                    follow_up_due(
+                        folder
+                            .catalogue
+                            .method(folder.catalogue.follow_up_of(d.method_id)),
+                        d.date,
+                    ),
                 )
             }
             None => (p.stems, String::new()),

@@ -764,9 +764,13 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
     if let Some(f) = fell_after {
         text.push(format!("Do not fell treated stems before {f}."));
     }
-    let follow_up = date
-        .filter(|_| method.cautions.iter().any(|c| c == "FOLLOWUP"))
-        .map(|d| contract::follow_up_due(method, (d.year, d.month, d.day)));
+    // The earliest follow-up of the methods used, each by its own follow-up method's window.
+    let follow_up = date.and_then(|d| {
+        p.methods_used()
+            .into_iter()
+            .filter_map(|m| method_follow_up(folder, m, d))
+            .min()
+    });
     if let Some(f) = &follow_up {
         text.push(format!("Follow-up visit from {f}."));
     }
@@ -775,6 +779,17 @@ pub fn instructions(folder: &PlanFolder, stop: &Stop, date: Option<Date>) -> Ins
         fell_after,
         follow_up,
     }
+}
+
+/// When the follow-up visit after method `m`, applied on `date`, is due (YYYY-MM-DD): the start
+/// of its follow-up method's window next season; None for a method without the FOLLOWUP
+/// caution.
+pub fn method_follow_up(folder: &PlanFolder, m: MethodId, date: Date) -> Option<String> {
+    let method = folder.catalogue.method(m);
+    method.cautions.iter().any(|c| c == "FOLLOWUP").then(|| {
+        let follow = folder.catalogue.method(folder.catalogue.follow_up_of(m));
+        contract::follow_up_due(follow, (date.year, date.month, date.day))
+    })
 }
 
 #[cfg(test)]

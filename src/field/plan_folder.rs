@@ -76,19 +76,29 @@ impl PlannedPatch {
         out
     }
 
+    /// Each class's method (None = leave) and whole stems scaled by `share` (a part of a split
+    /// patch), the stems adding up to the part's (largest remainder); empty without classes.
+    pub fn class_stems(&self, share: f64) -> Vec<(&str, Option<MethodId>, f64)> {
+        let scaled: Vec<f64> = self.classes.iter().map(|c| c.stems * share).collect();
+        let whole = crate::input::treatments::whole_stems(&scaled, scaled.iter().sum());
+        self.classes
+            .iter()
+            .zip(whole)
+            .map(|(c, n)| (c.class.as_str(), c.method, n))
+            .collect()
+    }
+
     /// The prescription in words with each class's stems scaled by `share` (a part of a split
     /// patch), method names spelled out; empty without size classes.
     pub fn prescription_text(&self, catalogue: &Catalogue, share: f64) -> String {
-        self.classes
-            .iter()
-            .map(|c| {
+        self.class_stems(share)
+            .into_iter()
+            .map(|(class, method, n)| {
                 format!(
-                    "{}: {} {:.0}",
-                    c.class,
-                    c.method
+                    "{class}: {} {n:.0}",
+                    method
                         .map(|m| catalogue.method(m).id.replace('_', " "))
                         .unwrap_or_else(|| "leave".into()),
-                    c.stems * share
                 )
             })
             .collect::<Vec<_>>()

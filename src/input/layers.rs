@@ -221,6 +221,7 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
             s.host.layer.as_deref(),
             assume.as_ref(),
             &s.host.stems_field,
+            size_classes,
             s.host.id_field.as_deref(),
             budget,
         )?
@@ -232,8 +233,20 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
     if let Host::Polygons(layer) = &host {
         skipped.add("host_features_without_geometry", layer.without_geometry);
         bindings.host_layer = Some(layer.layer_name.clone());
-        bindings.stems_field =
-            Some(layer.require_field(&s.host.stems_field, "host layer", "--stems-field")?);
+        // With a field for every size class, the classes alone count the stems: a missing
+        // stems field is then said, not refused (`open_host` refused it otherwise).
+        bindings.stems_field = match layer.field(&s.host.stems_field) {
+            Some(f) => Some(f.to_string()),
+            None => {
+                notes.push(format!(
+                    "host layer `{}` has no field `{}`: each stand's stems are the sum of its size-class fields ({})",
+                    layer.path.display(),
+                    s.host.stems_field,
+                    size_classes.join(", ")
+                ));
+                None
+            }
+        };
         if let Some(id) = &s.host.id_field {
             bindings.id_field = Some(layer.require_field(id, "host layer", "--id-field")?);
         }
@@ -504,6 +517,7 @@ fn open_host(
     layer: Option<&str>,
     assume: Option<&Crs>,
     stems_field: &str,
+    size_classes: &[String],
     id_field: Option<&str>,
     budget: &Budget,
 ) -> Result<(Crs, Host)> {
@@ -526,7 +540,12 @@ fn open_host(
     }
     let crs = gis::vector_crs(path, layer, assume, "host layer", "--host-layer")?;
     let layer = gis::read_vector(path, layer, &crs, assume, "host layer", "--host-layer")?;
-    layer.require_field(stems_field, "host layer", "--stems-field")?;
+    // The stems field may be missing only when every size class has a field of its own.
+    let every_class =
+        !size_classes.is_empty() && size_classes.iter().all(|c| layer.field(c).is_some());
+    if !every_class {
+        layer.require_field(stems_field, "host layer", "--stems-field")?;
+    }
     if let Some(id) = id_field {
         layer.require_field(id, "host layer", "--id-field")?;
     }

@@ -504,9 +504,12 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                         ));
                     }
                 };
+                // No stems field (every class has one): the stems are the classes' sum.
+                let has_stems_field = layer.field(&stems_field).is_some();
                 let stems = f.fields.get(&stems_field).and_then(|v| v.as_number());
-                let stems = match stems {
+                let mut stems = match stems {
                     Some(s) if s.is_finite() && s >= 0.0 => s,
+                    None if !has_stems_field => f64::NAN,
                     _ => {
                         return Err(Error::input_with_hint(
                             format!(
@@ -550,7 +553,9 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                     }
                     if any {
                         let sum: f64 = counts.iter().sum();
-                        if (sum - stems).abs() > 0.5 {
+                        if stems.is_nan() {
+                            stems = sum;
+                        } else if (sum - stems).abs() > 0.5 {
                             return Err(Error::input_with_hint(
                                 format!(
                                     "{at}: the stems by size class sum to {sum}, but field `{stems_field}` is {stems}"
@@ -560,6 +565,12 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                         }
                         by_class = Some(counts);
                     }
+                }
+                if stems.is_nan() {
+                    return Err(Error::input_with_hint(
+                        format!("{at}: no stems in any size-class field"),
+                        "give the stand's stems by size class (0 where a class is absent)",
+                    ));
                 }
                 let label = match &id_field {
                     Some(field) => f

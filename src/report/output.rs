@@ -145,7 +145,9 @@ pub fn write_tables(staging: &Staging, o: &Outputs) -> Result<()> {
         }
         cells.push(round(p.stems, 0));
         if !classes.is_empty() {
-            cells.extend(by_class.iter().map(|n| round(*n, 0)));
+            // Whole stems that add up to the patch's (largest remainder).
+            let whole = crate::input::treatments::whole_stems(&by_class, p.stems);
+            cells.extend(whole.iter().map(|n| round(*n, 0)));
         }
         rows.push(cells);
         rows.last_mut().expect("just pushed").extend([

@@ -168,13 +168,34 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
             ));
             for row in plan.rows.iter().take(5) {
                 let p = &patches.items[row.patch.index()];
+                let rank = plan
+                    .rows
+                    .iter()
+                    .position(|r| r.patch == row.patch)
+                    .unwrap_or(0)
+                    + 1;
+                if catalogue.has_classes() {
+                    // The prescription, not the primary method: which class gets what.
+                    let (by_class, _) = catalogue.stems_by_class(p);
+                    t.line(format_args!(
+                        "  {rank:>3}. {:<10} {:>8.0} stems {:>12}  [{}]",
+                        p.label,
+                        p.stems,
+                        money(c, row.choice.cost),
+                        row.cautions.join(" ")
+                    ));
+                    t.line(format_args!(
+                        "       {}",
+                        crate::input::treatments::prescription_text(
+                            catalogue,
+                            &row.choice,
+                            &by_class
+                        )
+                    ));
+                    continue;
+                }
                 t.line(format_args!(
-                    "  {:>3}. {:<10} {:<16} {:>8.0} stems {:>12}  [{}]",
-                    plan.rows
-                        .iter()
-                        .position(|r| r.patch == row.patch)
-                        .unwrap_or(0)
-                        + 1,
+                    "  {rank:>3}. {:<10} {:<16} {:>8.0} stems {:>12}  [{}]",
                     p.label,
                     catalogue.method(row.choice.method).id,
                     p.stems,

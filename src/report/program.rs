@@ -79,7 +79,17 @@ pub fn write(
                     }
                     .to_string(),
                     visit
-                        .map(|v| prepared.catalogue.methods[v.method].id.clone())
+                        .map(|v| match v.action {
+                            // A follow-up names every method it uses (one per treated class's
+                            // follow-up method), joined by `+`.
+                            Action::FollowUp => v
+                                .methods
+                                .iter()
+                                .map(|&k| prepared.catalogue.methods[k].id.as_str())
+                                .collect::<Vec<_>>()
+                                .join("+"),
+                            Action::New => prepared.catalogue.methods[v.method].id.clone(),
+                        })
                         .unwrap_or_default(),
                     visit.map(|v| format!("{:.1}", v.stems)).unwrap_or_default(),
                     format!("{:.2}", visit.map(|v| v.cost).unwrap_or(0.0)),

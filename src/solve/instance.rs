@@ -1,7 +1,7 @@
 //! Random problem instances for benchmarks and tests, the one generator both use: a synthetic
 //! landscape (`model::synthetic`, clustered patches, log-normal stems, a corridor of raised
 //! pressure, one patch in ten where herbicide is prohibited), each patch's choices from the
-//! built-in treatment catalogue, a budget as a share of treating everything, and optionally
+//! built-in treatment catalogue (the default size mix, or a mix of its own per patch), a budget as a share of treating everything, and optionally
 //! crew hours and required and excluded patches drawn from the same seed. Invented data: never
 //! a real place.
 //!
@@ -32,6 +32,10 @@ pub struct InstanceSpec {
     /// This many patches (drawn from the seed) get their pressure multiplied by 100 to 1000:
     /// a few patches that dominate the risk (issue 23's "spikes" shape).
     pub spikes: usize,
+    /// Give each patch its own mix of size classes (drawn from the landscape's seed: one stand
+    /// in five of one class only, the rest random shares) instead of the catalogue's default
+    /// mix, so prescriptions differ from patch to patch.
+    pub mixed_classes: bool,
 }
 
 impl InstanceSpec {
@@ -46,6 +50,7 @@ impl InstanceSpec {
             required_share: 0.0,
             excluded_share: 0.0,
             spikes: 0,
+            mixed_classes: false,
         }
     }
 }
@@ -76,6 +81,21 @@ impl Instance {
             land.model = crate::model::risk::RiskModel::new(&stems, &pressure, &land.graph);
         }
         let (catalogue, _) = Catalogue::load(None)?;
+        if spec.mixed_classes && catalogue.has_classes() {
+            let k = catalogue.n_classes();
+            let mut r = SplitMix::new(spec.landscape.seed ^ 0x0c1a_55e5);
+            for p in &mut land.patches {
+                let shares: Vec<f64> = if r.unit() < 0.2 {
+                    let only = ((r.unit() * k as f64) as usize).min(k - 1);
+                    (0..k).map(|c| if c == only { 1.0 } else { 0.0 }).collect()
+                } else {
+                    let u: Vec<f64> = (0..k).map(|_| 0.05 + r.unit()).collect();
+                    let sum: f64 = u.iter().sum();
+                    u.iter().map(|x| x / sum).collect()
+                };
+                p.by_class = Some(shares.iter().map(|s| s * p.stems).collect());
+            }
+        }
         let choices: Vec<Vec<Choice>> = land
             .patches
             .iter()

@@ -151,6 +151,7 @@ pub fn small_spec(seed: u64, patches: usize) -> InstanceSpec {
         required_share: 0.12,
         excluded_share: 0.12,
         spikes: 0,
+        mixed_classes: false,
     }
 }
 
@@ -217,4 +218,20 @@ impl Row {
         cell.parse()
             .unwrap_or_else(|_| panic!("`{column}` = `{cell}` is not a number"))
     }
+}
+
+/// The built-in catalogue with every size class's `host_weight` 1 (each stem counts alike, as
+/// before host weights): for tests whose subject is not the weights and whose fixtures were
+/// sized for the plans before them.
+pub fn catalogue_alike() -> String {
+    let mut out = String::new();
+    for line in hostcut::input::treatments::BUILTIN.lines() {
+        if line.starts_with("host_weight =") {
+            out.push_str("host_weight = 1.0\n");
+        } else {
+            out.push_str(line);
+            out.push('\n');
+        }
+    }
+    out
 }

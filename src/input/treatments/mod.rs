@@ -112,6 +112,11 @@ pub struct SizeClass {
     /// The class's share of a stand counted only as `stems` (the default mix).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub default_share: Option<f64>,
+    /// How much one stem of the class counts in the patch's host (default 1): the remaining
+    /// host r_i is the host-weighted remainder over classes, so a class that carries more of
+    /// the risk (seed trees) counts for more than its stem count.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub host_weight: Option<f64>,
     #[serde(default)]
     pub source: String,
 }
@@ -336,6 +341,13 @@ impl Catalogue {
                     "size class `{id}`: default_share must be between 0 and 1, got {v}"
                 )));
             }
+            if let Some(v) = c.host_weight
+                && !(v.is_finite() && v > 0.0)
+            {
+                return Err(bad(format!(
+                    "size class `{id}`: host_weight must be more than 0, got {v}"
+                )));
+            }
         }
         for m in &self.methods {
             if self.size_classes.is_empty() {
@@ -534,6 +546,17 @@ impl Catalogue {
             })
     }
 
+    /// Each class's host weight (1 for the implicit class and a class without `host_weight`).
+    pub fn host_weights(&self) -> Vec<f64> {
+        if self.size_classes.is_empty() {
+            return vec![1.0];
+        }
+        self.size_classes
+            .iter()
+            .map(|c| c.host_weight.unwrap_or(1.0))
+            .collect()
+    }
+
     /// A patch's stems by class, and whether they came from the default mix (a patch counted
     /// only as `stems`, or a raster).
     pub fn stems_by_class(&self, patch: &Patch) -> (Vec<f64>, bool) {
@@ -568,12 +591,20 @@ impl Catalogue {
             .map(|k| MethodId(k as u16))
     }
 
+    /// The method a follow-up visit after `m` uses: its `follow_up_method`, or `m` again.
+    pub fn follow_up_of(&self, m: MethodId) -> MethodId {
+        self.method(m)
+            .follow_up_method
+            .as_ref()
+            .and_then(|id| self.find(id))
+            .unwrap_or(m)
+    }
+
     pub fn method(&self, id: MethodId) -> &Method {
         &self.methods[id.0 as usize]
     }
 }
 
-/// A class's slot in [`Choice::per_class`] when the class is left (or absent from the patch).
 mod prescription;
 pub use prescription::*;
 

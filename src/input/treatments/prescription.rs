@@ -14,8 +14,8 @@ pub struct Choice {
     pub method: MethodId,
     pub cost: f64,
     pub hours: f64,
-    /// r: the stem-weighted share of host left after treatment (1 - effectiveness for one
-    /// method on every stem).
+    /// r: the host-weighted share of host left after treatment (each class's stems x its
+    /// `host_weight`; 1 - effectiveness for one method on every stem).
     pub remaining: f64,
     /// The method index used on each size class, [`LEAVE`] for a class left or absent.
     pub per_class: [u16; MAX_CLASSES],
@@ -74,6 +74,7 @@ impl Choice {
 /// classes only.
 pub fn prescription_text(catalogue: &Catalogue, choice: &Choice, by_class: &[f64]) -> String {
     let ids = catalogue.class_ids();
+    let whole = whole_stems(by_class, by_class.iter().sum());
     (0..ids.len())
         .rev()
         .filter(|&c| by_class.get(c).copied().unwrap_or(0.0) > 0.0)
@@ -82,10 +83,45 @@ pub fn prescription_text(catalogue: &Catalogue, choice: &Choice, by_class: &[f64
                 .method_for(c)
                 .map(|m| catalogue.method(m).id.as_str())
                 .unwrap_or("leave");
-            format!("{}: {what} {}", ids[c], by_class[c].round())
+            format!("{}: {what} {}", ids[c], whole[c])
         })
         .collect::<Vec<_>>()
         .join("; ")
+}
+
+/// Whole stems per class that add up to `total` rounded (largest-remainder rounding, the
+/// Hamilton method, common practice for shares that must sum to a whole): each class gets its
+/// count rounded down, and the stems still missing go one each to the classes with the largest
+/// fractions (the first class on a tie). Where a person reads per-class stems beside the
+/// patch's, they then add up.
+pub fn whole_stems(counts: &[f64], total: f64) -> Vec<f64> {
+    let target = total.round().max(0.0);
+    let mut out: Vec<f64> = counts.iter().map(|n| n.max(0.0).floor()).collect();
+    let mut missing = target - out.iter().sum::<f64>();
+    let mut order: Vec<usize> = (0..counts.len()).collect();
+    order.sort_by(|&a, &b| {
+        let f = |k: usize| counts[k].max(0.0) - counts[k].max(0.0).floor();
+        f(b).total_cmp(&f(a)).then(a.cmp(&b))
+    });
+    // Add to the largest fractions; a target below the floors (never for counts summing to
+    // `total`) takes from the smallest fractions instead.
+    if !order.is_empty() {
+        let mut k = 0;
+        while missing >= 1.0 {
+            out[order[k % order.len()]] += 1.0;
+            missing -= 1.0;
+            k += 1;
+        }
+        while missing <= -1.0 && out.iter().any(|&n| n >= 1.0) {
+            for &c in order.iter().rev() {
+                if missing <= -1.0 && out[c] >= 1.0 {
+                    out[c] -= 1.0;
+                    missing += 1.0;
+                }
+            }
+        }
+    }
+    out
 }
 
 /// The prescriptions a patch may receive. A method is used only where it is allowed on the
@@ -96,8 +132,8 @@ pub fn prescription_text(catalogue: &Catalogue, choice: &Choice, by_class: &[f64
 /// on. Every class present gets one covering method or is left; the all-leave prescription is
 /// not a choice. Cost = the fixed `cost_per_patch` of each distinct method used + stems x cost
 /// per stem of each class, times the site's cost factor, to the cent; hours = stems x hours per
-/// stem; remaining = the stem-weighted mean over classes of each class's remainder (1 when
-/// left). With size classes, prescriptions no better than another on cost, hours and remaining
+/// stem; remaining = the host-weighted mean over classes (stems x the class's `host_weight`)
+/// of each class's remainder (1 when left). With size classes, prescriptions no better than another on cost, hours and remaining
 /// are dropped; a catalogue without size classes gives one choice per method, in catalogue
 /// order, as before.
 pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Vec<Choice> {
@@ -111,16 +147,20 @@ pub fn choices_for(catalogue: &Catalogue, patch: &Patch, trap_trees: bool) -> Ve
         .map(|(k, _)| MethodId(k as u16))
         .collect();
     let (stems, _) = catalogue.stems_by_class(patch);
+    let host_weights = catalogue.host_weights();
     let total: f64 = stems.iter().sum();
+    let host: f64 = stems.iter().zip(&host_weights).map(|(n, w)| n * w).sum();
     // Classes present; a patch of 0 stems (only ever planned when required) has every class.
     let present: Vec<usize> = if !catalogue.has_classes() || total <= 0.0 {
         (0..stems.len()).collect()
     } else {
         (0..stems.len()).filter(|&c| stems[c] > 0.0).collect()
     };
+    // A class's share of the patch's host: its stems x its host weight over the patch's sum
+    // (the stem share when every weight is 1, as in a catalogue without classes: x 1.0 is exact).
     let weight = |c: usize| {
-        if total > 0.0 {
-            stems[c] / total
+        if total > 0.0 && host > 0.0 {
+            stems[c] * host_weights[c] / host
         } else {
             1.0 / present.len() as f64
         }
@@ -303,4 +343,99 @@ pub fn caution_codes(method: &Method, patch: &Patch) -> Vec<&'static str> {
     codes.sort_unstable();
     codes.dedup();
     codes
+}
+
+/// One method's part of a follow-up visit: the stems it treats.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FollowUp {
+    pub method: MethodId,
+    pub stems: f64,
+}
+
+/// The first follow-up visit of `choice` on the patch's stems x `scale`: each treated class's
+/// survivors and suckers (its stems x its method's `follow_up_share`), visited with the
+/// `follow_up_method` of the method applied to that class when the site allows it (else that
+/// method again), grouped by follow-up method in catalogue order. A left class is not followed
+/// up.
+pub fn follow_ups(
+    catalogue: &Catalogue,
+    patch: &Patch,
+    choice: &Choice,
+    scale: f64,
+) -> Vec<FollowUp> {
+    let (stems, _) = catalogue.stems_by_class(patch);
+    let mut out: Vec<FollowUp> = Vec::new();
+    for (c, &n) in stems.iter().enumerate() {
+        let Some(m) = choice.method_for(c) else {
+            continue;
+        };
+        let method = catalogue.method(m);
+        let follow = method
+            .follow_up_method
+            .as_ref()
+            .and_then(|id| catalogue.find(id))
+            .filter(|&f| catalogue.method(f).allowed_on(&patch.site))
+            .unwrap_or(m);
+        let n = method.follow_up_share() * (n * scale);
+        match out.iter_mut().find(|g| g.method == follow) {
+            Some(g) => g.stems += n,
+            None => out.push(FollowUp {
+                method: follow,
+                stems: n,
+            }),
+        }
+    }
+    out.sort_by_key(|g| g.method);
+    out
+}
+
+/// The cost and crew hours of one follow-up visit: the fixed cost of each method used + stems x
+/// its cost per stem, times the site's cost factor, to the cent. Suckers and survivors are
+/// seedling- and sapling-sized (methods notes section 8), so a follow-up stem is priced as the
+/// smallest class the follow-up method covers.
+pub fn price_follow_up(catalogue: &Catalogue, patch: &Patch, visit: &[FollowUp]) -> (f64, f64) {
+    let (mut cost, mut hours) = (0.0, 0.0);
+    for g in visit {
+        let method = catalogue.method(g.method);
+        let (cps, hps) = (0..catalogue.n_classes())
+            .find_map(|c| catalogue.cover(g.method, c))
+            .unwrap_or((method.cost_per_stem, method.hours_per_stem));
+        cost += method.cost_per_patch + cps * g.stems;
+        hours += hps * g.stems;
+    }
+    (
+        (cost * patch.site.cost_factor * 100.0).round() / 100.0,
+        hours,
+    )
+}
+
+/// The share of the host a follow-up visit leaves: the stem-weighted mean of its methods'
+/// remaining shares (one method's own share exactly).
+pub fn follow_up_remaining(catalogue: &Catalogue, visit: &[FollowUp]) -> f64 {
+    match visit {
+        [] => 1.0,
+        [g] => catalogue.method(g.method).remaining(),
+        _ => {
+            let stems: f64 = visit.iter().map(|g| g.stems).sum();
+            if stems <= 0.0 {
+                return catalogue.method(visit[0].method).remaining();
+            }
+            visit
+                .iter()
+                .map(|g| g.stems * catalogue.method(g.method).remaining())
+                .sum::<f64>()
+                / stems
+        }
+    }
+}
+
+/// The next follow-up visit: each method's stems x its own remaining share.
+pub fn next_follow_up(catalogue: &Catalogue, visit: &[FollowUp]) -> Vec<FollowUp> {
+    visit
+        .iter()
+        .map(|g| FollowUp {
+            method: g.method,
+            stems: g.stems * catalogue.method(g.method).remaining(),
+        })
+        .collect()
 }

@@ -110,14 +110,18 @@ fn prescriptions_cover_only_their_classes() {
         let methods = ch.methods();
         let mut cost: f64 = methods.iter().map(|&m| c.method(m).cost_per_patch).sum();
         let mut remaining = 0.0;
+        // Host weights 1, 2, 8 (models/treatments.toml): host 60 + 60 + 80 = 200.
+        let w = c.host_weights();
+        assert_eq!(w, [1.0, 2.0, 8.0]);
         for class in 0..3 {
             let n = p.by_class.as_ref().unwrap()[class];
+            let share = n * w[class] / 200.0;
             match ch.method_for(class) {
                 Some(m) => {
                     cost += n * c.cover(m, class).unwrap().0;
-                    remaining += n / 100.0 * c.method(m).remaining();
+                    remaining += share * c.method(m).remaining();
                 }
-                None => remaining += n / 100.0,
+                None => remaining += share,
             }
         }
         assert!((ch.cost - cost).abs() <= 0.005 + 1e-9);
@@ -142,7 +146,8 @@ fn prescriptions_cover_only_their_classes() {
     let choices = choices_for(&c, &p, false);
     assert_eq!(choices.len(), 1);
     assert_eq!(c.method(choices[0].method).id, "pull_seedlings");
-    assert!((choices[0].remaining - (0.6 * 0.4 + 0.4)).abs() < 1e-12);
+    // Seedlings are 60 of 200 host units (weights 1, 2, 8).
+    assert!((choices[0].remaining - (0.3 * 0.4 + 0.7)).abs() < 1e-12);
     // Counted only as stems: the default mix 60/30/10 applies.
     p.by_class = None;
     assert_eq!(c.stems_by_class(&p), (vec![60.0, 30.0, 10.0], true));
@@ -197,4 +202,24 @@ fn invalid_catalogues_are_refused() {
         )
         .is_err()
     );
+}
+
+/// Largest-remainder (Hamilton) rounding, common practice for shares that must add up: the
+/// whole stems add up to the rounded total, each within one of its count.
+#[test]
+fn whole_stems_add_up() {
+    // 504 stems as 302.6, 151.1, 50.3: floors 503, the missing stem goes to the largest
+    // fraction (0.6).
+    let counts = [302.6, 151.1, 50.3];
+    assert_eq!(whole_stems(&counts, 504.0), [303.0, 151.0, 50.0]);
+    // 302.3, 151.3, 50.4 (504): floors 503, the stem goes to 50.4.
+    assert_eq!(whole_stems(&[302.3, 151.3, 50.4], 504.0), [302.0, 151.0, 51.0]);
+    for total in [0.0, 1.0, 7.0, 105.0, 1633.0, 99_999.0] {
+        let counts = [0.6 * total, 0.3 * total, 0.1 * total];
+        let whole = whole_stems(&counts, total);
+        assert_eq!(whole.iter().sum::<f64>(), total, "{total}");
+        for (w, n) in whole.iter().zip(counts) {
+            assert!((w - n).abs() < 1.0, "{total}: {w} for {n}");
+        }
+    }
 }

@@ -1,11 +1,12 @@
 //! The follow-up seasons a one-season plan commits to: survivors and root suckers of every
 //! treated patch are visited again in the next [`FOLLOW_UP_SEASONS`] seasons, with the share of
-//! stems and the method the catalogue gives (`follow_up_share` of each treated size class's
-//! method, the primary method's `follow_up_method`).
+//! stems and the method the catalogue gives (`follow_up_share` and `follow_up_method` of the
+//! method applied to each treated size class).
 //!
 //! # Units
 //! Money in catalogue currency, priced to the cent per patch and visit as the plan's own costs.
 
+use crate::input::treatments::{follow_ups, next_follow_up, price_follow_up};
 use crate::planning::prepare::Prepared;
 use crate::solve::problem::Assignment;
 
@@ -15,7 +16,8 @@ pub const FOLLOW_UP_SEASONS: usize = 2;
 
 /// The cost of the follow-up visits of `assignment` over [`FOLLOW_UP_SEASONS`] seasons: the
 /// k-th visit treats `sum over treated classes of follow_up_share x stems x r_f^(k-1)` stems
-/// (a left class is not followed up) with the follow-up method (r_f its remaining share), as
+/// (a left class is not followed up) with each class's follow-up method (r_f its remaining
+/// share), as
 /// `hostcut program` prices them, without host growth.
 pub fn follow_up_cost(prepared: &Prepared, assignment: &Assignment) -> f64 {
     let catalogue = &prepared.catalogue;
@@ -26,29 +28,15 @@ pub fn follow_up_cost(prepared: &Prepared, assignment: &Assignment) -> f64 {
             continue;
         };
         let patch = &prepared.patches.items[i];
-        let method = &catalogue.methods[choice.method.0 as usize];
-        let follow = method
-            .follow_up_method
-            .as_ref()
-            .and_then(|id| catalogue.methods.iter().position(|x| &x.id == id))
-            .filter(|&f| catalogue.methods[f].allowed_on(&patch.site))
-            .map(|f| &catalogue.methods[f])
-            .unwrap_or(method);
-        // Survivors and suckers of every treated class (each class's stems x its method's
-        // follow-up share), visited with the primary method's follow-up method, as
-        // `planning::program::courses` does.
-        let (_, _, mut stems) =
-            crate::input::treatments::price_scaled(catalogue, patch, choice, 1.0);
+        // Survivors and suckers of every treated class, visited with the follow-up method of
+        // the method applied to that class, as `planning::program::courses` does.
+        let mut visit = follow_ups(catalogue, patch, choice, 1.0);
         for _ in 0..FOLLOW_UP_SEASONS {
-            if stems <= 0.0 {
+            if visit.iter().map(|g| g.stems).sum::<f64>() <= 0.0 {
                 break;
             }
-            total += ((follow.cost_per_patch + follow.cost_per_stem * stems)
-                * patch.site.cost_factor
-                * 100.0)
-                .round()
-                / 100.0;
-            stems *= follow.remaining();
+            total += price_follow_up(catalogue, patch, &visit).0;
+            visit = next_follow_up(catalogue, &visit);
         }
     }
     total

@@ -7,9 +7,11 @@
 //! - Untreated: U_t = (1 + g)^(t-1).
 //! - New treatment with method m in season s: h_s = U_s r_m; it costs the method's price on
 //!   stems x U_s.
-//! - The k-th follow-up (season s + k) visits phi_m x stems x U_s x r_f^(k-1) stems (phi_m the
-//!   method's `follow_up_share`, r_f the follow-up method's remaining share) and leaves
-//!   h = h_prev x r_f.
+//! - The k-th follow-up (season s + k) visits, per treated class c with method m_c,
+//!   phi_(m_c) x stems_c x U_s x r_f^(k-1) stems with f = m_c's `follow_up_method` (phi its
+//!   `follow_up_share`, r_f f's remaining share; priced as the smallest class f covers, since
+//!   suckers and survivors are seedling- and sapling-sized), and leaves h = h_prev x r̄, r̄ the
+//!   visit's stem-weighted mean of its methods' r_f.
 //! - After the last visit the host regrows toward its untreated course:
 //!   h_t = h_(t-1) + rho (U_t - h_(t-1)).
 //!
@@ -32,7 +34,9 @@ use good_lp::{Expression, ProblemVariables, SolverModel, Variable, variable};
 
 use crate::core::error::{Error, Result};
 use crate::input::patches::Patch;
-use crate::input::treatments::{Catalogue, Choice};
+use crate::input::treatments::{
+    Catalogue, Choice, FollowUp, follow_up_remaining, follow_ups, next_follow_up, price_follow_up,
+};
 use crate::model::risk::RiskModel;
 use crate::solve::mip::highs::{Built, run_highs};
 use crate::solve::problem::{Assignment, Limits, OPTIMAL_GAP, Status};
@@ -49,8 +53,11 @@ pub enum Action {
 pub struct Visit {
     pub season: usize,
     pub action: Action,
-    /// Catalogue index of the method used.
+    /// Catalogue index of the method used (of a follow-up with several, the one treating the
+    /// most stems).
     pub method: usize,
+    /// Every method used, in catalogue order (a prescription's, or a follow-up's per class).
+    pub methods: Vec<usize>,
     pub stems: f64,
     pub cost: f64,
     pub hours: f64,
@@ -99,14 +106,6 @@ impl Horizon {
     }
 }
 
-fn price(catalogue: &Catalogue, method: usize, patch: &Patch, stems: f64) -> (f64, f64) {
-    let m = &catalogue.methods[method];
-    let cost = ((m.cost_per_patch + m.cost_per_stem * stems) * patch.site.cost_factor * 100.0)
-        .round()
-        / 100.0;
-    (cost, m.hours_per_stem * stems)
-}
-
 /// Every course a patch may take (its eligible methods `choices`, each start season, each
 /// number of consecutive follow-ups).
 pub fn courses(
@@ -120,24 +119,15 @@ pub fn courses(
     let mut out = Vec::new();
     for (choice_index, choice) in choices.iter().enumerate() {
         let m = choice.method.0 as usize;
-        let method = &catalogue.methods[m];
-        // The follow-up method, if this site may have it; else the same method again.
-        let fu = method
-            .follow_up_method
-            .as_ref()
-            .and_then(|id| catalogue.methods.iter().position(|x| &x.id == id))
-            .filter(|&f| catalogue.methods[f].allowed_on(&patch.site))
-            .unwrap_or(m);
-        let r_f = catalogue.methods[fu].remaining();
         for start in 0..s_count {
-            for follow_ups in 0..s_count - start {
+            for follow_ups_n in 0..s_count - start {
                 let mut host = u.clone();
                 let mut cost = vec![0.0; s_count];
                 let mut hours = vec![0.0; s_count];
                 let mut visits = Vec::new();
                 let stems = patch.stems * u[start];
                 // The new treatment is the whole prescription on the grown stand.
-                let (c, h, survivors) =
+                let (c, h, _) =
                     crate::input::treatments::price_scaled(catalogue, patch, choice, u[start]);
                 cost[start] = c;
                 hours[start] = h;
@@ -146,28 +136,41 @@ pub fn courses(
                     season: start,
                     action: Action::New,
                     method: m,
+                    methods: choice.methods().iter().map(|k| k.0 as usize).collect(),
                     stems,
                     cost: c,
                     hours: h,
                 });
                 // Survivors and suckers of every treated class: seedling- and sapling-sized,
-                // visited with the primary method's follow-up method (methods notes section 8).
-                let mut visit_stems = survivors;
+                // visited with the follow-up method of the method applied to that class
+                // (methods notes section 8).
+                let mut visit = follow_ups(catalogue, patch, choice, u[start]);
                 for t in start + 1..s_count {
-                    if t <= start + follow_ups {
-                        let (c, h) = price(catalogue, fu, patch, visit_stems);
+                    if t <= start + follow_ups_n {
+                        let (c, h) = price_follow_up(catalogue, patch, &visit);
                         cost[t] = c;
                         hours[t] = h;
-                        host[t] = host[t - 1] * r_f;
+                        host[t] = host[t - 1] * follow_up_remaining(catalogue, &visit);
+                        // The method treating the most stems names the visit (the first on a
+                        // tie); `methods` lists them all.
+                        let lead = visit
+                            .iter()
+                            .fold(None::<&FollowUp>, |best, g| match best {
+                                Some(b) if b.stems >= g.stems => best,
+                                _ => Some(g),
+                            })
+                            .map(|g| g.method.0 as usize)
+                            .unwrap_or(m);
                         visits.push(Visit {
                             season: t,
                             action: Action::FollowUp,
-                            method: fu,
-                            stems: visit_stems,
+                            method: lead,
+                            methods: visit.iter().map(|g| g.method.0 as usize).collect(),
+                            stems: visit.iter().map(|g| g.stems).sum(),
                             cost: c,
                             hours: h,
                         });
-                        visit_stems *= r_f;
+                        visit = next_follow_up(catalogue, &visit);
                     } else {
                         host[t] = host[t - 1] + horizon.regrowth * (u[t] - host[t - 1]);
                     }
@@ -176,7 +179,7 @@ pub fn courses(
                     start,
                     method: m,
                     choice: choice_index,
-                    follow_ups,
+                    follow_ups: follow_ups_n,
                     host,
                     cost,
                     hours,

@@ -126,7 +126,8 @@ pub(super) fn orders_csv(ctx: &Orders) -> Result<Vec<u8>> {
             cells.push(p.prescription_text(&ctx.folder.catalogue, 1.0));
         }
         cells.extend([
-            format!("{:.1}", p.stems),
+            // Whole stems, as on every scheduled row.
+            format!("{:.0}", p.stems.round() + 0.0),
             f2(p.crew_hours),
             String::new(),
             String::new(),
