@@ -186,7 +186,6 @@ fn plan(dir: &std::path::Path, out: &str, extra: &[&str]) -> std::process::Outpu
         "0",
         "--out",
         out,
-        "--quiet",
     ];
     args.extend_from_slice(extra);
     run(dir, &args)

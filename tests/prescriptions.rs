@@ -376,5 +376,7 @@ fn a_catalogue_without_size_classes_reproduces_the_old_plan() {
         got == want,
         "plan.csv differs from the one before size classes"
     );
-    assert!(!stdout(&o).contains("assumption:"));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("old/summary.json")).unwrap()).unwrap();
+    assert!(summary["stem_mix_assumption"].is_null(), "{summary}");
 }

@@ -228,7 +228,7 @@ fn density_order(prepared: &Prepared) -> Vec<usize> {
 
 /// A random feasible plan for run `run`: eligible patches in a random order (Fisher–Yates on
 /// the run's own stream), each treated with its most effective method while it fits.
-fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
+fn random_plan(prepared: &Prepared, problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
     let mut order: Vec<usize> = (0..problem.len()).collect();
     let mut g = simulate::stream(seed, run, 0, 1);
     for k in (1..order.len()).rev() {
@@ -236,7 +236,7 @@ fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
         order.swap(k, j.min(k));
     }
     let a = baselines::fill_in_order(problem, &order).unwrap_or_else(|| vec![None; problem.len()]);
-    problem.remaining(&a)
+    prepared.treated_host(&a)
 }
 
 /// The `k`-th random feasible plan of the proxy check, fixed over runs (its own stream,
@@ -354,7 +354,7 @@ pub fn simulate_plan(
         ..prepared.landscape()
     };
     let seed = runs.seed;
-    let random = |run: u64| random_plan(problem, seed, run);
+    let random = |run: u64| random_plan(prepared, problem, seed, run);
     // Fixed plans by strategy id; a rule whose plan does not fit is left out (it has no plan
     // to simulate), corridor-first without corridors too (it would be biggest-first).
     let mut ids: Vec<&'static str> = vec!["none", "plan"];
@@ -374,7 +374,7 @@ pub fn simulate_plan(
     plans.push(None);
     let mut treatments: Vec<Treatment> = plans
         .iter()
-        .filter_map(|a| a.map(|a| Treatment::Fixed(problem.remaining(a))))
+        .filter_map(|a| a.map(|a| Treatment::Fixed(prepared.treated_host(a))))
         .collect();
     treatments.push(Treatment::PerRun(&random));
     // The proxy check's extra plans: half random feasible plans, half perturbed optima.
@@ -386,7 +386,8 @@ pub fn simulate_plan(
             perturbed_plan(problem, plan, seed, k).map(|a| (format!("perturbed_{}", k + 1), a))
         }))
         .collect();
-    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(problem.remaining(a))));
+    // The host as treated: the objective's horizon (if any) is a score, not the dynamics.
+    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(prepared.treated_host(a))));
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),
