@@ -364,6 +364,9 @@ fn a_catalogue_without_size_classes_reproduces_the_old_plan() {
             "demo/scenario.resolved.toml",
             "--treatments",
             fixtures.join("treatments.toml").to_str().unwrap(),
+            // The fixture was written by the one-season objective, before the horizon term.
+            "--horizon-years",
+            "1",
             "--out",
             "old",
             "--quiet",

@@ -340,7 +340,13 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let said = String::from_utf8_lossy(&o.stdout).contains("the programme is the season-by-season plan");
-    let o = go(dir.path(), "plan", &["--budget", "2500", "--out", "plan"]);
+    // The one-season objective: a programme models regrowth season by season itself, so its
+    // one season is the plan without the horizon term (docs/model.md).
+    let o = go(
+        dir.path(),
+        "plan",
+        &["--budget", "2500", "--horizon-years", "1", "--out", "plan"],
+    );
     assert!(o.status.success(), "{}", stderr(&o));
     let set = |path: &str| {
         let mut v: Vec<(String, String)> = Table::read(&dir.path().join(path))

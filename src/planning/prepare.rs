@@ -318,13 +318,23 @@ impl Prepared {
         patches::raster_cost(&self.patches.runs)
     }
 
+    /// T of the objective's horizon term: `plan.horizon_years`, else
+    /// [`crate::model::risk::DEFAULT_HORIZON_YEARS`]; 1 is the one-season objective.
+    pub fn horizon_years(&self) -> u32 {
+        self.resolved
+            .plan
+            .horizon_years
+            .unwrap_or(crate::model::risk::DEFAULT_HORIZON_YEARS)
+    }
+
     /// The optimiser's problem at `budget` and `crew_hours`: with a horizon
     /// (`plan.horizon_years`), each option's remaining host is its mean over the horizon as it
     /// regrows ([`crate::model::risk::horizon_remaining`]); the dynamics (`simulate`) take the
     /// host as treated from [`Prepared::treated_host`].
     pub fn problem(&self, budget: f64, crew_hours: Option<f64>) -> Problem<'_> {
         let mut choices = self.choices.clone();
-        if let Some(years) = self.resolved.plan.horizon_years.filter(|&t| t > 1) {
+        let years = self.horizon_years();
+        if years > 1 {
             let g = self
                 .resolved
                 .plan
