@@ -138,8 +138,9 @@ pub struct SimJson {
 }
 
 /// The verdict sentence of [`SimJson::verdict`], or `None` when every strategy is worse than
-/// the plan in every year (interval entirely above zero).
-pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
+/// the plan in every year (interval entirely above zero). `horizon_years`: the objective's
+/// horizon term (1: the one-season objective), named in the closing sentence.
+pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
     let mut parts = Vec::new();
     let mut reasons = Vec::new();
     for v in versus {
@@ -176,8 +177,15 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
     if parts.is_empty() {
         return None;
     }
+    let objective = if horizon_years > 1 {
+        format!(
+            "The plan minimises the static risk R with each treatment's host averaged over {horizon_years} years of regrowth, but treats once and does not model recolonisation"
+        )
+    } else {
+        "The plan minimises the static risk R after one season of treatment".to_string()
+    };
     Some(format!(
-        "{}. Why: {}. The plan minimises the static risk R after one season of treatment, and a one-season treatment fades as host regrows and the insect recolonises; compare with a multi-season programme (`hostcut program`).",
+        "{}. Why: {}. {objective}, and a one-season treatment fades as host regrows and the insect recolonises; compare with a multi-season programme (`hostcut program`).",
         parts.join("; "),
         reasons.join("; ")
     ))
@@ -473,7 +481,7 @@ pub fn simulate_plan(
             }
         })
         .collect();
-    let verdict = verdict(&versus_plan);
+    let verdict = verdict(&versus_plan, prepared.horizon_years());
     // Proxy check: every fixed plan but no action, and the random fixed plans.
     let over_runs = |t: &Trace, f: &dyn Fn(&Trace, usize) -> f64| {
         pct((0..n).map(|k| f(t, k)).sum::<f64>() / n as f64)
