@@ -32,8 +32,19 @@ fn plan(dir: &Path, out: &str, budget: &str) -> (serde_json::Value, String) {
     let o = run(
         dir,
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--treatments",
-            "treatments.toml", "--budget", budget, "--gap", "0", "--out", out,
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--treatments",
+            "treatments.toml",
+            "--budget",
+            budget,
+            "--gap",
+            "0",
+            "--out",
+            out,
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
@@ -65,7 +76,13 @@ fn treating_only_the_smaller_cluster_says_why_lambda_did_not_fall() {
     let eigen = d["eigenvector_share_treated_pct"].as_f64().unwrap();
     assert!(eigen < 5.0, "{eigen}");
     let sentence = d["sentence"].as_str().unwrap();
-    assert!(sentence.contains(&format!("{:.1} % of its weight on patches this plan leaves untreated", 100.0 - eigen)), "{sentence}");
+    assert!(
+        sentence.contains(&format!(
+            "{:.1} % of its weight on patches this plan leaves untreated",
+            100.0 - eigen
+        )),
+        "{sentence}"
+    );
     assert!(text.contains(sentence), "stdout lacks the sentence: {text}");
 }
 
@@ -79,7 +96,8 @@ fn agreeing_measures_get_no_sentence() {
     let (s, text) = plan(dir.path(), "all", "100000");
     assert_eq!(s["n_treated"], 6);
     let r = s["risk_reduction_pct"].as_f64().unwrap();
-    let l = 100.0 * (1.0 - s["lambda_after"].as_f64().unwrap() / s["lambda_before"].as_f64().unwrap());
+    let l =
+        100.0 * (1.0 - s["lambda_after"].as_f64().unwrap() / s["lambda_before"].as_f64().unwrap());
     assert!((r - l).abs() < 20.0, "R {r} lambda {l}");
     assert!(s.get("measures_diverge").is_none(), "{s}");
     assert!(!text.contains("leading eigenvector"), "{text}");

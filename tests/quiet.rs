@@ -65,12 +65,18 @@ fn quiet_stdout_is_the_cautions_block_when_herbicide_is_prescribed() {
             .unwrap_or_else(|| panic!("{name}: stdout is not the cautions block: {text}"));
         // plan's block ends with the site check's water line.
         assert!(
-            rest.is_empty() || (name == "plan" && rest.starts_with("\nWater: ") && rest.lines().count() == 2),
+            rest.is_empty()
+                || (name == "plan" && rest.starts_with("\nWater: ") && rest.lines().count() == 2),
             "{name}: more than the cautions block on stdout: {rest:?}"
         );
     }
     // The results are in the files.
-    assert!(summary(&dir.path().join("p"))["n_treated"].as_u64().unwrap() > 0);
+    assert!(
+        summary(&dir.path().join("p"))["n_treated"]
+            .as_u64()
+            .unwrap()
+            > 0
+    );
 }
 
 #[test]
@@ -81,7 +87,12 @@ fn quiet_stdout_is_empty_when_no_herbicide_is_prescribed() {
         assert_eq!(text, "", "{name}: stdout under --quiet without herbicide");
     }
     // Something was planned, by hand: the empty stdout is not an empty plan.
-    assert!(summary(&dir.path().join("p"))["n_treated"].as_u64().unwrap() > 0);
+    assert!(
+        summary(&dir.path().join("p"))["n_treated"]
+            .as_u64()
+            .unwrap()
+            > 0
+    );
     let plan = std::fs::read_to_string(dir.path().join("p/plan.csv")).unwrap();
     assert!(plan.contains("pull_seedlings"), "{plan}");
 }
@@ -94,8 +105,16 @@ fn quiet_sends_warnings_to_stderr() {
     let o = run(
         dir.path(),
         &[
-            "plan", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--budget", "5", "--out",
-            "p", "--quiet",
+            "plan",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "5",
+            "--out",
+            "p",
+            "--quiet",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));

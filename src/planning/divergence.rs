@@ -44,7 +44,9 @@ pub fn explain(
     shares: &[f64],
     treated: &[bool],
 ) -> Option<Divergence> {
-    if !(r_pct.is_finite() && lambda_pct.is_finite()) || (r_pct - lambda_pct).abs() < THRESHOLD_POINTS {
+    if !(r_pct.is_finite() && lambda_pct.is_finite())
+        || (r_pct - lambda_pct).abs() < THRESHOLD_POINTS
+    {
         return None;
     }
     let norm: f64 = vector.iter().map(|x| x * x).sum();
@@ -52,12 +54,22 @@ pub fn explain(
         return None;
     }
     let on = |w: &[f64], total: f64| {
-        100.0 * w.iter().zip(treated).filter(|(_, t)| **t).map(|(v, _)| v).sum::<f64>() / total
+        100.0
+            * w.iter()
+                .zip(treated)
+                .filter(|(_, t)| **t)
+                .map(|(v, _)| v)
+                .sum::<f64>()
+            / total
     };
     let squares: Vec<f64> = vector.iter().map(|x| x * x).collect();
     let eigen = on(&squares, norm);
     let total_share: f64 = shares.iter().sum();
-    let risk = if total_share > 0.0 { on(shares, total_share) } else { 0.0 };
+    let risk = if total_share > 0.0 {
+        on(shares, total_share)
+    } else {
+        0.0
+    };
     let sentence = if r_pct > lambda_pct {
         format!(
             "R fell {r_pct:.1} % but metapopulation capacity only {lambda_pct:.1} % because the leading eigenvector, which sets lambda_M, puts {:.1} % of its weight on patches this plan leaves untreated: the treated patches hold {risk:.1} % of R but only {eigen:.1} % of the connected core that sustains the population.",
@@ -87,10 +99,15 @@ mod tests {
         assert!(explain(67.7, 78.6, &[1.0, 0.0], &[0.5, 0.5], &[true, false]).is_none());
         // Issue 22's case: R 50 %, lambda_M 0.1 %; the eigenvector lives on the untreated patch.
         let d = explain(50.0, 0.1, &[0.1, 0.995], &[0.5, 0.5], &[true, false]).unwrap();
-        assert!((d.eigenvector_share_treated_pct - 100.0 * 0.01 / (0.01 + 0.995 * 0.995)).abs() < 1e-9);
+        assert!(
+            (d.eigenvector_share_treated_pct - 100.0 * 0.01 / (0.01 + 0.995 * 0.995)).abs() < 1e-9
+        );
         assert!(d.sentence.contains("untreated"), "{}", d.sentence);
         let d = explain(10.0, 60.0, &[0.9, 0.1], &[0.1, 0.9], &[true, false]).unwrap();
         assert!((d.risk_share_treated_pct - 10.0).abs() < 1e-9);
-        assert!(d.sentence.starts_with("Metapopulation capacity fell 60.0 %"));
+        assert!(
+            d.sentence
+                .starts_with("Metapopulation capacity fell 60.0 %")
+        );
     }
 }
