@@ -643,11 +643,10 @@ fn simulate_writes_a_record_that_repeats_the_run() {
 /// pressure 20 each, one of them dense (0.1 ha against 1 ha). Two methods: `light` keeps
 /// r = 0.5 of the host for 100, `thorough` keeps r = 0.01 for 400; the budget is 400.
 ///
-/// R = sum_i pi a_i^2 r_i^2 (no links), a = 1/4, with the default horizon term r^(10) (the
-/// mean of min(1, r 1.1^(t-1)) over ten years: 0.772 for light, 0.016 for thorough): four
-/// `light` treatments leave R = 20 a^2 x 4 x 0.596 = 47.7 a^2, one `thorough` leaves
-/// 20 a^2 x (3 + 0.0003) = 60 a^2, so the plan (and greedy) treat all four lightly — the mean
-/// over the years still pays for the light treatments' first years — and densest-first (the dense stand, its most effective
+/// R = sum_i pi a_i^2 r_i^2 (no links), a = 1/4: four `light` treatments leave
+/// R = 20 a^2 x 4 x 0.25 = 20 a^2, one `thorough` leaves 20 a^2 x (3 + 1e-4) = 60 a^2 (and
+/// with `--horizon-years 10`, r^(10) = 0.772 and 0.016: 47.7 a^2 against 60 a^2, the same
+/// choice), so the plan (and greedy) treat all four lightly, and densest-first (the dense stand, its most effective
 /// method while it fits) treats one thoroughly. In the simulation the host regrows
 /// h <- min(1, h x 1.1): light stands are back to 0.5 x 1.1^8 > 1 (full) by year 9, the thorough
 /// one is at 0.01 x 1.1^9 = 0.024 in year 10, so its extinction probability
