@@ -186,7 +186,6 @@ fn plan(dir: &std::path::Path, out: &str, extra: &[&str]) -> std::process::Outpu
         "0",
         "--out",
         out,
-        "--quiet",
     ];
     args.extend_from_slice(extra);
     run(dir, &args)
@@ -306,12 +305,11 @@ fn robust_plans_from_the_command_line() {
             for p in &plans {
                 assert!(mine <= max_regret(p) + 1e-3, "{p} has less worst regret");
             }
-            assert_eq!(
-                s["ensemble"]["most_robust"]["max_regret_pct"]
-                    .as_f64()
-                    .unwrap(),
-                mine
-            );
+            // regret.csv rounds regret_pct to 4 decimals; summary.json keeps it whole.
+            let whole = s["ensemble"]["most_robust"]["max_regret_pct"]
+                .as_f64()
+                .unwrap();
+            assert!((whole - mine).abs() <= 0.5e-4 + 1e-12, "{whole} vs {mine}");
         }
     }
 }

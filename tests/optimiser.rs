@@ -351,3 +351,45 @@ fn message_passing_bound_is_below_the_local_polytope_lp_and_close_to_it() {
         100.0 * mean
     );
 }
+
+/// The objective's horizon term (`--horizon-years`, docs/model.md) replaces each option's
+/// remaining host r by its mean over T years of regrowth, mean of min(1, r (1+g)^(t-1)): a
+/// per-option constant, so the MIP must still equal brute force with the term on (issue 22:
+/// "keep it exact"). Values of the term from its definition, summed by hand.
+#[test]
+fn the_horizon_term_keeps_the_optimiser_exact() {
+    use hostcut::model::risk::horizon_remaining;
+    // r = 0.5, g = 0.1, T = 10: 0.5, 0.55, 0.605, 0.6655, 0.73205, 0.805255, 0.8857805,
+    // 0.97435855, then 1, 1: mean 0.771794405.
+    assert!((horizon_remaining(0.5, 10, 0.1) - 0.771794405).abs() < 1e-12);
+    assert_eq!(horizon_remaining(0.3, 1, 0.1), 0.3);
+    assert!((horizon_remaining(0.0, 10, 0.1)).abs() < 1e-15);
+    let mut compared = 0;
+    let mut changed = 0;
+    for seed in 0..30 {
+        let inst = random_instance(&small_spec(seed, 5 + (seed % 4) as usize));
+        let one_season = inst.problem();
+        let mut problem = inst.problem();
+        for c in problem.choices.iter_mut().flatten() {
+            c.remaining = horizon_remaining(c.remaining, 10, 0.1);
+        }
+        let Some((plan, best)) = brute_force(&problem) else {
+            continue;
+        };
+        let solved = solve(&problem, Limits::new(60.0, 0.0)).unwrap();
+        assert_eq!(solved.status, Status::Optimal, "seed {seed}");
+        let r = problem.risk(&solved.assignment);
+        assert!(
+            (r - best).abs() <= 1e-9 * best.max(1e-12),
+            "seed {seed}: MIP with the horizon term {r} vs brute force {best}"
+        );
+        compared += 1;
+        if let Some((p1, _)) = brute_force(&one_season) {
+            if p1 != plan {
+                changed += 1;
+            }
+        }
+    }
+    assert!(compared >= 15, "only {compared} feasible instances compared");
+    eprintln!("horizon term: {compared} instances exact, {changed} with a different optimum");
+}

@@ -362,7 +362,9 @@ fn without_a_depot_the_outputs_say_it_is_assumed() {
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(stdout(&o).contains("note: depot assumed at the centroid"));
+    // Under `--quiet` the warning goes to stderr (issue 22: quiet stdout is the cautions block).
+    assert!(stderr(&o).contains("note: depot assumed at the centroid"));
+    assert!(!stdout(&o).contains("depot assumed"));
     let report = std::fs::read_to_string(d.join("ord/report.html")).unwrap();
     assert!(report.contains("Depot assumed"));
     assert_eq!(

@@ -228,7 +228,6 @@ fn base(extra: &[&str]) -> Vec<String> {
         "EPSG:32618",
         "--gap",
         "0",
-        "--quiet",
     ]
     .iter()
     .map(|s| s.to_string())

@@ -198,6 +198,12 @@ pub struct PlanArgs {
     /// Season budget (currency of the treatment catalogue)
     #[arg(long, allow_negative_numbers = true)]
     pub budget: Option<f64>,
+    /// Score each treatment by its host over the next T years as it regrows (the mean of
+    /// min(1, r (1 + g)^(t-1)) for t = 1..T, g = `horizon_regrowth`, default 0.1) instead of
+    /// its host right after treatment (10 is the simulation's default horizon). Default 1, the
+    /// one-season objective
+    #[arg(long, value_name = "T")]
+    pub horizon_years: Option<u32>,
     /// Crew hours available this season
     #[arg(long, allow_negative_numbers = true, value_name = "HOURS")]
     pub crew_hours: Option<f64>,

@@ -36,7 +36,7 @@ pub fn run(resolved: &CalibrateSettings, printer: Printer) -> Result<String> {
     let c = &calibrated.file.calibration;
     let n = calibrated.surveys.len();
     let mut t = printer.text();
-    t.detail(format_args!(
+    t.line(format_args!(
         "hostcut calibrate: {n} surveys ({} assigned to patches, {} too far from any patch: unassigned_surveys.csv), {}-{}, {} year-to-year transitions",
         n - calibrated.unassigned,
         calibrated.unassigned,
@@ -61,15 +61,15 @@ pub fn run(resolved: &CalibrateSettings, printer: Printer) -> Result<String> {
         theta.extinction,
         theta.introduction
     ));
-    t.detail(format_args!(
+    t.line(format_args!(
         "plan with `--calibration {0}`, or across the interval with `--ensemble {0}`",
         out.join("calibration.toml").display()
     ));
-    t.detail(format_args!(
+    t.line(format_args!(
         "outputs in {}: calibration.toml, calibration.csv, likelihood.svg, surveys_assigned.csv, unassigned_surveys.csv, cautions.txt",
         out.display()
     ));
-    t.push('\n');
-    t.push_str(&cautions::standing_text());
+    // Calibration prescribes nothing: its cautions block is for the reader, not for `--quiet`.
+    t.cautions(&cautions::standing_text(), false);
     Ok(t.into_string())
 }

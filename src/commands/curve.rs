@@ -72,7 +72,7 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
         s.solver.time_limit_s
     ));
     if let Some(note) = money.rate_note() {
-        text.line(format_args!("{note}"));
+        text.warning(format_args!("{note}"));
     }
     for p in &points {
         text.line(format_args!(
@@ -112,8 +112,10 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
         "outputs in {}: curve.csv, curve.svg, justification.md, justification.html",
         out.display()
     ));
-    text.push('\n');
-    text.push_str(&cautions::standing_text());
+    let herbicide = points
+        .iter()
+        .any(|p| prepared.prescribes_herbicide(&p.assignment));
+    text.cautions(&cautions::standing_text(), herbicide);
     Ok(RunReport {
         out,
         text: text.into_string(),

@@ -28,12 +28,15 @@ pub fn run(args: &DemoArgs, printer: Printer) -> Result<RunReport> {
     settings.started = started;
     let mut text = super::plan::run_into(&settings, &staging, None, printer)?;
     let out = staging.commit()?;
-    text.push_str(&format!(
+    // Under `--quiet` the demo's stdout is the plan's: its cautions block alone.
+    if !printer.is_quiet() {
+        text.push_str(&format!(
         "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\nwork orders with the crews routed on the county's roads from its yard:\n  hostcut orders --plan {} --roads {} --depot 501250,4471750 --out {}-orders\n",
         out.join("inputs").display(),
         out.display(),
         out.join("inputs").join("roads.gpkg").display(),
         out.display()
     ));
+    }
     Ok(RunReport { out, text })
 }

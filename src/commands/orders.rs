@@ -63,11 +63,11 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
 
     let mut text = printer.text();
     if folder.planned.is_empty() {
-        text.line(
+        text.warning(
             "the plan treats no patches, so there is nothing to order (raise the plan's budget or check its eligibility rules)",
         );
     }
-    text.detail(format_args!(
+    text.line(format_args!(
         "hostcut orders: {} treated patches -> {} crew-days for {} crew{} ({} workdays from {})",
         folder.planned.len(),
         s.days.len(),
@@ -77,23 +77,23 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
         o.start
     ));
     if let (Some(a), Some(b)) = (&summary.first_date, &summary.last_date) {
-        text.detail(format_args!("  work from {a} to {b}"));
+        text.line(format_args!("  work from {a} to {b}"));
     }
-    text.detail(format_args!(
+    text.line(format_args!(
         "  {:.1} h of work and {:.1} h of travel ({:.1} km)",
         summary.work_hours, summary.travel_hours, summary.travel_km
     ));
-    text.detail(format_args!("  travel: {}", s.travel_text));
+    text.line(format_args!("  travel: {}", s.travel_text));
     if s.depot_is_default {
-        text.line(format_args!(
+        text.warning(format_args!(
             "note: depot assumed at the centroid of the treated patches ({:.0},{:.0}), not a yard anyone drives from; give the crews' yard with `--depot X,Y` or `--depot-lonlat LON,LAT`",
             s.depot.0, s.depot.1
         ));
     } else {
-        text.detail(format_args!("  depot {:.0},{:.0}", s.depot.0, s.depot.1));
+        text.line(format_args!("  depot {:.0},{:.0}", s.depot.0, s.depot.1));
     }
     if s.split_patches > 0 {
-        text.detail(format_args!(
+        text.line(format_args!(
             "  {} patch{} too big for one day {} split across days",
             s.split_patches,
             if s.split_patches == 1 { "" } else { "es" },
@@ -101,13 +101,13 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
         ));
     }
     for u in &s.unreached {
-        text.line(format_args!(
+        text.warning(format_args!(
             "warning: patch {} is NOT SCHEDULED: no road from the depot reaches it ({}); it is listed unscheduled in orders.csv and report.html — add the missing road to the layer, or plan its access separately",
             u.patch_id, u.reason
         ));
     }
     for f in &s.far_from_road {
-        text.line(format_args!(
+        text.warning(format_args!(
             "warning: {} is {:.0} m from the nearest road (more than {:.0} m): the walk is counted at walking speed; check how the crew gets in",
             if f.patch_id == "depot" {
                 "the depot".to_string()
@@ -119,7 +119,7 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
         ));
     }
     for m in &s.missing {
-        text.line(format_args!(
+        text.warning(format_args!(
             "warning: the crews cannot finish {} inside its window ({}): {} crew-day{} missing; add crews or workdays, start earlier, or carry the work to next season",
             m.methods.join(" and "),
             contract::window(&m.months),
@@ -127,11 +127,10 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
             if m.crew_days == 1 { " is" } else { "s are" }
         ));
     }
-    text.detail(format_args!(
+    text.line(format_args!(
         "outputs in {}: orders.csv, orders.geojson, orders.gpkg, orders.json, report.html, cautions.txt",
         out.display()
     ));
-    text.push('\n');
-    text.push_str(&cautions::standing_text());
+    text.cautions(&cautions::standing_text(), folder.prescribes_herbicide());
     Ok(text.into_string())
 }

@@ -30,7 +30,7 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
     let solved = &run.solved;
     let c = &prepared.catalogue.currency;
     let mut text = printer.text();
-    text.detail(format_args!(
+    text.line(format_args!(
         "hostcut program: {} patches, {} seasons, {} courses of treatment",
         prepared.patches.len(),
         horizon.seasons,
@@ -83,12 +83,18 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
         solved.gap,
         solved.seconds
     ));
-    text.detail(format_args!(
+    text.line(format_args!(
         "outputs in {}: program.csv, program.svg, summary.json, season_1..season_{} (plan folders for `hostcut orders --plan`), cautions.txt",
         out.display(),
         horizon.seasons
     ));
-    text.push('\n');
-    text.push_str(&cautions::standing_text());
+    // A course's follow-ups repeat its prescription: the starting choice says it all.
+    let chosen: Vec<Option<usize>> = solved
+        .assignment
+        .iter()
+        .enumerate()
+        .map(|(i, k)| k.map(|k| run.problem.courses[i][k].choice))
+        .collect();
+    text.cautions(&cautions::standing_text(), prepared.prescribes_herbicide(&chosen));
     Ok(text.into_string())
 }

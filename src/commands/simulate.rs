@@ -37,7 +37,7 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
 
     let summary = &sim.summary;
     let mut text = printer.text();
-    text.detail(format_args!(
+    text.line(format_args!(
         "hostcut simulate: {} patches, {} runs x {} years, seed {}; {} patches occupied at the start",
         prepared.model.len(),
         runs.runs,
@@ -46,7 +46,7 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
         summary.initially_occupied_patches
     ));
     for st in &summary.strategies {
-        text.detail(format_args!(
+        text.line(format_args!(
             "  {:<8} occupied host in year {}: {:6.2}% of all host (mean over the years {:6.2}%)",
             st.name,
             runs.years,
@@ -64,18 +64,18 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
             "  the interval includes no difference: at these parameters the simulation cannot tell the plan from no action",
         );
     }
-    text.detail(format_args!(
+    text.line(format_args!(
         "strategy minus plan, occupied host in percentage points (negative: better than the plan; 95% CI over {} paired runs):",
         runs.runs
     ));
-    text.detail(format_args!(
+    text.line(format_args!(
         "  {:<8} {:>24} {:>24}",
         "strategy",
         format!("year {}", runs.years),
         "mean over the years"
     ));
     for v in &summary.versus_plan {
-        text.detail(format_args!(
+        text.line(format_args!(
             "  {:<8} {:>7.2} ({:>6.2} to {:>6.2}) {:>7.2} ({:>6.2} to {:>6.2})",
             v.strategy,
             v.final_diff_pct,
@@ -92,13 +92,12 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
     if let Some(check) = &summary.proxy_check {
         text.line(check.reading.as_str());
     }
-    text.detail(format_args!(
+    text.line(format_args!(
         "outputs in {}: sim.csv, patch_occupancy.csv, sim.svg, sim.json, {}cautions.txt, simulate.resolved.toml",
         out.display(),
         if summary.proxy_check.is_some() { "proxy.csv, " } else { "" }
     ));
-    text.push('\n');
-    text.push_str(&cautions::standing_text());
+    text.cautions(&cautions::standing_text(), prepared.prescribes_herbicide(&plan));
     Ok(text.into_string())
 }
 

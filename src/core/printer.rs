@@ -1,10 +1,13 @@
 //! One printer for every command: quiet, normal, or normal with progress bars on a terminal.
 //!
-//! stdout carries the results: a command gathers them in a [`Text`] (lines that `--quiet` keeps
-//! and details it drops) and the binary prints it at the end. stderr carries progress lines
-//! ([`Printer::progress`], silenced by `--quiet`), notes and warnings ([`Printer::note`], said
-//! even under `--quiet` because they change what was planned) and bars ([`Printer::bar`],
-//! drawn only on a terminal).
+//! stdout carries the results: a command gathers them in a [`Text`] and the binary prints it at
+//! the end. Under `--quiet` stdout holds only the cautions block, and only when the command's
+//! output prescribes herbicide ([`Text::cautions`]); the result lines ([`Text::line`]) are
+//! dropped, and the warnings among them ([`Text::warning`]: a stand NOT SCHEDULED, an empty or
+//! infeasible plan) go to stderr instead. Errors are on stderr always (`main.rs`). stderr also
+//! carries progress lines ([`Printer::progress`], silenced by `--quiet`), notes and warnings
+//! ([`Printer::note`], said even under `--quiet` because they change what was planned) and bars
+//! ([`Printer::bar`], drawn only on a terminal).
 
 use std::fmt::{Display, Write as _};
 use std::io::IsTerminal;
@@ -14,7 +17,7 @@ use crate::core::progress::{Bars, Stage};
 /// How a command talks to the person running it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Printer {
-    /// `--quiet`: results and warnings only.
+    /// `--quiet`: errors, warnings (stderr) and the cautions block (stdout) only.
     Quiet,
     /// Progress lines on stderr, no bars (stderr is a pipe, a file or a CI log, or
     /// `HOSTCUT_NO_PROGRESS` is set).
@@ -103,25 +106,41 @@ pub struct Text {
 }
 
 impl Text {
-    /// A line printed always.
+    /// A result line, dropped under `--quiet` (the files the command writes hold the results).
     pub fn line(&mut self, line: impl Display) {
-        let _ = writeln!(self.text, "{line}");
-    }
-
-    /// A line dropped under `--quiet` (headers, output folders).
-    pub fn detail(&mut self, line: impl Display) {
         if !self.quiet {
-            self.line(line);
+            let _ = writeln!(self.text, "{line}");
         }
     }
 
-    /// Text as it is (already ending in a newline where it should).
-    pub fn push_str(&mut self, text: &str) {
-        self.text.push_str(text);
+    /// Result lines as they are (each ending in a newline), dropped under `--quiet`.
+    pub fn lines(&mut self, text: &str) {
+        if !self.quiet {
+            self.text.push_str(text);
+        }
     }
 
-    pub fn push(&mut self, c: char) {
-        self.text.push(c);
+    /// A warning a user must see (a stand NOT SCHEDULED, an empty plan): on stdout among the
+    /// results, on stderr under `--quiet`.
+    pub fn warning(&mut self, line: impl Display) {
+        if self.quiet {
+            note(line);
+        } else {
+            let _ = writeln!(self.text, "{line}");
+        }
+    }
+
+    /// The cautions block, after a blank line: always without `--quiet`; under `--quiet` only
+    /// when the command's output prescribes herbicide (`herbicide`), so that a quiet run's
+    /// stdout is the cautions block or nothing.
+    pub fn cautions(&mut self, block: &str, herbicide: bool) {
+        if self.quiet && !herbicide {
+            return;
+        }
+        if !self.quiet {
+            self.text.push('\n');
+        }
+        self.text.push_str(block);
     }
 
     pub fn into_string(self) -> String {
@@ -134,15 +153,23 @@ mod tests {
     use super::*;
 
     #[test]
-    fn quiet_text_keeps_lines_and_drops_details() {
+    fn quiet_text_keeps_only_the_cautions_of_herbicide_work() {
+        // Issue 22: "`--quiet` prints only errors and the cautions block".
         let mut t = Printer::Quiet.text();
-        t.detail("header");
         t.line(format_args!("result {}", 1));
-        assert_eq!(t.into_string(), "result 1\n");
-        let mut t = Printer::Normal.text();
-        t.detail("header");
+        t.lines("more\n");
+        t.warning("warning: to stderr");
+        t.cautions("CAUTIONS\n", true);
+        assert_eq!(t.into_string(), "CAUTIONS\n");
+        let mut t = Printer::Quiet.text();
         t.line("result");
-        assert_eq!(t.into_string(), "header\nresult\n");
+        t.cautions("CAUTIONS\n", false);
+        assert_eq!(t.into_string(), "");
+        let mut t = Printer::Normal.text();
+        t.line("header");
+        t.warning("warning: here");
+        t.cautions("CAUTIONS\n", false);
+        assert_eq!(t.into_string(), "header\nwarning: here\n\nCAUTIONS\n");
     }
 
     #[test]

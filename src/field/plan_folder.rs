@@ -202,6 +202,15 @@ fn read_csv<T: for<'de> Deserialize<'de>>(path: &Path) -> Result<Vec<T>> {
 }
 
 impl PlanFolder {
+    /// Whether any planned patch gets a herbicide method.
+    pub fn prescribes_herbicide(&self) -> bool {
+        self.planned.iter().any(|p| {
+            p.methods_used()
+                .iter()
+                .any(|&m| self.catalogue.method(m).herbicide)
+        })
+    }
+
     pub fn read(dir: &Path) -> Result<PlanFolder> {
         for f in [
             "plan.csv",
@@ -372,6 +381,14 @@ pub struct Summary {
     /// was counted by class, or the catalogue has no size classes).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub stem_mix_assumption: Option<String>,
+    /// Why R and lambda_M fell by very different shares (issue 22); absent when they agree to
+    /// within `planning::divergence::THRESHOLD_POINTS`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub measures_diverge: Option<crate::planning::divergence::Divergence>,
+    /// The objective's horizon (`--horizon-years`, above 1): R, lambda_M and p* after are at
+    /// each treated patch's mean remaining host over that many years of regrowth.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub horizon_years: Option<u32>,
 }
 
 /// summary.json's `site_rules`: whether water was checked, how many sites carry each rule, and

@@ -4,6 +4,7 @@
 pub mod baselines;
 pub mod calibrate;
 pub mod curve;
+pub mod divergence;
 pub mod ensemble;
 pub mod plan;
 pub mod prepare;

@@ -58,6 +58,24 @@ pub struct Plan {
 }
 
 impl Plan {
+    /// Why R and lambda_M fell by very different shares, if they did
+    /// ([`crate::planning::divergence`]).
+    pub fn divergence(&self) -> Option<crate::planning::divergence::Divergence> {
+        if self.lambda_before <= 0.0 || self.status == Status::Infeasible {
+            return None;
+        }
+        let lambda_pct = 100.0 * (1.0 - self.lambda_after / self.lambda_before);
+        let treated: Vec<bool> = self.remaining.iter().map(|r| *r < 1.0).collect();
+        // patch_value_i = lambda x_i^2: the eigenvector's weights, scaled.
+        crate::planning::divergence::explain(
+            self.reduction_pct(),
+            lambda_pct,
+            &self.patch_value.iter().map(|v| v.max(0.0).sqrt()).collect::<Vec<_>>(),
+            &self.risk_shares,
+            &treated,
+        )
+    }
+
     pub fn reduction_pct(&self) -> f64 {
         if self.risk_before > 0.0 {
             100.0 * (1.0 - self.risk_after / self.risk_before)

@@ -222,6 +222,25 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prep
 }
 
 impl Prepared {
+    /// The share of each patch's host left right after `assignment` (indices into
+    /// [`Prepared::choices`]; 1 untreated): what the simulation starts year 1 from, whatever the
+    /// objective's horizon.
+    pub fn treated_host(&self, assignment: &[Option<usize>]) -> Vec<f64> {
+        assignment
+            .iter()
+            .enumerate()
+            .map(|(i, a)| a.map_or(1.0, |o| self.choices[i][o].remaining))
+            .collect()
+    }
+
+    /// Whether `assignment` (indices into [`Prepared::choices`]) prescribes herbicide anywhere.
+    pub fn prescribes_herbicide(&self, assignment: &[Option<usize>]) -> bool {
+        assignment.iter().enumerate().any(|(i, k)| {
+            k.and_then(|k| self.choices.get(i).and_then(|c| c.get(k)))
+                .is_some_and(|c| c.uses_herbicide(&self.catalogue))
+        })
+    }
+
     /// The index of patch `i`'s choice that a plan.csv row names: with size classes by the
     /// row's `prescription` (several prescriptions share a primary method), without by its
     /// `method` (`prescription` empty).
@@ -299,11 +318,33 @@ impl Prepared {
         patches::raster_cost(&self.patches.runs)
     }
 
-    /// The optimiser's problem at `budget` and `crew_hours`.
+    /// T of the objective's horizon term: `plan.horizon_years`, else 1 (the one-season
+    /// objective; [`crate::model::risk::MEASURED_HORIZON_YEARS`] is the T measured, not yet
+    /// the default).
+    pub fn horizon_years(&self) -> u32 {
+        self.resolved.plan.horizon_years.unwrap_or(1)
+    }
+
+    /// The optimiser's problem at `budget` and `crew_hours`: with a horizon
+    /// (`plan.horizon_years`), each option's remaining host is its mean over the horizon as it
+    /// regrows ([`crate::model::risk::horizon_remaining`]); the dynamics (`simulate`) take the
+    /// host as treated from [`Prepared::treated_host`].
     pub fn problem(&self, budget: f64, crew_hours: Option<f64>) -> Problem<'_> {
+        let mut choices = self.choices.clone();
+        let years = self.horizon_years();
+        if years > 1 {
+            let g = self
+                .resolved
+                .plan
+                .horizon_regrowth
+                .unwrap_or(crate::model::risk::HORIZON_REGROWTH);
+            for c in choices.iter_mut().flatten() {
+                c.remaining = crate::model::risk::horizon_remaining(c.remaining, years, g);
+            }
+        }
         Problem {
             model: &self.model,
-            choices: self.choices.clone(),
+            choices,
             budget,
             crew_hours,
             required: self.required.clone(),

@@ -138,8 +138,9 @@ pub struct SimJson {
 }
 
 /// The verdict sentence of [`SimJson::verdict`], or `None` when every strategy is worse than
-/// the plan in every year (interval entirely above zero).
-pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
+/// the plan in every year (interval entirely above zero). `horizon_years`: the objective's
+/// horizon term (1: the one-season objective), named in the closing sentence.
+pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
     let mut parts = Vec::new();
     let mut reasons = Vec::new();
     for v in versus {
@@ -180,8 +181,15 @@ pub fn verdict(versus: &[VersusPlan]) -> Option<String> {
     if parts.is_empty() {
         return None;
     }
+    let objective = if horizon_years > 1 {
+        format!(
+            "The plan minimises the static risk R with each treatment's host averaged over {horizon_years} years of regrowth, but treats once and does not model recolonisation"
+        )
+    } else {
+        "The plan minimises the static risk R after one season of treatment".to_string()
+    };
     Some(format!(
-        "{}. Why: {}. The plan minimises the static risk R after one season of treatment, and a one-season treatment fades as host regrows and the insect recolonises; compare with a multi-season programme (`hostcut program`).",
+        "{}. Why: {}. {objective}, and a one-season treatment fades as host regrows and the insect recolonises; compare with a multi-season programme (`hostcut program`).",
         parts.join("; "),
         reasons.join("; ")
     ))
@@ -232,7 +240,7 @@ fn density_order(prepared: &Prepared) -> Vec<usize> {
 
 /// A random feasible plan for run `run`: eligible patches in a random order (Fisher–Yates on
 /// the run's own stream), each treated with its most effective method while it fits.
-fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
+fn random_plan(prepared: &Prepared, problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
     let mut order: Vec<usize> = (0..problem.len()).collect();
     let mut g = simulate::stream(seed, run, 0, 1);
     for k in (1..order.len()).rev() {
@@ -240,7 +248,7 @@ fn random_plan(problem: &Problem, seed: u64, run: u64) -> Vec<f64> {
         order.swap(k, j.min(k));
     }
     let a = baselines::fill_in_order(problem, &order).unwrap_or_else(|| vec![None; problem.len()]);
-    problem.remaining(&a)
+    prepared.treated_host(&a)
 }
 
 /// The `k`-th random feasible plan of the proxy check, fixed over runs (its own stream,
@@ -364,7 +372,7 @@ pub fn simulate_plan(
         ..prepared.landscape()
     };
     let seed = runs.seed;
-    let random = |run: u64| random_plan(problem, seed, run);
+    let random = |run: u64| random_plan(prepared, problem, seed, run);
     // Fixed plans by strategy id; a rule whose plan does not fit is left out (it has no plan
     // to simulate), corridor-first without corridors too (it would be biggest-first).
     let mut ids: Vec<&'static str> = vec!["none", "plan"];
@@ -384,7 +392,7 @@ pub fn simulate_plan(
     plans.push(None);
     let mut treatments: Vec<Treatment> = plans
         .iter()
-        .filter_map(|a| a.map(|a| Treatment::Fixed(problem.remaining(a))))
+        .filter_map(|a| a.map(|a| Treatment::Fixed(prepared.treated_host(a))))
         .collect();
     treatments.push(Treatment::PerRun(&random));
     // The proxy check's extra plans: half random feasible plans, half perturbed optima.
@@ -398,11 +406,8 @@ pub fn simulate_plan(
             perturbed_plan(problem, plan, seed, k).map(|a| (format!("perturbed_{}", k + 1), a))
         }))
         .collect();
-    treatments.extend(
-        extra
-            .iter()
-            .map(|(_, a)| Treatment::Fixed(problem.remaining(a))),
-    );
+    // The host as treated: the objective's horizon (if any) is a score, not the dynamics.
+    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(prepared.treated_host(a))));
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),
@@ -488,7 +493,7 @@ pub fn simulate_plan(
             }
         })
         .collect();
-    let verdict = verdict(&versus_plan);
+    let verdict = verdict(&versus_plan, prepared.horizon_years());
     // Proxy check: every fixed plan but no action, and the random fixed plans.
     let over_runs = |t: &Trace, f: &dyn Fn(&Trace, usize) -> f64| {
         pct((0..n).map(|k| f(t, k)).sum::<f64>() / n as f64)

@@ -393,5 +393,7 @@ pub fn summary(
             .count(),
         site_rules: SiteRules::of(o.patches),
         stem_mix_assumption: stem_mix_assumption(o.catalogue, o.patches),
+        measures_diverge: plan.divergence(),
+        horizon_years: None,
     }
 }

@@ -69,13 +69,13 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
     }
     match plan.status {
         Status::Infeasible => {
-            t.line(format_args!(
+            t.warning(format_args!(
                 "no plan fits: the required patches cost more than the budget or crew hours allow (status infeasible)"
             ));
         }
         _ => {
             if plan.rows.is_empty() {
-                t.line(format_args!(
+                t.warning(format_args!(
                     "the budget of {} buys no treatment: the cheapest eligible treatment costs more (empty plan)",
                     money(c, summary.budget)
                 ));
@@ -91,11 +91,15 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
             // Over several dispersal scenarios the headline R is their weighted mean, whatever
             // the objective was (the ensemble lines name the objective's value).
             t.line(format_args!(
-                "connected-host risk index R{} {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
+                "connected-host risk index R{}{} {} -> {}: {:.1}% less (R = 1 for all host in one patch at pressure 1)",
                 if summary.ensemble.is_some() {
                     " (weighted mean over the dispersal scenarios)"
                 } else {
                     ""
+                },
+                match summary.horizon_years {
+                    Some(t) => format!(" (host averaged over {t} years of regrowth)"),
+                    None => String::new(),
                 },
                 small(summary.risk_before),
                 small(summary.risk_after),
@@ -137,6 +141,9 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
                     String::new()
                 }
             ));
+            if let Some(d) = &summary.measures_diverge {
+                t.line(format_args!("  {}", d.sentence));
+            }
             let status = match plan.status {
                 Status::Optimal => "proven optimal".to_string(),
                 Status::GapLimit => format!(
@@ -212,7 +219,7 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
         }
     }
     if let Some(lines) = s.ensemble {
-        t.push_str(lines);
+        t.lines(lines);
     }
     if let Some(line) = s.comparison {
         t.line(line);
@@ -222,11 +229,18 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
         out.display(),
         if s.ensemble.is_some() { "regret.csv, " } else { "" }
     ));
-    t.push('\n');
-    t.push_str(&cautions::standing_text());
-    t.push('\n');
-    t.push_str(cautions::site_check_text(patches.water_checked));
-    t.push('\n');
+    let herbicide = plan
+        .rows
+        .iter()
+        .any(|row| row.choice.uses_herbicide(catalogue));
+    t.cautions(
+        &format!(
+            "{}\n{}\n",
+            cautions::standing_text(),
+            cautions::site_check_text(patches.water_checked)
+        ),
+        herbicide,
+    );
     t.into_string()
 }
 

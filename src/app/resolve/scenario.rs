@@ -348,6 +348,9 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if args.trap_trees {
         s.plan.trap_trees = true;
     }
+    if let Some(t) = args.horizon_years {
+        s.plan.horizon_years = Some(t);
+    }
     if let Some(v) = args.crew_hours {
         s.plan.crew_hours = Some(v);
     }

@@ -244,6 +244,20 @@ pub(crate) fn validate_with(s: &Scenario, need_budget: bool) -> Result<()> {
             "e.g. `--budget 60000`",
         )?,
     }
+    if let Some(t) = s.plan.horizon_years {
+        check(
+            (1..=100).contains(&t),
+            || format!("horizon_years must be 1 to 100, got {t}"),
+            "e.g. `--horizon-years 10` (the simulation's default horizon)",
+        )?;
+    }
+    if let Some(g) = s.plan.horizon_regrowth {
+        check(
+            g.is_finite() && (0.0..=10.0).contains(&g),
+            || format!("horizon_regrowth must be 0 to 10, got {g}"),
+            "e.g. `horizon_regrowth = 0.1` (host left after treatment grows 10 % a year)",
+        )?;
+    }
     if let Some(hours) = s.plan.crew_hours {
         check(
             hours.is_finite() && hours >= 0.0,

@@ -67,6 +67,14 @@ impl Choice {
         out.dedup();
         out
     }
+
+    /// Whether any method of this prescription is a herbicide one (its output then carries the
+    /// cautions block, `--quiet` included).
+    pub fn uses_herbicide(&self, catalogue: &Catalogue) -> bool {
+        self.methods()
+            .iter()
+            .any(|&m| catalogue.method(m).herbicide)
+    }
 }
 
 /// The prescription in words for plan.csv and orders: `trees: stem_injection 12; saplings:
