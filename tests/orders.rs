@@ -749,3 +749,54 @@ fn a_plan_that_treats_nothing_orders_nothing_and_says_so() {
     assert!(rows(&dir.path().join("ord/orders.csv")).is_empty());
     assert_eq!(json(&dir.path().join("ord/orders.json"))["crew_days"], 0);
 }
+
+/// Work that cannot be done inside its window is named by what the left-over days hold. A
+/// prescription's window is the overlap of its methods' months, which no single catalogue method
+/// need share; the warning used to read "cannot finish  inside its window" with no name.
+/// Reproduced on the demo's inputs with the horizon objective and a late start (common practice:
+/// a warning that names nothing cannot be acted on).
+#[test]
+fn work_left_over_names_its_methods() {
+    let dir = tempfile::tempdir().unwrap();
+    demo_plan(dir.path());
+    let o = run(
+        dir.path(),
+        &[
+            "plan",
+            "--scenario",
+            "demo/inputs/scenario.toml",
+            "--horizon-years",
+            "10",
+            "--out",
+            "h",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(
+        dir.path(),
+        &["orders", "--plan", "h", "--out", "o", "--start-date", "2027-09-24"],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = format!("{}{}", stdout(&o), stderr(&o));
+    let lines: Vec<&str> = text.lines().filter(|l| l.contains("cannot finish")).collect();
+    assert!(!lines.is_empty(), "a late start leaves work over: {text}");
+    let catalogue = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("models/treatments.toml"),
+    )
+    .unwrap();
+    for l in lines {
+        let named = l
+            .split("cannot finish ")
+            .nth(1)
+            .and_then(|r| r.split(" inside its window").next())
+            .unwrap();
+        assert!(!named.trim().is_empty(), "names no method: {l}");
+        for m in named.split(" and ") {
+            assert!(
+                catalogue.contains(&format!("id = \"{m}\"")),
+                "`{m}` is a catalogue method: {l}"
+            );
+        }
+    }
+}

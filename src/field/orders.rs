@@ -502,31 +502,22 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         }
         date = date.plus_days(1);
     }
-    let mut missing: BTreeMap<Vec<u8>, usize> = BTreeMap::new();
+    // What cannot be done in its window, named by the methods of the days left over (a
+    // prescription's window is the overlap of its methods' months, so no one catalogue method
+    // need have exactly that window).
+    let mut missing: BTreeMap<Vec<u8>, (usize, BTreeSet<String>)> = BTreeMap::new();
     for (n, &k) in pending.iter().enumerate() {
         days[k].day = n + 1;
-        *missing.entry(days[k].months.clone()).or_default() += 1;
+        let e = missing.entry(days[k].months.clone()).or_default();
+        e.0 += 1;
+        e.1.extend(days[k].stops.iter().map(|s| s.method.clone()));
     }
     let missing = missing
         .into_iter()
-        .map(|(months, crew_days)| {
-            let methods = folder
-                .catalogue
-                .methods
-                .iter()
-                .filter(|m| {
-                    let mut ms = m.months.clone();
-                    ms.sort_unstable();
-                    ms.dedup();
-                    ms == months && folder.planned.iter().any(|p| p.method == m.id)
-                })
-                .map(|m| m.id.clone())
-                .collect();
-            Missing {
-                months,
-                methods,
-                crew_days,
-            }
+        .map(|(months, (crew_days, methods))| Missing {
+            months,
+            methods: methods.into_iter().collect(),
+            crew_days,
         })
         .collect();
     // Dated days by date and crew; then the unscheduled ones in the order they were waiting.
