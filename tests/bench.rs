@@ -59,8 +59,19 @@ fn formulations_agree_with_mixed_size_classes() {
     let dir = tempfile::tempdir().unwrap();
     let args = |mixed: bool| {
         let mut a = vec![
-            "bench", "--patches", "12", "--alpha-m", "300", "--methods", "5", "--time-limit-s",
-            "60", "--gap", "0", "--formulations", "transport,direct",
+            "bench",
+            "--patches",
+            "12",
+            "--alpha-m",
+            "300",
+            "--methods",
+            "5",
+            "--time-limit-s",
+            "60",
+            "--gap",
+            "0",
+            "--formulations",
+            "transport,direct",
         ];
         if mixed {
             a.push("--mixed-classes");
@@ -70,7 +81,10 @@ fn formulations_agree_with_mixed_size_classes() {
     let o = run(dir.path(), &args(true));
     assert!(o.status.success(), "{}", stderr(&o));
     let text = stdout(&o);
-    assert!(text.contains("a size-class mix of its own per patch"), "{text}");
+    assert!(
+        text.contains("a size-class mix of its own per patch"),
+        "{text}"
+    );
     let risk = |name: &str| -> (String, f64) {
         let line = text
             .lines()
@@ -82,12 +96,19 @@ fn formulations_agree_with_mixed_size_classes() {
     let (st, rt) = risk("transport");
     let (sd, rd) = risk("direct");
     assert_eq!((st.as_str(), sd.as_str()), ("optimal", "optimal"), "{text}");
-    assert!((rd - rt).abs() <= 1e-9 * rt, "direct {rd} vs transport {rt}");
+    assert!(
+        (rd - rt).abs() <= 1e-9 * rt,
+        "direct {rd} vs transport {rt}"
+    );
     assert!(risk("greedy").1 >= rt * (1.0 - 1e-12), "{text}");
     // The default mix gives other choices: the flag is not ignored.
     let o = run(dir.path(), &args(false));
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(stdout(&o).contains("(the default size mix)"), "{}", stdout(&o));
+    assert!(
+        stdout(&o).contains("(the default size mix)"),
+        "{}",
+        stdout(&o)
+    );
     assert_ne!(stdout(&o).lines().next(), text.lines().next());
 }
 

@@ -390,6 +390,9 @@ fn the_horizon_term_keeps_the_optimiser_exact() {
             }
         }
     }
-    assert!(compared >= 15, "only {compared} feasible instances compared");
+    assert!(
+        compared >= 15,
+        "only {compared} feasible instances compared"
+    );
     eprintln!("horizon term: {compared} instances exact, {changed} with a different optimum");
 }

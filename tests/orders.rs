@@ -159,7 +159,14 @@ fn check_orders(plan: &Path, ord: &Path, day_hours: f64, max_stops: usize, crews
         // Common practice for crews: finish a stand before moving on.
         if n > 1 {
             let mut by_part: Vec<&&Row> = parts.iter().collect();
-            by_part.sort_by_key(|r| r["part"].split('/').next().unwrap().parse::<usize>().unwrap());
+            by_part.sort_by_key(|r| {
+                r["part"]
+                    .split('/')
+                    .next()
+                    .unwrap()
+                    .parse::<usize>()
+                    .unwrap()
+            });
             for w in by_part.windows(2) {
                 let (a, b) = (w[0], w[1]);
                 // Undated parts (missing crew-days, the window closed) are numbered last.
@@ -175,7 +182,11 @@ fn check_orders(plan: &Path, ord: &Path, day_hours: f64, max_stops: usize, crews
                     b["part"],
                     b["date"]
                 );
-                assert_eq!(a["crew"], b["crew"], "{}: parts on two crews", p["patch_id"]);
+                assert_eq!(
+                    a["crew"], b["crew"],
+                    "{}: parts on two crews",
+                    p["patch_id"]
+                );
                 // Following days, unless a part shares its day with another split patch's part
                 // (a crew can continue only one of them the next day).
                 let shared = |r: &Row| {
@@ -775,11 +786,22 @@ fn work_left_over_names_its_methods() {
     assert!(o.status.success(), "{}", stderr(&o));
     let o = run(
         dir.path(),
-        &["orders", "--plan", "h", "--out", "o", "--start-date", "2027-09-24"],
+        &[
+            "orders",
+            "--plan",
+            "h",
+            "--out",
+            "o",
+            "--start-date",
+            "2027-09-24",
+        ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let text = format!("{}{}", stdout(&o), stderr(&o));
-    let lines: Vec<&str> = text.lines().filter(|l| l.contains("cannot finish")).collect();
+    let lines: Vec<&str> = text
+        .lines()
+        .filter(|l| l.contains("cannot finish"))
+        .collect();
     assert!(!lines.is_empty(), "a late start leaves work over: {text}");
     let catalogue = std::fs::read_to_string(
         Path::new(env!("CARGO_MANIFEST_DIR")).join("models/treatments.toml"),

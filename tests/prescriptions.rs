@@ -385,7 +385,8 @@ fn a_catalogue_without_size_classes_reproduces_the_old_plan() {
         "plan.csv differs from the one before size classes"
     );
     let summary: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(d.join("old/summary.json")).unwrap()).unwrap();
+        serde_json::from_str(&std::fs::read_to_string(d.join("old/summary.json")).unwrap())
+            .unwrap();
     assert!(summary["stem_mix_assumption"].is_null(), "{summary}");
     // Per-class stems add up to the patch's where a person reads them (largest-remainder
     // rounding, common practice): the class columns and the prescription's numbers.

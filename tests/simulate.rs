@@ -702,7 +702,9 @@ fn densest_first_wins_in_year_ten_and_the_tool_says_so() {
         "id,x,y,stems,access,herbicide,pressure,area_ha\nA,500000,4480000,500,open,allowed,20,1\nB,510000,4480000,500,open,allowed,20,1\nDENSE,500000,4490000,500,open,allowed,20,0.1\nC,510000,4490000,500,open,allowed,20,1\n",
     );
     let method = |id: &str, effectiveness: f64, cost: f64| {
-        format!("[[method]]\nid = \"{id}\"\nlabel = \"{id}\"\neffectiveness = {effectiveness}\ncost_per_stem = 0.0\ncost_per_patch = {cost}\nhours_per_stem = 0.0\nherbicide = false\nmonths = [6]\ncautions = [\"PPE\"]\n")
+        format!(
+            "[[method]]\nid = \"{id}\"\nlabel = \"{id}\"\neffectiveness = {effectiveness}\ncost_per_stem = 0.0\ncost_per_patch = {cost}\nhours_per_stem = 0.0\nherbicide = false\nmonths = [6]\ncautions = [\"PPE\"]\n"
+        )
     };
     write(
         d,
@@ -716,9 +718,25 @@ fn densest_first_wins_in_year_ten_and_the_tool_says_so() {
     let o = run(
         d,
         &[
-            "simulate", "--inventory", "stands.csv", "--crs", "EPSG:32618", "--treatments",
-            "treatments.toml", "--budget", "400", "--gap", "0", "--runs", "400", "--years", "10",
-            "--seed", "11", "--out", "sim",
+            "simulate",
+            "--inventory",
+            "stands.csv",
+            "--crs",
+            "EPSG:32618",
+            "--treatments",
+            "treatments.toml",
+            "--budget",
+            "400",
+            "--gap",
+            "0",
+            "--runs",
+            "400",
+            "--years",
+            "10",
+            "--seed",
+            "11",
+            "--out",
+            "sim",
         ],
     );
     assert!(o.status.success(), "{}", stderr(&o));
@@ -734,8 +752,14 @@ fn densest_first_wins_in_year_ten_and_the_tool_says_so() {
         density["final_diff_pct"].as_f64().unwrap(),
         density["final_ci95"][1].as_f64().unwrap(),
     );
-    assert!(hi < 0.0, "densest-first minus plan in year 10: {diff} (CI up to {hi})");
-    assert!((-25.0..-8.0).contains(&diff), "about 16 points by construction, got {diff}");
+    assert!(
+        hi < 0.0,
+        "densest-first minus plan in year 10: {diff} (CI up to {hi})"
+    );
+    assert!(
+        (-25.0..-8.0).contains(&diff),
+        "about 16 points by construction, got {diff}"
+    );
     // Early on the plan is better: in year 1 every light stand is at half its host.
     let year1 = &density["per_year"][0];
     assert_eq!(year1["year"], 1);

@@ -95,6 +95,9 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
         .enumerate()
         .map(|(i, k)| k.map(|k| run.problem.courses[i][k].choice))
         .collect();
-    text.cautions(&cautions::standing_text(), prepared.prescribes_herbicide(&chosen));
+    text.cautions(
+        &cautions::standing_text(),
+        prepared.prescribes_herbicide(&chosen),
+    );
     Ok(text.into_string())
 }

@@ -97,7 +97,10 @@ pub fn run(resolved: &SimulateSettings, printer: Printer) -> Result<String> {
         out.display(),
         if summary.proxy_check.is_some() { "proxy.csv, " } else { "" }
     ));
-    text.cautions(&cautions::standing_text(), prepared.prescribes_herbicide(&plan));
+    text.cautions(
+        &cautions::standing_text(),
+        prepared.prescribes_herbicide(&plan),
+    );
     Ok(text.into_string())
 }
 

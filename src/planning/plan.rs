@@ -70,7 +70,11 @@ impl Plan {
         crate::planning::divergence::explain(
             self.reduction_pct(),
             lambda_pct,
-            &self.patch_value.iter().map(|v| v.max(0.0).sqrt()).collect::<Vec<_>>(),
+            &self
+                .patch_value
+                .iter()
+                .map(|v| v.max(0.0).sqrt())
+                .collect::<Vec<_>>(),
             &self.risk_shares,
             &treated,
         )

@@ -407,7 +407,11 @@ pub fn simulate_plan(
         }))
         .collect();
     // The host as treated: the objective's horizon (if any) is a score, not the dynamics.
-    treatments.extend(extra.iter().map(|(_, a)| Treatment::Fixed(prepared.treated_host(a))));
+    treatments.extend(
+        extra
+            .iter()
+            .map(|(_, a)| Treatment::Fixed(prepared.treated_host(a))),
+    );
     printer.progress(&format!(
         "simulating {} strategies x {} runs x {} years",
         treatments.len(),

@@ -231,7 +231,12 @@ impl RoadNetwork {
         let exits: Vec<Vec<(u32, f64, f64)>> = snaps.iter().map(|s| egress(self, s)).collect();
         let targets: Vec<u32> = exits.iter().flatten().map(|e| e.0).collect();
         let threads = threads.clamp(1, n.max(1));
-        type Row = (usize, Vec<f64>, Vec<f64>, Vec<((usize, usize), Option<Leg>)>);
+        type Row = (
+            usize,
+            Vec<f64>,
+            Vec<f64>,
+            Vec<((usize, usize), Option<Leg>)>,
+        );
         let rows: Vec<Row> = std::thread::scope(|scope| {
             let handles: Vec<_> = (0..threads)
                 .map(|t| {
@@ -342,7 +347,10 @@ impl RoadNetwork {
         let targets: Vec<u32> = ends.iter().map(|e| e.0).collect();
         SEARCH.with(|cell| {
             let mut cached = cell.borrow_mut();
-            if cached.as_ref().is_none_or(|s| s.best.len() != self.graph_vertex.len()) {
+            if cached
+                .as_ref()
+                .is_none_or(|s| s.best.len() != self.graph_vertex.len())
+            {
                 *cached = Some(Search::new(self.graph_vertex.len()));
             }
             let search = cached.as_mut().expect("just made");
@@ -400,7 +408,12 @@ impl RoadNetwork {
                 }
                 line.extend(between);
             }
-            (Some(Leg { arcs, first, end, .. }), _) => {
+            (
+                Some(Leg {
+                    arcs, first, end, ..
+                }),
+                _,
+            ) => {
                 // From the point to the first graph node.
                 if self.at_node(from).is_none() {
                     let c = self.position(from).chain;

@@ -99,7 +99,11 @@ fn travel_equals_plain_dijkstra_on_random_graphs_with_one_way_arcs() {
                 1 => OneWay::Reverse,
                 _ => OneWay::Both,
             };
-            let class = if next() < 0.3 { "primary" } else { "residential" };
+            let class = if next() < 0.3 {
+                "primary"
+            } else {
+                "residential"
+            };
             let points: Vec<(f64, f64)> = ids.iter().map(|&v| vertices[v]).collect();
             roads.push((ids, segment(&points, class, oneway)));
         }
@@ -153,7 +157,10 @@ fn travel_equals_plain_dijkstra_on_random_graphs_with_one_way_arcs() {
                 let (h, m) = plain[v];
                 let (th, tk) = (travel.hours(i, j), travel.km(i, j));
                 if h.is_infinite() {
-                    assert!(th.is_infinite(), "round {round}: {u} -> {v}: {th} h, plain none");
+                    assert!(
+                        th.is_infinite(),
+                        "round {round}: {u} -> {v}: {th} h, plain none"
+                    );
                     continue;
                 }
                 finite += 1;
@@ -168,6 +175,9 @@ fn travel_equals_plain_dijkstra_on_random_graphs_with_one_way_arcs() {
                 );
             }
         }
-        assert!(finite > used.len() * 2, "round {round}: too few drives to compare");
+        assert!(
+            finite > used.len() * 2,
+            "round {round}: too few drives to compare"
+        );
     }
 }

@@ -341,9 +341,7 @@ impl Travel {
             depot_legs: if keep.first() == Some(&0) {
                 self.depot_legs
                     .iter()
-                    .filter_map(|(&(i, j), leg)| {
-                        Some(((position(i)?, position(j)?), leg.clone()))
-                    })
+                    .filter_map(|(&(i, j), leg)| Some(((position(i)?, position(j)?), leg.clone())))
                     .collect()
             } else {
                 Default::default()

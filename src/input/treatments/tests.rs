@@ -213,7 +213,10 @@ fn whole_stems_add_up() {
     let counts = [302.6, 151.1, 50.3];
     assert_eq!(whole_stems(&counts, 504.0), [303.0, 151.0, 50.0]);
     // 302.3, 151.3, 50.4 (504): floors 503, the stem goes to 50.4.
-    assert_eq!(whole_stems(&[302.3, 151.3, 50.4], 504.0), [302.0, 151.0, 51.0]);
+    assert_eq!(
+        whole_stems(&[302.3, 151.3, 50.4], 504.0),
+        [302.0, 151.0, 51.0]
+    );
     for total in [0.0, 1.0, 7.0, 105.0, 1633.0, 99_999.0] {
         let counts = [0.6 * total, 0.3 * total, 0.1 * total];
         let whole = whole_stems(&counts, total);

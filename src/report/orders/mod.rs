@@ -12,9 +12,9 @@
 mod csv;
 mod explore;
 mod gpkg;
-mod styles;
 mod html;
 mod labels;
+mod styles;
 mod svg;
 
 use std::collections::HashMap;
