@@ -372,6 +372,14 @@ fn rows_header(path: &std::path::Path) -> String {
 /// 1984).
 #[test]
 fn optimal_line_on_top_and_labels_clear_of_every_line() {
+    // Both objectives: the one-season default and the horizon term, whose curve on these stands
+    // once put the "90% of attainable" label across a marker line.
+    for horizon in ["1", "10"] {
+        labels_clear(horizon);
+    }
+}
+
+fn labels_clear(horizon: &str) {
     let dir = tempfile::tempdir().unwrap();
     inventory(dir.path(), 21, 14);
     let o = run(
@@ -384,6 +392,8 @@ fn optimal_line_on_top_and_labels_clear_of_every_line() {
             "EPSG:32618",
             "--budget",
             "2500",
+            "--horizon-years",
+            horizon,
             "--out",
             "p",
             "--quiet",

@@ -108,23 +108,80 @@ fn place_labels(
     sx: &dyn Fn(f64) -> f64,
     right_edge: f64,
 ) -> Vec<(f64, usize, bool)> {
-    let mut order: Vec<usize> = (0..markers.len()).collect();
-    // Right to left: a label runs rightwards from its line, so it can only span the lines of
-    // markers to its right, which are placed first; it then takes a row above theirs, and no
-    // line ever has to rise through a label placed before it.
-    order.sort_by(|&a, &b| markers[b].x.total_cmp(&markers[a].x));
-    let mut taken: Vec<Vec<(f64, f64)>> = Vec::new();
-    let mut leaders: Vec<(f64, usize)> = Vec::new();
-    let mut placed = vec![(0.0, 0, false); markers.len()];
-    for k in order {
+    // A label's side: it starts at its line and runs right, or (near the right edge, where it
+    // would not fit) ends at its line and runs left.
+    let side = |k: usize, end_anchored: bool| {
         let px = sx(markers[k].x);
         let w = label_width(&markers[k].label);
-        let anchor_end = px + 4.0 + w > right_edge;
-        let (start, end) = if anchor_end {
+        if end_anchored {
             (px - 4.0 - w, px - 4.0)
         } else {
             (px + 4.0, px + 4.0 + w)
-        };
+        }
+    };
+    let n = markers.len();
+    let mut end_anchored: Vec<bool> = (0..n).map(|k| side(k, false).1 > right_edge).collect();
+    let spans = |a: usize, b: usize, ends: &[bool]| {
+        let (start, end) = side(a, ends[a]);
+        let x = sx(markers[b].x);
+        a != b && x >= start - 3.0 && x <= end + 3.0
+    };
+    let fits = |k: usize, e: bool| {
+        let (start, end) = side(k, e);
+        start >= 0.0 && end <= right_edge
+    };
+    // A label must sit above every line it spans. Two labels that span each other's lines
+    // cannot both do so: one turns to its other side where it fits there, the one running
+    // right first; each label turns at most once, so the passes end.
+    let mut turned = vec![false; n];
+    loop {
+        let mut any = false;
+        for a in 0..n {
+            for b in 0..n {
+                if !(spans(a, b, &end_anchored) && spans(b, a, &end_anchored)) {
+                    continue;
+                }
+                let (first, second) = if end_anchored[a] { (b, a) } else { (a, b) };
+                for k in [first, second] {
+                    if !turned[k] && fits(k, !end_anchored[k]) {
+                        end_anchored[k] = !end_anchored[k];
+                        turned[k] = true;
+                        any = true;
+                        break;
+                    }
+                }
+            }
+        }
+        if !any {
+            break;
+        }
+    }
+    // Order: a label after the lines it spans (Kahn's topological order), rightmost first among
+    // those ready. With every label running rightwards this is right to left: a label spans
+    // only lines to its right, placed before it, so no line has to rise through a label placed
+    // before it. Labels left in a cycle follow, right to left.
+    let mut order: Vec<usize> = Vec::with_capacity(n);
+    let mut done = vec![false; n];
+    while order.len() < n {
+        let ready = (0..n)
+            .filter(|&a| !done[a])
+            .filter(|&a| (0..n).all(|b| done[b] || !spans(a, b, &end_anchored)))
+            .max_by(|&a, &b| markers[a].x.total_cmp(&markers[b].x).then(b.cmp(&a)));
+        let next = ready.unwrap_or_else(|| {
+            (0..n)
+                .filter(|&a| !done[a])
+                .max_by(|&a, &b| markers[a].x.total_cmp(&markers[b].x).then(b.cmp(&a)))
+                .unwrap()
+        });
+        done[next] = true;
+        order.push(next);
+    }
+    let mut taken: Vec<Vec<(f64, f64)>> = Vec::new();
+    let mut leaders: Vec<(f64, usize)> = Vec::new();
+    let mut placed = vec![(0.0, 0, false); n];
+    for &k in &order {
+        let px = sx(markers[k].x);
+        let (start, end) = side(k, end_anchored[k]);
         // Row 0 is nearest the plot; the marker's line rises to its label's row, so no label
         // in a row below may span the line, and the label may not span a line that rises
         // past its row.
@@ -144,18 +201,16 @@ fn place_labels(
         };
         // Bounded: a label whose line is spanned in every row gets a new top row (no endless
         // search when the rows below are blocked).
-        let row = (0..=markers.len())
-            .find(|&r| free(r))
-            .unwrap_or(taken.len());
+        let row = (0..=n).find(|&r| free(r)).unwrap_or(taken.len());
         leaders.push((px, row));
         if taken.len() <= row {
             taken.resize(row + 1, Vec::new());
         }
         taken[row].push((start, end));
         placed[k] = (
-            if anchor_end { px - 4.0 } else { px + 4.0 },
+            if end_anchored[k] { px - 4.0 } else { px + 4.0 },
             row,
-            anchor_end,
+            end_anchored[k],
         );
     }
     placed
