@@ -138,17 +138,29 @@ fn ensemble_mips_equal_brute_force() {
         let optimum: Vec<f64> = (0..k)
             .map(|s| plans.iter().map(|a| r(s, a)).fold(f64::INFINITY, f64::min))
             .collect();
-        for (robust, offsets) in [("worst", vec![0.0; k]), ("regret", optimum.clone())] {
+        // Worst case: offsets 0, scales 1; least regret: the regret as a share of each
+        // scenario's optimum (what `hostcut plan --robust regret` minimises).
+        let relative: Vec<f64> = optimum.iter().map(|&o| 1.0 / o).collect();
+        for (robust, offsets, scales) in [
+            ("worst", vec![0.0; k], vec![1.0; k]),
+            ("regret", optimum.clone(), relative),
+        ] {
             let mm = MinMax {
                 models: inst.models.iter().collect(),
                 offsets: offsets.clone(),
+                scales: scales.clone(),
             };
             let brute = plans
                 .iter()
                 .map(|a| mm.value(&base, a))
                 .fold(f64::INFINITY, f64::min);
             let got = solve_minmax(&base, &mm, exact(), &[], f64::NEG_INFINITY).unwrap();
-            let scale = optimum.iter().cloned().fold(0.0, f64::max);
+            // The value's own size: R for the worst case, a share (about 1) for the regret.
+            let scale = if robust == "worst" {
+                optimum.iter().cloned().fold(0.0, f64::max)
+            } else {
+                1.0
+            };
             assert!(
                 (got.value - brute).abs() <= 1e-8 * scale,
                 "seed {seed} {robust}: MIP {} vs brute force {brute}",
@@ -222,94 +234,106 @@ fn an_ensemble_of_one_is_the_plan() {
 fn robust_plans_from_the_command_line() {
     let dir = tempfile::tempdir().unwrap();
     write(dir.path(), "stands.csv", STANDS);
-    // Every stem alike (host weights 1). KNOWN, OPEN (issue 20's finish): with the built-in
-    // host weights 1/2/8 the stands get more non-dominated prescriptions and the least-regret
-    // plan came out with a worse worst regret than greedy's (by more than 1e-3) in this test;
-    // not diagnosed yet, reported with the branch.
+    // The built-in catalogue (host weights 1/2/8 by size class). Run once with every stem
+    // alike too: with weights 1 the scenarios' R are of similar size, with 1/2/8 they are
+    // not, and a least-regret MIP on the absolute regret then chose a plan whose worst regret
+    // in percent (what regret.csv ranks by) was larger than greedy's.
     write(dir.path(), "alike.toml", &catalogue_alike());
     let alike = dir.path().join("alike.toml");
-    let kernels = [
-        "--kernel",
-        "exp:100",
-        "--kernel",
-        "exp:500",
-        "--kernel",
-        "cauchy:250",
-        "--treatments",
-        alike.to_str().unwrap(),
-    ];
-    for robust in ["mean", "worst", "regret"] {
-        let mut extra = kernels.to_vec();
-        extra.extend_from_slice(&["--robust", robust]);
-        let o = plan(dir.path(), robust, &extra);
-        assert!(o.status.success(), "{robust}: {}", stderr(&o));
-        // Issue 22: the run names the plan it wrote, not only the least-regret candidate.
-        let written = if robust == "mean" {
-            "ensemble_mean".to_string()
-        } else {
-            format!("robust_{robust}")
-        };
-        assert!(
-            stdout(&o).contains(&format!("plan written: {written} (worst-case R")),
-            "{}",
-            stdout(&o)
-        );
-        let s = summary(&dir.path().join(robust));
-        assert_eq!(s["ensemble"]["written_plan"]["plan"], written.as_str());
-        assert_eq!(s["ensemble"]["robust"], robust);
-        assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
-        let rows = Table::read(&dir.path().join(robust).join("regret.csv")).rows;
-        let plans: std::collections::BTreeSet<&str> = rows.iter().map(|r| r.get("plan")).collect();
-        // mean, (robust), three optima, greedy.
-        assert_eq!(
-            plans.len(),
-            if robust == "mean" { 5 } else { 6 },
-            "{plans:?}"
-        );
-        assert_eq!(rows.len(), plans.len() * 3);
-        for r in &rows {
-            let regret = r.num("regret");
-            assert!(regret >= 0.0);
+    for catalogue in [None, Some(alike.to_str().unwrap())] {
+        let mut kernels = vec![
+            "--kernel",
+            "exp:100",
+            "--kernel",
+            "exp:500",
+            "--kernel",
+            "cauchy:250",
+        ];
+        if let Some(c) = catalogue {
+            kernels.extend_from_slice(&["--treatments", c]);
         }
-        // Each scenario's own optimum has no regret in its scenario.
-        for r in rows
-            .iter()
-            .filter(|r| r.get("plan").starts_with("optimum:"))
-        {
-            if r.get("plan") == format!("optimum:{}", r.get("scenario")) {
-                assert_eq!(r.num("regret"), 0.0, "{r:?}");
-            }
-        }
-        // The written plan's worst-case and mean R are those regret.csv holds for it.
-        let worst = rows
-            .iter()
-            .filter(|r| r.get("plan") == written)
-            .map(|r| r.num("risk_after"))
-            .fold(0.0, f64::max);
-        let reported = s["ensemble"]["written_plan"]["worst_risk"]
-            .as_f64()
-            .unwrap();
-        assert!(
-            (worst - reported).abs() <= 1e-8 * reported,
-            "{worst} vs {reported}"
-        );
-        if robust == "regret" {
-            // The least-regret plan has the smallest worst regret of all candidates.
-            let max_regret = |plan: &str| {
-                rows.iter()
-                    .filter(|r| r.get("plan") == plan)
-                    .map(|r| r.num("regret_pct"))
-                    .fold(0.0, f64::max)
+        for robust in ["mean", "worst", "regret"] {
+            let mut extra = kernels.to_vec();
+            extra.extend_from_slice(&["--robust", robust]);
+            let out = format!(
+                "{robust}-{}",
+                if catalogue.is_some() {
+                    "alike"
+                } else {
+                    "built-in"
+                }
+            );
+            let o = plan(dir.path(), &out, &extra);
+            assert!(o.status.success(), "{robust}: {}", stderr(&o));
+            // Issue 22: the run names the plan it wrote, not only the least-regret candidate.
+            let written = if robust == "mean" {
+                "ensemble_mean".to_string()
+            } else {
+                format!("robust_{robust}")
             };
-            let mine = max_regret("robust_regret");
-            for p in &plans {
-                assert!(mine <= max_regret(p) + 1e-3, "{p} has less worst regret");
+            assert!(
+                stdout(&o).contains(&format!("plan written: {written} (worst-case R")),
+                "{}",
+                stdout(&o)
+            );
+            let s = summary(&dir.path().join(&out));
+            assert_eq!(s["ensemble"]["written_plan"]["plan"], written.as_str());
+            assert_eq!(s["ensemble"]["robust"], robust);
+            assert_eq!(s["ensemble"]["scenarios"].as_array().unwrap().len(), 3);
+            let rows = Table::read(&dir.path().join(&out).join("regret.csv")).rows;
+            let plans: std::collections::BTreeSet<&str> =
+                rows.iter().map(|r| r.get("plan")).collect();
+            // mean, (robust), three optima, greedy.
+            assert_eq!(
+                plans.len(),
+                if robust == "mean" { 5 } else { 6 },
+                "{plans:?}"
+            );
+            assert_eq!(rows.len(), plans.len() * 3);
+            for r in &rows {
+                let regret = r.num("regret");
+                assert!(regret >= 0.0);
             }
-            // regret.csv rounds regret_pct to 4 decimals; summary.json keeps it whole.
-            let whole = s["ensemble"]["most_robust"]["max_regret_pct"]
+            // Each scenario's own optimum has no regret in its scenario.
+            for r in rows
+                .iter()
+                .filter(|r| r.get("plan").starts_with("optimum:"))
+            {
+                if r.get("plan") == format!("optimum:{}", r.get("scenario")) {
+                    assert_eq!(r.num("regret"), 0.0, "{r:?}");
+                }
+            }
+            // The written plan's worst-case and mean R are those regret.csv holds for it.
+            let worst = rows
+                .iter()
+                .filter(|r| r.get("plan") == written)
+                .map(|r| r.num("risk_after"))
+                .fold(0.0, f64::max);
+            let reported = s["ensemble"]["written_plan"]["worst_risk"]
                 .as_f64()
                 .unwrap();
-            assert!((whole - mine).abs() <= 0.5e-4 + 1e-12, "{whole} vs {mine}");
+            assert!(
+                (worst - reported).abs() <= 1e-8 * reported,
+                "{worst} vs {reported}"
+            );
+            if robust == "regret" {
+                // The least-regret plan has the smallest worst regret of all candidates.
+                let max_regret = |plan: &str| {
+                    rows.iter()
+                        .filter(|r| r.get("plan") == plan)
+                        .map(|r| r.num("regret_pct"))
+                        .fold(0.0, f64::max)
+                };
+                let mine = max_regret("robust_regret");
+                for p in &plans {
+                    assert!(mine <= max_regret(p) + 1e-3, "{p} has less worst regret");
+                }
+                // regret.csv rounds regret_pct to 4 decimals; summary.json keeps it whole.
+                let whole = s["ensemble"]["most_robust"]["max_regret_pct"]
+                    .as_f64()
+                    .unwrap();
+                assert!((whole - mine).abs() <= 0.5e-4 + 1e-12, "{whole} vs {mine}");
+            }
         }
     }
 }

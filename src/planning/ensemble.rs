@@ -147,11 +147,40 @@ pub fn solve(
     let mean = optimise::solve_from(&base, next_limits(), best_start.as_ref())?;
     let greedy = mean.greedy.clone();
 
-    let minmax_for = |robust: Robust| MinMax {
-        models: models.iter().collect(),
-        offsets: match robust {
-            Robust::Regret => optima.iter().map(|o| o.risk_after).collect(),
-            _ => vec![0.0; models.len()],
+    let risk_under = |s: usize, a: &Assignment| models[s].risk(&base.remaining(a));
+    // The plans known before the robust search: each scenario's optimum, the mean plan and
+    // greedy on the mean model.
+    let mut known: Vec<&Assignment> = optima.iter().map(|o| &o.assignment).collect();
+    known.push(&mean.assignment);
+    if let Some((g, _)) = &greedy {
+        known.push(g);
+    }
+    // The least R known per scenario: its optimum, or a plan that beat it within its gap.
+    let least_known: Vec<f64> = (0..models.len())
+        .map(|s| {
+            known
+                .iter()
+                .map(|a| risk_under(s, a))
+                .fold(optima[s].risk_after, f64::min)
+        })
+        .collect();
+    // Regret is measured as a share of each scenario's least R (as regret.csv's regret_pct
+    // ranks the candidates): scenarios of different kernels have R of different sizes, and an
+    // absolute regret would let the largest decide alone. A scenario whose least R is 0 keeps
+    // an absolute regret (no share of 0 exists).
+    let minmax_for = |robust: Robust| match robust {
+        Robust::Regret => MinMax {
+            models: models.iter().collect(),
+            offsets: least_known.clone(),
+            scales: least_known
+                .iter()
+                .map(|&b| if b > 0.0 { 1.0 / b } else { 1.0 })
+                .collect(),
+        },
+        _ => MinMax {
+            models: models.iter().collect(),
+            offsets: vec![0.0; models.len()],
+            scales: vec![1.0; models.len()],
         },
     };
     let (chosen, objective) = match e.robust {
@@ -177,13 +206,14 @@ pub fn solve(
             let floor = optima
                 .iter()
                 .zip(&mm.offsets)
-                .map(|(o, off)| o.bound - off)
+                .zip(&mm.scales)
+                .map(|((o, off), k)| k * (o.bound - off))
                 .fold(f64::NEG_INFINITY, f64::max);
             let r = solve_minmax(&base, &mm, next_limits(), &starts, floor)?;
             let objective = match robust {
                 Robust::Worst => "worst-case R over the scenarios".to_string(),
                 _ => {
-                    "largest regret over the scenarios (R minus the scenario's least achievable R)"
+                    "largest regret over the scenarios (R minus the scenario's least achievable R, as a share of that R)"
                         .to_string()
                 }
             };
@@ -225,7 +255,6 @@ pub fn solve(
     if let Some((g, _)) = &greedy {
         candidates.push(("greedy".into(), g.clone()));
     }
-    let risk_under = |s: usize, a: &Assignment| models[s].risk(&base.remaining(a));
     // The best known R per scenario: its optimum, or a candidate that did better within the gap.
     let best: Vec<f64> = (0..models.len())
         .map(|s| {

@@ -312,22 +312,37 @@ impl Limits {
 }
 
 /// Several risk models over the same patches (an ensemble of dispersal scenarios) and what to
-/// minimise over them: the largest of R_s - offset_s (offsets 0: the worst-case R; offsets =
-/// each scenario's least achievable R: the largest regret).
+/// minimise over them: the largest of scale_s (R_s - offset_s). Offsets 0 and scales 1: the
+/// worst-case R; offsets = each scenario's least achievable R and scales = 1 / that R: the
+/// largest regret as a share of each scenario's least achievable R (scenarios of different
+/// kernels have R of different sizes, so an absolute regret would weigh them unequally).
 #[derive(Debug, Clone)]
 pub struct MinMax<'a> {
     pub models: Vec<&'a RiskModel>,
     pub offsets: Vec<f64>,
+    pub scales: Vec<f64>,
 }
 
 impl MinMax<'_> {
-    /// max_s (R_s(a) - offset_s).
+    /// max_s scale_s (R_s(a) - offset_s).
     pub fn value(&self, problem: &Problem, a: &Assignment) -> f64 {
         let r = problem.remaining(a);
         self.models
             .iter()
             .zip(&self.offsets)
-            .map(|(m, o)| m.risk(&r) - o)
+            .zip(&self.scales)
+            .map(|((m, o), k)| k * (m.risk(&r) - o))
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
+    /// max_s scale_s R_s(a): what the gap is measured on (the worst-case R when every scale
+    /// is 1).
+    pub fn scaled_worst(&self, problem: &Problem, a: &Assignment) -> f64 {
+        let r = problem.remaining(a);
+        self.models
+            .iter()
+            .zip(&self.scales)
+            .map(|(m, k)| k * m.risk(&r))
             .fold(f64::NEG_INFINITY, f64::max)
     }
 

@@ -12,11 +12,13 @@ use crate::solve::problem::{Assignment, Limits, MinMax, OPTIMAL_GAP, Problem, So
 #[derive(Debug, Clone)]
 pub struct MinMaxSolved {
     pub assignment: Assignment,
-    /// max_s (R_s - offset_s) of the assignment.
+    /// max_s scale_s (R_s - offset_s) of the assignment.
     pub value: f64,
     /// A proven lower bound on the least achievable value.
     pub bound: f64,
-    /// (value - bound) / (the assignment's worst-scenario R): the gap on the risk that remains.
+    /// (value - bound) / max_s scale_s R_s(assignment): the gap on the risk that remains (the
+    /// worst-scenario R for the worst case; each R as a share of its scenario's least R for
+    /// the regret).
     pub gap: f64,
     pub status: Status,
     pub seconds: f64,
@@ -25,9 +27,9 @@ pub struct MinMaxSolved {
     pub path: SolverPath,
 }
 
-/// Minimise max_s (R_s - offset_s) over feasible plans, exactly (transportation formulation with
+/// Minimise max_s scale_s (R_s - offset_s) over feasible plans, exactly (transportation formulation with
 /// an epigraph variable), warm-started from the best of `starts`. `floor` is a lower bound known
-/// beforehand (e.g. max_s of each scenario's own proven bound minus its offset: no plan does
+/// beforehand (e.g. max_s of scale_s times each scenario's own proven bound minus its offset: no plan does
 /// better in scenario s than its optimum); the reported bound is the larger of it and HiGHS's.
 pub fn solve_minmax(
     problem: &Problem,
@@ -50,7 +52,7 @@ pub fn solve_minmax(
         } else {
             floor
         };
-        let worst = mm.worst_risk(problem, &assignment);
+        let worst = mm.scaled_worst(problem, &assignment);
         let bound = bound.min(value);
         let gap = if worst > 0.0 {
             ((value - bound) / worst).max(0.0)
@@ -85,7 +87,7 @@ pub fn solve_minmax(
     }
     // A start already within the requested gap of the known floor needs no search.
     if let Some(w) = &warm {
-        let worst = mm.worst_risk(problem, w);
+        let worst = mm.scaled_worst(problem, w);
         if worst > 0.0 && (mm.value(problem, w) - floor) / worst <= limits.gap {
             return Ok(done(
                 w.clone(),
@@ -95,7 +97,7 @@ pub fn solve_minmax(
             ));
         }
     }
-    let worst_before = mm.worst_risk(problem, &vec![None; n]);
+    let worst_before = mm.scaled_worst(problem, &vec![None; n]);
     if worst_before <= 0.0 {
         return Ok(done(
             vec![None; n],

@@ -55,7 +55,7 @@ fn dominated(problem: &Problem, i: usize, o: usize) -> bool {
 /// relaxation is the local-consistency bound, much tighter than the compact one.
 ///
 /// With `minmax`, the objective is an epigraph variable t with
-/// t >= R_s - offset_s for every model (exact: each R_s is linear in (v, z)); the z variables
+/// t >= scale_s (R_s - offset_s) for every model (exact: each R_s is linear in (v, z)); the z variables
 /// cover the union of every model's links.
 pub(crate) fn build_transport(
     problem: &Problem,
@@ -179,9 +179,10 @@ pub(crate) fn build_transport(
             .using(highs),
         Some((t, _)) => {
             let mut lp = vars.minimise(scale * t).using(highs);
-            let offsets = &minmax.expect("epigraph only with minmax").offsets;
-            for (risk, offset) in risks.into_iter().zip(offsets) {
-                lp = lp.with((scale * (risk - t)).leq(scale * offset));
+            let mm = minmax.expect("epigraph only with minmax");
+            // t >= k_s (R_s - offset_s), written k_s R_s - t <= k_s offset_s.
+            for ((risk, offset), k) in risks.into_iter().zip(&mm.offsets).zip(&mm.scales) {
+                lp = lp.with((scale * (*k * risk - t)).leq(scale * k * offset));
             }
             lp
         }
