@@ -186,6 +186,7 @@ pub struct PlanArgs {
     #[arg(long, value_name = "FILE.toml")]
     pub ensemble: Option<PathBuf>,
     /// With scenarios: minimise the weighted mean R, the worst-case R, or the largest regret
+    /// (as a share of each scenario's least achievable R)
     #[arg(long, value_enum, value_name = "HOW")]
     pub robust: Option<crate::core::scenario::Robust>,
     /// Dispersal kernel scale alpha in metres

@@ -162,7 +162,7 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
             };
             let objective = match summary.ensemble.as_ref().and_then(|e| e["robust"].as_str()) {
                 Some("worst") => " on the worst-case R",
-                Some("regret") => " on the largest regret",
+                Some("regret") => " on the largest regret (share of each scenario's least R)",
                 _ => "",
             };
             t.line(format_args!(
