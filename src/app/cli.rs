@@ -61,6 +61,10 @@ pub struct PlanArgs {
     /// Host layer: a raster (band 1 = tree-of-heaven stems per hectare) or polygons with a stems attribute
     #[arg(long, value_name = "RASTER|VECTOR", conflicts_with = "inventory")]
     pub host: Option<PathBuf>,
+    /// A density raster of one size class, stems/ha of that class, on the host raster's grid
+    /// (repeat once per class of the catalogue; the host raster still outlines the patches)
+    #[arg(long = "host-class", value_name = "CLASS=RASTER")]
+    pub host_class: Vec<String>,
     /// Layer to read in a multi-layer host file (e.g. a GeoPackage)
     #[arg(long, value_name = "NAME")]
     pub host_layer: Option<String>,

@@ -277,6 +277,10 @@ pub struct HostSection {
     /// share, summing to 1; default: the catalogue's `default_share`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub default_mix: Option<std::collections::BTreeMap<String, f64>>,
+    /// One density raster per size class (class id -> raster, stems/ha of that class) on the
+    /// host raster's grid: the host raster outlines the patches, these split their stems.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub class_rasters: Option<std::collections::BTreeMap<String, PathBuf>>,
     pub stems_field: String,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub id_field: Option<String>,
@@ -298,6 +302,7 @@ impl Default for HostSection {
             work_crs: None,
             suitability: None,
             default_mix: None,
+            class_rasters: None,
             stems_field: "stems".into(),
             id_field: None,
             min_density: 10.0,
@@ -594,6 +599,12 @@ impl Scenario {
         paths.extend(self.host.path.as_mut());
         paths.extend(self.host.inventory.as_mut());
         paths.extend(self.host.suitability.as_mut());
+        paths.extend(
+            self.host
+                .class_rasters
+                .iter_mut()
+                .flat_map(|m| m.values_mut()),
+        );
         paths.extend(self.access.as_mut().map(|a| &mut a.path));
         paths.extend(self.corridors.iter_mut().map(|c| &mut c.path));
         paths.extend(self.detections.as_mut().map(|d| &mut d.path));

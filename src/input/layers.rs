@@ -164,6 +164,9 @@ pub struct Layers {
     /// The catalogue's size-class ids: inventory columns and host-polygon fields counting stems
     /// by class.
     pub size_classes: Vec<String>,
+    /// One density raster per size class, in class order, on the host raster's grid (empty:
+    /// none given).
+    pub class_rasters: Vec<RasterFile>,
 }
 
 /// Read every layer the scenario names; a host raster too large for `budget` is refused from
@@ -225,6 +228,18 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
             s.host.id_field.as_deref(),
             budget,
         )?
+    };
+    let class_rasters = match (&s.host.class_rasters, &host) {
+        (None, _) => Vec::new(),
+        (Some(given), Host::Raster(r)) => {
+            crate::input::class_rasters::open(given, size_classes, r, assume.as_ref(), budget)?
+        }
+        (Some(_), _) => {
+            return Err(Error::input_with_hint(
+                "class rasters (`--host-class`) split a host raster's stems, but the host is not a raster",
+                "give stems by class as fields of the host polygons or columns of the inventory, named after the classes",
+            ));
+        }
     };
     let host_extent = host_extent(&host);
     let mut skipped = Skipped::default();
@@ -434,6 +449,7 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
         crs_conversion: inventory_note,
         bindings,
         size_classes: size_classes.to_vec(),
+        class_rasters,
     })
 }
 

@@ -8,7 +8,7 @@
 
 use std::collections::{BTreeSet, HashMap};
 
-use geo::{Area, Centroid, Contains, MultiPolygon, Point, Polygon};
+use geo::{Area, Centroid, MultiPolygon, Point, Polygon};
 use rstar::RTree;
 use rstar::primitives::{GeomWithData, Rectangle};
 
@@ -17,9 +17,10 @@ use crate::core::memory::{Budget, RasterCost};
 use crate::core::progress::Bars;
 use crate::core::scenario::HostSection;
 use crate::core::site::{Herbicide, PatchId, Site, Water};
+use crate::input::class_rasters;
 use crate::input::gis::{self, Crs, Frame, Grid};
 use crate::input::label::{Blob, Labeller, Rules, Run};
-use crate::input::layers::{Host, Layers, Parcel, SiteFeature, Skipped};
+use crate::input::layers::{Host, Layers, SiteFeature, Skipped};
 
 /// One patch of tree-of-heaven.
 #[derive(Debug, Clone)]
@@ -301,50 +302,11 @@ pub fn strip_rows(raster: &gis::RasterFile) -> usize {
     Budget::strip_rows(raster.frame.width, 8, raster.block_rows)
 }
 
-/// Finds the parcel a point lies in.
-pub struct ParcelIndex<'a> {
-    parcels: &'a [Parcel],
-    tree: RTree<GeomWithData<Rectangle<[f64; 2]>, usize>>,
-}
-
-impl<'a> ParcelIndex<'a> {
-    pub fn new(parcels: &'a [Parcel]) -> Self {
-        use geo::BoundingRect;
-        let items = parcels
-            .iter()
-            .enumerate()
-            .filter_map(|(i, p)| {
-                p.geometry.bounding_rect().map(|r| {
-                    GeomWithData::new(
-                        Rectangle::from_corners([r.min().x, r.min().y], [r.max().x, r.max().y]),
-                        i,
-                    )
-                })
-            })
-            .collect();
-        ParcelIndex {
-            parcels,
-            tree: RTree::bulk_load(items),
-        }
-    }
-
-    /// The last parcel (in layer order) containing (x, y), as rasterising would burn it.
-    pub fn locate(&self, x: f64, y: f64) -> Option<&'a Parcel> {
-        let point = Point::new(x, y);
-        self.tree
-            .locate_all_at_point(&[x, y])
-            .map(|g| g.data)
-            .filter(|&i| self.parcels[i].geometry.contains(&point))
-            .max()
-            .map(|i| &self.parcels[i])
-    }
-}
-
 /// Build patches from the loaded layers.
 /// Raster patches are checked against `budget` while labelling and before their outlines are
 /// drawn; `bars` says whether labelling shows a bar (the command's printer's choice).
 pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -> Result<Patches> {
-    let parcel_index = ParcelIndex::new(&layers.parcels);
+    let parcel_index = crate::input::parcel_index::ParcelIndex::new(&layers.parcels);
     let site_at = |x: f64, y: f64| {
         parcel_index
             .locate(x, y)
@@ -356,6 +318,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
     let mut runs = Vec::new();
     let mut skipped = layers.skipped.clone();
     let non_finite = std::cell::Cell::new(0usize);
+    let mut class_note = None;
     let source;
     match &layers.host {
         Host::Raster(raster) => {
@@ -444,8 +407,15 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
             )?;
             let cell_ha = frame.cell_area_ha();
             let width = components.len().to_string().len().max(4);
+            // With one raster per size class, those split each patch's stems.
+            let runs_of: Vec<&[Run]> = components.iter().map(|c| c.runs.as_slice()).collect();
+            let by_class = class_rasters::sums(&layers.class_rasters, &runs_of)?;
             for (k, c) in components.iter().enumerate() {
-                let stems = c.sum * cell_ha;
+                let by_class: Option<Vec<f64>> =
+                    (by_class.get(k)).map(|v| v.iter().map(|d| d * cell_ha).collect());
+                let stems = by_class
+                    .as_ref()
+                    .map_or(c.sum * cell_ha, |v| v.iter().sum());
                 // The affine geotransform maps the value-weighted mean cell position to the
                 // stem-weighted centroid.
                 let (x, y) = frame.corner(c.sum_col / c.sum, c.sum_row / c.sum);
@@ -465,8 +435,17 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
                     site,
                     pressure_override: None,
                     suitability: None,
-                    by_class: None,
+                    by_class,
                 });
+            }
+            if !by_class.is_empty() {
+                let host_total: f64 = components.iter().map(|c| c.sum * cell_ha).sum();
+                let class_total: f64 = items.iter().map(|p: &Patch| p.stems).sum();
+                if (class_total - host_total).abs() > 0.01 * host_total.max(1.0) {
+                    class_note = Some(format!(
+                        "the class rasters hold {class_total:.0} stems inside the patches, the host raster {host_total:.0}: the stems and their size classes come from the class rasters, the outlines from the host raster"
+                    ));
+                }
             }
             runs = components.into_iter().map(|c| c.runs).collect();
         }
@@ -674,7 +653,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
         items,
         dropped_slivers,
         skipped,
-        notes: layers.notes.clone(),
+        notes: layers.notes.iter().cloned().chain(class_note).collect(),
         crs_conversion: layers.crs_conversion.clone(),
         water_checked: layers.water_checked,
         source,

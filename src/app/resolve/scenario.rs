@@ -54,6 +54,29 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
     if let Some(p) = &args.suitability {
         s.host.suitability = Some(abs(p));
     }
+    if !args.host_class.is_empty() {
+        let mut map = std::collections::BTreeMap::new();
+        for given in &args.host_class {
+            let Some((class, path)) = given
+                .split_once('=')
+                .filter(|(c, p)| !c.is_empty() && !p.is_empty())
+            else {
+                return Err(Error::input_with_hint(
+                    format!("`--host-class {given}`: expected CLASS=RASTER"),
+                    "e.g. `--host-class trees=trees.tif`, once per size class",
+                ));
+            };
+            if map
+                .insert(class.to_string(), abs(&PathBuf::from(path)))
+                .is_some()
+            {
+                return Err(Error::input(format!(
+                    "`--host-class {class}=...` is given twice"
+                )));
+            }
+        }
+        s.host.class_rasters = Some(map);
+    }
     if let Some(v) = &args.stems_field {
         s.host.stems_field = v.clone();
     }

@@ -149,6 +149,15 @@ impl Crs {
     }
 }
 
+/// Whether two CRSs are the same (GDAL's `OSRIsSame`; the same WKT always is).
+pub fn same_crs(a: &Crs, b: &Crs) -> bool {
+    a.wkt == b.wkt
+        || match (a.srs(), b.srs()) {
+            (Ok(x), Ok(y)) => x == y,
+            _ => false,
+        }
+}
+
 /// A CRS definition as people write it, in the form GDAL reads: a bare EPSG number (`32618`)
 /// is `EPSG:32618`; `CRS84` is `OGC:CRS84`; anything else is passed on unchanged.
 pub fn normalise_definition(definition: &str) -> String {
