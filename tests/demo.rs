@@ -9,6 +9,15 @@ fn demo_writes_a_full_plan_folder_at_least_as_good_as_greedy() {
     let dir = tempfile::tempdir().unwrap();
     let o = run(dir.path(), &["demo", "--out", "demo-out"]);
     assert!(o.status.success(), "{}", stderr(&o));
+    // Each note about the inputs is said once (writing the demo's inputs prepares the same
+    // landscape for its invented surveys, silently).
+    let err = stderr(&o);
+    let mut notes: Vec<&str> = err.lines().filter(|l| l.starts_with("note:")).collect();
+    assert!(!notes.is_empty(), "{err}");
+    let said = notes.len();
+    notes.sort_unstable();
+    notes.dedup();
+    assert_eq!(notes.len(), said, "a note said twice: {err}");
     let out = dir.path().join("demo-out");
     for f in [
         "plan.csv",

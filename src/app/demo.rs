@@ -591,7 +591,9 @@ pub fn write_inputs(dir: &Path) -> Result<()> {
 fn surveys_csv(dir: &Path) -> Result<String> {
     use crate::model::simulate::{self, Params};
     let scenario = crate::core::scenario::parse_scenario(SCENARIO, "demo scenario", dir)?;
-    let prepared = crate::planning::prepare::prepare(&scenario, &|_| {}, Bars::Hidden)?;
+    // Silent: the demo's plan, run next on the same inputs, says their notes.
+    let prepared =
+        crate::planning::prepare::prepare_noting(&scenario, &|_| {}, &|_| {}, Bars::Hidden)?;
     let landscape = prepared.landscape();
     let truth = Params {
         extinction: 0.25,

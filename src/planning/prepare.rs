@@ -51,6 +51,18 @@ pub struct Prepared {
 /// Run the stages for `s`; `progress` receives one line per stage; `bars`: whether the raster
 /// labelling draws a bar (the command's printer's choice, [`crate::core::printer::Printer::bars`]).
 pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prepared> {
+    prepare_noting(s, progress, &|line| printer::note(line), bars)
+}
+
+/// As [`prepare`], with the notes on the inputs (skips, CRS conversions, defaulted rules) sent
+/// to `note` instead of the printer: for a landscape prepared again where the command's own
+/// run says them (the demo's invented surveys).
+pub fn prepare_noting(
+    s: &Scenario,
+    progress: &dyn Fn(&str),
+    note: &dyn Fn(&str),
+    bars: Bars,
+) -> Result<Prepared> {
     let (mut catalogue, catalogue_text) = Catalogue::load(s.plan.treatments.as_deref())?;
     if let Some(mix) = &s.host.default_mix {
         catalogue.set_default_mix(mix)?;
@@ -66,13 +78,13 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prep
     ));
     // Skips and defaulted rules are said even under `--quiet`: they change what was planned.
     for line in patches.skipped.lines() {
-        printer::note(format_args!("note: {line}"));
+        note(&format!("note: {line}"));
     }
-    if let Some(note) = &patches.crs_conversion {
-        printer::note(format_args!("note: {note}"));
+    if let Some(n) = &patches.crs_conversion {
+        note(&format!("note: {n}"));
     }
-    for note in &patches.notes {
-        printer::note(format_args!("note: {note}"));
+    for n in &patches.notes {
+        note(&format!("note: {n}"));
     }
     if !patches.water_checked && !patches.items.is_empty() {
         progress("no water layer given: sites are not checked for nearby water (WATER_UNCHECKED)");
@@ -163,7 +175,7 @@ pub fn prepare(s: &Scenario, progress: &dyn Fn(&str), bars: Bars) -> Result<Prep
                 excluded[i] = true;
             }
         }
-        printer::note(format_args!(
+        note(&format!(
             "note: {without_host} patches have no host the insect can establish on (suitability 0 or 0 stems): kept in patches.csv with risk 0, not planned for treatment unless required"
         ));
     }
