@@ -8,4 +8,5 @@ pub mod layers;
 pub mod patches;
 pub use gis::roads;
 pub mod suitability;
+pub mod survey_methods;
 pub mod treatments;
