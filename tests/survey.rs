@@ -205,3 +205,169 @@ fn knapsack_equals_cbc_on_a_medium_instance() {
     );
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// Dropping a site's dominated options (no fewer hours and no more finds than another) keeps
+/// the optimum: the knapsack of the undominated options has the brute-force optimum of all.
+#[test]
+fn dropping_dominated_options_keeps_the_optimum() {
+    let mut rng = SplitMix::new(7);
+    for case in 0..30 {
+        let k = random_knapsack(&mut rng, 2 + case % 5, 6);
+        let reduced = Knapsack {
+            options: k
+                .options
+                .iter()
+                .map(|o| {
+                    hostcut::solve::survey::undominated(o)
+                        .into_iter()
+                        .map(|i| o[i])
+                        .collect()
+                })
+                .collect(),
+            hours: k.hours,
+        };
+        assert!(
+            close(brute_force(&reduced), brute_force(&k), 1e-12),
+            "case {case}"
+        );
+    }
+}
+
+/// The exact choice is never worse than the greedy by expected finds per hour (the rule a
+/// person would use: best ratio first, one option per site, while the hours last), and doubling
+/// the hours never lowers it.
+#[test]
+fn never_worse_than_greedy_and_more_hours_never_find_less() {
+    let mut rng = SplitMix::new(1974);
+    for case in 0..15 {
+        let k = random_knapsack(&mut rng, 20, 5);
+        let got = k.solve(&Deadline::after(30.0)).unwrap();
+        let mut all: Vec<(usize, SurveyOption)> = k
+            .options
+            .iter()
+            .enumerate()
+            .flat_map(|(i, o)| o.iter().map(move |x| (i, *x)))
+            .collect();
+        all.sort_by(|a, b| (b.1.value / b.1.hours).total_cmp(&(a.1.value / a.1.hours)));
+        let (mut used, mut hours, mut greedy) = (vec![false; k.options.len()], 0.0, 0.0);
+        for (i, o) in all {
+            if !used[i] && hours + o.hours <= k.hours {
+                used[i] = true;
+                hours += o.hours;
+                greedy += o.value;
+            }
+        }
+        assert!(got.value >= greedy - 1e-9, "case {case}");
+        let double = Knapsack {
+            options: k.options.clone(),
+            hours: 2.0 * k.hours,
+        };
+        assert!(double.solve(&Deadline::after(30.0)).unwrap().value >= got.value - 1e-9);
+    }
+}
+
+/// The command on the demo county, with its survey history and two sites of the user's (a rail
+/// yard and a warehouse, as GeoJSON points): every number a crew reads is recomputed from
+/// survey_sites.csv (expected finds = p_present x (1 - (1 - d)^visits), MacKenzie et al. 2002
+/// detection over repeat visits) and matches summary.json; the curve never falls as hours grow;
+/// the caution is on every crew output.
+#[test]
+fn survey_on_the_demo_recomputes_from_its_outputs() {
+    use common::{Table, run, stderr, stdout};
+    let dir = tempfile::tempdir().unwrap();
+    let o = run(dir.path(), &["demo", "--out", "demo", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    std::fs::write(
+        dir.path().join("sites.geojson"),
+        r#"{"type":"FeatureCollection","features":[
+{"type":"Feature","properties":{"id":"rail-yard"},"geometry":{"type":"Point","coordinates":[-74.9575,40.4035]}},
+{"type":"Feature","properties":{"id":"warehouse"},"geometry":{"type":"Point","coordinates":[-74.9700,40.3950]}}]}"#,
+    )
+    .unwrap();
+    let o = run(
+        dir.path(),
+        &[
+            "survey",
+            "--plan",
+            "demo",
+            "--hours",
+            "40",
+            "--surveys",
+            "demo/inputs/surveys.csv",
+            "--sites",
+            "sites.geojson",
+            "--out",
+            "s",
+        ],
+    );
+    let text = stdout(&o);
+    assert!(o.status.success(), "{}\n{text}", stderr(&o));
+    assert!(text.contains("2 of your sites"), "{text}");
+    assert!(
+        text.contains("proven optimal") && text.contains("gap"),
+        "{text}"
+    );
+    assert!(text.contains("state department of agriculture"), "{text}");
+    let s = dir.path().join("s");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(s.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["status"], "optimal");
+    let table = Table::read(&s.join("survey_sites.csv"));
+    assert!(!table.is_empty());
+    let (mut finds, mut hours) = (0.0, 0.0);
+    for row in &table.rows {
+        let (p, d, v) = (
+            row.num("p_present"),
+            row.num("p_detect_visit"),
+            row.num("visits"),
+        );
+        let e = p * (1.0 - (1.0 - d).powf(v));
+        assert!(
+            (e - row.num("expected_finds")).abs() < 2e-4,
+            "{}",
+            row.get("site_id")
+        );
+        assert!(
+            row.get("caution")
+                .contains("state department of agriculture")
+        );
+        assert!(!row.get("why").is_empty());
+        finds += row.num("expected_finds");
+        hours += row.num("hours");
+    }
+    let n = table.len() as f64;
+    let reported = summary["expected_finds"].as_f64().unwrap();
+    assert!(
+        (finds - reported).abs() < 1e-4 * n + 1e-9,
+        "{finds} vs {reported}"
+    );
+    assert!((hours - summary["hours_used"].as_f64().unwrap()).abs() < 0.01 * n);
+    assert!(summary["hours_used"].as_f64().unwrap() <= 40.0 + 1e-9);
+    let bound = summary["bound"].as_f64().unwrap();
+    assert!(bound >= reported - 1e-9 && summary["gap"].as_f64().unwrap() <= 1e-6);
+    let curve = Table::read(&s.join("survey_curve.csv"));
+    for w in curve.rows.windows(2) {
+        assert!(w[1].num("objective") >= w[0].num("objective") - 1e-9);
+        assert!(w[1].num("survey_hours") > w[0].num("survey_hours"));
+    }
+    let geojson = std::fs::read_to_string(s.join("survey.geojson")).unwrap();
+    assert_eq!(geojson.matches("\"Feature\"").count(), table.len());
+    assert!(
+        std::fs::read_to_string(s.join("cautions.txt"))
+            .unwrap()
+            .contains("state department of agriculture")
+    );
+
+    // Inputs a person can get wrong are refused (exit 2), never guessed.
+    for bad in [["--hours", "0"], ["--weight", "stems"]] {
+        let mut args = vec!["survey", "--plan", "demo", "--out", "bad"];
+        if bad[0] == "--hours" {
+            args.extend(bad);
+        } else {
+            args.extend(["--hours", "10"]);
+            args.extend(bad);
+        }
+        let o = run(dir.path(), &args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+    }
+}

@@ -18,7 +18,7 @@
 
 use crate::core::deadline::Deadline;
 use crate::core::error::{Error, Result};
-use crate::solve::problem::Status;
+use crate::solve::problem::{OPTIMAL_GAP, Status};
 
 /// One option of one site.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -47,6 +47,29 @@ pub struct Chosen {
     pub bound: f64,
     /// (bound - value) / bound; 0 when the bound is 0.
     pub gap: f64,
+}
+
+/// The options of one site that are not dominated (another takes no more hours and finds at
+/// least as much, and is better in one): their indices, fewest hours first. Dropping them never
+/// changes the optimum.
+pub fn undominated(options: &[SurveyOption]) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..options.len()).collect();
+    order.sort_by(|&a, &b| {
+        options[a]
+            .hours
+            .total_cmp(&options[b].hours)
+            .then(options[b].value.total_cmp(&options[a].value))
+            .then(a.cmp(&b))
+    });
+    let mut keep = Vec::new();
+    let mut best = f64::NEG_INFINITY;
+    for i in order {
+        if options[i].value > best {
+            best = options[i].value;
+            keep.push(i);
+        }
+    }
+    keep
 }
 
 impl Knapsack {
@@ -95,7 +118,8 @@ impl Knapsack {
         (pb.optimise(highs::Sense::Minimise), cols)
     }
 
-    /// Solve exactly with HiGHS (relative gap 0) by the deadline.
+    /// Solve exactly with HiGHS (relative gap [`OPTIMAL_GAP`], the solver's tolerance) by the
+    /// deadline.
     pub fn solve(&self, deadline: &Deadline) -> Result<Chosen> {
         let n = self.options.len();
         if n == 0 || self.options.iter().all(|o| o.is_empty()) {
@@ -112,7 +136,7 @@ impl Knapsack {
         let log = std::env::var_os("HOSTCUT_SOLVER_LOG").is_some();
         model.set_option("output_flag", log);
         model.set_option("log_to_console", log);
-        model.set_option("mip_rel_gap", 0.0);
+        model.set_option("mip_rel_gap", OPTIMAL_GAP);
         model.set_option("mip_abs_gap", 1e-9);
         model.set_option("random_seed", 0);
         model.set_option("threads", 2);
