@@ -53,7 +53,12 @@ pub fn run(resolved: &SurveySettings, printer: Printer) -> Result<String> {
             None => String::new(),
         }
     ));
-    if !records.is_empty() {
+    if records.is_empty() {
+        t.line(format_args!(
+            "  no survey records given: every site counts as not surveyed in the {} years of history (give them with `--surveys FILE`, the `calibrate` format)",
+            req.history_years
+        ));
+    } else {
         t.line(format_args!(
             "  {} survey records read: {} too far from any site (over {} m), {} outside the {} years of history",
             plan.surveys_read,
@@ -106,8 +111,8 @@ pub fn run(resolved: &SurveySettings, printer: Printer) -> Result<String> {
     }
     t.line(format_args!(
         "model: yearly colonisation 1 - exp(-c A (S + iota pi)) with c {}, iota {} from {}; past negative visits count with detection {}",
-        req.rates.colonisation,
-        req.rates.introduction,
+        format::significant(req.rates.colonisation, 3),
+        format::significant(req.rates.introduction, 3),
         req.rates_source,
         req.past_detection
     ));

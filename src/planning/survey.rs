@@ -414,6 +414,9 @@ impl SurveyPlan {
         } else {
             "background introduction pressure".to_string()
         };
+        if s.host >= 2.0 {
+            main.push_str(&format!(" on much host ({:.1} x an average patch)", s.host));
+        }
         match s.years_since_negative {
             None => main.push_str(&format!(
                 "; not surveyed in the {} years of history",

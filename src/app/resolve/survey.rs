@@ -88,7 +88,7 @@ pub fn resolve(args: &SurveyArgs) -> Result<SurveySettings> {
                     colonisation: c.colonisation,
                     introduction: c.introduction,
                 },
-                format!("fitted to surveys ({})", path.display()),
+                format!("the fit to surveys in {}", path.display()),
             )
         }
         None => (
