@@ -296,6 +296,8 @@ fn survey_on_the_demo_recomputes_from_its_outputs() {
             "demo/inputs/surveys.csv",
             "--sites",
             "sites.geojson",
+            "--depot",
+            "501250,4471750",
             "--out",
             "s",
         ],
@@ -312,6 +314,9 @@ fn survey_on_the_demo_recomputes_from_its_outputs() {
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(s.join("summary.json")).unwrap()).unwrap();
     assert_eq!(summary["status"], "optimal");
+    // The yard given with `--depot` is the one every drive starts from.
+    assert_eq!(summary["depot"][0].as_f64(), Some(501250.0));
+    assert_eq!(summary["depot"][1].as_f64(), Some(4471750.0));
     let table = Table::read(&s.join("survey_sites.csv"));
     assert!(!table.is_empty());
     let (mut finds, mut hours) = (0.0, 0.0);

@@ -455,9 +455,6 @@ pub struct SurveyArgs {
     /// A survey record outside every patch counts for the nearest site within this distance
     #[arg(long, value_name = "METRES", default_value_t = 100.0)]
     pub survey_radius_m: f64,
-    /// Depot in the plan's CRS, x,y [default: the centre of the candidate sites]
-    #[arg(long, value_name = "X,Y")]
-    pub depot: Option<String>,
     /// Straight-line travel speed, km/h
     #[arg(long, default_value_t = 30.0)]
     pub speed_kmh: f64,

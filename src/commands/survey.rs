@@ -124,7 +124,7 @@ pub fn run(resolved: &SurveySettings, printer: Printer) -> Result<String> {
         "travel: {}; depot {} at {:.0},{:.0}",
         survey_report::travel_text(req),
         if plan.depot_given {
-            "given"
+            "(`--depot`, or the plan's scenario)"
         } else {
             "(default: the centre of the sites; set `--depot X,Y`)"
         },

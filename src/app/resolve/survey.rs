@@ -55,7 +55,6 @@ pub fn resolve(args: &SurveyArgs) -> Result<SurveySettings> {
             "`--detour-factor` must be at least 1 (road distance is never shorter than the straight line)",
         ));
     }
-    let depot = args.depot.as_deref().map(parse_pair).transpose()?;
     let methods = SurveyMethods::load(args.survey_methods.as_deref())?;
     let past_detection = match args.past_detection {
         Some(p) => p,
@@ -79,6 +78,8 @@ pub fn resolve(args: &SurveyArgs) -> Result<SurveySettings> {
         "`hostcut survey` works on one dispersal kernel",
         "give one kernel, e.g. `--kernel exp:200`, or `--calibration calibration.toml`",
     )?;
+    // The yard: `--depot X,Y` (a planning flag) or the plan folder's scenario's depot.
+    let depot = settings.scenario.plan.depot.map(|[x, y]| (x, y));
     let d = Params::default();
     let (rates, rates_source) = match &settings.scenario.model.calibration {
         Some(path) => {
@@ -119,22 +120,4 @@ pub fn resolve(args: &SurveyArgs) -> Result<SurveySettings> {
         sites: args.sites.clone(),
         surveys: args.surveys.clone(),
     })
-}
-
-fn parse_pair(text: &str) -> Result<(f64, f64)> {
-    let bad = || {
-        Error::input_with_hint(
-            format!("`--depot {text}` is not X,Y"),
-            "x,y in metres of the plan's CRS, e.g. `--depot 501250,4471750`",
-        )
-    };
-    let (a, b) = text.split_once(',').ok_or_else(bad)?;
-    let (a, b): (f64, f64) = (
-        a.trim().parse().map_err(|_| bad())?,
-        b.trim().parse().map_err(|_| bad())?,
-    );
-    if !(a.is_finite() && b.is_finite()) {
-        return Err(bad());
-    }
-    Ok((a, b))
 }
