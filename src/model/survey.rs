@@ -160,7 +160,8 @@ mod tests {
 
     #[test]
     fn bayes_matches_the_closed_form() {
-        // k negative visits of detection d from p: p (1-d)^k / (p (1-d)^k + 1 - p).
+        // k negative visits of detection d from p: p (1-d)^k / (p (1-d)^k + 1 - p)
+        // (MacKenzie et al. 2002, Bayes over repeat visits).
         let (p, d) = (0.4, 0.3);
         let mut q = p;
         for k in 1..5 {
