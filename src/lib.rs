@@ -30,6 +30,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Simulate(a) => a.inputs.quiet,
         Command::Calibrate(a) => a.inputs.quiet,
         Command::Program(a) => a.inputs.quiet,
+        Command::Survey(a) => a.inputs.quiet,
         Command::Orders(a) => a.quiet,
         Command::Demo(a) => a.quiet,
         _ => false,
@@ -57,6 +58,7 @@ pub fn run(cli: Cli) -> Result<String> {
         Command::Program(args) => {
             commands::program::run(&resolve::program::resolve(&args)?, printer)
         }
+        Command::Survey(args) => commands::survey::run(&resolve::survey::resolve(&args)?, printer),
         Command::Demo(args) => Ok(commands::demo::run(&args, printer)?.text),
         Command::Bench(args) => commands::bench::run(&args, printer),
         Command::MakeDemoInputs(args) => {

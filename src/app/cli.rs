@@ -30,6 +30,8 @@ pub enum Command {
     Simulate(SimulateArgs),
     /// Fit the dispersal scale and spread rates to your own survey history
     Calibrate(CalibrateArgs),
+    /// Plan this season's surveys: which sites, which method, how many visits for the survey hours
+    Survey(SurveyArgs),
     /// Plan several seasons at once: new treatments, follow-ups and regrowth under yearly budgets
     Program(ProgramArgs),
     /// Benchmark the optimiser on a synthetic landscape (formulations against each other)
@@ -415,6 +417,55 @@ pub struct CalibrateArgs {
     /// Fewest observed year-to-year transitions to fit at all
     #[arg(long, default_value_t = 30)]
     pub min_transitions: usize,
+}
+
+/// Flags of `hostcut survey`.
+#[derive(Debug, Clone, Args)]
+pub struct SurveyArgs {
+    #[command(flatten)]
+    pub inputs: PlanArgs,
+    /// Survey the patches of this plan folder (its inputs and settings)
+    #[arg(long = "plan", value_name = "DIR", conflicts_with = "scenario")]
+    pub plan_dir: Option<PathBuf>,
+    /// Crew hours for surveys this season, travel included
+    #[arg(long, value_name = "H")]
+    pub hours: f64,
+    /// More candidate sites besides the patches (rail yards, warehouses, parks): any GDAL
+    /// point, line or polygon layer; labelled by its `id` or `name` field
+    #[arg(long, value_name = "FILE")]
+    pub sites: Option<PathBuf>,
+    /// Survey records in the `calibrate` format: x,y,year,result (positive|negative) [,date,source]
+    #[arg(long, value_name = "CSV")]
+    pub surveys: Option<PathBuf>,
+    /// Survey-method catalogue replacing the built-in (illustrative) one
+    #[arg(long, value_name = "FILE")]
+    pub survey_methods: Option<PathBuf>,
+    /// Most visits to one site this season
+    #[arg(long, default_value_t = 3)]
+    pub max_visits: u32,
+    /// `host`: weight each site's expected finds by its host (a user's site counts as an
+    /// average patch); `none`: every population counts the same
+    #[arg(long, value_name = "WHAT", default_value = "none")]
+    pub weight: String,
+    /// This season's year [default: the year after the last survey record]
+    #[arg(long, value_name = "YEAR")]
+    pub season: Option<i32>,
+    /// Years of history an unsurveyed site's probability grows over
+    #[arg(long, default_value_t = 10)]
+    pub history_years: u32,
+    /// Detection probability of a past negative visit (the records do not name the method)
+    /// [default: the `visual` method's, else the catalogue's first]
+    #[arg(long, value_name = "P")]
+    pub past_detection: Option<f64>,
+    /// A survey record outside every patch counts for the nearest site within this distance
+    #[arg(long, value_name = "METRES", default_value_t = 100.0)]
+    pub survey_radius_m: f64,
+    /// Straight-line travel speed, km/h
+    #[arg(long, default_value_t = 30.0)]
+    pub speed_kmh: f64,
+    /// Road distance over straight-line distance
+    #[arg(long, default_value_t = 1.3)]
+    pub detour_factor: f64,
 }
 
 /// Flags of `hostcut program`.

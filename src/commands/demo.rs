@@ -31,10 +31,13 @@ pub fn run(args: &DemoArgs, printer: Printer) -> Result<RunReport> {
     // Under `--quiet` the demo's stdout is the plan's: its cautions block alone.
     if !printer.is_quiet() {
         text.push_str(&format!(
-        "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\nwork orders with the crews routed on the county's roads from its yard:\n  hostcut orders --plan {} --roads {} --depot 501250,4471750 --out {}-orders\n",
+        "\ndemo inputs (invented Hollin County) are in {}\nopen plan.geojson in a desktop GIS; plan.csv is the prioritised treatment list\nwork orders with the crews routed on the county's roads from its yard:\n  hostcut orders --plan {} --roads {} --depot 501250,4471750 --out {}-orders\nwhere this season's survey hours are most likely to find an undetected population:\n  hostcut survey --plan {} --hours 80 --surveys {} --depot 501250,4471750 --out {}-survey\n",
         out.join("inputs").display(),
         out.display(),
         out.join("inputs").join("roads.gpkg").display(),
+        out.display(),
+        out.display(),
+        out.join("inputs").join("surveys.csv").display(),
         out.display()
     ));
     }

@@ -9,6 +9,7 @@ pub mod orders;
 pub mod plan;
 pub mod program;
 pub mod simulate;
+pub mod survey;
 
 use crate::app::resolve::Settings;
 use crate::core::error::Result;

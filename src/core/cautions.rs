@@ -117,3 +117,6 @@ pub fn site_check_text(water_checked: bool) -> &'static str {
         "Water: NO WATER LAYER WAS GIVEN, so no site was checked for nearby water; herbicide rows carry WATER_UNCHECKED. Give `--water streams.gpkg` (streams, ponds, wells, wetlands) to check them."
     }
 }
+
+/// The caution on every survey output a crew reads (`hostcut survey`).
+pub const SURVEY: &str = "Quarantine: do not move infested material, wood, brush, stone or equipment carrying egg masses out of the site; scrape and destroy egg masses only where local rules allow; report every find (photo, place, date) to the state department of agriculture; follow local codes, quarantine rules and the landowner's permission.";

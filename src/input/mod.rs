@@ -10,4 +10,5 @@ pub mod parcel_index;
 pub mod patches;
 pub use gis::roads;
 pub mod suitability;
+pub mod survey_methods;
 pub mod treatments;

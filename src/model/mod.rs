@@ -6,4 +6,5 @@ pub mod ensemble;
 pub mod graph;
 pub mod risk;
 pub mod simulate;
+pub mod survey;
 pub mod synthetic;

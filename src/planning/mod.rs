@@ -11,3 +11,4 @@ pub mod prepare;
 pub mod program;
 pub mod proxy;
 pub mod simulate;
+pub mod survey;

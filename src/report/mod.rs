@@ -12,3 +12,4 @@ pub mod plan;
 pub mod program;
 pub mod simulate;
 pub mod staging;
+pub mod survey;

@@ -12,3 +12,4 @@ pub mod mip;
 pub mod optimise;
 pub mod problem;
 pub mod relax;
+pub mod survey;

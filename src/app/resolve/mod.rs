@@ -19,6 +19,7 @@ pub mod plan;
 pub mod program;
 pub mod scenario;
 pub mod simulate;
+pub mod survey;
 pub mod validate;
 
 use std::path::{Path, PathBuf};
