@@ -11,10 +11,10 @@
 //! Both are reported with the sentence.
 //!
 //! Threshold: the reductions differ by [`THRESHOLD_POINTS`] percentage points or more. On the
-//! demo they are 67.7 % (R) and 78.6 % (lambda_M), 11 points apart (51.3 % and 52.3 % with
-//! `--horizon-years 10`), the ordinary difference
-//! between a quadratic measure and an eigenvalue; the case issue 22 reports is 50 % against
-//! 0.1 %.
+//! demo they are 57.3 % (R) and 52.3 % (lambda_M), 5 points apart (65.9 % and 68.1 % with
+//! `--horizon-years 1`), the ordinary difference between a quadratic measure and an
+//! eigenvalue; the case issue 22 reports is 50 % against 0.1 %. The same threshold applies to
+//! R against the host expected occupied at equilibrium (p*, [`explain_establishment`]).
 
 use serde::{Deserialize, Serialize};
 
@@ -152,7 +152,8 @@ mod tests {
 
     #[test]
     fn agreeing_measures_get_no_sentence_and_diverging_ones_name_the_share() {
-        // The demo's reductions (docs/model.md): 67.7 % and 78.6 %, no sentence.
+        // Reductions 11 points apart (the demo's under the one-season objective when this
+        // was written): no sentence.
         assert!(explain(67.7, 78.6, &[1.0, 0.0], &[0.5, 0.5], &[true, false]).is_none());
         // Issue 22's case: R 50 %, lambda_M 0.1 %; the eigenvector lives on the untreated patch.
         let d = explain(50.0, 0.1, &[0.1, 0.995], &[0.5, 0.5], &[true, false]).unwrap();
