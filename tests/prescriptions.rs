@@ -330,14 +330,9 @@ fn optimum_over_prescriptions_equals_brute_force() {
             hostcut::core::progress::Bars::Hidden,
         )
         .unwrap();
-        let problem = hostcut::solve::problem::Problem {
-            model: &prepared.model,
-            choices: prepared.choices.clone(),
-            budget: budget.parse().unwrap(),
-            crew_hours: None,
-            required: prepared.required.clone(),
-            excluded: prepared.excluded.clone(),
-        };
+        // The plan's own objective (the default horizon term, each option's r averaged over
+        // the regrowth years) enumerated by brute force.
+        let problem = prepared.problem(budget.parse().unwrap(), None);
         // D (no herbicide) has only pulling its seedlings; the others several prescriptions.
         let counts: Vec<usize> = prepared.choices.iter().map(Vec::len).collect();
         assert_eq!(counts[3], 1, "{counts:?}");

@@ -341,7 +341,13 @@ fn a_one_season_programme_from_the_command_line_is_the_plan() {
     assert!(o.status.success(), "{}", stderr(&o));
     let said =
         String::from_utf8_lossy(&o.stdout).contains("the programme is the season-by-season plan");
-    let o = go(dir.path(), "plan", &["--budget", "2500", "--out", "plan"]);
+    // A programme keeps the one-season r per season (it models regrowth itself), so the plan
+    // it equals is the one-season objective's, not the default horizon objective's.
+    let o = go(
+        dir.path(),
+        "plan",
+        &["--budget", "2500", "--horizon-years", "1", "--out", "plan"],
+    );
     assert!(o.status.success(), "{}", stderr(&o));
     let set = |path: &str| {
         let mut v: Vec<(String, String)> = Table::read(&dir.path().join(path))
@@ -441,14 +447,18 @@ cautions = ["LABEL"]
     assert!(methods("no/plan.csv").iter().all(|m| m == "foliar"));
     assert!(methods("yes/plan.csv").iter().all(|m| m == "trap_tree"));
     // Everything treated: R after is R before x r^2 with r = (1 - e)(1 - sink kill) (the model
-    // is quadratic in r, so with one r everywhere R scales by r^2).
+    // is quadratic in r, so with one r everywhere R scales by r^2), r averaged over the default
+    // 10-year horizon at 10 % regrowth: the mean of min(1, r 1.1^(t-1)), t = 1..10
+    // (docs/model.md, "The horizon term").
     let (no, yes) = (
         summary(&dir.path().join("no")),
         summary(&dir.path().join("yes")),
     );
     let before = no["risk_before"].as_f64().unwrap();
-    let r_no: f64 = 0.5;
-    let r_yes: f64 = 0.5 * 0.4;
+    let horizon = |r: f64| (0..10).map(|t| (r * 1.1f64.powi(t)).min(1.0)).sum::<f64>() / 10.0;
+    let r_no: f64 = horizon(0.5);
+    let r_yes: f64 = horizon(0.5 * 0.4);
+    assert!((r_no - 0.771794405).abs() < 1e-9, "{r_no}");
     // Denied-access patches would break this; the fixture has none.
     assert!((no["risk_after"].as_f64().unwrap() - before * r_no * r_no).abs() < 1e-12);
     assert!((yes["risk_after"].as_f64().unwrap() - before * r_yes * r_yes).abs() < 1e-12);

@@ -88,6 +88,8 @@ fn the_demo_outputs_are_unchanged() {
     let d = dir.path();
     let o = run(d, &["demo", "--out", "demo", "--quiet"]);
     assert!(o.status.success(), "{}", stderr(&o));
+    // The default objective is the horizon term at T = 10 (docs/model.md), stated in both.
+    assert_eq!(summary(&d.join("demo"))["horizon_years"], 10);
     check(
         &d.join("demo"),
         &[
@@ -292,5 +294,59 @@ fn the_demo_inventory_program_is_unchanged() {
             "season_2/plan.csv",
         ],
         "program",
+    );
+}
+
+/// `--horizon-years 1` on the demo's inputs gives back exactly the one-season plan the demo had
+/// before the horizon term became the default: `tests/fixtures/one_season_demo/` holds that plan's plan.csv and
+/// patches.csv as the one-season default wrote them (copied from tests/snapshots/plan before the
+/// switch; not remade by HOSTCUT_UPDATE_SNAPSHOTS). The resolved scenario says
+/// `horizon_years = 1`, and a re-run from it repeats the plan.
+#[test]
+fn horizon_one_gives_back_the_one_season_demo_plan() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let o = run(d, &["demo", "--out", "demo", "--quiet"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(
+        d,
+        &[
+            "plan",
+            "--scenario",
+            "demo/inputs/scenario.toml",
+            "--horizon-years",
+            "1",
+            "--out",
+            "one",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/one_season_demo");
+    for f in ["plan.csv", "patches.csv"] {
+        let got = std::fs::read_to_string(d.join("one").join(f)).unwrap();
+        let want = std::fs::read_to_string(fixture.join(f)).unwrap();
+        assert!(got == want, "{f} differs from the one-season demo plan");
+    }
+    assert_eq!(summary(&d.join("one"))["horizon_years"], 1);
+    let resolved = std::fs::read_to_string(d.join("one/scenario.resolved.toml")).unwrap();
+    assert!(resolved.contains("horizon_years = 1"), "{resolved}");
+    let o = run(
+        d,
+        &[
+            "plan",
+            "--scenario",
+            d.join("one/scenario.resolved.toml").to_str().unwrap(),
+            "--out",
+            "again",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let first = std::fs::read_to_string(d.join("one/plan.csv")).unwrap();
+    let again = std::fs::read_to_string(d.join("again/plan.csv")).unwrap();
+    assert!(
+        first == again,
+        "re-run from scenario.resolved.toml changed the plan"
     );
 }

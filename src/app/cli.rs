@@ -207,8 +207,9 @@ pub struct PlanArgs {
     pub budget: Option<f64>,
     /// Score each treatment by its host over the next T years as it regrows (the mean of
     /// min(1, r (1 + g)^(t-1)) for t = 1..T, g = `horizon_regrowth`, default 0.1) instead of
-    /// its host right after treatment (10 is the simulation's default horizon). Default 1, the
-    /// one-season objective
+    /// its host right after treatment. Default 10, the simulation's default horizon; 1 is the
+    /// one-season objective (the host right after treatment). `hostcut program` ignores it: it
+    /// models regrowth and follow-ups season by season itself
     #[arg(long, value_name = "T")]
     pub horizon_years: Option<u32>,
     /// Crew hours available this season

@@ -74,6 +74,13 @@ pub fn run(resolved: &CurveSettings, printer: Printer) -> Result<RunReport> {
     if let Some(note) = money.rate_note() {
         text.warning(format_args!("{note}"));
     }
+    text.line(match prepared.horizon_years() {
+        1 => "  risk: R at the host right after treatment (one season, `--horizon-years 1`)"
+            .to_string(),
+        t => format!(
+            "  risk: R with each treatment's host averaged over {t} years of regrowth (`--horizon-years {t}`)"
+        ),
+    });
     for p in &points {
         text.line(format_args!(
             "  {:>12}  {:>5.1}% less risk  {:>3} patches  {}{}{}",

@@ -135,7 +135,8 @@ pub fn run_into(
     );
     summary.depot = [depot.0, depot.1];
     summary.suitability_layer = s.host.suitability.as_ref().map(|p| p.display().to_string());
-    summary.horizon_years = Some(prepared.horizon_years()).filter(|&t| t > 1);
+    summary.horizon_years = Some(prepared.horizon_years());
+    summary.establishment_diverges = plan.establishment_divergence(model);
     summary.baselines = baselines::baseline_summaries(
         &problem,
         patches,

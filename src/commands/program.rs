@@ -48,6 +48,9 @@ pub fn run(resolved: &ProgramSettings, printer: Printer) -> Result<String> {
             written.risks_myopic[t]
         ));
     }
+    text.line(
+        "  R here is each season's, at the host as treated and regrown season by season (the programme models regrowth and follow-ups itself; `--horizon-years` of `hostcut plan` does not apply)",
+    );
     text.line(format_args!(
         "whole horizon: sum of discounted R {:.6}, {:.1}% below no action; the season-by-season plan leaves {:.1}% more",
         solved.objective,

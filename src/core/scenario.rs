@@ -502,7 +502,8 @@ pub struct PlanSection {
     pub trap_trees: bool,
     /// Years T of the objective's horizon term (`--horizon-years`): each option's remaining host
     /// r is replaced by its mean over years 1..T as the host regrows, mean of
-    /// min(1, r (1 + g)^(t-1)) (docs/model.md). Absent or 1: one season, r as treated.
+    /// min(1, r (1 + g)^(t-1)) (docs/model.md). Absent: 10 (`model::risk::DEFAULT_HORIZON_YEARS`;
+    /// the resolved scenario always states it); 1: one season, r as treated.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub horizon_years: Option<u32>,
     /// g of the horizon term: the yearly regrowth of host left after treatment (default 0.1,

@@ -385,8 +385,14 @@ pub struct Summary {
     /// within `planning::divergence::THRESHOLD_POINTS`.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub measures_diverge: Option<crate::planning::divergence::Divergence>,
-    /// The objective's horizon (`--horizon-years`, above 1): R, lambda_M and p* after are at
-    /// each treated patch's mean remaining host over that many years of regrowth.
+    /// Why R and the host expected occupied at equilibrium (p*) fell by very different shares;
+    /// absent when they agree to within `planning::divergence::THRESHOLD_POINTS`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub establishment_diverges: Option<crate::planning::divergence::EstablishmentDivergence>,
+    /// The objective's horizon (`--horizon-years`, default 10; always stated by plans made
+    /// since it became the default, absent in older folders, which were one-season): above 1,
+    /// R, lambda_M and p* after are at each treated patch's mean remaining host over that many
+    /// years of regrowth; 1 is the host right after treatment.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub horizon_years: Option<u32>,
 }

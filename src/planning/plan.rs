@@ -45,6 +45,8 @@ pub struct Plan {
     pub patch_value: Vec<f64>,
     pub establishment_before: Vec<f64>,
     pub establishment_after: Vec<f64>,
+    /// delta = e/c of the establishment model (the persistence threshold on lambda_M).
+    pub delta: f64,
     pub greedy_risk_after: Option<f64>,
     pub spent: f64,
     pub crew_hours: f64,
@@ -58,6 +60,45 @@ pub struct Plan {
 }
 
 impl Plan {
+    /// The host expected occupied at equilibrium, sum_i a_i r_i p_i* (a_i the host shares, so
+    /// 1 is all host occupied): before the plan (r = 1) and after it.
+    pub fn occupied_host(&self, model: &RiskModel) -> (f64, f64) {
+        let sum = |r: &dyn Fn(usize) -> f64, p: &[f64]| -> f64 {
+            model
+                .share
+                .iter()
+                .zip(p)
+                .enumerate()
+                .map(|(i, (a, p))| a * r(i) * p)
+                .sum()
+        };
+        (
+            sum(&|_| 1.0, &self.establishment_before),
+            sum(&|i| self.remaining[i], &self.establishment_after),
+        )
+    }
+
+    /// Why R and the equilibrium occupied host (p*) fell by very different shares, if they did
+    /// ([`crate::planning::divergence::explain_establishment`]).
+    pub fn establishment_divergence(
+        &self,
+        model: &RiskModel,
+    ) -> Option<crate::planning::divergence::EstablishmentDivergence> {
+        if self.status == Status::Infeasible || self.delta <= 0.0 {
+            return None;
+        }
+        let (before, after) = self.occupied_host(model);
+        if before <= 0.0 {
+            return None;
+        }
+        crate::planning::divergence::explain_establishment(
+            self.reduction_pct(),
+            100.0 * (1.0 - after / before),
+            self.lambda_before / self.delta,
+            self.lambda_after / self.delta,
+        )
+    }
+
     /// Why R and lambda_M fell by very different shares, if they did
     /// ([`crate::planning::divergence`]).
     pub fn divergence(&self) -> Option<crate::planning::divergence::Divergence> {
@@ -201,6 +242,7 @@ pub fn assemble(
         patch_value,
         establishment_before,
         establishment_after,
+        delta,
         greedy_risk_after: solved.greedy.as_ref().map(|g| g.1),
         spent: problem.cost(&solved.assignment),
         crew_hours: problem.hours(&solved.assignment),

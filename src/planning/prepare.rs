@@ -330,11 +330,13 @@ impl Prepared {
         patches::raster_cost(&self.patches.runs)
     }
 
-    /// T of the objective's horizon term: `plan.horizon_years`, else 1 (the one-season
-    /// objective; [`crate::model::risk::MEASURED_HORIZON_YEARS`] is the T measured, not yet
-    /// the default).
+    /// T of the objective's horizon term: `plan.horizon_years`, else
+    /// [`crate::model::risk::DEFAULT_HORIZON_YEARS`] (1 is the one-season objective).
     pub fn horizon_years(&self) -> u32 {
-        self.resolved.plan.horizon_years.unwrap_or(1)
+        self.resolved
+            .plan
+            .horizon_years
+            .unwrap_or(crate::model::risk::DEFAULT_HORIZON_YEARS)
     }
 
     /// The optimiser's problem at `budget` and `crew_hours`: with a horizon

@@ -143,8 +143,24 @@ pub struct SimJson {
 pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
     let mut parts = Vec::new();
     let mut reasons = Vec::new();
+    // Whether some strategy other than the plan itself ties or beats it (then the closing
+    // sentence on what R leaves out applies).
+    let mut differs = false;
     for v in versus {
         let label = label(v.strategy);
+        // Same runs in every year on common random numbers: the strategy chose the plan.
+        if v.per_year
+            .iter()
+            .all(|y| y.diff_pct == 0.0 && y.ci95 == [0.0, 0.0])
+        {
+            parts.push(format!(
+                "{label} chose the same treatments as the plan, so it does exactly as well"
+            ));
+            if !reason(v.strategy).is_empty() {
+                reasons.push(reason(v.strategy).to_string());
+            }
+            continue;
+        }
         let better: Vec<usize> = v
             .per_year
             .iter()
@@ -158,6 +174,7 @@ pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
             .map(|y| y.year)
             .collect();
         if let (Some(first), Some(last)) = (better.first(), better.last()) {
+            differs = true;
             parts.push(if first == last {
                 format!("{label} leaves less host occupied than the plan in year {first}")
             } else {
@@ -167,6 +184,7 @@ pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
                 )
             });
         } else if !tied.is_empty() {
+            differs = true;
             parts.push(format!(
                 "{label} cannot be told from the plan in {} of the years",
                 tied.len()
@@ -180,6 +198,13 @@ pub fn verdict(versus: &[VersusPlan], horizon_years: u32) -> Option<String> {
     }
     if parts.is_empty() {
         return None;
+    }
+    if !differs {
+        return Some(format!(
+            "{}. Why: {}.",
+            parts.join("; "),
+            reasons.join("; ")
+        ));
     }
     let objective = if horizon_years > 1 {
         format!(
@@ -544,4 +569,54 @@ pub fn simulate_plan(
         traces,
         summary,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn versus(strategy: &'static str, diffs: &[(f64, [f64; 2])]) -> VersusPlan {
+        VersusPlan {
+            strategy,
+            final_diff_pct: diffs.last().unwrap().0,
+            final_ci95: diffs.last().unwrap().1,
+            mean_diff_pct: 0.0,
+            mean_ci95: [0.0, 0.0],
+            per_year: diffs
+                .iter()
+                .enumerate()
+                .map(|(i, (d, ci))| YearDiff {
+                    year: i + 1,
+                    diff_pct: *d,
+                    ci95: *ci,
+                })
+                .collect(),
+        }
+    }
+
+    /// A strategy whose runs equal the plan's in every year (on common random numbers: it chose
+    /// the same treatments) is said to be the plan itself, without the regrowth explanation,
+    /// which is for a strategy that differs from the plan and ties or beats it.
+    #[test]
+    fn a_strategy_identical_to_the_plan_is_said_to_be_the_plan() {
+        let same = versus("greedy", &[(0.0, [0.0, 0.0]); 3]);
+        let worse = versus("random", &[(5.0, [4.0, 6.0]); 3]);
+        let v = verdict(&[same, worse], 10).unwrap();
+        assert!(
+            v.starts_with("greedy benefit-per-cost chose the same treatments as the plan"),
+            "{v}"
+        );
+        assert!(!v.contains("fades"), "{v}");
+        assert!(!v.contains("random"), "{v}");
+        // A tie that is not identical keeps the explanation.
+        let tied = versus("density", &[(0.1, [-0.2, 0.4]); 3]);
+        let v = verdict(&[tied], 10).unwrap();
+        assert!(
+            v.contains("cannot be told from the plan in 3 of the years"),
+            "{v}"
+        );
+        assert!(v.contains("hostcut program"), "{v}");
+        // Nothing ties or beats the plan: no verdict.
+        assert!(verdict(&[versus("random", &[(5.0, [4.0, 6.0]); 3])], 10).is_none());
+    }
 }

@@ -534,6 +534,10 @@ impl Page {
         let assumptions = vec![
             format!("Dispersal kernel: {:?}, scale {} m, links kept where the kernel is at least {}.", s.model.kernel, s.model.alpha_m, s.model.epsilon).to_lowercase().replacen("dispersal", "Dispersal", 1),
             format!("Corridors: {}.", if s.corridors.is_empty() { "none".to_string() } else { s.corridors.iter().map(|c| format!("{} (weight {}, within {} m)", c.name, c.weight, c.buffer_m)).collect::<Vec<_>>().join("; ") }),
+            match s.plan.horizon_years.unwrap_or(crate::model::risk::DEFAULT_HORIZON_YEARS) {
+                t if t > 1 => format!("Risk is scored over the next {t} years: each treatment counts by the host it leaves on average over those years as that host regrows ({} % a year), so a thorough treatment that stays down counts for more than a cheap one that regrows. The risk figures on this page are at that mean host.", crate::report::format::significant(100.0 * s.plan.horizon_regrowth.unwrap_or(crate::model::risk::HORIZON_REGROWTH), 3)),
+                _ => "Risk is scored for one season: each treatment counts by the host it leaves right after treatment.".to_string(),
+            },
             format!("Crew hours: {}.", s.plan.crew_hours.map(|h| format!("at most {h} per season")).unwrap_or_else(|| "not limited".into())),
             "Treatment costs and effectiveness come from the treatment catalogue used (treatments.used.toml); prices marked illustrative there must be replaced by local contract prices before a budget is requested.".to_string(),
             match &s.host.suitability {

@@ -394,6 +394,7 @@ pub fn summary(
         site_rules: SiteRules::of(o.patches),
         stem_mix_assumption: stem_mix_assumption(o.catalogue, o.patches),
         measures_diverge: plan.divergence(),
+        establishment_diverges: None,
         horizon_years: None,
     }
 }

@@ -98,8 +98,8 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
                     ""
                 },
                 match summary.horizon_years {
-                    Some(t) => format!(" (host averaged over {t} years of regrowth)"),
-                    None => String::new(),
+                    Some(t) if t > 1 => format!(" (host averaged over {t} years of regrowth)"),
+                    _ => " (host right after treatment, one season)".to_string(),
                 },
                 small(summary.risk_before),
                 small(summary.risk_after),
@@ -129,7 +129,11 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
                 }
             }
             t.line(format_args!(
-                "metapopulation capacity {} -> {}{}",
+                "metapopulation capacity{} {} -> {}{}",
+                match summary.horizon_years {
+                    Some(t) if t > 1 => format!(" (at the same {t}-year mean host)"),
+                    _ => String::new(),
+                },
                 small(summary.lambda_before),
                 small(summary.lambda_after),
                 if summary.lambda_before > 0.0 {
@@ -142,6 +146,9 @@ pub fn text(s: &Stdout, printer: Printer) -> String {
                 }
             ));
             if let Some(d) = &summary.measures_diverge {
+                t.line(format_args!("  {}", d.sentence));
+            }
+            if let Some(d) = &summary.establishment_diverges {
                 t.line(format_args!("  {}", d.sentence));
             }
             let status = match plan.status {

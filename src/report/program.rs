@@ -202,6 +202,7 @@ pub fn write(
         "n_patches": prepared.patches.len(),
         "n_courses": solved.assignment.iter().filter(|a| a.is_some()).count(),
         "trap_trees": s.plan.trap_trees,
+        "risk_note": "R per season at the host as treated and regrown season by season; the plan objective's horizon_years does not apply to a programme",
         "tool_version": env!("CARGO_PKG_VERSION"),
     });
     staging.write(

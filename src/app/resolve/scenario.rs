@@ -428,6 +428,13 @@ pub fn resolve_with(args: &PlanArgs, need_budget: bool) -> Result<Settings> {
             ));
         }
     };
+    // The resolved scenario states the objective's horizon, so a re-run from it
+    // (`--scenario scenario.resolved.toml`, `--plan DIR`) repeats the plan whatever the default.
+    s.plan.horizon_years = Some(
+        s.plan
+            .horizon_years
+            .unwrap_or(crate::model::risk::DEFAULT_HORIZON_YEARS),
+    );
     validate_with(&s, need_budget)?;
     Ok(Settings {
         scenario: s,
