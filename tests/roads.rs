@@ -601,7 +601,7 @@ fn default_speeds_are_the_stated_ones() {
 #[test]
 fn the_bench_routine_runs_on_a_small_grid() {
     // Not a timing: the benchmark routine itself works (examples/road_bench.rs times it).
-    let b = bench_grid(30, 0, 20, 2).unwrap();
+    let b = bench_grid(30, 0, 20, 2, None).unwrap();
     assert_eq!(b.nodes, 900);
     assert_eq!(b.road_pieces, 2 * 30 * 29);
     // The 4 corners join just two streets and are passed through: 896 graph nodes, and each
