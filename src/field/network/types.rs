@@ -371,10 +371,10 @@ pub enum TravelMethod {
 impl TravelMethod {
     /// Points per search thread from which a contraction hierarchy is used. Measured on both
     /// street grids of docs/benchmarks.md (2026-12-03, same load): building the hierarchy
-    /// takes about 55 µs of CPU per graph node, mostly on one thread; one Dijkstra search
-    /// about 0.24 µs per graph node, and the searches run on every thread; so the hierarchy
-    /// saves wall time from about 55 / 0.24 = 230 points per thread (and CPU time from half
-    /// that).
+    /// takes about 40–55 µs of CPU per graph node, mostly on one thread; one Dijkstra search
+    /// about 0.21–0.24 µs per graph node, and the searches run on every thread; so the
+    /// hierarchy saves wall time from about 50 / 0.22 = 230 points per thread (and CPU time
+    /// from half that).
     pub const HIERARCHY_FROM_POINTS_PER_THREAD: usize = 230;
     /// Graph nodes from which a contraction hierarchy is used: below this a whole matrix of
     /// Dijkstra searches takes well under a second.
