@@ -62,6 +62,9 @@ struct UpArc {
     edge: u32,
 }
 
+/// The nodes an upward search reached: (node, cost, hierarchy arc it was reached by).
+type Settled = Vec<(u32, Cost, u32)>;
+
 /// The contraction hierarchy of a [`RoadNetwork`].
 pub(super) struct Hierarchy {
     /// Arcs v → x with x contracted after v, listed at v.
@@ -507,7 +510,7 @@ impl Hierarchy {
         let nodes = self.up_first.len() - 1;
         let threads = threads.clamp(1, n.max(1));
         // Upward searches on the reverse graph from every point's exits.
-        let spaces: Vec<(usize, Vec<(u32, Cost, u32)>)> = std::thread::scope(|scope| {
+        let spaces: Vec<(usize, Settled)> = std::thread::scope(|scope| {
             let handles: Vec<_> = (0..threads)
                 .map(|t| {
                     scope.spawn(move || {
