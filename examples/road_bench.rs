@@ -3,8 +3,10 @@
 //! same process. Not a test: run it and record the numbers in docs/benchmarks.md.
 //!
 //! ```text
-//! cargo run --release --example road_bench -- [SIDE=708] [SHAPE_POINTS=0] [STOPS=500] [THREADS=2]
+//! cargo run --release --example road_bench -- [SIDE=708] [SHAPE_POINTS=0] [STOPS=500] [THREADS=2] [METHOD=auto]
 //! ```
+//!
+//! METHOD: `auto` (as `orders` picks), `dijkstra` or `hierarchy`.
 
 fn peak_memory_mb() -> Option<f64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;
@@ -24,8 +26,18 @@ fn main() {
             .unwrap_or(default)
     };
     let (side, shape_points, stops, threads) = (arg(1, 708), arg(2, 0), arg(3, 500), arg(4, 2));
+    use hostcut::field::network::TravelMethod;
+    let method = match std::env::args().nth(5).as_deref() {
+        None | Some("auto") => None,
+        Some("dijkstra") => Some(TravelMethod::Dijkstra),
+        Some("hierarchy") => Some(TravelMethod::Hierarchy),
+        Some(other) => {
+            eprintln!("error: METHOD `{other}` is not one of auto, dijkstra, hierarchy");
+            std::process::exit(2);
+        }
+    };
     let started = std::time::Instant::now();
-    let b = match hostcut::field::network::bench_grid(side, shape_points, stops, threads) {
+    let b = match hostcut::field::network::bench_grid(side, shape_points, stops, threads, method) {
         Ok(b) => b,
         Err(e) => {
             eprintln!("error: {e}");
@@ -39,7 +51,13 @@ fn main() {
     );
     println!("stops: {} (+ depot), search threads: {threads}", b.stops);
     println!("build network:            {:.2} s", b.build_s);
-    println!("road travel matrix:       {:.2} s", b.travel_s);
+    println!(
+        "road travel matrix:       {:.2} s  (by {}; of it building the hierarchy {:.2} s, {} shortcuts)",
+        b.travel_s,
+        b.method.as_str(),
+        b.preprocess_s,
+        b.shortcuts
+    );
     println!(
         "road tour + day split:    {:.2} s  ({:.1} h travel, {} days)",
         b.routes_s, b.road_tour_hours, b.road_days

@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use hostcut::field::network::{
-    NetworkOptions, RoadNetwork, SpeedTable, Travel, Unreachable, bench_grid,
+    NetworkOptions, RoadNetwork, SpeedTable, Travel, TravelMethod, Unreachable, bench_grid,
 };
 use hostcut::input::gis::{Crs, transform_points};
 use hostcut::input::roads::{FieldSource, OneWay, RoadFields, read_roads};
@@ -315,6 +315,13 @@ fn grid_with_a_river_matches_networkx_and_shapefile_matches_geopackage() {
     // Outside reference: networkx (single_source_dijkstra) on the same GeoPackage read by GDAL.
     let answer = reference(&gpkg, None, &points, osm_speeds());
     assert_same_as_networkx(&travel, &answer);
+    // The contraction hierarchy (picked for many points on a large network) against the same
+    // reference.
+    let by_hierarchy = network
+        .travel_by(&points, 2, TravelMethod::Hierarchy)
+        .unwrap();
+    assert_eq!(by_hierarchy.method, TravelMethod::Hierarchy);
+    assert_same_as_networkx(&by_hierarchy, &answer);
     // The drawn route of every leg is as long as its road km (derived here [C]: the geometry is
     // the path the kilometres were summed over).
     for i in 0..points.len() {
@@ -555,6 +562,13 @@ fn an_openstreetmap_extract_read_through_gdal_matches_networkx() {
     // Outside reference: networkx on the same .osm.pbf read by GDAL's OSM driver in Python.
     let answer = reference(&pbf, Some("lines"), &points, osm_speeds());
     assert_same_as_networkx(&travel, &answer);
+    // The contraction hierarchy (picked for many points on a large network) against the same
+    // reference.
+    let by_hierarchy = network
+        .travel_by(&points, 2, TravelMethod::Hierarchy)
+        .unwrap();
+    assert_eq!(by_hierarchy.method, TravelMethod::Hierarchy);
+    assert_same_as_networkx(&by_hierarchy, &answer);
     for (i, j) in [(0, 1), (1, 0), (2, 3), (3, 4), (4, 0)] {
         let line = network.path(&travel.snaps[i], &travel.snaps[j]).unwrap();
         let metres: f64 = line
@@ -601,7 +615,7 @@ fn default_speeds_are_the_stated_ones() {
 #[test]
 fn the_bench_routine_runs_on_a_small_grid() {
     // Not a timing: the benchmark routine itself works (examples/road_bench.rs times it).
-    let b = bench_grid(30, 0, 20, 2).unwrap();
+    let b = bench_grid(30, 0, 20, 2, None).unwrap();
     assert_eq!(b.nodes, 900);
     assert_eq!(b.road_pieces, 2 * 30 * 29);
     // The 4 corners join just two streets and are passed through: 896 graph nodes, and each

@@ -539,7 +539,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         missing,
         split_patches,
         travel_model: travel.name(),
-        travel_text: travel.describe(),
+        travel_text: travel.describe_legs(&legs),
         unreached,
         far_from_road,
     })

@@ -18,7 +18,9 @@
 use std::path::{Path, PathBuf};
 
 use crate::core::error::Result;
-use crate::field::network::{NetworkOptions, RoadNetwork, SpeedTable, Travel, Unreachable};
+use crate::field::network::{
+    NetworkOptions, RoadNetwork, SpeedTable, Travel, TravelMethod, Unreachable,
+};
 use crate::field::routing::Matrix;
 use crate::input::gis::Crs;
 use crate::input::roads::{FieldSource, RoadFields, RoadSkips, read_roads};
@@ -112,6 +114,14 @@ impl TravelModel {
         match self {
             TravelModel::StraightLine { .. } => "straight line",
             TravelModel::Roads(_) => "road network",
+        }
+    }
+
+    /// [`TravelModel::describe`] and, by road, how the travel matrix among `legs` was searched.
+    pub fn describe_legs(&self, legs: &Legs) -> String {
+        match legs.search_method() {
+            Some(method) => format!("{}; travel matrix by {}", self.describe(), method.as_str()),
+            None => self.describe(),
         }
     }
 
@@ -213,6 +223,11 @@ impl Legs {
             }
         }
         Matrix::from_rows(keep.len(), t)
+    }
+
+    /// How the road travel matrix was searched (`None` for straight-line travel).
+    pub fn search_method(&self) -> Option<TravelMethod> {
+        self.road.as_ref().map(|t| t.method)
     }
 
     /// Points farther from every road than the walk limit, with their walk in metres.

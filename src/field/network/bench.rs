@@ -5,7 +5,7 @@
 //! Metres, hours, seconds of wall time.
 
 use crate::core::error::{Error, Result};
-use crate::field::network::types::{NetworkOptions, RoadNetwork};
+use crate::field::network::types::{NetworkOptions, RoadNetwork, TravelMethod};
 use crate::field::routing::Matrix;
 use crate::input::roads::{OneWay, RoadSegment};
 
@@ -18,6 +18,11 @@ pub struct GridBench {
     pub arcs: usize,
     pub stops: usize,
     pub build_s: f64,
+    /// How the matrix was searched.
+    pub method: TravelMethod,
+    /// Seconds of `travel_s` spent building the contraction hierarchy.
+    pub preprocess_s: f64,
+    pub shortcuts: usize,
     pub travel_s: f64,
     pub routes_s: f64,
     /// Road geometry of every day's route (depot, stops, depot), as `orders` draws it.
@@ -97,12 +102,14 @@ pub fn grid_segments(side: usize, shape_points: usize) -> Vec<RoadSegment> {
 /// pieces ([`grid_segments`]), compute the travel
 /// among a depot and `stops` stops spread over it (`threads` searches at a time), order one tour
 /// and split it into 8-hour days of at most 10 stops (1.5 h of work each), and the same with
-/// straight-line travel (x 1.3 at 30 km/h) for comparison. Peak memory is the caller's to read.
+/// straight-line travel (x 1.3 at 30 km/h) for comparison. The matrix is searched by `method`,
+/// or the one `orders` would pick (`None`). Peak memory is the caller's to read.
 pub fn bench_grid(
     side: usize,
     shape_points: usize,
     stops: usize,
     threads: usize,
+    method: Option<TravelMethod>,
 ) -> Result<GridBench> {
     use crate::field::routing;
     use std::time::Instant;
@@ -143,7 +150,10 @@ pub fn bench_grid(
         Ok((routing::tour_length(m, &tour), cuts.len(), days))
     };
     let started = Instant::now();
-    let travel = network.travel(&points, threads)?;
+    let method = method.unwrap_or_else(|| {
+        TravelMethod::for_size(points.len(), network.stats.graph_nodes, threads)
+    });
+    let travel = network.travel_by(&points, threads, method)?;
     let travel_s = started.elapsed().as_secs_f64();
     let started = Instant::now();
     let (road_tour_hours, road_days, visits) = plan(&travel.matrix())?;
@@ -172,6 +182,9 @@ pub fn bench_grid(
         arcs: network.stats.arcs,
         stops,
         build_s,
+        method,
+        preprocess_s: travel.preprocess_s,
+        shortcuts: travel.shortcuts,
         travel_s,
         routes_s,
         geometry_s,

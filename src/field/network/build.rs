@@ -14,7 +14,7 @@ use rstar::{PointDistance, RTree};
 use crate::core::error::{Error, Result};
 use crate::field::network::types::{
     Arc, Chain, NetworkOptions, NetworkStats, Piece, PieceId, Position, REVERSED, RoadNetwork,
-    Snap, Span,
+    Snap, Span, hours_ticks, metres_ticks,
 };
 use crate::input::roads::{OneWay, RoadSegment};
 
@@ -233,8 +233,8 @@ impl RoadNetwork {
         let mut fill = first_out.clone();
         let mut arc_data = vec![
             Arc {
-                hours: 0.0,
-                metres: 0.0,
+                hours: 0,
+                metres: 0,
                 head: 0
             };
             arcs.len()
@@ -244,8 +244,8 @@ impl RoadNetwork {
             let at = fill[u as usize] as usize;
             fill[u as usize] += 1;
             arc_data[at] = Arc {
-                hours: h,
-                metres: m,
+                hours: hours_ticks(h),
+                metres: metres_ticks(m),
                 head: v,
             };
             arc_chain[at] = c;
@@ -392,6 +392,13 @@ impl RoadNetwork {
             span,
             along,
         })
+    }
+
+    /// The graph node an arc leaves from.
+    pub(super) fn arc_tail(&self, arc: u32) -> u32 {
+        let code = self.arc_chain[arc as usize];
+        let c = self.chains[(code & !REVERSED) as usize];
+        if code & REVERSED != 0 { c.t } else { c.s }
     }
 
     /// The vertices of a chain in s → t order.

@@ -7,15 +7,19 @@
 use std::cmp::Reverse;
 use std::collections::BinaryHeap;
 
-use crate::core::error::{Error, Result};
 use std::collections::HashMap;
 
-use crate::field::network::types::{Leg, REVERSED, RoadNetwork, Snap, Travel, Unreachable};
+use crate::core::error::{Error, Result};
+use crate::field::network::hierarchy::Hierarchy;
+use crate::field::network::types::{
+    Cost, Leg, NO_WAY, REVERSED, RoadNetwork, Row, Snap, Travel, TravelMethod, Unreachable, add,
+    cost_hours, cost_metres, hours_ticks, metres_ticks,
+};
 
-/// Where a snapped point joins the graph: (graph node, hours, metres) to leave by.
-fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
+/// Where a snapped point joins the graph: (graph node, cost to leave by it).
+pub(super) fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, Cost)> {
     if let Some(node) = network.at_node(snap) {
-        return vec![(node, 0.0, 0.0)];
+        return vec![(node, (0, 0))];
     }
     let p = network.position(snap);
     let c = p.chain;
@@ -23,40 +27,53 @@ fn access(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
     if c.forward_hours.is_finite() {
         out.push((
             c.t,
-            c.forward_hours - p.forward_before,
-            c.metres - p.metres_before,
+            (
+                hours_ticks(c.forward_hours - p.forward_before),
+                metres_ticks(c.metres - p.metres_before),
+            ),
         ));
     }
     if c.backward_hours.is_finite() {
-        out.push((c.s, p.backward_before, p.metres_before));
+        out.push((
+            c.s,
+            (
+                hours_ticks(p.backward_before),
+                metres_ticks(p.metres_before),
+            ),
+        ));
     }
     out
 }
 
-/// Where a snapped point is arrived at from the graph: (graph node, hours, metres) from there.
-fn egress(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, f64, f64)> {
+/// Where a snapped point is arrived at from the graph: (graph node, cost from there).
+pub(super) fn egress(network: &RoadNetwork, snap: &Snap) -> Vec<(u32, Cost)> {
     if let Some(node) = network.at_node(snap) {
-        return vec![(node, 0.0, 0.0)];
+        return vec![(node, (0, 0))];
     }
     let p = network.position(snap);
     let c = p.chain;
     let mut out = Vec::with_capacity(2);
     if c.forward_hours.is_finite() {
-        out.push((c.s, p.forward_before, p.metres_before));
+        out.push((
+            c.s,
+            (hours_ticks(p.forward_before), metres_ticks(p.metres_before)),
+        ));
     }
     if c.backward_hours.is_finite() {
         out.push((
             c.t,
-            c.backward_hours - p.backward_before,
-            c.metres - p.metres_before,
+            (
+                hours_ticks(c.backward_hours - p.backward_before),
+                metres_ticks(c.metres - p.metres_before),
+            ),
         ));
     }
     out
 }
 
 /// Drive along one chain from one snapped point to another on the same chain, if allowed:
-/// (hours, metres, whether it runs the chain's way).
-fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64, bool)> {
+/// (cost, whether it runs the chain's way).
+fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(Cost, bool)> {
     if network.at_node(from).is_some() || network.at_node(to).is_some() {
         return None;
     }
@@ -67,31 +84,43 @@ fn same_chain(network: &RoadNetwork, from: &Snap, to: &Snap) -> Option<(f64, f64
     let c = pf.chain;
     let d = pt.metres_before - pf.metres_before;
     if d >= 0.0 && c.forward_hours.is_finite() {
-        Some((pt.forward_before - pf.forward_before, d, true))
+        Some((
+            (
+                hours_ticks(pt.forward_before - pf.forward_before),
+                metres_ticks(d),
+            ),
+            true,
+        ))
     } else if d <= 0.0 && c.backward_hours.is_finite() {
-        Some((pf.backward_before - pt.backward_before, -d, false))
+        Some((
+            (
+                hours_ticks(pf.backward_before - pt.backward_before),
+                metres_ticks(-d),
+            ),
+            false,
+        ))
     } else {
         None
     }
 }
 
 /// A reusable Dijkstra search over one network.
-struct Search {
-    /// Hours and metres of the best path found to each node.
-    best: Vec<(f64, f64)>,
+pub(super) struct Search {
+    /// Cost of the best path found to each node.
+    best: Vec<Cost>,
     /// Arc by which each node was reached, `u32::MAX` for a source.
     pred: Vec<u32>,
     touched: Vec<u32>,
     /// Target marks: `mark[v] == stamp` when v is an end node of a point still to settle.
     mark: Vec<u32>,
     stamp: u32,
-    heap: BinaryHeap<Reverse<(u64, u32)>>,
+    heap: BinaryHeap<Reverse<(Cost, u32)>>,
 }
 
 impl Search {
-    fn new(nodes: usize) -> Search {
+    pub(super) fn new(nodes: usize) -> Search {
         Search {
-            best: vec![(f64::INFINITY, 0.0); nodes],
+            best: vec![(NO_WAY, 0); nodes],
             pred: vec![u32::MAX; nodes],
             touched: Vec::new(),
             mark: vec![0; nodes],
@@ -102,16 +131,16 @@ impl Search {
 
     fn reset(&mut self) {
         for &v in &self.touched {
-            self.best[v as usize].0 = f64::INFINITY;
+            self.best[v as usize] = (NO_WAY, 0);
             self.pred[v as usize] = u32::MAX;
         }
         self.touched.clear();
         self.heap.clear();
     }
 
-    /// Shortest times from `sources` (node, hours, metres already spent) until every node in
-    /// `targets` is settled (all nodes when `targets` is empty).
-    fn run(&mut self, network: &RoadNetwork, sources: &[(u32, f64, f64)], targets: &[u32]) {
+    /// Least costs from `sources` (node, cost already spent) until every node in `targets` is
+    /// settled (all nodes when `targets` is empty).
+    pub(super) fn run(&mut self, network: &RoadNetwork, sources: &[(u32, Cost)], targets: &[u32]) {
         self.reset();
         self.stamp = self.stamp.wrapping_add(1);
         if self.stamp == 0 {
@@ -126,20 +155,20 @@ impl Search {
             }
         }
         let all = targets.is_empty();
-        for &(v, h, m) in sources {
-            if h < self.best[v as usize].0 {
-                if self.best[v as usize].0.is_infinite() {
+        for &(v, cost) in sources {
+            if cost < self.best[v as usize] {
+                if self.best[v as usize].0 == NO_WAY {
                     self.touched.push(v);
                 }
-                self.best[v as usize] = (h, m);
-                self.heap.push(Reverse((h.to_bits(), v)));
+                self.best[v as usize] = cost;
+                self.heap.push(Reverse((cost, v)));
             }
         }
-        while let Some(Reverse((bits, u))) = self.heap.pop() {
+        while let Some(Reverse((cost, u))) = self.heap.pop() {
             let ui = u as usize;
             // Entries are pushed only on a strict improvement, so the one whose cost equals
-            // the node's distance is its only live entry: each node is settled once.
-            if f64::from_bits(bits) > self.best[ui].0 {
+            // the node's is its only live entry: each node is settled once.
+            if cost > self.best[ui] {
                 continue;
             }
             if !all && self.mark[ui] == self.stamp {
@@ -148,18 +177,18 @@ impl Search {
                     break;
                 }
             }
-            let (du, mu) = self.best[ui];
+            let (hu, mu) = cost;
             let range = network.first_out[ui] as usize..network.first_out[ui + 1] as usize;
             for (data, arc) in network.arcs[range.clone()].iter().zip(range) {
                 let v = data.head as usize;
-                let dv = du + data.hours;
-                if dv < self.best[v].0 {
-                    if self.best[v].0.is_infinite() {
+                let next = (hu + data.hours, mu + data.metres);
+                if next < self.best[v] {
+                    if self.best[v].0 == NO_WAY {
                         self.touched.push(v as u32);
                     }
-                    self.best[v] = (dv, mu + data.metres);
+                    self.best[v] = next;
                     self.pred[v] = arc as u32;
-                    self.heap.push(Reverse((dv.to_bits(), v as u32)));
+                    self.heap.push(Reverse((next, v as u32)));
                 }
             }
         }
@@ -172,40 +201,83 @@ impl Search {
         while self.pred[v as usize] != u32::MAX {
             let arc = self.pred[v as usize];
             arcs.push(arc);
-            let c = network.chains[(network.arc_chain[arc as usize] & !REVERSED) as usize];
-            v = if network.arc_chain[arc as usize] & REVERSED != 0 {
-                c.t
-            } else {
-                c.s
-            };
+            v = network.arc_tail(arc);
         }
         arcs.reverse();
         (arcs, v)
     }
 
     /// The kept drive to a point through its egress ends, if any.
-    fn leg(&self, network: &RoadNetwork, ends: &[(u32, f64, f64)]) -> Option<Leg> {
-        let (hours, _, end) = self.arrive(ends)?;
+    fn leg(&self, network: &RoadNetwork, ends: &[(u32, Cost)]) -> Option<Leg> {
+        let (cost, end) = self.arrive(ends)?;
         let (arcs, first) = self.arcs_to(network, end);
         Some(Leg {
             arcs,
             first,
             end,
-            hours,
+            cost,
         })
     }
 
-    /// Best (hours, metres, end node) to reach a point through its egress ends.
-    fn arrive(&self, ends: &[(u32, f64, f64)]) -> Option<(f64, f64, u32)> {
-        let mut best: Option<(f64, f64, u32)> = None;
-        for &(v, h, m) in ends {
-            let d = self.best[v as usize].0;
-            if d.is_finite() && best.is_none_or(|(b, _, _)| d + h < b) {
-                best = Some((d + h, self.best[v as usize].1 + m, v));
+    /// Least cost and end node to reach a point through its egress ends.
+    fn arrive(&self, ends: &[(u32, Cost)]) -> Option<(Cost, u32)> {
+        let mut best: Option<(Cost, u32)> = None;
+        for &(v, c) in ends {
+            let d = self.best[v as usize];
+            if d.0 != NO_WAY {
+                let total = add(d, c);
+                if best.is_none_or(|(b, _)| total < b) {
+                    best = Some((total, v));
+                }
             }
         }
         best
     }
+}
+
+/// The rows of every source by one Dijkstra search each, spread over `threads` threads.
+fn dijkstra_rows(
+    network: &RoadNetwork,
+    starts: &[Vec<(u32, Cost)>],
+    exits: &[Vec<(u32, Cost)>],
+    threads: usize,
+) -> Vec<Row> {
+    let n = starts.len();
+    let targets: Vec<u32> = exits.iter().flatten().map(|e| e.0).collect();
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..threads)
+            .map(|t| {
+                let targets = &targets;
+                scope.spawn(move || {
+                    let mut search = Search::new(network.graph_vertex.len());
+                    let mut out = Vec::new();
+                    for i in (t..n).step_by(threads) {
+                        search.run(network, &starts[i], targets);
+                        // The drives from the depot to every point and from every point to
+                        // the depot, kept for the route lines.
+                        let mut legs = Vec::new();
+                        if i == 0 {
+                            for (j, ends) in exits.iter().enumerate().skip(1) {
+                                legs.push(((0, j), search.leg(network, ends)));
+                            }
+                        } else {
+                            legs.push(((i, 0), search.leg(network, &exits[0])));
+                        }
+                        let row = exits
+                            .iter()
+                            .map(|ends| search.arrive(ends).map(|(c, _)| c))
+                            .collect();
+                        out.push((i, row, legs));
+                    }
+                    out
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .flat_map(|h| h.join().expect("a travel search thread panicked"))
+            .collect()
+    })
 }
 
 impl RoadNetwork {
@@ -213,9 +285,22 @@ impl RoadNetwork {
         snap.walk_m / (self.walk_kmh * 1000.0)
     }
 
-    /// Travel among `points` (point 0 the depot) by shortest paths, one search per point,
-    /// spread over `threads` threads. An empty network is an input error.
+    /// Travel among `points` (point 0 the depot) by shortest paths, the searches spread over
+    /// `threads` threads, by the method [`TravelMethod::for_size`] picks. An empty network is
+    /// an input error.
     pub fn travel(&self, points: &[(f64, f64)], threads: usize) -> Result<Travel> {
+        let method = TravelMethod::for_size(points.len(), self.graph_vertex.len(), threads);
+        self.travel_by(points, threads, method)
+    }
+
+    /// [`RoadNetwork::travel`] by a given method; every method gives the same hours and
+    /// kilometres (to the tick: see [`Cost`]).
+    pub fn travel_by(
+        &self,
+        points: &[(f64, f64)],
+        threads: usize,
+        method: TravelMethod,
+    ) -> Result<Travel> {
         let n = points.len();
         let snaps: Vec<Snap> = points
             .iter()
@@ -228,71 +313,43 @@ impl RoadNetwork {
                 })
             })
             .collect::<Result<_>>()?;
-        let exits: Vec<Vec<(u32, f64, f64)>> = snaps.iter().map(|s| egress(self, s)).collect();
-        let targets: Vec<u32> = exits.iter().flatten().map(|e| e.0).collect();
+        let starts: Vec<Vec<(u32, Cost)>> = snaps.iter().map(|s| access(self, s)).collect();
+        let exits: Vec<Vec<(u32, Cost)>> = snaps.iter().map(|s| egress(self, s)).collect();
         let threads = threads.clamp(1, n.max(1));
-        type Row = (
-            usize,
-            Vec<f64>,
-            Vec<f64>,
-            Vec<((usize, usize), Option<Leg>)>,
-        );
-        let rows: Vec<Row> = std::thread::scope(|scope| {
-            let handles: Vec<_> = (0..threads)
-                .map(|t| {
-                    let (snaps, exits, targets) = (&snaps, &exits, &targets);
-                    scope.spawn(move || {
-                        let mut search = Search::new(self.graph_vertex.len());
-                        let mut out = Vec::new();
-                        for i in (t..n).step_by(threads) {
-                            search.run(self, &access(self, &snaps[i]), targets);
-                            // The drives from the depot to every point and from every point
-                            // to the depot, kept for the route lines.
-                            let mut legs = Vec::new();
-                            if i == 0 {
-                                for (j, ends) in exits.iter().enumerate().skip(1) {
-                                    legs.push(((0, j), search.leg(self, ends)));
-                                }
-                            } else {
-                                legs.push(((i, 0), search.leg(self, &exits[0])));
-                            }
-                            let mut hours = vec![f64::INFINITY; n];
-                            let mut km = vec![f64::INFINITY; n];
-                            for j in 0..n {
-                                if i == j {
-                                    hours[j] = 0.0;
-                                    km[j] = 0.0;
-                                    continue;
-                                }
-                                let mut best = search.arrive(&exits[j]).map(|(h, m, _)| (h, m));
-                                if let Some((h, m, _)) = same_chain(self, &snaps[i], &snaps[j])
-                                    && best.is_none_or(|(b, _)| h < b)
-                                {
-                                    best = Some((h, m));
-                                }
-                                if let Some((h, m)) = best {
-                                    hours[j] =
-                                        self.walk_hours(&snaps[i]) + h + self.walk_hours(&snaps[j]);
-                                    km[j] = m / 1000.0;
-                                }
-                            }
-                            out.push((i, hours, km, legs));
-                        }
-                        out
-                    })
-                })
-                .collect();
-            handles
-                .into_iter()
-                .flat_map(|h| h.join().expect("a travel search thread panicked"))
-                .collect()
-        });
-        let mut hours = vec![0.0; n * n];
-        let mut km = vec![0.0; n * n];
+        let (mut preprocess_s, mut shortcuts) = (0.0, 0);
+        let rows = match method {
+            TravelMethod::Dijkstra => dijkstra_rows(self, &starts, &exits, threads),
+            TravelMethod::Hierarchy => {
+                let started = std::time::Instant::now();
+                let hierarchy = Hierarchy::build(self, threads);
+                preprocess_s = started.elapsed().as_secs_f64();
+                shortcuts = hierarchy.shortcuts;
+                hierarchy.rows(&starts, &exits, threads)
+            }
+        };
+        let mut hours = vec![f64::INFINITY; n * n];
+        let mut km = vec![f64::INFINITY; n * n];
         let mut depot_legs = HashMap::new();
-        for (i, h, k, legs) in rows {
-            hours[i * n..(i + 1) * n].copy_from_slice(&h);
-            km[i * n..(i + 1) * n].copy_from_slice(&k);
+        for (i, row, legs) in rows {
+            for (j, through) in row.into_iter().enumerate() {
+                if i == j {
+                    hours[i * n + j] = 0.0;
+                    km[i * n + j] = 0.0;
+                    continue;
+                }
+                let mut best = through;
+                // A drive along the chain both points are on, when it is cheaper.
+                if let Some((direct, _)) = same_chain(self, &snaps[i], &snaps[j])
+                    && best.is_none_or(|b| direct < b)
+                {
+                    best = Some(direct);
+                }
+                if let Some(cost) = best {
+                    hours[i * n + j] =
+                        self.walk_hours(&snaps[i]) + cost_hours(cost) + self.walk_hours(&snaps[j]);
+                    km[i * n + j] = cost_metres(cost) / 1000.0;
+                }
+            }
             depot_legs.extend(legs);
         }
         let far_from_road = snaps
@@ -330,6 +387,9 @@ impl RoadNetwork {
             far_from_road,
             unreachable,
             depot_legs,
+            method,
+            preprocess_s,
+            shortcuts,
         })
     }
 
@@ -383,7 +443,9 @@ impl RoadNetwork {
         };
         match (through, direct) {
             (None, None) => return None,
-            (through, Some((d, _, aligned))) if through.as_ref().is_none_or(|l| d <= l.hours) => {
+            (through, Some((direct, aligned)))
+                if through.as_ref().is_none_or(|l| direct < l.cost) =>
+            {
                 let (pf, pt) = (self.position(from), self.position(to));
                 let chain = pf.chain;
                 let vertices = self.chain_vertices(&chain);

@@ -229,12 +229,67 @@ pub struct RoadNetwork {
 
 pub(super) const REVERSED: u32 = 1 << 31;
 
-/// One graph arc, its data side by side for the search's memory traffic.
+/// One graph arc, its data side by side for the search's memory traffic; hours and metres in
+/// ticks ([`hours_ticks`], [`metres_ticks`]).
 #[derive(Debug, Clone, Copy)]
 pub(super) struct Arc {
-    pub(super) hours: f64,
-    pub(super) metres: f64,
+    pub(super) hours: u64,
+    pub(super) metres: u64,
     pub(super) head: u32,
+}
+
+/// Ticks per hour of the searches' sums: 2^36 (one tick is about 52 ns).
+///
+/// Shortest paths add whole ticks, so a sum does not depend on the order it is taken in and
+/// every search (Dijkstra, the contraction hierarchy) finds the same hours and metres to the
+/// last tick; each arc's time is rounded to the nearest tick once (at most 2^-37 h, 26 ns, per
+/// arc against plain `f64` sums).
+pub(super) const TICKS_PER_HOUR: f64 = (1u64 << 36) as f64;
+/// Ticks per metre: 2^16 (one tick is about 15 µm; at most 7.6 µm rounding per arc).
+pub(super) const TICKS_PER_METRE: f64 = (1u64 << 16) as f64;
+/// No way: more than any sum of real arcs (2^28 h, 2^48 m).
+pub(super) const NO_WAY: u64 = u64::MAX;
+
+/// Hours in ticks, rounded to the nearest.
+pub(super) fn hours_ticks(hours: f64) -> u64 {
+    if hours.is_finite() {
+        (hours.max(0.0) * TICKS_PER_HOUR).round() as u64
+    } else {
+        NO_WAY
+    }
+}
+
+/// Metres in ticks, rounded to the nearest.
+pub(super) fn metres_ticks(metres: f64) -> u64 {
+    (metres.max(0.0) * TICKS_PER_METRE).round() as u64
+}
+
+/// A drive's cost as the searches compare it: hours in ticks first, then metres in ticks (of
+/// two drives equally fast to the tick, the shorter is taken; equal in both, either, with the
+/// same hours and metres).
+pub(super) type Cost = (u64, u64);
+
+/// Hours of a cost (ticks back to hours; infinite for [`NO_WAY`]).
+pub(super) fn cost_hours(cost: Cost) -> f64 {
+    if cost.0 == NO_WAY {
+        f64::INFINITY
+    } else {
+        cost.0 as f64 / TICKS_PER_HOUR
+    }
+}
+
+/// Metres of a cost.
+pub(super) fn cost_metres(cost: Cost) -> f64 {
+    cost.1 as f64 / TICKS_PER_METRE
+}
+
+/// The sum of two costs (saturating at [`NO_WAY`]).
+pub(super) fn add(a: Cost, b: Cost) -> Cost {
+    if a.0 == NO_WAY || b.0 == NO_WAY {
+        (NO_WAY, 0)
+    } else {
+        (a.0.saturating_add(b.0), a.1.saturating_add(b.1))
+    }
 }
 
 /// A point snapped onto the road network.
@@ -282,16 +337,68 @@ pub struct Travel {
     /// routes without searching again: `(from, to)` with one end the depot, `None` where the
     /// graph has no way (a drive along one chain may still exist).
     pub(super) depot_legs: std::collections::HashMap<(usize, usize), Option<Leg>>,
+    /// How the matrix was searched.
+    pub method: TravelMethod,
+    /// Seconds spent building the contraction hierarchy (0 for Dijkstra searches).
+    pub preprocess_s: f64,
+    /// Shortcuts the contraction hierarchy added (0 for Dijkstra searches).
+    pub shortcuts: usize,
 }
 
 /// A drive through the graph kept from a matrix search: the arcs in order, the graph node it
-/// leaves from and the one it ends at (`arrive`'s answer).
+/// leaves from and the one it ends at, and its cost from the point to the point.
 #[derive(Debug, Clone)]
 pub(super) struct Leg {
     pub(super) arcs: Vec<u32>,
     pub(super) first: u32,
     pub(super) end: u32,
-    pub(super) hours: f64,
+    pub(super) cost: Cost,
+}
+
+/// One source's row of the matrix as a search method gives it: the least cost through the graph
+/// to every point (`None`: no way through the graph), and the kept drives to or from the depot.
+pub(super) type Row = (usize, Vec<Option<Cost>>, Vec<((usize, usize), Option<Leg>)>);
+
+/// How a travel matrix was searched.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TravelMethod {
+    /// One Dijkstra search per point (small networks, or few points).
+    Dijkstra,
+    /// A contraction hierarchy built for the matrix, then bucket many-to-many queries.
+    Hierarchy,
+}
+
+impl TravelMethod {
+    /// Points per search thread from which a contraction hierarchy is used. Measured on both
+    /// street grids of docs/benchmarks.md (2026-12-03, same load): building the hierarchy
+    /// takes about 40–55 µs of CPU per graph node, mostly on one thread; one Dijkstra search
+    /// about 0.21–0.24 µs per graph node, and the searches run on every thread; so the
+    /// hierarchy saves wall time from about 50 / 0.22 = 230 points per thread (and CPU time
+    /// from half that).
+    pub const HIERARCHY_FROM_POINTS_PER_THREAD: usize = 230;
+    /// Graph nodes from which a contraction hierarchy is used: below this a whole matrix of
+    /// Dijkstra searches takes well under a second.
+    pub const HIERARCHY_FROM_NODES: usize = 20_000;
+
+    /// The method for `points` points on a graph of `graph_nodes` nodes, searched on
+    /// `threads` threads.
+    pub fn for_size(points: usize, graph_nodes: usize, threads: usize) -> TravelMethod {
+        if points >= Self::HIERARCHY_FROM_POINTS_PER_THREAD * threads.max(1)
+            && graph_nodes >= Self::HIERARCHY_FROM_NODES
+        {
+            TravelMethod::Hierarchy
+        } else {
+            TravelMethod::Dijkstra
+        }
+    }
+
+    /// The method in words, for outputs.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            TravelMethod::Dijkstra => "one Dijkstra search per point",
+            TravelMethod::Hierarchy => "a contraction hierarchy with bucket many-to-many queries",
+        }
+    }
 }
 
 impl Travel {
@@ -346,6 +453,9 @@ impl Travel {
             } else {
                 Default::default()
             },
+            method: self.method,
+            preprocess_s: self.preprocess_s,
+            shortcuts: self.shortcuts,
         }
     }
 }
