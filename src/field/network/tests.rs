@@ -1,6 +1,6 @@
 //! Unit tests of the road network on hand-made roads (hand arithmetic).
 
-use crate::field::network::types::{NetworkOptions, RoadNetwork, SpeedTable, Travel, TravelMethod};
+use crate::field::network::types::{NetworkOptions, RoadNetwork, SpeedTable, TravelMethod};
 use crate::input::roads::{OneWay, RoadSegment};
 
 fn segment(points: &[(f64, f64)], class: &str, oneway: OneWay) -> RoadSegment {
