@@ -407,9 +407,13 @@ pub(super) fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, out: &mut String
             if !bare.is_empty() {
                 let _ = write!(
                     line,
-                    " {} NO-HERBICIDE SITE{}: bring no herbicide there.",
+                    " {} {}: bring no herbicide there.",
                     stops_words(&bare),
-                    if bare.len() == 1 { " is a" } else { " are" }
+                    if bare.len() == 1 {
+                        "is a NO-HERBICIDE SITE"
+                    } else {
+                        "are NO-HERBICIDE SITES"
+                    }
                 );
             }
         }
