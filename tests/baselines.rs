@@ -48,6 +48,7 @@ fn patches_of(items: Vec<Patch>) -> Patches {
         skipped: Default::default(),
         notes: Vec::new(),
         crs_conversion: None,
+        input_linear_units: None,
         water_checked: false,
         source: "inventory",
         runs: Vec::new(),

@@ -202,7 +202,13 @@ fn every_patch_labelled_pages_numbered_and_cautions_page_named() {
             .split('\u{c}')
             .filter(|p| !p.trim().is_empty())
             .collect();
-        let expected = info["report_overview_pages"].as_u64().unwrap() as usize + days;
+        // One sheet per crew-day, plus a continuation sheet for a day too dense for one page.
+        let sheets = info["report_crew_day_pages"].as_u64().unwrap() as usize;
+        assert!(
+            sheets >= days,
+            "{out}: {sheets} sheets for {days} crew-days"
+        );
+        let expected = info["report_overview_pages"].as_u64().unwrap() as usize + sheets;
         assert_eq!(pages.len(), expected, "{out}: printed pages");
         for (k, p) in pages.iter().enumerate() {
             let want = format!("page {} of {expected}", k + 1);

@@ -80,8 +80,10 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
         text.line(format_args!("  work from {a} to {b}"));
     }
     text.line(format_args!(
-        "  {:.1} h of work and {:.1} h of travel ({:.1} km)",
-        summary.work_hours, summary.travel_hours, summary.travel_km
+        "  {:.1} h of work and {:.1} h of travel ({})",
+        summary.work_hours,
+        summary.travel_hours,
+        ctx.units.long(summary.travel_km)
     ));
     text.line(format_args!("  travel: {}", s.travel_text));
     if s.depot_is_default {
@@ -108,14 +110,14 @@ pub fn run(settings: OrdersSettings, printer: Printer) -> Result<String> {
     }
     for f in &s.far_from_road {
         text.warning(format_args!(
-            "warning: {} is {:.0} m from the nearest road (more than {:.0} m): the walk is counted at walking speed; check how the crew gets in",
+            "warning: {} is {} from the nearest road (more than {}): the walk is counted at walking speed; check how the crew gets in",
             if f.patch_id == "depot" {
                 "the depot".to_string()
             } else {
                 format!("patch {}", f.patch_id)
             },
-            f.walk_m,
-            f.max_walk_m
+            ctx.units.short(f.walk_m),
+            ctx.units.short(f.max_walk_m)
         ));
     }
     for m in &s.missing {

@@ -6,6 +6,7 @@ pub mod context;
 pub mod contract;
 pub mod network;
 pub mod orders;
+pub mod parts;
 pub mod plan_folder;
 pub mod routing;
 pub mod travel;

@@ -28,7 +28,7 @@ use geo::Geometry;
 use crate::core::error::{Error, Result};
 use crate::field::calendar::{Date, Workdays};
 use crate::field::contract::{self, PlanFolder};
-use crate::field::routing::{self, Matrix};
+use crate::field::routing;
 use crate::field::travel::{TravelModel, unreachable_reason};
 use crate::input::gis::{self, Crs};
 use crate::input::treatments::MethodId;
@@ -333,7 +333,7 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
             .iter()
             .map(|c| routing::order(&m, &tour[c.from..c.to]))
             .collect();
-        for ordered in consolidate(&m, &work, cut_days, o.day_hours, o.max_stops.max(1)) {
+        for ordered in routing::consolidate(&m, &work, cut_days, o.day_hours, o.max_stops.max(1)) {
             let mut prev = 0;
             let mut day_stops = Vec::new();
             for &node in &ordered {
@@ -543,98 +543,6 @@ pub fn schedule(folder: &PlanFolder, o: &Options, travel: &TravelModel) -> Resul
         unreached,
         far_from_road,
     })
-}
-
-/// Fewer days: try to move every stop of the lightest days into other days (cheapest insertion,
-/// within the hours and the stop limit), and drop the days that empty; days that took stops are
-/// re-routed at the end (which only shortens them). Never adds a day or breaks a limit; parts of
-/// one split patch never share a day because each whole-day part fills its day.
-fn consolidate(
-    m: &Matrix,
-    work: &[f64],
-    mut days: Vec<Vec<usize>>,
-    day_hours: f64,
-    max_stops: usize,
-) -> Vec<Vec<usize>> {
-    let hours = |d: &[usize]| routing::tour_length(m, d) + d.iter().map(|&s| work[s]).sum::<f64>();
-    // The cheapest place for `stop` in `day`: (added hours, position).
-    let insertion = |day: &[usize], stop: usize| -> (f64, usize) {
-        let mut best = (f64::INFINITY, 0);
-        for pos in 0..=day.len() {
-            let a = if pos == 0 { 0 } else { day[pos - 1] };
-            let b = if pos == day.len() { 0 } else { day[pos] };
-            let added = m.get(a, stop) + m.get(stop, b) - m.get(a, b) + work[stop];
-            if added < best.0 {
-                best = (added, pos);
-            }
-        }
-        best
-    };
-    let mut touched = vec![false; days.len()];
-    loop {
-        let mut by_load: Vec<usize> = (0..days.len()).collect();
-        by_load.sort_by(|&a, &b| hours(&days[a]).total_cmp(&hours(&days[b])).then(a.cmp(&b)));
-        let mut merged = false;
-        for &from in &by_load {
-            if days[from].is_empty() {
-                continue;
-            }
-            let mut trial = days.clone();
-            let mut took = Vec::new();
-            let mut ok = true;
-            for &stop in &days[from] {
-                let mut best: Option<(f64, usize, usize)> = None;
-                for to in 0..trial.len() {
-                    if to == from || trial[to].is_empty() || trial[to].len() >= max_stops {
-                        continue;
-                    }
-                    let (added, pos) = insertion(&trial[to], stop);
-                    if hours(&trial[to]) + added <= day_hours + 1e-9
-                        && best.is_none_or(|(b, _, _)| added < b)
-                    {
-                        best = Some((added, to, pos));
-                    }
-                }
-                match best {
-                    Some((_, to, pos)) => {
-                        trial[to].insert(pos, stop);
-                        took.push(to);
-                    }
-                    None => {
-                        ok = false;
-                        break;
-                    }
-                }
-            }
-            if ok {
-                trial[from].clear();
-                days = trial;
-                for t in took {
-                    touched[t] = true;
-                }
-                merged = true;
-            }
-        }
-        if !merged {
-            break;
-        }
-    }
-    days.into_iter()
-        .zip(touched)
-        .filter(|(d, _)| !d.is_empty())
-        .map(|(d, t)| {
-            if !t {
-                return d;
-            }
-            // Keep whichever order is shorter (the local search on long days is not exact).
-            let o = routing::order(m, &d);
-            if routing::tour_length(m, &o) <= routing::tour_length(m, &d) {
-                o
-            } else {
-                d
-            }
-        })
-        .collect()
 }
 
 /// The default first working day: today if today is inside a window of a method in the plan,

@@ -353,6 +353,10 @@ pub struct Summary {
     /// zone, feet into metres); absent when they were used as given.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub crs_conversion: Option<String>,
+    /// The inventory CRS's linear unit when it was not metres (e.g. `US survey foot`): the
+    /// distances people read (walks, drives) are printed in feet and miles; absent otherwise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub input_linear_units: Option<String>,
     pub kernel: String,
     #[serde(deserialize_with = "number")]
     pub alpha_m: f64,

@@ -361,6 +361,98 @@ pub fn split(
     Some(cuts)
 }
 
+/// Fewer days: try to move every stop of the lightest days into other days (cheapest insertion,
+/// within the hours and the stop limit), and drop the days that empty; days that took stops are
+/// re-routed at the end (which only shortens them). Never adds a day or breaks a limit; parts of
+/// one split patch never share a day because each whole-day part fills its day.
+pub fn consolidate(
+    m: &Matrix,
+    work: &[f64],
+    mut days: Vec<Vec<usize>>,
+    day_hours: f64,
+    max_stops: usize,
+) -> Vec<Vec<usize>> {
+    let hours = |d: &[usize]| tour_length(m, d) + d.iter().map(|&s| work[s]).sum::<f64>();
+    // The cheapest place for `stop` in `day`: (added hours, position).
+    let insertion = |day: &[usize], stop: usize| -> (f64, usize) {
+        let mut best = (f64::INFINITY, 0);
+        for pos in 0..=day.len() {
+            let a = if pos == 0 { 0 } else { day[pos - 1] };
+            let b = if pos == day.len() { 0 } else { day[pos] };
+            let added = m.get(a, stop) + m.get(stop, b) - m.get(a, b) + work[stop];
+            if added < best.0 {
+                best = (added, pos);
+            }
+        }
+        best
+    };
+    let mut touched = vec![false; days.len()];
+    loop {
+        let mut by_load: Vec<usize> = (0..days.len()).collect();
+        by_load.sort_by(|&a, &b| hours(&days[a]).total_cmp(&hours(&days[b])).then(a.cmp(&b)));
+        let mut merged = false;
+        for &from in &by_load {
+            if days[from].is_empty() {
+                continue;
+            }
+            let mut trial = days.clone();
+            let mut took = Vec::new();
+            let mut ok = true;
+            for &stop in &days[from] {
+                let mut best: Option<(f64, usize, usize)> = None;
+                for to in 0..trial.len() {
+                    if to == from || trial[to].is_empty() || trial[to].len() >= max_stops {
+                        continue;
+                    }
+                    let (added, pos) = insertion(&trial[to], stop);
+                    if hours(&trial[to]) + added <= day_hours + 1e-9
+                        && best.is_none_or(|(b, _, _)| added < b)
+                    {
+                        best = Some((added, to, pos));
+                    }
+                }
+                match best {
+                    Some((_, to, pos)) => {
+                        trial[to].insert(pos, stop);
+                        took.push(to);
+                    }
+                    None => {
+                        ok = false;
+                        break;
+                    }
+                }
+            }
+            if ok {
+                trial[from].clear();
+                days = trial;
+                for t in took {
+                    touched[t] = true;
+                }
+                merged = true;
+            }
+        }
+        if !merged {
+            break;
+        }
+    }
+    days.into_iter()
+        .zip(touched)
+        .filter(|(d, _)| !d.is_empty())
+        .map(|(d, t)| {
+            if !t {
+                return d;
+            }
+            // Keep whichever order is shorter (the local search on long days is not exact).
+            let o = order(m, &d);
+            if tour_length(m, &o) <= tour_length(m, &d) {
+                o
+            } else {
+                d
+            }
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

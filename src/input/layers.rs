@@ -159,6 +159,8 @@ pub struct Layers {
     pub notes: Vec<String>,
     /// How an inventory's coordinates were converted into the work CRS, if they were.
     pub crs_conversion: Option<String>,
+    /// The inventory CRS's linear unit when not metres (see `gis::Projected::linear_units`).
+    pub input_linear_units: Option<String>,
     /// The layers and fields actually read.
     pub bindings: Bindings,
     /// The catalogue's size-class ids: inventory columns and host-polygon fields counting stems
@@ -178,6 +180,7 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
         None => None,
     };
     let mut inventory_note = None;
+    let mut input_linear_units = None;
     let (crs, host) = if let Some(path) = &s.host.inventory {
         let mut stands = crate::input::inventory::read_inventory(path, size_classes)?;
         let points: Vec<(f64, f64)> = stands.iter().map(|s| (s.x, s.y)).collect();
@@ -206,6 +209,7 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
             }
         }
         inventory_note = projected.note;
+        input_linear_units = projected.linear_units;
         (
             projected.crs,
             Host::Inventory {
@@ -447,6 +451,7 @@ pub fn load(s: &Scenario, budget: &Budget, size_classes: &[String]) -> Result<La
         skipped,
         notes,
         crs_conversion: inventory_note,
+        input_linear_units,
         bindings,
         size_classes: size_classes.to_vec(),
         class_rasters,

@@ -39,9 +39,8 @@ pub struct Patch {
     pub pressure_override: Option<f64>,
     /// Establishment suitability from the inventory's `suitability` column (0 to 1).
     pub suitability: Option<f64>,
-    /// Stems counted by size class, in the catalogue's class order (inventory columns or
-    /// polygon fields named after the classes); `None` when counted only as `stems` (the
-    /// catalogue's default mix applies).
+    /// Stems by size class, in catalogue class order (inventory columns or polygon fields named
+    /// after the classes); `None` when counted only as `stems` (the default mix applies).
     pub by_class: Option<Vec<f64>>,
 }
 
@@ -68,6 +67,8 @@ pub struct Patches {
     pub notes: Vec<String>,
     /// How an inventory's coordinates were converted into the work CRS, if they were.
     pub crs_conversion: Option<String>,
+    /// The inventory CRS's linear unit when not metres (feet): printed distances follow it.
+    pub input_linear_units: Option<String>,
     /// Whether the sites were checked against water layers.
     pub water_checked: bool,
     /// What kind of host input they came from: `raster`, `polygons` or `inventory`.
@@ -188,8 +189,7 @@ pub fn label_strips_within(
     Ok((blobs, dropped, max))
 }
 
-/// [`label_strips`] over a grid in memory and its parcel index (one entry per cell), in
-/// strips of `strip` rows.
+/// [`label_strips`] over a grid in memory and its parcel index (one per cell), `strip` rows.
 pub fn label_cells(
     grid: &Grid,
     parcel_index: &[u32],
@@ -213,9 +213,8 @@ pub fn label_cells(
     (blobs, dropped)
 }
 
-/// The polygons the outline of a component will have: its runs (in row-major order) joined
-/// where they share an edge, as the union in [`outline`] joins them (runs touching only at a
-/// corner stay apart).
+/// The polygons of a component's outline: its runs (row-major) joined where they share an
+/// edge, as the union in [`outline`] joins them (runs touching only at a corner stay apart).
 pub fn outline_pieces(runs: &[Run]) -> usize {
     fn find(parent: &mut [usize], mut i: usize) -> usize {
         while parent[i] != i {
@@ -655,6 +654,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
         skipped,
         notes: layers.notes.iter().cloned().chain(class_note).collect(),
         crs_conversion: layers.crs_conversion.clone(),
+        input_linear_units: layers.input_linear_units.clone(),
         water_checked: layers.water_checked,
         source,
         runs,
@@ -666,8 +666,7 @@ pub fn build(layers: &Layers, host: &HostSection, budget: &Budget, bars: Bars) -
 }
 
 /// Every patch position must convert to longitude and latitude (outputs carry both): a point
-/// outside the working CRS's domain (e.g. x = 1e300, a raster whose origin is off the globe) is
-/// refused, naming the patch.
+/// outside the working CRS's domain (x = 1e300, a raster off the globe) is refused, by name.
 fn check_positions(items: &[Patch], crs: &Crs, source: &str) -> Result<()> {
     let to_lonlat = gis::ToLonLat::new(crs)?;
     let points: Vec<(f64, f64)> = items.iter().map(|p| (p.x, p.y)).collect();

@@ -229,3 +229,81 @@ impl AreaUnit {
         }
     }
 }
+
+/// Metres in one international foot: 0.3048 exactly (NIST Handbook 44, Appendix C); one mile is
+/// 5,280 feet, 1,609.344 m. A US survey foot differs by 2 parts per million, far below what a
+/// printed walk or drive shows.
+pub const METRES_PER_FOOT: f64 = 0.3048;
+pub const METRES_PER_MILE: f64 = 1609.344;
+
+/// The unit printed distances are shown in: metres and kilometres, or feet and miles when the
+/// inventory's CRS was in feet. Computed distances stay in metres and the CSV columns keep their
+/// metric units.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum DistanceUnit {
+    #[default]
+    Metric,
+    Feet,
+}
+
+impl DistanceUnit {
+    /// Feet and miles when `linear_units` (a CRS's unit name, e.g. `US survey foot`) is a foot.
+    pub fn of_input(linear_units: Option<&str>) -> DistanceUnit {
+        match linear_units {
+            Some(u) if u.to_ascii_lowercase().contains("foot") || u.contains("feet") => {
+                DistanceUnit::Feet
+            }
+            _ => DistanceUnit::Metric,
+        }
+    }
+
+    /// A short distance (a walk), given in metres: `850 m` or `2,789 ft`.
+    pub fn short(self, metres: f64) -> String {
+        match self {
+            DistanceUnit::Metric => format!("{} m", thousands(metres)),
+            DistanceUnit::Feet => format!("{} ft", thousands(metres / METRES_PER_FOOT)),
+        }
+    }
+
+    /// A drive, given in kilometres: `12.3 km` or `7.6 mi`.
+    pub fn long(self, km: f64) -> String {
+        match self {
+            DistanceUnit::Metric => format!("{} km", fixed(km, 1)),
+            DistanceUnit::Feet => format!("{} mi", fixed(km * 1000.0 / METRES_PER_MILE, 1)),
+        }
+    }
+
+    /// The long unit's symbol, for a table header: `km` or `mi`.
+    pub fn long_symbol(self) -> &'static str {
+        match self {
+            DistanceUnit::Metric => "km",
+            DistanceUnit::Feet => "mi",
+        }
+    }
+
+    /// The long unit's value, given in kilometres.
+    pub fn long_value(self, km: f64) -> f64 {
+        match self {
+            DistanceUnit::Metric => km,
+            DistanceUnit::Feet => km * 1000.0 / METRES_PER_MILE,
+        }
+    }
+}
+
+#[cfg(test)]
+mod distance_tests {
+    use super::*;
+
+    #[test]
+    fn feet_and_miles_from_metres() {
+        // 1 mile = 1.609344 km and 1 ft = 0.3048 m exactly (NIST Handbook 44, Appendix C).
+        assert_eq!(DistanceUnit::Feet.long(1.609344), "1.0 mi");
+        assert_eq!(DistanceUnit::Feet.short(304.8), "1,000 ft");
+        assert_eq!(DistanceUnit::Metric.long(12.34), "12.3 km");
+        assert_eq!(
+            DistanceUnit::of_input(Some("US survey foot")),
+            DistanceUnit::Feet
+        );
+        assert_eq!(DistanceUnit::of_input(None), DistanceUnit::Metric);
+    }
+}

@@ -375,6 +375,7 @@ pub fn summary(
         host_source: o.patches.source.to_string(),
         crs: o.patches.crs.name.clone(),
         crs_conversion: o.patches.crs_conversion.clone(),
+        input_linear_units: o.patches.input_linear_units.clone(),
         kernel: format!("{:?}", model.kernel).to_lowercase(),
         alpha_m: model.alpha_m,
         epsilon: model.epsilon,

@@ -192,6 +192,9 @@ pub struct Projected {
     /// What was converted, in words (for stderr and summary.json); `None` when the input was
     /// already the work CRS.
     pub note: Option<String>,
+    /// The input's linear unit when it was a projected CRS not in metres (e.g. `US survey
+    /// foot`): distances people read are printed in feet and miles for it.
+    pub linear_units: Option<String>,
 }
 
 /// Convert points given in `definition` (any CRS GDAL knows: projected in metres or feet, or
@@ -253,6 +256,7 @@ pub fn project_points(
                 crs: Crs::from_srs(&source, what)?,
                 points: points.to_vec(),
                 note: None,
+                linear_units: None,
             });
         }
         None if geographic => {
@@ -310,6 +314,7 @@ pub fn project_points(
         crs,
         points: xs.into_iter().zip(ys).collect(),
         note: Some(note),
+        linear_units: (!geographic && (units - 1.0).abs() > 1e-9).then_some(units_name),
     })
 }
 

@@ -3,7 +3,7 @@
 
 use std::collections::HashMap;
 
-use geo::{Geometry, MultiPolygon, Point};
+use geo::{Area, Geometry, MultiPolygon, Point};
 
 use crate::core::error::Result;
 use crate::field::contract;
@@ -43,11 +43,46 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         ("work_hours", Property::Number(0.0)),
         ("travel_model", Property::Text(String::new())),
     ];
+    // The strip of a split patch each crew-day works (patches with an outline only).
+    let part_fields = [
+        ("crew", Property::Integer(0)),
+        ("day", Property::Integer(0)),
+        ("date", Property::Text(String::new())),
+        ("stop", Property::Integer(0)),
+        ("patch_id", Property::Text(String::new())),
+        ("part", Property::Integer(0)),
+        ("parts", Property::Integer(0)),
+        ("method", Property::Text(String::new())),
+        ("stems", Property::Number(0.0)),
+        ("part_of", Property::Text(String::new())),
+        ("strip", Property::Text(String::new())),
+        ("area_m2", Property::Number(0.0)),
+    ];
     let mut stops = Vec::new();
     let mut routes = Vec::new();
+    let mut parts = Vec::new();
     for d in &ctx.schedule.days {
         let crew = d.crew.unwrap_or(0);
         for (k, s) in d.stops.iter().enumerate() {
+            if let Some(strip) = ctx.strips.get(&(s.patch_id.clone(), s.part)) {
+                parts.push((
+                    Geometry::MultiPolygon(strip.outline.clone()),
+                    vec![
+                        int(crew),
+                        int(d.day),
+                        text(&date_of(d)),
+                        int(k + 1),
+                        text(&s.patch_id),
+                        int(s.part),
+                        int(s.parts),
+                        text(&s.method),
+                        num(s.stems),
+                        text(&format!("{}/{}", s.part, s.parts)),
+                        text(&strip.words),
+                        num(round2(strip.outline.unsigned_area())),
+                    ],
+                ));
+            }
             stops.push((
                 Geometry::Point(Point::new(s.x, s.y)),
                 vec![
@@ -87,6 +122,9 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
     gj_fields.push(("stops", Property::Integer(0)));
     gj_fields.push(("work_hours", Property::Number(0.0)));
     gj_fields.push(("travel_model", Property::Text(String::new())));
+    // Parts of split patches (kind `part`): how many parts, and which strip in words.
+    gj_fields.push(("parts", Property::Integer(0)));
+    gj_fields.push(("strip", Property::Text(String::new())));
     let blank = |n: usize| -> Vec<Property> {
         (0..n)
             .map(|k| match &gj_fields[k].1 {
@@ -103,6 +141,8 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         v.push(Property::Integer(0));
         v.push(Property::Number(f64::NAN));
         v.push(text(ctx.schedule.travel_model));
+        v.push(Property::Integer(0));
+        v.push(text(""));
         features.push((g.clone(), v));
     }
     for (g, p) in &routes {
@@ -118,6 +158,22 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
         v[13] = p[3].clone();
         v[14] = p[6].clone();
         v[15] = p[7].clone();
+        features.push((g.clone(), v));
+    }
+    for (g, p) in &parts {
+        let mut v = blank(gj_fields.len());
+        v[0] = text("part");
+        // kind, crew, day, date, stop, patch_id, part, method, stems, est_hours, ...
+        v[1] = p[0].clone();
+        v[2] = p[1].clone();
+        v[3] = p[2].clone();
+        v[4] = p[3].clone();
+        v[5] = p[4].clone();
+        v[6] = p[9].clone();
+        v[7] = p[7].clone();
+        v[8] = p[8].clone();
+        v[16] = p[6].clone();
+        v[17] = p[10].clone();
         features.push((g.clone(), v));
     }
     let mut depot = blank(gj_fields.len());
@@ -228,6 +284,12 @@ pub(super) fn write_maps(ctx: &Orders, staging: &Staging) -> Result<()> {
                 geometry: GeometryKind::Point,
                 fields: &stop_fields,
                 features: stops,
+            },
+            LayerData {
+                name: "parts",
+                geometry: GeometryKind::MultiPolygon,
+                fields: &part_fields,
+                features: parts,
             },
             LayerData {
                 name: "routes",

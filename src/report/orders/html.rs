@@ -1,21 +1,18 @@
 //! report.html: a self-contained printable report — overview, budget curve, schedule at a glance,
 //! cautions, and one page per crew-day.
 
-use std::collections::{BTreeMap, BTreeSet};
 use std::fmt::Write as _;
 
 use crate::core::cautions;
 use crate::core::error::Result;
 use crate::field::contract;
-use crate::field::orders::{self, CrewDay};
 use crate::field::plan_folder::Summary;
-use crate::input::gis;
-use crate::input::treatments::MethodId;
 use crate::report::chart::escape;
 use crate::report::format::{money, thousands};
 
+use super::crewday::day_page;
 use super::explore::explorer;
-use super::svg::{context_legend, day_map, legend, overview_map};
+use super::svg::{context_legend, legend, overview_map};
 use super::{Orders, day_label};
 
 const CSS: &str = r#"
@@ -46,8 +43,15 @@ svg { display: block; }
 .siterules ul { margin: 2px 0 0 16px; padding: 0; }
 .sign { margin-top: 8px; }
 table.stops td { padding: 1px 3px; }
+.day table.stops { font-size: 8pt; table-layout: fixed; }
+.day table.stops td { overflow-wrap: anywhere; }
+.day table.stops .flag { font-size: 8pt; padding: 0 2px; margin: 0 0 2px 0; }
 table.stops td.nw { white-space: nowrap; }
-.day .cautions { columns: 2; column-gap: 14px; font-size: 7.5pt; }
+.day .cautions { columns: 2; column-gap: 14px; font-size: 7pt; }
+.day .cautions p { margin: 1px 0; }
+.day p.group { font-size: 8pt; margin: 2px 0; }
+.day .codes { white-space: nowrap; font-size: 7.5pt; }
+.day h2 { font-size: 12pt; margin: 0 0 3px 0; }
 .day h3 { margin: 5px 0 2px 0; }
 .day ul { margin: 2px 0; padding-left: 16px; }
 .details { border: 1px solid #999; padding: 3px 6px; margin: 3px 0; min-height: 1.4em; }
@@ -86,7 +90,9 @@ fn reduction_pct(summary: &Summary) -> f64 {
 /// Crew-days listed on the schedule page.
 const GLANCE: usize = 40;
 
-pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<String> {
+/// The report and the number of printed sheets its crew-days take (a dense day can take a
+/// continuation sheet).
+pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<(String, usize)> {
     let folder = ctx.folder;
     let s = &ctx.schedule;
     let o = &ctx.options;
@@ -127,7 +133,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     );
     let _ = write!(
         h,
-        "<p>The work is {} crew-day{} for {} crew{} working {} from {}{}: {:.1} hours of work and {:.1} hours of travel ({:.1} km, {}).{}</p>",
+        "<p>The work is {} crew-day{} for {} crew{} working {} from {}{}: {:.1} hours of work and {:.1} hours of travel ({}, {}).{}</p>",
         s.days.len(),
         if s.days.len() == 1 { "" } else { "s" },
         o.crews,
@@ -140,7 +146,8 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
         },
         s.days.iter().map(|d| d.work_hours()).sum::<f64>() + 0.0,
         s.days.iter().map(|d| d.travel_hours()).sum::<f64>() + 0.0,
-        s.days.iter().map(|d| d.travel_km()).sum::<f64>() + 0.0,
+        ctx.units
+            .long(s.days.iter().map(|d| d.travel_km()).sum::<f64>()),
         s.travel_model,
         if s.split_patches > 0 {
             format!(
@@ -177,14 +184,14 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     for f in &s.far_from_road {
         let _ = write!(
             h,
-            "<p class=\"warn\">Far from any road: {} is {:.0} m from the nearest road (more than {:.0} m). The walk is counted at walking speed; check how the crew gets in.</p>",
+            "<p class=\"warn\">Far from any road: {} is {} from the nearest road (more than {}). The walk is counted at walking speed; check how the crew gets in.</p>",
             if f.patch_id == "depot" {
                 "the depot".to_string()
             } else {
                 format!("patch {}", escape(&f.patch_id))
             },
-            f.walk_m,
-            f.max_walk_m
+            ctx.units.short(f.walk_m),
+            ctx.units.short(f.max_walk_m)
         );
     }
     if s.depot_is_default {
@@ -235,7 +242,8 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     // The schedule at a glance, one line per crew-day (the first GLANCE, so it stays one page).
     let _ = write!(
         h,
-        "<section class=\"page\" id=\"schedule\"><h2>Schedule at a glance</h2><table><tr><th>Crew-day</th><th>Patches</th><th>Stops</th><th>Work h</th><th>Travel h</th><th>Travel km</th></tr>"
+        "<section class=\"page\" id=\"schedule\"><h2>Schedule at a glance</h2><table><tr><th>Crew-day</th><th>Patches</th><th>Stops</th><th>Work h</th><th>Travel h</th><th>Travel {}</th></tr>",
+        ctx.units.long_symbol()
     );
     for d in s.days.iter().take(GLANCE) {
         let mut ids: Vec<&str> = d.stops.iter().map(|s| s.patch_id.as_str()).collect();
@@ -248,7 +256,7 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
             d.stops.len(),
             d.work_hours(),
             d.travel_hours(),
-            d.travel_km()
+            ctx.units.long_value(d.travel_km())
         );
     }
     if s.days.len() > GLANCE {
@@ -261,160 +269,10 @@ pub(super) fn report_html(ctx: &Orders, curve_svg: Option<&str>) -> Result<Strin
     h.push_str("</table></section>\n");
 
     // One page per crew-day, numbered as the overview map's labels name them (d1, d2, ...).
+    let mut sheets = 0;
     for (k, d) in s.days.iter().enumerate() {
-        day_page(ctx, d, k + 1, &mut h);
+        sheets += day_page(ctx, d, k + 1, &mut h);
     }
     h.push_str("</body></html>\n");
-    Ok(h)
-}
-
-/// The site's rules in large type above the method: a crew must not miss them.
-fn site_rule_flags(p: &crate::field::contract::PlannedPatch) -> String {
-    let mut flags = String::new();
-    if p.no_herbicide() {
-        flags.push_str("<div class=\"flag noherb\">NO HERBICIDE ON THIS SITE</div>");
-    }
-    if let Some(r) = p.restriction() {
-        let _ = write!(
-            flags,
-            "<div class=\"flag restricted\">RESTRICTED SITE: {}</div>",
-            escape(r.trim_start_matches("restricted site: "))
-        );
-    }
-    if let Some(w) = p.near_water() {
-        let _ = write!(
-            flags,
-            "<div class=\"flag water\">NEAR WATER: {}</div>",
-            escape(w.trim_start_matches("near water: "))
-        );
-    }
-    flags
-}
-
-fn day_page(ctx: &Orders, d: &CrewDay, sheet: usize, h: &mut String) {
-    let folder = ctx.folder;
-    let _ = write!(
-        h,
-        "<section class=\"page day\" id=\"d{sheet}\"><h2>d{sheet}: {}</h2>",
-        escape(&day_label(d))
-    );
-    let _ = write!(
-        h,
-        "<p>Leave the depot, {} stop{}, back to the depot: <b>{:.1} h work + {:.1} h travel = {:.1} h</b> of a {} h day; {:.1} km of driving ({}).</p>",
-        d.stops.len(),
-        if d.stops.len() == 1 { "" } else { "s" },
-        d.work_hours(),
-        d.travel_hours(),
-        d.hours(),
-        ctx.options.day_hours,
-        d.travel_km(),
-        ctx.schedule.travel_model
-    );
-    h.push_str(&day_map(ctx, d));
-    let ruled: Vec<String> = d
-        .stops
-        .iter()
-        .enumerate()
-        .filter_map(|(k, s)| {
-            let p = &folder.planned[s.row];
-            (!p.site_notes.is_empty() && p.access != "permission" || p.no_herbicide()).then(|| {
-                format!(
-                    "stop {} ({}): {}",
-                    k + 1,
-                    escape(&s.patch_id),
-                    escape(&p.site_notes)
-                )
-            })
-        })
-        .collect();
-    if !ruled.is_empty() {
-        let _ = write!(
-            h,
-            "<div class=\"siterules\"><b>Site rules today:</b><ul><li>{}</li></ul></div>",
-            ruled.join("</li><li>")
-        );
-    }
-    let to = gis::ToLonLat::new(&ctx.crs).ok();
-    h.push_str("<table class=\"stops\"><tr><th>#</th><th>Patch / parcel</th><th>What to do</th><th>Stems</th><th>Hours</th><th>Getting in</th><th>Lat, lon</th><th>Cautions</th><th>Done</th></tr>");
-    let mut codes: BTreeSet<String> = BTreeSet::new();
-    let mut methods: BTreeMap<String, (MethodId, orders::Instructions)> = BTreeMap::new();
-    for (k, s) in d.stops.iter().enumerate() {
-        let p = &folder.planned[s.row];
-        let ll = to
-            .as_ref()
-            .and_then(|t| t.points(&[(s.x, s.y)]).ok())
-            .map(|v| format!("{:.5}, {:.5}", v[0].1, v[0].0))
-            .unwrap_or_default();
-        for c in p.cautions.split(';').filter(|c| !c.is_empty()) {
-            codes.insert(c.to_string());
-        }
-        let ins = orders::instructions(folder, s, d.date);
-        // Every method of the stop's prescription gets its own line under "How".
-        for m in p.methods_used() {
-            methods
-                .entry(folder.catalogue.method(m).id.clone())
-                .or_insert((m, ins.clone()));
-        }
-        let getting_in = match (p.access.as_str(), p.contact.is_empty()) {
-            ("permission", false) => format!("permission first: call {} before entry", p.contact),
-            ("permission", true) => "permission first".to_string(),
-            (a, false) => format!("{a}; {}", p.contact),
-            (a, true) => a.to_string(),
-        };
-        let _ = write!(
-            h,
-            "<tr><td class=\"n\">{}</td><td class=\"nw\">{}{}{}</td><td class=\"nw\">{}{}</td><td class=\"n\">{:.0}</td><td class=\"n\">{:.1}</td><td>{}</td><td class=\"small nw\">{}</td><td class=\"small\">{}</td><td>&#9744;</td></tr>",
-            k + 1,
-            escape(&s.patch_id),
-            if s.parts > 1 {
-                format!(" ({}/{})", s.part, s.parts)
-            } else {
-                String::new()
-            },
-            if p.parcel.is_empty() {
-                String::new()
-            } else {
-                format!(" &middot; {}", escape(&p.parcel))
-            },
-            site_rule_flags(p),
-            if s.prescription.is_empty() {
-                escape(&s.method.replace('_', " "))
-            } else {
-                escape(&s.prescription)
-            },
-            s.stems,
-            s.work_hours,
-            escape(&getting_in),
-            ll,
-            escape(&p.cautions.replace(';', " "))
-        );
-    }
-    h.push_str("</table>");
-    h.push_str("<h3>How</h3><ul class=\"small\">");
-    for (method_id, ins) in methods.values() {
-        let method = folder.catalogue.method(*method_id);
-        let mut line = escape(&method.label);
-        if method.herbicide {
-            line.push_str(". <b>Apply per the product label.</b>");
-        }
-        // The method's own cautions, when the day's stops use more than one method.
-        if methods.len() > 1 && !method.cautions.is_empty() {
-            let _ = write!(line, " Cautions: {}.", escape(&method.cautions.join(" ")));
-        }
-        if let Some(f) = ins.fell_after {
-            let _ = write!(line, " Do not fell treated stems before {f}.");
-        }
-        if let Some(f) = &ins.follow_up {
-            let _ = write!(line, " Follow-up visit from {}.", escape(f));
-        }
-        let _ = write!(h, "<li>{line}</li>");
-    }
-    h.push_str("</ul><h3>Cautions at these sites</h3><div class=\"cautions small\">");
-    for code in &codes {
-        if let Some(c) = cautions::lookup(code) {
-            let _ = write!(h, "<p><b>[{}]</b> {}</p>", escape(c.code), escape(c.text));
-        }
-    }
-    h.push_str("<p>Defer to local codes and licensed practice.</p></div>");
-    h.push_str("<p class=\"sign small\">Crew lead: ____________________ &nbsp; Date: __________ &nbsp; Applicator licence no.: ______________</p></section>\n");
+    Ok((h, sheets))
 }

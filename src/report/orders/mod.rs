@@ -9,6 +9,7 @@
 //! Coordinates in the plan's working CRS (metres), lon/lat in WGS 84; hours as decimal hours;
 //! money through [`crate::report::format`].
 
+mod crewday;
 mod csv;
 mod explore;
 mod gpkg;
@@ -17,7 +18,7 @@ mod labels;
 mod styles;
 mod svg;
 
-use std::collections::HashMap;
+use std::collections::{BTreeMap, HashMap};
 
 use geo::{Geometry, LineString};
 use serde::Serialize;
@@ -27,9 +28,11 @@ use crate::core::error::{Error, Result};
 use crate::field::context::Context;
 use crate::field::contract::{self, PlanFolder};
 use crate::field::orders::{CrewDay, Options, Schedule};
+use crate::field::parts::{self, Strip};
 use crate::field::travel::TravelModel;
 use crate::input::gis::{self, Crs};
 use crate::input::roads::FieldSource;
+use crate::report::format::DistanceUnit;
 use crate::report::output::Staging;
 
 /// Colour-blind-safe colours for methods, in catalogue order (Okabe & Ito 2008 palette).
@@ -112,6 +115,8 @@ pub struct OrdersJson {
     /// The depot and stands farther from a road than the walk limit (scheduled, walk counted).
     pub far_from_road: Vec<FarJson>,
     pub report_overview_pages: usize,
+    /// Printed sheets of the crew-days: one each, plus a continuation sheet for a day whose
+    /// page would not fit (its work by method and cautions go on the next sheet).
     pub report_crew_day_pages: usize,
 }
 
@@ -125,6 +130,11 @@ pub struct Orders<'a> {
     pub outlines: HashMap<String, Geometry<f64>>,
     /// Parcels, water, sensitive sites and corridors the plan used, drawn under the overview.
     pub context: Context,
+    /// The strip of a split patch each part works, by (patch id, part); none for a patch
+    /// without an outline (given as a point).
+    pub strips: HashMap<(String, usize), Strip>,
+    /// Distances people read: feet and miles when the inventory's CRS was in feet.
+    pub units: DistanceUnit,
     colours: HashMap<String, &'static str>,
 }
 
@@ -144,6 +154,7 @@ impl<'a> Orders<'a> {
             .enumerate()
             .map(|(k, m)| (m.id.clone(), METHOD_COLOURS[k % METHOD_COLOURS.len()]))
             .collect();
+        let strips = strips_of(&schedule, &outlines);
         Orders {
             folder,
             crs,
@@ -152,9 +163,42 @@ impl<'a> Orders<'a> {
             travel,
             outlines,
             context: Context::default(),
+            strips,
+            units: DistanceUnit::of_input(folder.summary.input_linear_units.as_deref()),
             colours,
         }
     }
+}
+
+/// Each split patch cut into one strip per part, in proportion to the part's work hours, the
+/// first part at the end nearest the depot.
+fn strips_of(
+    schedule: &Schedule,
+    outlines: &HashMap<String, Geometry<f64>>,
+) -> HashMap<(String, usize), Strip> {
+    let mut work: BTreeMap<&str, Vec<(usize, f64)>> = BTreeMap::new();
+    for s in schedule.days.iter().flat_map(|d| &d.stops) {
+        if s.parts > 1 {
+            work.entry(&s.patch_id)
+                .or_default()
+                .push((s.part, s.work_hours));
+        }
+    }
+    let mut out = HashMap::new();
+    for (id, mut parts) in work {
+        parts.sort_by_key(|p| p.0);
+        let shares: Vec<f64> = parts.iter().map(|p| p.1).collect();
+        let Some(strips) = outlines
+            .get(id)
+            .and_then(|g| parts::cut(g, &shares, schedule.depot))
+        else {
+            continue;
+        };
+        for ((part, _), strip) in parts.iter().zip(strips) {
+            out.insert((id.to_string(), *part), strip);
+        }
+    }
+    out
 }
 
 /// Writes orders.csv, orders.geojson, orders.gpkg, report.html, cautions.txt and orders.json into
@@ -165,7 +209,7 @@ pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result
     gpkg::write_maps(ctx, staging)?;
     // Overview, schedule at a glance, cautions, and the budget curve when there is one.
     let overview_pages = 3 + usize::from(curve_svg.is_some());
-    let report = html::report_html(ctx, curve_svg)?;
+    let (report, day_sheets) = html::report_html(ctx, curve_svg)?;
     staging.write("report.html", report)?;
     staging.write("cautions.txt", cautions::standing_text())?;
     let s = &ctx.schedule;
@@ -230,7 +274,7 @@ pub fn write(ctx: &Orders, staging: &Staging, curve_svg: Option<&str>) -> Result
             .collect(),
         work_hours: round2(s.days.iter().map(|d| d.work_hours()).sum()),
         report_overview_pages: overview_pages,
-        report_crew_day_pages: s.days.len(),
+        report_crew_day_pages: day_sheets,
     };
     let json = serde_json::to_string_pretty(&summary)
         .map_err(|e| Error::Internal(format!("orders.json: {e}")))?;

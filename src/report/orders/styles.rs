@@ -151,7 +151,25 @@ pub(super) fn layer_styles(
         &line(crew_colour(None)),
     ));
     let routes = document("routes", "Day routes by crew", &rules);
+    let parts = document(
+        "parts",
+        "Parts of split patches, one strip per crew-day",
+        &rule(
+            "part",
+            "",
+            &format!(
+                "{}{}",
+                symbolizer(true, "#9ecae1", "#000000", 1.2),
+                label("part_of", "#111111")
+            ),
+        ),
+    );
     vec![
+        (
+            "parts",
+            "Parts of split patches, one strip per crew-day".into(),
+            parts,
+        ),
         (
             "patches",
             "Patches by plan status and method".into(),

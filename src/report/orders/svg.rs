@@ -377,6 +377,18 @@ fn roads_in(ctx: &Orders, f: &Frame) -> String {
     svg
 }
 
+/// The map's height on a day of `stops` stops, in CSS pixels: smaller on dense days so the
+/// page holds the table (common practice for a field sheet: the table matters more than the
+/// map once the stops are many).
+pub(super) fn map_height(stops: usize) -> f64 {
+    match stops {
+        0..=3 => 210.0,
+        4..=6 => 190.0,
+        7..=9 => 165.0,
+        _ => 140.0,
+    }
+}
+
 pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
     let depot = ctx.schedule.depot;
     let geoms: Vec<&Geometry<f64>> = d
@@ -391,18 +403,38 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
     let Some(b) = map::bounds(&geoms, &points) else {
         return String::new();
     };
-    let f = Frame::fit(b, 720.0, 210.0, 300.0);
+    let f = Frame::fit(b, 720.0, map_height(d.stops.len()), 300.0);
     let mut svg = format!(
         r##"<svg xmlns="http://www.w3.org/2000/svg" width="{:.0}" height="{:.0}" viewBox="0 0 {:.0} {:.0}" role="img" aria-label="route map"><rect width="100%" height="100%" fill="#fafafa" stroke="#666"/>"##,
         f.width, f.height, f.width, f.height
     );
     svg.push_str(&roads_in(ctx, &f));
-    for g in &geoms {
-        let _ = write!(
-            svg,
-            r##"<path d="{}" fill="#9ecae1" stroke="#333" stroke-width="0.6"/>"##,
-            f.path(g)
-        );
+    // A whole patch in blue; of a split patch, today's strip in blue and the rest faint.
+    for s in &d.stops {
+        let Some(g) = ctx.outlines.get(&s.patch_id) else {
+            continue;
+        };
+        match ctx.strips.get(&(s.patch_id.clone(), s.part)) {
+            Some(strip) => {
+                let _ = write!(
+                    svg,
+                    r##"<path d="{}" fill="#eef3f7" stroke="#999" stroke-width="0.5" stroke-dasharray="3,2"/><path d="{}" fill="#9ecae1" stroke="#000" stroke-width="1.2" class="part"><title>{} part {} of {}: {}</title></path>"##,
+                    f.path(g),
+                    f.path(&Geometry::MultiPolygon(strip.outline.clone())),
+                    escape(&s.patch_id),
+                    s.part,
+                    s.parts,
+                    escape(&strip.words)
+                );
+            }
+            None => {
+                let _ = write!(
+                    svg,
+                    r##"<path d="{}" fill="#9ecae1" stroke="#333" stroke-width="0.6"/>"##,
+                    f.path(g)
+                );
+            }
+        }
     }
     let line: Vec<String> = route_line(d)
         .0
@@ -450,7 +482,14 @@ pub(super) fn day_map(ctx: &Orders, d: &CrewDay) -> String {
     let texts: Vec<String> = d
         .stops
         .iter()
-        .map(|s| format!("{} #{}", s.patch_id, ctx.folder.planned[s.row].priority))
+        .map(|s| {
+            let prio = ctx.folder.planned[s.row].priority;
+            if s.parts > 1 {
+                format!("{} #{prio} part {}/{}", s.patch_id, s.part, s.parts)
+            } else {
+                format!("{} #{prio}", s.patch_id)
+            }
+        })
         .collect();
     let wanted: Vec<Wanted> = d
         .stops
