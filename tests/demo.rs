@@ -32,6 +32,15 @@ fn demo_writes_a_full_plan_folder_at_least_as_good_as_greedy() {
         assert!(out.join(f).exists(), "{f} missing");
     }
     let s = summary(&out);
+    // The stems a reader adds up in plan.csv (whole stems per patch) are the total stated
+    // (the raster's patches hold fractional stems; the total once read 10,445 over rows
+    // summing to 10,444).
+    let plan_stems: f64 = Table::read(&out.join("plan.csv"))
+        .rows
+        .iter()
+        .map(|r| r.num("stems"))
+        .sum();
+    assert_eq!(s["stems_treated"].as_f64().unwrap(), plan_stems);
     let after = s["risk_after"].as_f64().unwrap();
     let greedy = s["greedy_risk_after"].as_f64().unwrap();
     assert!(

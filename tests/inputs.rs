@@ -448,3 +448,57 @@ fn outlines_and_corridor_names_are_carried_into_next_seasons_inventory() {
         s1.num("area_ha")
     );
 }
+
+/// A size-class column one letter off (`saplngs`) was read as a column of the user's own and
+/// its stems vanished from the plan without a word; it is refused with the likely name. Columns
+/// of the user's own far from every name hostcut reads (`notes`, `species`) are still accepted.
+#[test]
+fn a_misspelt_size_class_column_is_refused_with_the_likely_name() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(
+        d,
+        "typo.csv",
+        "id,x,y,seedlings,saplngs,trees\nA,500000,4480000,100,50,5\nB,500300,4480100,80,40,2\n",
+    );
+    let o = run(
+        d,
+        &[
+            "plan",
+            "--inventory",
+            "typo.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "3000",
+            "--out",
+            "t",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("column `saplngs` is not one hostcut reads; did you mean `saplings`?"),
+        "{}",
+        stderr(&o)
+    );
+    write(
+        d,
+        "own.csv",
+        "id,x,y,seedlings,saplings,trees,notes,species\nA,500000,4480000,100,50,5,by the fence,ailanthus\nB,500300,4480100,80,40,2,,ailanthus\n",
+    );
+    let o = run(
+        d,
+        &[
+            "plan",
+            "--inventory",
+            "own.csv",
+            "--crs",
+            "EPSG:32618",
+            "--budget",
+            "3000",
+            "--out",
+            "o",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+}

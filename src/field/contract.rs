@@ -397,27 +397,40 @@ pub fn check_completion(folder: &PlanFolder, path: &Path, extra: ExtraStems) -> 
             }
         }
         let method = folder.catalogue.method(method_id);
+        // Every method the work applied: the planned prescription's (trees injected, seedlings
+        // pulled: plan.csv's `method` names only the one on most stems), or the substitute.
+        let applied: Vec<MethodId> = if substituted {
+            vec![method_id]
+        } else {
+            plan.methods_used()
+        };
+        let herbicide = applied
+            .iter()
+            .any(|&m| folder.catalogue.method(m).herbicide);
         match parse_date(&row.date) {
             None => problems.push(format!(
                 "line {line}: date `{}` is not a date like 2027-08-15",
                 row.date
             )),
             Some(date) => {
-                if !method.months.contains(&date.1) {
-                    problems.push(format!(
-                        "line {line}: {} is outside the season window for `{}` ({})",
-                        row.date,
-                        method.id,
-                        window(&method.months)
-                    ));
+                for &m in &applied {
+                    let m = folder.catalogue.method(m);
+                    if !m.months.contains(&date.1) {
+                        problems.push(format!(
+                            "line {line}: {} is outside the season window for `{}` ({})",
+                            row.date,
+                            m.id,
+                            window(&m.months)
+                        ));
+                    }
                 }
-                if method.herbicide && row.applicator_licence.trim().is_empty() {
+                if herbicide && row.applicator_licence.trim().is_empty() {
                     problems.push(format!(
                         "line {line}: herbicide work on `{}` needs the applicator's licence number",
                         row.patch_id
                     ));
                 }
-                if method.herbicide && row.product_active_ingredient.trim().is_empty() {
+                if herbicide && row.product_active_ingredient.trim().is_empty() {
                     problems.push(format!(
                         "line {line}: herbicide work on `{}` needs the product's active ingredient",
                         row.patch_id
@@ -508,6 +521,11 @@ pub fn season<'a>(
 ) -> Season<'a> {
     let done = &completion.done;
     let by_patch: HashMap<&str, &Done> = done.iter().map(|d| (d.patch_id.as_str(), d)).collect();
+    let planned: HashMap<&str, &PlannedPatch> = folder
+        .planned
+        .iter()
+        .map(|p| (p.patch_id.as_str(), p))
+        .collect();
     let (mut treated_stems, mut removed_stems) = (0.0, 0.0);
     let mut next = Vec::new();
     for p in &folder.patches {
@@ -516,7 +534,27 @@ pub fn season<'a>(
                 // The method actually used (an eligible substitute counts at its own
                 // effectiveness); a crew count above the estimate replaces it.
                 let method = folder.catalogue.method(d.method_id);
-                let removed = d.treated_stems * method.effectiveness;
+                // As planned with size classes: each class at its own method's effectiveness,
+                // a class left untouched, in proportion to the share of the planned stems the
+                // crew reports worked. A substitute counts on every stem at its own.
+                let removed = match planned.get(p.patch_id.as_str()) {
+                    Some(pl)
+                        if d.substituted_for.is_none()
+                            && !pl.classes.is_empty()
+                            && pl.stems > 0.0 =>
+                    {
+                        let full: f64 = pl
+                            .classes
+                            .iter()
+                            .filter_map(|c| {
+                                c.method
+                                    .map(|m| c.stems * folder.catalogue.method(m).effectiveness)
+                            })
+                            .sum();
+                        full * d.treated_stems / pl.stems
+                    }
+                    _ => d.treated_stems * method.effectiveness,
+                };
                 treated_stems += d.treated_stems;
                 removed_stems += removed;
                 (

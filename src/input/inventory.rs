@@ -76,6 +76,47 @@ pub fn parse_inventory_with(bytes: &[u8], origin: &str, classes: &[String]) -> R
         .enumerate()
         .filter_map(|(k, id)| column(&id.to_ascii_lowercase()).map(|c| (k, c)))
         .collect();
+    // A column one or two letters off a size class or a known column (`saplngs`) is a typo,
+    // not an extra column: read as unknown, its stems would vanish without a word.
+    const KNOWN: [&str; 13] = [
+        "id",
+        "x",
+        "y",
+        "stems",
+        "access",
+        "herbicide",
+        "cost_factor",
+        "pressure",
+        "area_ha",
+        "suitability",
+        "parcel",
+        "contact",
+        "outline",
+    ];
+    let wanted: Vec<String> = KNOWN
+        .iter()
+        .map(|k| k.to_string())
+        .chain(classes.iter().map(|c| c.to_ascii_lowercase()))
+        .collect();
+    for h in &headers {
+        if h.len() < 4 || wanted.contains(h) {
+            continue;
+        }
+        if let Some(near) = wanted
+            .iter()
+            .find(|w| w.len() >= 4 && edit_distance(h, w) <= 2)
+        {
+            return Err(Error::input_with_hint(
+                format!(
+                    "inventory `{file}`: column `{h}` is not one hostcut reads; did you mean `{near}`?"
+                ),
+                format!(
+                    "rename the column `{near}` (size classes: {}), or give it a name further from it if it is a column of your own",
+                    classes.join(", ")
+                ),
+            ));
+        }
+    }
     let mut missing = Vec::new();
     for name in ["id", "x", "y", "stems"] {
         if name == "stems" && !class_columns.is_empty() {
@@ -305,4 +346,22 @@ pub fn parse_inventory_with(bytes: &[u8], origin: &str, classes: &[String]) -> R
         ));
     }
     Ok(stands)
+}
+
+/// Levenshtein distance between two short strings (column names).
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut diagonal = row[0];
+        row[0] = i + 1;
+        for (j, &cb) in b.iter().enumerate() {
+            let above = row[j + 1];
+            row[j + 1] = (diagonal + usize::from(ca != cb))
+                .min(above + 1)
+                .min(row[j] + 1);
+            diagonal = above;
+        }
+    }
+    row[b.len()]
 }

@@ -331,10 +331,11 @@ pub fn summary(
 ) -> Summary {
     let plan = o.plan;
     let finite = |v: f64| if v.is_finite() { Some(v) } else { None };
+    // Whole stems per patch, as plan.csv prints them, so the total is their sum.
     let stems_treated = plan
         .rows
         .iter()
-        .map(|r| o.patches.items[r.patch.index()].stems)
+        .map(|r| o.patches.items[r.patch.index()].stems.round())
         .sum();
     Summary {
         currency: o.catalogue.currency.clone(),

@@ -362,9 +362,10 @@ fn fill_totals(prepared: &Prepared, point: &mut Point, crew_hours: Option<f64>) 
         .filter(|&i| point.assignment[i].is_some())
         .collect();
     point.n_treated = treated.len();
+    // Whole stems per patch (as plan.csv), so the total is the sum a reader can check.
     point.stems_treated = treated
         .iter()
-        .map(|&i| prepared.patches.items[i].stems)
+        .map(|&i| prepared.patches.items[i].stems.round())
         .sum();
     point.area_ha_treated = treated
         .iter()
